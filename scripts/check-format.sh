@@ -1,0 +1,11 @@
+#!/usr/bin/env bash
+# Fails if any C++ source differs from .clang-format; `--fix` rewrites them in place.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+mapfile -t files < <(git ls-files '*.cpp' '*.hpp' '*.hpp.in')
+if [ "${1:-}" = "--fix" ]; then
+  clang-format -i "${files[@]}"
+else
+  clang-format --dry-run --Werror "${files[@]}"
+  echo "check-format: ${#files[@]} files formatted"
+fi

@@ -1,0 +1,20 @@
+#!/usr/bin/env bash
+# Installs what is missing, builds orderband and runs the whole test suite.
+#   bash scripts/run-tests.sh             release build in build/
+#   bash scripts/run-tests.sh --sanitize  AddressSanitizer + UndefinedBehaviorSanitizer build in build-sanitize/
+set -euo pipefail
+cd "$(dirname "$0")/.."
+bash scripts/install-deps.sh
+
+build_dir=build
+cmake_args=(-DCMAKE_BUILD_TYPE=Release)
+if [ "${1:-}" = "--sanitize" ]; then
+  build_dir=build-sanitize
+  cmake_args=(-DCMAKE_BUILD_TYPE=RelWithDebInfo -DORDERBAND_SANITIZE=ON -DORDERBAND_BUILD_BENCH=OFF)
+  export ASAN_OPTIONS=detect_leaks=1:abort_on_error=1
+  export UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
+fi
+
+cmake -S . -B "$build_dir" "${cmake_args[@]}"
+cmake --build "$build_dir" -j "$(nproc)"
+ctest --test-dir "$build_dir" --output-on-failure -j "$(nproc)"

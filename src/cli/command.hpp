@@ -1,0 +1,30 @@
+// The interface every command file implements, and helpers shared by the commands.
+#pragma once
+
+#include <CLI/CLI.hpp>
+#include <functional>
+#include <string>
+
+namespace orderband::cli {
+
+/// A command registers its options on its CLI11 subcommand and returns the
+/// function that runs it (returning the process exit code).
+using CommandSetup = std::function<std::function<int()>(CLI::App& sub)>;
+
+struct CommandEntry {
+  const char* name;
+  const char* description;
+  CommandSetup setup;
+};
+
+std::function<int()> setup_families(CLI::App& sub);
+
+/// The full command line, for provenance in every output.
+const std::string& command_line();
+void set_command_line(int argc, char** argv);
+
+/// Output format option shared by the commands that print tables.
+enum class TableFormat { text, csv, json };
+void add_format_option(CLI::App& sub, TableFormat& format);
+
+}  // namespace orderband::cli

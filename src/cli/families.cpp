@@ -1,0 +1,89 @@
+// `orderband families`: plane-family table of one or more phases, or of an ordered/disordered pair.
+#include <iostream>
+#include <memory>
+
+#include "command.hpp"
+#include "orderband/error.hpp"
+#include "orderband/family_table_io.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "orderband/version.hpp"
+
+namespace orderband::cli {
+
+std::function<int()> setup_families(CLI::App& sub) {
+  struct Options {
+    std::vector<std::string> cifs;
+    std::string pair_name;
+    std::string ordered, disordered;
+    double kv = 20.0;
+    double d_min = 0.8;
+    double threshold = 0.5;
+    TableFormat format = TableFormat::text;
+  };
+  auto o = std::make_shared<Options>();
+  sub.add_option("cif", o->cifs, "CIF files: one table per phase (without these, a pair is shown)");
+  sub.add_option("--pair", o->pair_name, "named pair from crystal-data/pairs.toml (ni, co, feal); default ni");
+  sub.add_option("--ordered", o->ordered, "CIF of the ordered phase of a pair (with --disordered)");
+  sub.add_option("--disordered", o->disordered, "CIF of the disordered phase of a pair (with --ordered)");
+  sub.add_option("--kv", o->kv, "accelerating voltage (kV)")->capture_default_str();
+  sub.add_option("--d-min", o->d_min, "smallest d-spacing listed (Å)")->capture_default_str();
+  sub.add_option("--threshold", o->threshold, "sensitivity at or above which a family counts as superlattice")
+      ->capture_default_str();
+  add_format_option(sub, o->format);
+  sub.footer(
+      "Without arguments: the shipped nickel-base pair (gamma-prime Ni3Al in gamma) at 20 kV.\n"
+      "Examples:\n  orderband families\n  orderband families --pair co --kv 15 --format csv\n"
+      "  orderband families crystal-data/ni-fcc.cif --d-min 1.0");
+
+  return [o]() {
+    if (!(o->kv > 0)) fail("--kv must be a positive voltage in kV, got ", o->kv);
+    if (!(o->d_min > 0)) fail("--d-min must be a positive d-spacing in Å, got ", o->d_min);
+    const bool explicit_pair = !o->ordered.empty() || !o->disordered.empty();
+    if (explicit_pair && (o->ordered.empty() || o->disordered.empty()))
+      fail("--ordered and --disordered go together: give both CIF files");
+    if ((explicit_pair || !o->pair_name.empty()) && !o->cifs.empty())
+      fail("give either CIF files (one table per phase) or a pair, not both");
+    if (explicit_pair && !o->pair_name.empty()) fail("give either --pair or --ordered/--disordered, not both");
+
+    TableProvenance prov{kVersion, command_line(), o->kv, o->d_min, o->threshold};
+    if (!o->cifs.empty()) {
+      std::vector<Phase> phases;
+      std::vector<std::vector<PhaseFamily>> tables;
+      for (const std::string& path : o->cifs) {
+        phases.push_back(load_phase_cif(path));
+        tables.push_back(phase_family_table(phases.back(), o->kv, o->d_min));
+      }
+      switch (o->format) {
+        case TableFormat::csv:
+          write_phase_families_csv(std::cout, phases, tables, prov);
+          break;
+        case TableFormat::json:
+          write_phase_families_json(std::cout, phases, tables, prov);
+          break;
+        case TableFormat::text:
+          for (size_t i = 0; i < phases.size(); ++i) {
+            if (i) std::cout << '\n';
+            write_phase_families_text(std::cout, phases[i], tables[i], prov);
+          }
+      }
+      return 0;
+    }
+    const OrderingPair pair = explicit_pair ? load_pair(o->ordered, o->disordered)
+                                            : load_named_pair(o->pair_name.empty() ? "ni" : o->pair_name);
+    const std::vector<PairFamily> rows = pair_family_table(pair, o->kv, o->d_min);
+    switch (o->format) {
+      case TableFormat::csv:
+        write_pair_families_csv(std::cout, rows, prov);
+        break;
+      case TableFormat::json:
+        write_pair_families_json(std::cout, pair, rows, prov);
+        break;
+      case TableFormat::text:
+        write_pair_families_text(std::cout, pair, rows, prov);
+        break;
+    }
+    return 0;
+  };
+}
+
+}  // namespace orderband::cli

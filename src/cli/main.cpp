@@ -1,0 +1,55 @@
+// orderband: the command-line program. Only wires the commands to CLI11.
+#include <CLI/CLI.hpp>
+#include <cstdio>
+#include <exception>
+#include <vector>
+
+#include "command.hpp"
+#include "orderband/error.hpp"
+#include "orderband/version.hpp"
+
+namespace orderband::cli {
+namespace {
+const std::vector<CommandEntry>& commands() {
+  static const std::vector<CommandEntry> table = {
+      {"families", "plane-family table of phases at a voltage: d, Bragg angle, |F|, superlattice sensitivity",
+       setup_families},
+  };
+  return table;
+}
+}  // namespace
+}  // namespace orderband::cli
+
+int main(int argc, char** argv) {
+  using namespace orderband::cli;
+  set_command_line(argc, argv);
+  CLI::App app{"orderband: ordered-phase (gamma-prime) fraction maps from Kikuchi patterns", "orderband"};
+  app.set_version_flag("--version", std::string("orderband ") + orderband::kVersion);
+  app.require_subcommand(1);
+  std::vector<std::pair<CLI::App*, std::function<int()>>> runners;
+  for (const CommandEntry& c : commands()) {
+    CLI::App* sub = app.add_subcommand(c.name, c.description);
+    runners.emplace_back(sub, c.setup(*sub));
+  }
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::Success& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    app.exit(e);
+    return 2;
+  }
+  for (auto& [sub, run] : runners) {
+    if (!sub->parsed()) continue;
+    try {
+      return run();
+    } catch (const orderband::Error& e) {
+      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), e.what());
+      return 1;
+    } catch (const std::exception& e) {
+      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), e.what());
+      return 1;
+    }
+  }
+  return 2;
+}

@@ -1,0 +1,172 @@
+// Plane-family tables as aligned text, CSV and JSON.
+#include "orderband/family_table_io.hpp"
+
+#include <cstdio>
+#include <nlohmann/json.hpp>
+
+#include "orderband/electron.hpp"
+#include "orderband/units.hpp"
+
+namespace orderband {
+namespace {
+
+std::string fmt(const char* f, double v) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, f, v);
+  return buf;
+}
+
+void provenance_lines(std::ostream& os, const TableProvenance& p) {
+  os << "# orderband " << p.version << ": " << p.command_line << "\n";
+  os << "# accelerating voltage " << fmt("%g", p.kilovolts) << " kV, electron wavelength "
+     << fmt("%.4f", electron_wavelength_A(p.kilovolts) * 100.0) << " pm, d >= " << fmt("%g", p.d_min_A) << " A\n";
+}
+
+std::string phase_line(const char* role, const Phase& ph) {
+  return std::string("# ") + role + ph.name + " (" + ph.space_group_hm + ", Laue class " + ph.laue_class +
+         ", a = " + fmt("%.4f", ph.cell.a_A) + " A) from " + ph.source + "\n";
+}
+
+nlohmann::json provenance_json(const TableProvenance& p) {
+  return {{"tool", "orderband"},
+          {"version", p.version},
+          {"command_line", p.command_line},
+          {"parameters",
+           {{"accelerating_voltage_kv", p.kilovolts},
+            {"d_min_A", p.d_min_A},
+            {"sensitivity_threshold", p.sensitivity_threshold},
+            {"electron_wavelength_pm", electron_wavelength_A(p.kilovolts) * 100.0}}}};
+}
+
+nlohmann::json phase_json(const Phase& ph) {
+  return {{"name", ph.name},
+          {"source", ph.source},
+          {"space_group", ph.space_group_hm},
+          {"laue_class", ph.laue_class},
+          {"a_A", ph.cell.a_A},
+          {"b_A", ph.cell.b_A},
+          {"c_A", ph.cell.c_A},
+          {"alpha_deg", ph.cell.alpha_deg},
+          {"beta_deg", ph.cell.beta_deg},
+          {"gamma_deg", ph.cell.gamma_deg}};
+}
+
+std::string role_of(const PairFamily& r, double threshold) {
+  return r.sensitivity >= threshold ? "superlattice" : "fundamental";
+}
+
+}  // namespace
+
+void write_pair_families_text(std::ostream& os, const OrderingPair& pair, const std::vector<PairFamily>& rows,
+                              const TableProvenance& prov) {
+  provenance_lines(os, prov);
+  os << "# pair " << pair.name << "\n"
+     << phase_line("ordered:    ", pair.ordered) << phase_line("disordered: ", pair.disordered);
+  os << "# sensitivity = (|F_ord|^2 - |F_dis|^2) / (|F_ord|^2 + |F_dis|^2); superlattice if >= "
+     << fmt("%g", prov.sensitivity_threshold) << "\n";
+  char line[256];
+  std::snprintf(line, sizeof line, "%-9s %4s  %9s %9s %9s  %9s %9s %9s  %11s  %s\n", "family", "mult", "d_ord/A",
+                "bragg/deg", "|F_ord|/A", "d_dis/A", "bragg/deg", "|F_dis|/A", "sensitivity", "role");
+  os << line;
+  for (const PairFamily& r : rows) {
+    std::snprintf(line, sizeof line, "%-9s %4d  %9.4f %9.3f %9.4f  %9.4f %9.3f %9.4f  %11.3f  %s\n",
+                  r.family.label().c_str(), r.family.multiplicity, r.d_ordered_A, rad_to_deg(r.bragg_ordered_rad),
+                  r.f_abs_ordered_A, r.d_disordered_A, rad_to_deg(r.bragg_disordered_rad), r.f_abs_disordered_A,
+                  r.sensitivity, role_of(r, prov.sensitivity_threshold).c_str());
+    os << line;
+  }
+}
+
+void write_pair_families_csv(std::ostream& os, const std::vector<PairFamily>& rows, const TableProvenance& prov) {
+  provenance_lines(os, prov);
+  os << "family,h,k,l,multiplicity,d_ordered_A,bragg_ordered_deg,f_abs_ordered_A,rel_intensity_ordered,"
+        "d_disordered_A,bragg_disordered_deg,f_abs_disordered_A,rel_intensity_disordered,sensitivity,role\n";
+  for (const PairFamily& r : rows) {
+    const auto& h = r.family.hkl;
+    os << '"' << r.family.label() << "\"," << h[0] << ',' << h[1] << ',' << h[2] << ',' << r.family.multiplicity << ','
+       << fmt("%.6f", r.d_ordered_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_ordered_rad)) << ','
+       << fmt("%.6f", r.f_abs_ordered_A) << ',' << fmt("%.6g", r.rel_intensity_ordered) << ','
+       << fmt("%.6f", r.d_disordered_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_disordered_rad)) << ','
+       << fmt("%.6f", r.f_abs_disordered_A) << ',' << fmt("%.6g", r.rel_intensity_disordered) << ','
+       << fmt("%.6f", r.sensitivity) << ',' << role_of(r, prov.sensitivity_threshold) << '\n';
+  }
+}
+
+void write_pair_families_json(std::ostream& os, const OrderingPair& pair, const std::vector<PairFamily>& rows,
+                              const TableProvenance& prov) {
+  nlohmann::json j = provenance_json(prov);
+  j["pair"] = {{"name", pair.name}, {"ordered", phase_json(pair.ordered)}, {"disordered", phase_json(pair.disordered)}};
+  nlohmann::json fams = nlohmann::json::array();
+  for (const PairFamily& r : rows) {
+    const auto& h = r.family.hkl;
+    fams.push_back({{"family", r.family.label()},
+                    {"hkl", {h[0], h[1], h[2]}},
+                    {"multiplicity", r.family.multiplicity},
+                    {"d_ordered_A", r.d_ordered_A},
+                    {"bragg_ordered_deg", rad_to_deg(r.bragg_ordered_rad)},
+                    {"f_abs_ordered_A", r.f_abs_ordered_A},
+                    {"rel_intensity_ordered", r.rel_intensity_ordered},
+                    {"d_disordered_A", r.d_disordered_A},
+                    {"bragg_disordered_deg", rad_to_deg(r.bragg_disordered_rad)},
+                    {"f_abs_disordered_A", r.f_abs_disordered_A},
+                    {"rel_intensity_disordered", r.rel_intensity_disordered},
+                    {"sensitivity", r.sensitivity},
+                    {"role", role_of(r, prov.sensitivity_threshold)}});
+  }
+  j["families"] = fams;
+  os << j.dump(2) << '\n';
+}
+
+void write_phase_families_text(std::ostream& os, const Phase& phase, const std::vector<PhaseFamily>& rows,
+                               const TableProvenance& prov) {
+  provenance_lines(os, prov);
+  os << phase_line("phase: ", phase);
+  char line[200];
+  std::snprintf(line, sizeof line, "%-9s %4s  %9s %9s %9s %13s\n", "family", "mult", "d/A", "bragg/deg", "|F|/A",
+                "rel_intensity");
+  os << line;
+  for (const PhaseFamily& r : rows) {
+    std::snprintf(line, sizeof line, "%-9s %4d  %9.4f %9.3f %9.4f %13.4f\n", r.family.label().c_str(),
+                  r.family.multiplicity, r.family.d_A, rad_to_deg(r.bragg_rad), r.f_abs_A, r.rel_intensity);
+    os << line;
+  }
+}
+
+void write_phase_families_csv(std::ostream& os, const std::vector<Phase>& phases,
+                              const std::vector<std::vector<PhaseFamily>>& tables, const TableProvenance& prov) {
+  provenance_lines(os, prov);
+  os << "phase,family,h,k,l,multiplicity,d_A,bragg_deg,f_abs_A,rel_intensity\n";
+  for (size_t p = 0; p < phases.size(); ++p)
+    for (const PhaseFamily& r : tables[p]) {
+      const auto& h = r.family.hkl;
+      os << phases[p].name << ",\"" << r.family.label() << "\"," << h[0] << ',' << h[1] << ',' << h[2] << ','
+         << r.family.multiplicity << ',' << fmt("%.6f", r.family.d_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_rad))
+         << ',' << fmt("%.6f", r.f_abs_A) << ',' << fmt("%.6g", r.rel_intensity) << '\n';
+    }
+}
+
+void write_phase_families_json(std::ostream& os, const std::vector<Phase>& phases,
+                               const std::vector<std::vector<PhaseFamily>>& tables, const TableProvenance& prov) {
+  nlohmann::json j = provenance_json(prov);
+  nlohmann::json arr = nlohmann::json::array();
+  for (size_t p = 0; p < phases.size(); ++p) {
+    nlohmann::json ph = phase_json(phases[p]);
+    nlohmann::json fams = nlohmann::json::array();
+    for (const PhaseFamily& r : tables[p]) {
+      const auto& h = r.family.hkl;
+      fams.push_back({{"family", r.family.label()},
+                      {"hkl", {h[0], h[1], h[2]}},
+                      {"multiplicity", r.family.multiplicity},
+                      {"d_A", r.family.d_A},
+                      {"bragg_deg", rad_to_deg(r.bragg_rad)},
+                      {"f_abs_A", r.f_abs_A},
+                      {"rel_intensity", r.rel_intensity}});
+    }
+    ph["families"] = fams;
+    arr.push_back(ph);
+  }
+  j["phases"] = arr;
+  os << j.dump(2) << '\n';
+}
+
+}  // namespace orderband
