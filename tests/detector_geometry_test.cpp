@@ -31,8 +31,7 @@ TEST(DetectorGeometry, PatternCentreMapsToMinusZD) {
   const DetectorGeometry g(spec(70, 7));
   EXPECT_NEAR((g.direction_detector({30.5, 20.5}).vec() - Eigen::Vector3d(0, 0, -1)).norm(), 0, 1e-15);
   // Pixel (30, 20) has its centre on the PC.
-  const Eigen::Vector3d minus_zd_in_sample =
-      g.sample_axes_in_lab().transpose() * (-g.detector_axes_in_lab().col(2));
+  const Eigen::Vector3d minus_zd_in_sample = g.sample_axes_in_lab().transpose() * (-g.detector_axes_in_lab().col(2));
   EXPECT_NEAR((g.pixel_direction(30, 20).vec() - minus_zd_in_sample).norm(), 0, 1e-15);
 }
 
@@ -58,10 +57,10 @@ TEST(DetectorGeometry, FramesByHand) {
 TEST(DetectorGeometry, PositiveDetectorTiltTurnsTheTopTowardTheSample) {
   const DetectorGeometry g(spec(70, 10));
   // y_D = R_x(θ_d) z_L = (0, −sin θ_d, cos θ_d): the top moves toward −y_L, the sample side.
-  EXPECT_NEAR((g.detector_axes_in_lab().col(1) - Eigen::Vector3d(0, -std::sin(deg_to_rad(10)),
-                                                                 std::cos(deg_to_rad(10))))
-                  .norm(),
-              0, 1e-15);
+  EXPECT_NEAR(
+      (g.detector_axes_in_lab().col(1) - Eigen::Vector3d(0, -std::sin(deg_to_rad(10)), std::cos(deg_to_rad(10))))
+          .norm(),
+      0, 1e-15);
 }
 
 TEST(DetectorGeometry, AnglesBetweenPixelsEqualPlanarGeometry) {
@@ -137,8 +136,8 @@ TEST(DetectorGeometry, BinningScalesPatternCentreAndDistance) {
   EXPECT_EQ(b.width(), 50);
   EXPECT_NEAR(b.spec().distance_px, 25, 1e-12);
   // The same physical direction: binned pixel (15, 10) centre = full-resolution point (31, 21).
-  EXPECT_NEAR((b.direction_sample({15.5, 10.5}).vec() - DetectorGeometry(s).direction_sample({31, 21}).vec()).norm(),
-              0, 1e-12);
+  EXPECT_NEAR((b.direction_sample({15.5, 10.5}).vec() - DetectorGeometry(s).direction_sample({31, 21}).vec()).norm(), 0,
+              1e-12);
   EXPECT_THROW(DetectorGeometry(s).binned(3), Error);  // 100 x 80 is not divisible by 3
 }
 
@@ -149,8 +148,8 @@ TEST(DetectorGeometry, RejectsImplausibleValues) {
     EXPECT_THROW(DetectorGeometry{s}, Error);
   };
   bad([](auto& s) { s.distance_px = 0; });
-  bad([](auto& s) { s.distance_px = 1; });        // screen would subtend ~180°
-  bad([](auto& s) { s.distance_px = 1e5; });      // screen would subtend ~0°
+  bad([](auto& s) { s.distance_px = 1; });    // screen would subtend ~180°
+  bad([](auto& s) { s.distance_px = 1e5; });  // screen would subtend ~0°
   bad([](auto& s) { s.pc_px = {500, 20}; });
   bad([](auto& s) { s.width_px = 0; });
   bad([](auto& s) { s.sample_tilt_deg = 120; });

@@ -49,8 +49,7 @@ DetectorGeometry::DetectorGeometry(const DetectorGeometrySpec& spec) : spec_(spe
 }
 
 DetectorDirection DetectorGeometry::direction_detector(const PixelPoint& p) const {
-  return DetectorDirection(
-      Eigen::Vector3d(p.x - spec_.pc_px.x(), spec_.pc_px.y() - p.y, -spec_.distance_px));
+  return DetectorDirection(Eigen::Vector3d(p.x - spec_.pc_px.x(), spec_.pc_px.y() - p.y, -spec_.distance_px));
 }
 
 SampleDirection DetectorGeometry::direction_sample(const PixelPoint& p) const {
@@ -88,8 +87,7 @@ std::vector<PixelPoint> DetectorGeometry::trace(const SampleDirection& plane_nor
   std::vector<PixelPoint> pts;
   for (int k = 0; k < samples; ++k) {
     const double t = 2 * kPi * k / samples;
-    const Eigen::Vector3d v =
-        std::sin(offset_rad) * n + std::cos(offset_rad) * (std::cos(t) * e1 + std::sin(t) * e2);
+    const Eigen::Vector3d v = std::sin(offset_rad) * n + std::cos(offset_rad) * (std::cos(t) * e1 + std::sin(t) * e2);
     if (const auto p = project(SampleDirection(v)))
       if (p->x >= 0 && p->x <= width() && p->y >= 0 && p->y <= height()) pts.push_back(*p);
   }
@@ -125,8 +123,8 @@ DetectorGeometry DetectorGeometry::at_beam_offset(double x_um, double y_um) cons
   const Eigen::Vector3d d = detector_in_lab_.transpose() * d_lab;
   DetectorGeometrySpec moved = spec_;
   moved.pc_px.x() += d.x();
-  moved.pc_px.y() -= d.y();      // image y runs down, y_D up
-  moved.distance_px += d.z();    // the screen lies along -z_D from the spot
+  moved.pc_px.y() -= d.y();    // image y runs down, y_D up
+  moved.distance_px += d.z();  // the screen lies along -z_D from the spot
   return DetectorGeometry(moved);
 }
 

@@ -1,0 +1,60 @@
+// Pattern sources: raw stacks, HDF5 datasets and image folders, read in chunks.
+#pragma once
+
+#include <cstddef>
+#include <memory>
+#include <string>
+
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+enum class PatternFormat { raw, hdf5, images };
+enum class SampleType { uint8, uint16, float32 };
+
+/// Where the patterns are and how they are stored. Paths are absolute (the
+/// scan description resolves relative paths against its own folder).
+struct PatternSourceSpec {
+  PatternFormat format = PatternFormat::raw;
+  std::string path;            ///< raw file, HDF5 file, or image folder
+  SampleType sample_type = SampleType::uint16;  ///< raw only: little-endian samples
+  size_t header_bytes = 0;     ///< raw only: bytes to skip at the start
+  int width_px = 0;            ///< raw: required; others: 0 = take from the data, else checked
+  int height_px = 0;
+  std::string dataset;         ///< HDF5: dataset path, shaped [points, h, w] or [rows, cols, h, w]
+  /// Images: file name with placeholders {index}, {row}, {col}, optionally
+  /// zero-padded as {index:05}; e.g. "p_{row:03}_{col:03}.png".
+  std::string name_pattern;
+};
+
+SampleType parse_sample_type(const std::string& name);  ///< "uint8", "uint16", "float32"
+const char* sample_type_name(SampleType t);
+
+/// A stream of patterns as float32, in scan order (row-major over the grid).
+/// Implementations read only the requested chunk: memory stays bounded by
+/// the chunk, whatever the scan size.
+class PatternSource {
+ public:
+  virtual ~PatternSource() = default;
+  size_t count() const { return count_; }
+  int width() const { return width_; }
+  int height() const { return height_; }
+  size_t pixels() const { return static_cast<size_t>(width_) * height_; }
+  /// One line describing the source, for messages and provenance.
+  virtual std::string describe() const = 0;
+  /// Reads patterns [first, first + n) into out (n · pixels() floats).
+  /// Throws orderband::Error naming the file and point for unreadable or
+  /// non-finite data.
+  virtual void read(size_t first, size_t n, float* out) = 0;
+
+ protected:
+  size_t count_ = 0;
+  int width_ = 0, height_ = 0;
+};
+
+/// Opens a source and checks it holds exactly grid.count() patterns
+/// (a shorter raw file, a dataset of the wrong rank or shape, missing image
+/// files are errors that name the file, the value and the fix).
+std::unique_ptr<PatternSource> open_pattern_source(const PatternSourceSpec& spec, const ScanGrid& grid);
+
+}  // namespace orderband

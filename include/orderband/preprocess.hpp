@@ -1,0 +1,112 @@
+// Pattern preprocessing: backgrounds, mask, hot pixels, normalisation, neighbour averaging.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "orderband/gaussian_blur.hpp"
+#include "orderband/pattern_source.hpp"
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+enum class StaticBackgroundKind { none, scan_mean, file };
+enum class MaskKind { none, circle, file };
+
+/// Preprocessing parameters; every default is documented in the README.
+struct PreprocessSpec {
+  StaticBackgroundKind static_background = StaticBackgroundKind::scan_mean;
+  std::string static_background_file;  ///< greyscale PNG/TIFF of the pattern size (kind = file)
+  /// σ of the dynamic-background Gaussian (px). Negative: 0.1 × pattern width.
+  /// 0: off.
+  double dynamic_background_sigma_px = -1;
+  MaskKind mask = MaskKind::circle;
+  double mask_radius_px = 0;     ///< circle radius; 0: inscribed circle, min(w, h)/2
+  std::string mask_file;         ///< greyscale PNG/TIFF, non-zero = used (kind = file)
+  bool hot_pixel_filter = false;
+  double hot_pixel_threshold = 8;  ///< replace a pixel deviating by more than this many MADs from its 3×3 median
+  /// Neighbour averaging in scan space: Gaussian weights exp(−d²/2σ²), d in
+  /// steps, over the point and its neighbours (8 on square grids, 6 on
+  /// hexagonal ones). 0: off.
+  double neighbour_sigma_steps = 0;
+};
+
+/// Per-pattern preprocessing, in this order:
+/// 1. hot-pixel filter (optional);
+/// 2. static background: divide by the background normalised to mean 1;
+/// 3. dynamic background: divide by the pattern's own Gaussian blur;
+/// 4. normalise inside the mask to zero mean and unit variance (0 outside).
+/// Division (not subtraction) because the smooth background multiplies the
+/// band contrast. A pattern with no variation inside the mask is unusable.
+class Preprocessor {
+ public:
+  /// `static_background` must have width·height values (ignored for kind none).
+  Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background = {});
+
+  /// In place. Returns false (and zeroes the pattern) if the pattern is unusable.
+  bool apply(float* pattern) const;
+
+  const std::vector<uint8_t>& mask() const { return mask_; }
+  size_t mask_count() const { return mask_count_; }
+  int width() const { return w_; }
+  int height() const { return h_; }
+  const PreprocessSpec& spec() const { return spec_; }
+  double dynamic_sigma_px() const { return blur_ ? blur_->sigma_px() : 0.0; }
+
+ private:
+  PreprocessSpec spec_;
+  int w_, h_;
+  std::vector<float> static_inv_;  ///< 1 / normalised static background
+  std::vector<uint8_t> mask_;
+  size_t mask_count_ = 0;
+  std::unique_ptr<GaussianBlur> blur_;
+};
+
+/// Replaces pixels deviating from their 3×3 median by more than
+/// `threshold` × 1.4826 × MAD (of the whole pattern's deviations) with the median.
+/// Returns the number of pixels replaced.
+size_t filter_hot_pixels(float* pattern, int width, int height, double threshold);
+
+/// Progress callback: (done, total) in points.
+using ProgressFn = std::function<void(size_t done, size_t total)>;
+
+/// Mean raw pattern of the whole scan, streamed in chunks of `chunk` points.
+std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk = 256, const ProgressFn& progress = {});
+
+/// Builds the preprocessor for a source: reads the static background file or
+/// computes the scan mean as the spec asks.
+Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const ProgressFn& progress = {});
+
+/// Neighbour averaging of one scan row. `rows[0..2]` are the preprocessed
+/// rows r−1, r, r+1 (nullptr outside the grid), each cols · pixels floats,
+/// with per-point usable flags. Unusable points take no part; the result is
+/// renormalised inside the mask. Writes row r into `out`.
+void neighbour_average_row(const ScanGrid& grid, double sigma_steps, int row, const float* const rows[3],
+                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels,
+                           float* out, uint8_t* out_usable);
+
+/// Streams preprocessed scan rows with bounded memory (three rows of
+/// patterns plus one output row), neighbour-averaged if the spec asks.
+class PreprocessedRows {
+ public:
+  PreprocessedRows(PatternSource& source, const ScanGrid& grid, const Preprocessor& pre);
+  /// Fills row `r` (cols · pixels floats) and its usable flags; rows must be
+  /// requested in order 0, 1, 2, … Returns false when all rows are done.
+  bool next(std::vector<float>& patterns, std::vector<uint8_t>& usable);
+  int next_row() const { return next_row_; }
+
+ private:
+  void load(int row, std::vector<float>& patterns, std::vector<uint8_t>& usable);
+  PatternSource& source_;
+  ScanGrid grid_;
+  const Preprocessor& pre_;
+  int next_row_ = 0;
+  std::vector<float> window_[3];
+  std::vector<uint8_t> window_usable_[3];
+  int window_rows_[3] = {-1, -1, -1};
+};
+
+}  // namespace orderband

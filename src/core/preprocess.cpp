@@ -1,0 +1,232 @@
+// Pattern preprocessing.
+#include "orderband/preprocess.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "orderband/error.hpp"
+#include "orderband/image_io.hpp"
+
+namespace orderband {
+
+size_t filter_hot_pixels(float* p, int w, int h, double threshold) {
+  const size_t n = static_cast<size_t>(w) * h;
+  std::vector<float> median(n), dev(n);
+  float nb[9];
+  for (int i = 0; i < h; ++i)
+    for (int j = 0; j < w; ++j) {
+      int k = 0;
+      for (int di = -1; di <= 1; ++di)
+        for (int dj = -1; dj <= 1; ++dj) {
+          const int ii = std::clamp(i + di, 0, h - 1), jj = std::clamp(j + dj, 0, w - 1);
+          nb[k++] = p[static_cast<size_t>(ii) * w + jj];
+        }
+      std::nth_element(nb, nb + 4, nb + 9);
+      const size_t q = static_cast<size_t>(i) * w + j;
+      median[q] = nb[4];
+      dev[q] = std::abs(p[q] - nb[4]);
+    }
+  std::vector<float> sorted = dev;
+  std::nth_element(sorted.begin(), sorted.begin() + n / 2, sorted.end());
+  const double mad = 1.4826 * sorted[n / 2];
+  if (!(mad > 0)) return 0;
+  size_t replaced = 0;
+  for (size_t q = 0; q < n; ++q)
+    if (dev[q] > threshold * mad) {
+      p[q] = median[q];
+      ++replaced;
+    }
+  return replaced;
+}
+
+Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background)
+    : spec_(spec), w_(width), h_(height) {
+  const size_t n = static_cast<size_t>(w_) * h_;
+  // Mask.
+  mask_.assign(n, 1);
+  if (spec.mask == MaskKind::circle) {
+    const double r = spec.mask_radius_px > 0 ? spec.mask_radius_px : 0.5 * std::min(w_, h_);
+    const double cx = 0.5 * w_, cy = 0.5 * h_;
+    for (int i = 0; i < h_; ++i)
+      for (int j = 0; j < w_; ++j)
+        mask_[static_cast<size_t>(i) * w_ + j] = std::hypot(j + 0.5 - cx, i + 0.5 - cy) <= r;
+  } else if (spec.mask == MaskKind::file) {
+    const GrayImage m = read_gray_image(spec.mask_file);
+    if (m.width != w_ || m.height != h_)
+      fail("mask '", spec.mask_file, "' is ", m.width, " x ", m.height, " px; patterns are ", w_, " x ", h_, " px");
+    for (size_t q = 0; q < n; ++q) mask_[q] = m.pixels[q] != 0;
+  }
+  mask_count_ = static_cast<size_t>(std::count(mask_.begin(), mask_.end(), 1));
+  if (mask_count_ < 16) fail("the pattern mask keeps only ", mask_count_, " pixels; enlarge it");
+  // Static background, normalised to mean 1 inside the mask.
+  if (spec.static_background != StaticBackgroundKind::none) {
+    if (static_background.size() != n) fail("static background has ", static_background.size(), " values, expected ", n);
+    double sum = 0;
+    for (size_t q = 0; q < n; ++q) sum += mask_[q] ? static_background[q] : 0.0;
+    const double mean = sum / mask_count_;
+    if (!(mean > 0)) fail("static background has no positive signal inside the mask");
+    static_inv_.resize(n);
+    for (size_t q = 0; q < n; ++q)
+      static_inv_[q] = static_cast<float>(1.0 / std::max(static_background[q] / mean, 1e-3));
+  }
+  double sigma = spec.dynamic_background_sigma_px;
+  if (sigma < 0) sigma = 0.1 * w_;
+  if (sigma > 0) blur_ = std::make_unique<GaussianBlur>(w_, h_, sigma);
+}
+
+bool Preprocessor::apply(float* p) const {
+  const size_t n = static_cast<size_t>(w_) * h_;
+  // A dead pattern (constant inside the mask) is unusable, whatever comes next.
+  float lo = INFINITY, hi = -INFINITY;
+  for (size_t q = 0; q < n; ++q)
+    if (mask_[q]) lo = std::min(lo, p[q]), hi = std::max(hi, p[q]);
+  if (!(hi > lo)) {
+    std::fill(p, p + n, 0.0f);
+    return false;
+  }
+  if (spec_.hot_pixel_filter) filter_hot_pixels(p, w_, h_, spec_.hot_pixel_threshold);
+  if (!static_inv_.empty())
+    for (size_t q = 0; q < n; ++q) p[q] *= static_inv_[q];
+  if (blur_) {
+    thread_local std::vector<float> smooth;
+    smooth.resize(n);
+    blur_->apply(p, smooth.data());
+    double mean = 0;
+    for (size_t q = 0; q < n; ++q) mean += smooth[q];
+    mean /= n;
+    const float floor = static_cast<float>(1e-3 * std::abs(mean));
+    for (size_t q = 0; q < n; ++q) p[q] /= std::max(smooth[q], floor);
+  }
+  double sum = 0, sum2 = 0;
+  for (size_t q = 0; q < n; ++q)
+    if (mask_[q]) sum += p[q], sum2 += double(p[q]) * p[q];
+  const double mean = sum / mask_count_;
+  const double var = sum2 / mask_count_ - mean * mean;
+  if (!(var > 1e-12 * std::max(1.0, mean * mean))) {
+    std::fill(p, p + n, 0.0f);
+    return false;
+  }
+  const double inv_sd = 1.0 / std::sqrt(var);
+  for (size_t q = 0; q < n; ++q) p[q] = mask_[q] ? static_cast<float>((p[q] - mean) * inv_sd) : 0.0f;
+  return true;
+}
+
+std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const ProgressFn& progress) {
+  const size_t px = source.pixels();
+  std::vector<double> sum(px, 0.0);
+  std::vector<float> buffer(chunk * px);
+  for (size_t first = 0; first < source.count(); first += chunk) {
+    const size_t n = std::min(chunk, source.count() - first);
+    source.read(first, n, buffer.data());
+    for (size_t k = 0; k < n; ++k)
+      for (size_t q = 0; q < px; ++q) sum[q] += buffer[k * px + q];
+    if (progress) progress(first + n, source.count());
+  }
+  std::vector<float> mean(px);
+  for (size_t q = 0; q < px; ++q) mean[q] = static_cast<float>(sum[q] / source.count());
+  return mean;
+}
+
+Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const ProgressFn& progress) {
+  std::vector<float> background;
+  if (spec.static_background == StaticBackgroundKind::scan_mean) {
+    background = scan_mean_pattern(source, 256, progress);
+  } else if (spec.static_background == StaticBackgroundKind::file) {
+    const GrayImage img = read_gray_image(spec.static_background_file);
+    if (img.width != source.width() || img.height != source.height())
+      fail("static background '", spec.static_background_file, "' is ", img.width, " x ", img.height,
+           " px; patterns are ", source.width(), " x ", source.height(), " px");
+    background.assign(img.pixels.begin(), img.pixels.end());
+  }
+  return Preprocessor(spec, source.width(), source.height(), std::move(background));
+}
+
+void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const float* const rows[3],
+                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels,
+                           float* out, uint8_t* out_usable) {
+#pragma omp parallel for schedule(static)
+  for (int col = 0; col < grid.cols; ++col) {
+    float* dst = out + static_cast<size_t>(col) * pixels;
+    out_usable[col] = usable[1][col];
+    if (!usable[1][col]) {
+      std::fill(dst, dst + pixels, 0.0f);
+      continue;
+    }
+    std::vector<std::pair<const float*, double>> terms{{rows[1] + static_cast<size_t>(col) * pixels, 1.0}};
+    const GridPoint self{row, col};
+    const Eigen::Vector2d here = grid.position_um(self);
+    for (const GridPoint& nb : grid.neighbours(self, 8)) {
+      const int k = nb.row - row + 1;
+      if (!rows[k] || !usable[k][nb.col]) continue;
+      const double d = (grid.position_um(nb) - here).norm() / grid.step_um;
+      terms.emplace_back(rows[k] + static_cast<size_t>(nb.col) * pixels, std::exp(-0.5 * d * d / (sigma * sigma)));
+    }
+    double sum = 0, sum2 = 0, wsum = 0;
+    for (const auto& t : terms) wsum += t.second;
+    size_t count = 0;
+    for (size_t q = 0; q < pixels; ++q) {
+      double v = 0;
+      for (const auto& t : terms) v += t.second * t.first[q];
+      v /= wsum;
+      dst[q] = static_cast<float>(v);
+      if (mask[q]) sum += v, sum2 += v * v, ++count;
+    }
+    const double mean = sum / count, var = sum2 / count - mean * mean;
+    const double inv_sd = var > 0 ? 1.0 / std::sqrt(var) : 0.0;
+    for (size_t q = 0; q < pixels; ++q) dst[q] = mask[q] ? static_cast<float>((dst[q] - mean) * inv_sd) : 0.0f;
+  }
+}
+
+PreprocessedRows::PreprocessedRows(PatternSource& source, const ScanGrid& grid, const Preprocessor& pre)
+    : source_(source), grid_(grid), pre_(pre) {}
+
+void PreprocessedRows::load(int row, std::vector<float>& patterns, std::vector<uint8_t>& usable) {
+  const size_t px = source_.pixels();
+  patterns.resize(static_cast<size_t>(grid_.cols) * px);
+  usable.resize(grid_.cols);
+  source_.read(static_cast<size_t>(row) * grid_.cols, grid_.cols, patterns.data());
+#pragma omp parallel for schedule(static)
+  for (int c = 0; c < grid_.cols; ++c) usable[c] = pre_.apply(patterns.data() + static_cast<size_t>(c) * px);
+}
+
+bool PreprocessedRows::next(std::vector<float>& patterns, std::vector<uint8_t>& usable) {
+  if (next_row_ >= grid_.rows) return false;
+  const int r = next_row_++;
+  if (pre_.spec().neighbour_sigma_steps <= 0) {
+    load(r, patterns, usable);
+    return true;
+  }
+  // Slide the three-row window to rows r−1, r, r+1.
+  for (int k = 0; k < 3; ++k) {
+    const int want = r - 1 + k;
+    if (want < 0 || want >= grid_.rows) {
+      window_rows_[k] = -1;
+      continue;
+    }
+    if (window_rows_[k] == want) continue;
+    int found = -1;
+    for (int m = 0; m < 3; ++m)
+      if (window_rows_[m] == want) found = m;
+    if (found >= 0) {
+      std::swap(window_[k], window_[found]);
+      std::swap(window_usable_[k], window_usable_[found]);
+      std::swap(window_rows_[k], window_rows_[found]);
+    } else {
+      load(want, window_[k], window_usable_[k]);
+      window_rows_[k] = want;
+    }
+  }
+  const float* rows[3];
+  const uint8_t* flags[3];
+  for (int k = 0; k < 3; ++k) {
+    rows[k] = window_rows_[k] >= 0 ? window_[k].data() : nullptr;
+    flags[k] = window_rows_[k] >= 0 ? window_usable_[k].data() : nullptr;
+  }
+  patterns.resize(static_cast<size_t>(grid_.cols) * source_.pixels());
+  usable.resize(grid_.cols);
+  neighbour_average_row(grid_, pre_.spec().neighbour_sigma_steps, r, rows, flags, pre_.mask(), source_.pixels(),
+                        patterns.data(), usable.data());
+  return true;
+}
+
+}  // namespace orderband

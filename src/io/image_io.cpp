@@ -1,0 +1,184 @@
+// PNG and TIFF reading and writing.
+#include "orderband/image_io.hpp"
+
+#include <png.h>
+#include <tiffio.h>
+
+#include <cstdio>
+#include <filesystem>
+#include <memory>
+
+#include "orderband/atomic_file.hpp"
+#include "orderband/error.hpp"
+
+namespace orderband {
+namespace {
+
+std::string lower_extension(const std::string& path) {
+  std::string ext = std::filesystem::path(path).extension().string();
+  for (char& c : ext) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+  return ext;
+}
+
+struct FileCloser {
+  void operator()(FILE* f) const {
+    if (f) std::fclose(f);
+  }
+};
+
+GrayImage read_png(const std::string& path) {
+  std::unique_ptr<FILE, FileCloser> f(std::fopen(path.c_str(), "rb"));
+  if (!f) fail("cannot read image '", path, "' (missing or unreadable)");
+  png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
+  png_infop info = png_create_info_struct(png);
+  GrayImage img;
+  std::vector<png_bytep> rows;
+  if (setjmp(png_jmpbuf(png))) {
+    png_destroy_read_struct(&png, &info, nullptr);
+    fail("'", path, "' is not a readable PNG file");
+  }
+  png_init_io(png, f.get());
+  png_read_info(png, info);
+  const int color = png_get_color_type(png, info), depth = png_get_bit_depth(png, info);
+  if (color != PNG_COLOR_TYPE_GRAY || (depth != 8 && depth != 16)) {
+    png_destroy_read_struct(&png, &info, nullptr);
+    fail("'", path, "' must be an 8- or 16-bit greyscale PNG (colour type ", color, ", ", depth, " bit)");
+  }
+  img.width = static_cast<int>(png_get_image_width(png, info));
+  img.height = static_cast<int>(png_get_image_height(png, info));
+  img.bits = depth;
+  if (depth == 16) png_set_swap(png);  // PNG stores big-endian; read as host order (little-endian)
+  png_read_update_info(png, info);
+  const size_t stride = png_get_rowbytes(png, info);
+  std::vector<uint8_t> buffer(stride * img.height);
+  rows.resize(img.height);
+  for (int i = 0; i < img.height; ++i) rows[i] = buffer.data() + i * stride;
+  png_read_image(png, rows.data());
+  png_destroy_read_struct(&png, &info, nullptr);
+  img.pixels.resize(static_cast<size_t>(img.width) * img.height);
+  for (int i = 0; i < img.height; ++i)
+    for (int j = 0; j < img.width; ++j) {
+      const uint8_t* row = rows[i];
+      img.pixels[static_cast<size_t>(i) * img.width + j] =
+          depth == 16 ? static_cast<uint16_t>(row[2 * j] | (row[2 * j + 1] << 8)) : row[j];
+    }
+  return img;
+}
+
+GrayImage read_tiff(const std::string& path) {
+  TIFFSetWarningHandler(nullptr);
+  TIFFSetErrorHandler(nullptr);
+  std::unique_ptr<TIFF, decltype(&TIFFClose)> tif(TIFFOpen(path.c_str(), "r"), &TIFFClose);
+  if (!tif) fail("cannot read TIFF image '", path, "' (missing, unreadable or not a TIFF file)");
+  uint32_t w = 0, h = 0;
+  uint16_t bits = 0, samples = 1, format = SAMPLEFORMAT_UINT;
+  TIFFGetField(tif.get(), TIFFTAG_IMAGEWIDTH, &w);
+  TIFFGetField(tif.get(), TIFFTAG_IMAGELENGTH, &h);
+  TIFFGetFieldDefaulted(tif.get(), TIFFTAG_BITSPERSAMPLE, &bits);
+  TIFFGetFieldDefaulted(tif.get(), TIFFTAG_SAMPLESPERPIXEL, &samples);
+  TIFFGetFieldDefaulted(tif.get(), TIFFTAG_SAMPLEFORMAT, &format);
+  if (samples != 1 || (bits != 8 && bits != 16) || format != SAMPLEFORMAT_UINT)
+    fail("'", path, "' must be an 8- or 16-bit unsigned greyscale TIFF (", samples, " samples, ", bits, " bit)");
+  GrayImage img;
+  img.width = static_cast<int>(w);
+  img.height = static_cast<int>(h);
+  img.bits = bits;
+  img.pixels.resize(static_cast<size_t>(w) * h);
+  std::vector<uint8_t> line(TIFFScanlineSize(tif.get()));
+  for (uint32_t i = 0; i < h; ++i) {
+    if (TIFFReadScanline(tif.get(), line.data(), i) < 0) fail("'", path, "': cannot read TIFF row ", i);
+    for (uint32_t j = 0; j < w; ++j)
+      img.pixels[static_cast<size_t>(i) * w + j] =
+          bits == 16 ? reinterpret_cast<const uint16_t*>(line.data())[j] : line[j];
+  }
+  return img;
+}
+
+void write_png(const std::string& path, int width, int height, int color_type, int depth,
+               const std::vector<std::vector<uint8_t>>& rows,
+               const std::vector<std::pair<std::string, std::string>>& text) {
+  write_atomically(path, [&](const std::string& temp) {
+    std::unique_ptr<FILE, FileCloser> f(std::fopen(temp.c_str(), "wb"));
+    if (!f) fail("cannot create '", temp, "' (folder missing or not writable?)");
+    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
+    png_infop info = png_create_info_struct(png);
+    if (setjmp(png_jmpbuf(png))) {
+      png_destroy_write_struct(&png, &info);
+      fail("error while writing PNG '", path, "'");
+    }
+    png_init_io(png, f.get());
+    png_set_IHDR(png, info, width, height, depth, color_type, PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT,
+                 PNG_FILTER_TYPE_DEFAULT);
+    std::vector<png_text> chunks(text.size());
+    for (size_t k = 0; k < text.size(); ++k) {
+      chunks[k].compression = PNG_TEXT_COMPRESSION_NONE;
+      chunks[k].key = const_cast<char*>(text[k].first.c_str());
+      chunks[k].text = const_cast<char*>(text[k].second.c_str());
+    }
+    if (!chunks.empty()) png_set_text(png, info, chunks.data(), static_cast<int>(chunks.size()));
+    png_write_info(png, info);
+    for (const auto& row : rows) png_write_row(png, row.data());
+    png_write_end(png, nullptr);
+    png_destroy_write_struct(&png, &info);
+  });
+}
+
+}  // namespace
+
+GrayImage read_gray_image(const std::string& path) {
+  const std::string ext = lower_extension(path);
+  if (ext == ".png") return read_png(path);
+  if (ext == ".tif" || ext == ".tiff") return read_tiff(path);
+  fail("'", path, "': unknown image type '", ext, "' (use .png, .tif or .tiff)");
+}
+
+void write_png_gray(const std::string& path, const GrayImage& image) {
+  if (image.bits != 8 && image.bits != 16) fail("PNG depth must be 8 or 16 bit, got ", image.bits);
+  std::vector<std::vector<uint8_t>> rows(image.height);
+  for (int i = 0; i < image.height; ++i) {
+    auto& row = rows[i];
+    for (int j = 0; j < image.width; ++j) {
+      const uint16_t v = image.pixels[static_cast<size_t>(i) * image.width + j];
+      if (image.bits == 16) {
+        row.push_back(static_cast<uint8_t>(v >> 8));  // PNG is big-endian
+        row.push_back(static_cast<uint8_t>(v & 0xff));
+      } else {
+        row.push_back(static_cast<uint8_t>(v));
+      }
+    }
+  }
+  write_png(path, image.width, image.height, PNG_COLOR_TYPE_GRAY, image.bits, rows, {});
+}
+
+void write_png_rgb(const std::string& path, const RgbImage& image,
+                   const std::vector<std::pair<std::string, std::string>>& text) {
+  std::vector<std::vector<uint8_t>> rows(image.height);
+  for (int i = 0; i < image.height; ++i)
+    rows[i].assign(image.rgb.begin() + static_cast<size_t>(i) * image.width * 3,
+                   image.rgb.begin() + static_cast<size_t>(i + 1) * image.width * 3);
+  write_png(path, image.width, image.height, PNG_COLOR_TYPE_RGB, 8, rows, text);
+}
+
+void write_tiff_gray(const std::string& path, const GrayImage& image) {
+  write_atomically(path, [&](const std::string& temp) {
+    std::unique_ptr<TIFF, decltype(&TIFFClose)> tif(TIFFOpen(temp.c_str(), "w"), &TIFFClose);
+    if (!tif) fail("cannot create TIFF '", temp, "'");
+    TIFFSetField(tif.get(), TIFFTAG_IMAGEWIDTH, image.width);
+    TIFFSetField(tif.get(), TIFFTAG_IMAGELENGTH, image.height);
+    TIFFSetField(tif.get(), TIFFTAG_BITSPERSAMPLE, image.bits);
+    TIFFSetField(tif.get(), TIFFTAG_SAMPLESPERPIXEL, 1);
+    TIFFSetField(tif.get(), TIFFTAG_PHOTOMETRIC, PHOTOMETRIC_MINISBLACK);
+    TIFFSetField(tif.get(), TIFFTAG_PLANARCONFIG, PLANARCONFIG_CONTIG);
+    std::vector<uint8_t> line(static_cast<size_t>(image.width) * (image.bits / 8));
+    for (int i = 0; i < image.height; ++i) {
+      for (int j = 0; j < image.width; ++j) {
+        const uint16_t v = image.pixels[static_cast<size_t>(i) * image.width + j];
+        if (image.bits == 16) reinterpret_cast<uint16_t*>(line.data())[j] = v;
+        else line[j] = static_cast<uint8_t>(v);
+      }
+      if (TIFFWriteScanline(tif.get(), line.data(), i, 0) < 0) fail("error while writing TIFF '", path, "'");
+    }
+  });
+}
+
+}  // namespace orderband

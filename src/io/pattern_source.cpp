@@ -1,0 +1,298 @@
+// Pattern sources: raw (memory-mapped), HDF5 (hyperslabs), image folders.
+#include "orderband/pattern_source.hpp"
+
+#include <fcntl.h>
+#include <hdf5.h>
+#include <sys/mman.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <bit>
+#include <cmath>
+#include <cstring>
+#include <filesystem>
+#include <regex>
+
+#include "orderband/error.hpp"
+#include "orderband/image_io.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+
+static_assert(std::endian::native == std::endian::little, "raw pattern reading assumes a little-endian host");
+
+SampleType parse_sample_type(const std::string& name) {
+  if (name == "uint8") return SampleType::uint8;
+  if (name == "uint16") return SampleType::uint16;
+  if (name == "float32") return SampleType::float32;
+  fail("unknown sample type '", name, "' (use uint8, uint16 or float32)");
+}
+
+const char* sample_type_name(SampleType t) {
+  switch (t) {
+    case SampleType::uint8: return "uint8";
+    case SampleType::uint16: return "uint16";
+    case SampleType::float32: return "float32";
+  }
+  return "?";
+}
+
+namespace {
+
+size_t sample_bytes(SampleType t) { return t == SampleType::uint8 ? 1 : t == SampleType::uint16 ? 2 : 4; }
+
+void check_finite(const float* data, size_t n, size_t pixels, size_t first, const std::string& file,
+                  const ScanGrid& grid) {
+  for (size_t k = 0; k < n * pixels; ++k)
+    if (!std::isfinite(data[k])) {
+      const GridPoint p = grid.point(first + k / pixels);
+      fail(file, ": pattern at row ", p.row, ", col ", p.col, " contains NaN or Inf (pixel ", k % pixels,
+           "); repair or mask the data");
+    }
+}
+
+class RawSource final : public PatternSource {
+ public:
+  RawSource(const PatternSourceSpec& spec, const ScanGrid& grid) : spec_(spec), grid_(grid) {
+    if (spec.width_px <= 0 || spec.height_px <= 0)
+      fail(spec.path, ": a raw stack needs width_px and height_px (the stored pattern size)");
+    width_ = spec.width_px;
+    height_ = spec.height_px;
+    count_ = grid.count();
+    fd_ = ::open(spec.path.c_str(), O_RDONLY);
+    if (fd_ < 0) fail("cannot open pattern file '", spec.path, "': ", std::strerror(errno));
+    struct stat st {};
+    ::fstat(fd_, &st);
+    size_ = static_cast<size_t>(st.st_size);
+    const size_t needed = spec.header_bytes + count_ * pixels() * sample_bytes(spec.sample_type);
+    if (size_ < needed) {
+      ::close(fd_);
+      fail(spec.path, " is ", size_, " bytes, shorter than header ", spec.header_bytes, " + ", grid.rows, " rows x ",
+           grid.cols, " cols x ", height_, " x ", width_, " px x ", sample_bytes(spec.sample_type), " bytes = ",
+           needed, " bytes; check the grid size, pattern size, sample type and header");
+    }
+    map_ = ::mmap(nullptr, size_, PROT_READ, MAP_PRIVATE, fd_, 0);
+    if (map_ == MAP_FAILED) {
+      ::close(fd_);
+      fail("cannot memory-map '", spec.path, "': ", std::strerror(errno));
+    }
+  }
+  ~RawSource() override {
+    ::munmap(map_, size_);
+    ::close(fd_);
+  }
+  std::string describe() const override {
+    return std::string("raw ") + sample_type_name(spec_.sample_type) + " stack " + spec_.path;
+  }
+  void read(size_t first, size_t n, float* out) override {
+    if (first + n > count_) fail(spec_.path, ": read past the last pattern");
+    const size_t bytes = sample_bytes(spec_.sample_type);
+    const size_t offset = spec_.header_bytes + first * pixels() * bytes;
+    const auto* src = static_cast<const uint8_t*>(map_) + offset;
+    const size_t m = n * pixels();
+    switch (spec_.sample_type) {
+      case SampleType::uint8:
+        for (size_t k = 0; k < m; ++k) out[k] = src[k];
+        break;
+      case SampleType::uint16:
+        for (size_t k = 0; k < m; ++k) {
+          uint16_t v;
+          std::memcpy(&v, src + 2 * k, 2);
+          out[k] = v;
+        }
+        break;
+      case SampleType::float32:
+        std::memcpy(out, src, m * 4);
+        check_finite(out, n, pixels(), first, spec_.path, grid_);
+        break;
+    }
+    // Drop the pages just read from this process's resident set: memory stays
+    // bounded by the chunk however large the stack is.
+    const size_t page = static_cast<size_t>(::sysconf(_SC_PAGESIZE));
+    const size_t begin = offset / page * page, end = offset + m * bytes;
+    ::madvise(static_cast<uint8_t*>(map_) + begin, end - begin, MADV_DONTNEED);
+  }
+
+ private:
+  PatternSourceSpec spec_;
+  ScanGrid grid_;
+  int fd_ = -1;
+  void* map_ = nullptr;
+  size_t size_ = 0;
+};
+
+class Hdf5Source final : public PatternSource {
+ public:
+  Hdf5Source(const PatternSourceSpec& spec, const ScanGrid& grid) : spec_(spec), grid_(grid) {
+    H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
+    if (!fs::exists(spec.path)) fail("cannot open HDF5 file '", spec.path, "' (missing)");
+    file_ = H5Fopen(spec.path.c_str(), H5F_ACC_RDONLY, H5P_DEFAULT);
+    if (file_ < 0) fail("'", spec.path, "' is not a readable HDF5 file");
+    if (spec.dataset.empty()) fail(spec.path, ": name the pattern dataset (key 'dataset', e.g. \"/scan/patterns\")");
+    if (H5Lexists(file_, spec.dataset.c_str(), H5P_DEFAULT) <= 0) {
+      H5Fclose(file_);
+      fail(spec.path, ": no dataset '", spec.dataset, "'; check the dataset path");
+    }
+    dset_ = H5Dopen2(file_, spec.dataset.c_str(), H5P_DEFAULT);
+    if (dset_ < 0) {
+      H5Fclose(file_);
+      fail(spec.path, ": '", spec.dataset, "' is not a dataset");
+    }
+    space_ = H5Dget_space(dset_);
+    rank_ = H5Sget_simple_extent_ndims(space_);
+    hsize_t dims[4] = {0, 0, 0, 0};
+    if (rank_ == 3 || rank_ == 4) H5Sget_simple_extent_dims(space_, dims, nullptr);
+    auto close_all = [&] {
+      H5Sclose(space_);
+      H5Dclose(dset_);
+      H5Fclose(file_);
+    };
+    if (rank_ != 3 && rank_ != 4) {
+      close_all();
+      fail(spec.path, ": dataset '", spec.dataset, "' has rank ", rank_,
+           "; patterns must be shaped [points, h, w] or [rows, cols, h, w]");
+    }
+    const size_t points = rank_ == 3 ? dims[0] : dims[0] * dims[1];
+    height_ = static_cast<int>(dims[rank_ - 2]);
+    width_ = static_cast<int>(dims[rank_ - 1]);
+    if (rank_ == 4 && (dims[0] != static_cast<hsize_t>(grid.rows) || dims[1] != static_cast<hsize_t>(grid.cols))) {
+      close_all();
+      fail(spec.path, ": dataset '", spec.dataset, "' is ", dims[0], " x ", dims[1], " points but the scan grid is ",
+           grid.rows, " x ", grid.cols);
+    }
+    if (points != grid.count()) {
+      close_all();
+      fail(spec.path, ": dataset '", spec.dataset, "' holds ", points, " patterns but the scan grid has ", grid.rows,
+           " x ", grid.cols, " = ", grid.count());
+    }
+    count_ = points;
+    const hid_t type = H5Dget_type(dset_);
+    const H5T_class_t cls = H5Tget_class(type);
+    H5Tclose(type);
+    if (cls != H5T_INTEGER && cls != H5T_FLOAT) {
+      close_all();
+      fail(spec.path, ": dataset '", spec.dataset, "' is not numeric");
+    }
+    is_float_ = cls == H5T_FLOAT;
+  }
+  ~Hdf5Source() override {
+    H5Sclose(space_);
+    H5Dclose(dset_);
+    H5Fclose(file_);
+  }
+  std::string describe() const override { return "HDF5 dataset " + spec_.dataset + " in " + spec_.path; }
+  void read(size_t first, size_t n, float* out) override {
+    if (first + n > count_) fail(spec_.path, ": read past the last pattern");
+    // Points are row-major over the grid, so a chunk of a rank-4 dataset is read row by row.
+    size_t done = 0;
+    while (done < n) {
+      const size_t p = first + done;
+      hsize_t start[4] = {0, 0, 0, 0}, cnt[4] = {0, 0, 0, 0};
+      size_t take;
+      if (rank_ == 3) {
+        take = n - done;
+        start[0] = p;
+        cnt[0] = take;
+        cnt[1] = height_;
+        cnt[2] = width_;
+      } else {
+        const size_t row = p / grid_.cols, col = p % grid_.cols;
+        take = std::min(n - done, static_cast<size_t>(grid_.cols) - col);
+        start[0] = row;
+        start[1] = col;
+        cnt[0] = 1;
+        cnt[1] = take;
+        cnt[2] = height_;
+        cnt[3] = width_;
+      }
+      H5Sselect_hyperslab(space_, H5S_SELECT_SET, start, nullptr, cnt, nullptr);
+      const hsize_t mem_dims[1] = {take * pixels()};
+      const hid_t mem = H5Screate_simple(1, mem_dims, nullptr);
+      const herr_t status = H5Dread(dset_, H5T_NATIVE_FLOAT, mem, space_, H5P_DEFAULT, out + done * pixels());
+      H5Sclose(mem);
+      if (status < 0) fail(spec_.path, ": cannot read patterns ", p, "..", p + take - 1, " of '", spec_.dataset, "'");
+      done += take;
+    }
+    if (is_float_) check_finite(out, n, pixels(), first, spec_.path, grid_);
+  }
+
+ private:
+  PatternSourceSpec spec_;
+  ScanGrid grid_;
+  hid_t file_ = -1, dset_ = -1, space_ = -1;
+  int rank_ = 0;
+  bool is_float_ = false;
+};
+
+class ImageFolderSource final : public PatternSource {
+ public:
+  ImageFolderSource(const PatternSourceSpec& spec, const ScanGrid& grid) : spec_(spec), grid_(grid) {
+    if (!fs::is_directory(spec.path)) fail("pattern image folder '", spec.path, "' does not exist");
+    if (spec.name_pattern.empty())
+      fail("name the pattern images with 'name_pattern', e.g. \"p_{row:03}_{col:03}.png\" or \"{index:05}.tif\"");
+    count_ = grid.count();
+    const GrayImage first = read_gray_image(file_of(0));
+    width_ = first.width;
+    height_ = first.height;
+    if ((spec.width_px && spec.width_px != width_) || (spec.height_px && spec.height_px != height_))
+      fail(file_of(0), " is ", width_, " x ", height_, " px, but the scan description says ", spec.width_px, " x ",
+           spec.height_px);
+    const std::string last = file_of(count_ - 1);
+    if (!fs::exists(last)) fail("pattern image '", last, "' for the last scan point is missing");
+  }
+  std::string describe() const override { return "image folder " + spec_.path + " (" + spec_.name_pattern + ")"; }
+  void read(size_t first, size_t n, float* out) override {
+    for (size_t k = 0; k < n; ++k) {
+      const std::string file = file_of(first + k);
+      const GrayImage img = read_gray_image(file);
+      if (img.width != width_ || img.height != height_)
+        fail(file, " is ", img.width, " x ", img.height, " px; the first pattern is ", width_, " x ", height_, " px");
+      for (size_t q = 0; q < pixels(); ++q) out[k * pixels() + q] = img.pixels[q];
+    }
+  }
+  std::string file_of(size_t index) const {
+    const GridPoint p = grid_.point(index);
+    static const std::regex placeholder(R"(\{(index|row|col)(?::(0?)(\d+))?\})");
+    std::string result;
+    auto begin = spec_.name_pattern.cbegin();
+    for (std::sregex_iterator it(spec_.name_pattern.begin(), spec_.name_pattern.end(), placeholder), end; it != end;
+         ++it) {
+      const std::smatch& m = *it;
+      result.append(begin, m[0].first);
+      const std::string key = m[1];
+      const long value = key == "index" ? static_cast<long>(index) : key == "row" ? p.row : p.col;
+      std::string digits = std::to_string(value);
+      if (m[3].matched) {
+        const size_t widthv = std::stoul(m[3]);
+        if (digits.size() < widthv) digits.insert(0, widthv - digits.size(), m[2].length() ? '0' : ' ');
+      }
+      result += digits;
+      begin = m[0].second;
+    }
+    result.append(begin, spec_.name_pattern.cend());
+    return (fs::path(spec_.path) / result).string();
+  }
+
+ private:
+  PatternSourceSpec spec_;
+  ScanGrid grid_;
+};
+
+}  // namespace
+
+std::unique_ptr<PatternSource> open_pattern_source(const PatternSourceSpec& spec, const ScanGrid& grid) {
+  grid.validate();
+  std::unique_ptr<PatternSource> src;
+  switch (spec.format) {
+    case PatternFormat::raw: src = std::make_unique<RawSource>(spec, grid); break;
+    case PatternFormat::hdf5: src = std::make_unique<Hdf5Source>(spec, grid); break;
+    case PatternFormat::images: src = std::make_unique<ImageFolderSource>(spec, grid); break;
+  }
+  if ((spec.width_px && spec.width_px != src->width()) || (spec.height_px && spec.height_px != src->height()))
+    fail(src->describe(), ": patterns are ", src->width(), " x ", src->height(), " px, but the scan description says ",
+         spec.width_px, " x ", spec.height_px);
+  return src;
+}
+
+}  // namespace orderband

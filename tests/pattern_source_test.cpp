@@ -1,0 +1,181 @@
+// Pattern sources: raw, HDF5 (written by h5py), PNG and TIFF folders give identical patterns; bad input.
+#include "orderband/pattern_source.hpp"
+
+#include <gtest/gtest.h>
+
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <random>
+
+#include "orderband/error.hpp"
+#include "orderband/image_io.hpp"
+#include "test_support.hpp"
+
+namespace orderband {
+namespace {
+
+constexpr int kRows = 5, kCols = 4, kH = 16, kW = 20;
+
+struct Fixture {
+  std::string dir;
+  std::vector<uint16_t> data;  // rows·cols·h·w
+  ScanGrid grid{GridKind::square, kRows, kCols, 0.1};
+  Fixture() : dir(test::make_temp_dir("src")) {
+    std::mt19937 rng(42);
+    std::uniform_int_distribution<int> u(0, 65535);
+    data.resize(static_cast<size_t>(kRows) * kCols * kH * kW);
+    for (auto& v : data) v = static_cast<uint16_t>(u(rng));
+  }
+  ~Fixture() { std::filesystem::remove_all(dir); }
+  std::string write_raw(size_t header, size_t drop_bytes = 0) const {
+    const std::string path = dir + "/stack.raw";
+    std::ofstream f(path, std::ios::binary);
+    std::string head(header, 'h');
+    f.write(head.data(), head.size());
+    f.write(reinterpret_cast<const char*>(data.data()), data.size() * 2 - drop_bytes);
+    return path;
+  }
+  std::vector<float> read_all(PatternSource& s, size_t chunk) const {
+    std::vector<float> out(s.count() * s.pixels());
+    for (size_t first = 0; first < s.count(); first += chunk)
+      s.read(first, std::min(chunk, s.count() - first), out.data() + first * s.pixels());
+    return out;
+  }
+  std::vector<float> expected() const { return std::vector<float>(data.begin(), data.end()); }
+};
+
+PatternSourceSpec raw_spec(const std::string& path, size_t header) {
+  PatternSourceSpec s;
+  s.format = PatternFormat::raw;
+  s.path = path;
+  s.sample_type = SampleType::uint16;
+  s.header_bytes = header;
+  s.width_px = kW;
+  s.height_px = kH;
+  return s;
+}
+
+std::string error_of(const PatternSourceSpec& spec, const ScanGrid& grid) {
+  try {
+    auto src = open_pattern_source(spec, grid);
+    std::vector<float> buf(src->count() * src->pixels());
+    src->read(0, src->count(), buf.data());
+  } catch (const Error& e) {
+    return e.what();
+  }
+  return "no error";
+}
+
+TEST(PatternSource, RawHdf5PngAndTiffGiveIdenticalPatterns) {
+  Fixture fx;
+  const auto raw = open_pattern_source(raw_spec(fx.write_raw(512), 512), fx.grid);
+  EXPECT_EQ(fx.read_all(*raw, 3), fx.expected());
+
+  for (int rank : {3, 4}) {
+    const std::string h5 = fx.dir + "/p" + std::to_string(rank) + ".h5";
+    const auto r = test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /scan/patterns " +
+                                                                   "5 4 16 20 " + std::to_string(rank));
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+    PatternSourceSpec s;
+    s.format = PatternFormat::hdf5;
+    s.path = h5;
+    s.dataset = "/scan/patterns";
+    const auto src = open_pattern_source(s, fx.grid);
+    EXPECT_EQ(src->width(), kW);
+    EXPECT_EQ(src->height(), kH);
+    EXPECT_EQ(fx.read_all(*src, 3), fx.expected()) << "rank " << rank;  // chunks of 3 cross scan rows
+  }
+
+  for (const std::string ext : {"png", "tif"}) {
+    const std::string folder = fx.dir + "/" + ext;
+    std::filesystem::create_directory(folder);
+    for (size_t k = 0; k < fx.grid.count(); ++k) {
+      GrayImage img{kW, kH, 16, std::vector<uint16_t>(fx.data.begin() + k * kW * kH, fx.data.begin() + (k + 1) * kW * kH)};
+      const GridPoint p = fx.grid.point(k);
+      char name[64];
+      std::snprintf(name, sizeof name, "/p_%03d_%02d.%s", p.row, p.col, ext.c_str());
+      if (ext == "png") write_png_gray(folder + name, img);
+      else write_tiff_gray(folder + name, img);
+    }
+    PatternSourceSpec s;
+    s.format = PatternFormat::images;
+    s.path = folder;
+    s.name_pattern = "p_{row:03}_{col:02}." + ext;
+    const auto src = open_pattern_source(s, fx.grid);
+    EXPECT_EQ(fx.read_all(*src, 7), fx.expected()) << ext;
+  }
+}
+
+TEST(PatternSource, Float32RawStackAndNonFiniteValues) {
+  Fixture fx;
+  const std::string path = fx.dir + "/f.raw";
+  std::vector<float> values(fx.data.begin(), fx.data.end());
+  for (auto& v : values) v *= 0.25f;
+  std::ofstream(path, std::ios::binary).write(reinterpret_cast<const char*>(values.data()), values.size() * 4);
+  PatternSourceSpec s = raw_spec(path, 0);
+  s.sample_type = SampleType::float32;
+  auto src = open_pattern_source(s, fx.grid);
+  EXPECT_EQ(fx.read_all(*src, 6), values);
+  // NaN in one pattern: the error names the file and the point.
+  values[static_cast<size_t>(2 * kCols + 3) * kW * kH + 17] = std::nanf("");
+  std::ofstream(path, std::ios::binary).write(reinterpret_cast<const char*>(values.data()), values.size() * 4);
+  const std::string e = error_of(s, fx.grid);
+  EXPECT_NE(e.find(path), std::string::npos) << e;
+  EXPECT_NE(e.find("row 2, col 3 contains NaN or Inf"), std::string::npos) << e;
+}
+
+TEST(PatternSource, ClearErrorsForBadInput) {
+  Fixture fx;
+  // A raw file one pattern short.
+  const std::string short_raw = fx.write_raw(0, kW * kH * 2);
+  const std::string e1 = error_of(raw_spec(short_raw, 0), fx.grid);
+  EXPECT_NE(e1.find("shorter than header 0 + 5 rows x 4 cols x 16 x 20 px x 2 bytes = 12800 bytes"), std::string::npos)
+      << e1;
+  EXPECT_NE(e1.find(short_raw), std::string::npos);
+  EXPECT_THROW(parse_sample_type("int12"), Error);
+  EXPECT_NE(error_of(raw_spec(fx.dir + "/none.raw", 0), fx.grid).find("cannot open pattern file"), std::string::npos);
+
+  const std::string h5 = fx.dir + "/bad.h5";
+  ASSERT_EQ(test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /flat 5 4 16 20 2").exit_code, 0);
+  PatternSourceSpec s;
+  s.format = PatternFormat::hdf5;
+  s.path = h5;
+  s.dataset = "/flat";
+  EXPECT_NE(error_of(s, fx.grid).find("has rank 2; patterns must be shaped [points, h, w] or [rows, cols, h, w]"),
+            std::string::npos);
+  s.dataset = "/missing";
+  EXPECT_NE(error_of(s, fx.grid).find("no dataset '/missing'"), std::string::npos);
+  // A grid that does not match the dataset.
+  ScanGrid wrong = fx.grid;
+  wrong.rows = 6;
+  s.dataset = "/flat";
+  ASSERT_EQ(test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /p 5 4 16 20 3").exit_code, 0);
+  s.dataset = "/p";
+  EXPECT_NE(error_of(s, wrong).find("holds 20 patterns but the scan grid has 6 x 4 = 24"), std::string::npos);
+
+  PatternSourceSpec img;
+  img.format = PatternFormat::images;
+  img.path = fx.dir + "/nofolder";
+  img.name_pattern = "{index}.png";
+  EXPECT_NE(error_of(img, fx.grid).find("does not exist"), std::string::npos);
+}
+
+TEST(PatternSource, HexagonalGridNeighboursByHand) {
+  // Odd rows sit half a step to the right: (2, 2) touches (1, 1), (1, 2), (3, 1), (3, 2);
+  // (1, 2) touches (0, 2), (0, 3), (2, 2), (2, 3).
+  const ScanGrid g{GridKind::hexagonal, 5, 5, 1.0};
+  auto has = [](const std::vector<GridPoint>& v, GridPoint p) { return std::find(v.begin(), v.end(), p) != v.end(); };
+  const auto a = g.neighbours({2, 2});
+  EXPECT_EQ(a.size(), 6u);
+  for (GridPoint p : {GridPoint{2, 1}, {2, 3}, {1, 1}, {1, 2}, {3, 1}, {3, 2}}) EXPECT_TRUE(has(a, p));
+  const auto b = g.neighbours({1, 2});
+  for (GridPoint p : {GridPoint{1, 1}, {1, 3}, {0, 2}, {0, 3}, {2, 2}, {2, 3}}) EXPECT_TRUE(has(b, p));
+  // Every neighbour is exactly one step away.
+  for (GridPoint p : a) EXPECT_NEAR((g.position_um(p) - g.position_um({2, 2})).norm(), 1.0, 1e-12);
+  for (GridPoint p : b) EXPECT_NEAR((g.position_um(p) - g.position_um({1, 2})).norm(), 1.0, 1e-12);
+  EXPECT_NEAR(g.field_height_um(), 5 * std::sqrt(3.0) / 2, 1e-12);
+}
+
+}  // namespace
+}  // namespace orderband
