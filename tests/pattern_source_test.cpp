@@ -74,8 +74,8 @@ TEST(PatternSource, RawHdf5PngAndTiffGiveIdenticalPatterns) {
 
   for (int rank : {3, 4}) {
     const std::string h5 = fx.dir + "/p" + std::to_string(rank) + ".h5";
-    const auto r = test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /scan/patterns " +
-                                                                   "5 4 16 20 " + std::to_string(rank));
+    const auto r = test::run_reference_script(
+        "write_hdf5.py", fx.write_raw(0) + " " + h5 + " /scan/patterns " + "5 4 16 20 " + std::to_string(rank));
     ASSERT_EQ(r.exit_code, 0) << r.err;
     PatternSourceSpec s;
     s.format = PatternFormat::hdf5;
@@ -91,12 +91,15 @@ TEST(PatternSource, RawHdf5PngAndTiffGiveIdenticalPatterns) {
     const std::string folder = fx.dir + "/" + ext;
     std::filesystem::create_directory(folder);
     for (size_t k = 0; k < fx.grid.count(); ++k) {
-      GrayImage img{kW, kH, 16, std::vector<uint16_t>(fx.data.begin() + k * kW * kH, fx.data.begin() + (k + 1) * kW * kH)};
+      GrayImage img{kW, kH, 16,
+                    std::vector<uint16_t>(fx.data.begin() + k * kW * kH, fx.data.begin() + (k + 1) * kW * kH)};
       const GridPoint p = fx.grid.point(k);
       char name[64];
       std::snprintf(name, sizeof name, "/p_%03d_%02d.%s", p.row, p.col, ext.c_str());
-      if (ext == "png") write_png_gray(folder + name, img);
-      else write_tiff_gray(folder + name, img);
+      if (ext == "png")
+        write_png_gray(folder + name, img);
+      else
+        write_tiff_gray(folder + name, img);
     }
     PatternSourceSpec s;
     s.format = PatternFormat::images;
@@ -137,7 +140,8 @@ TEST(PatternSource, ClearErrorsForBadInput) {
   EXPECT_NE(error_of(raw_spec(fx.dir + "/none.raw", 0), fx.grid).find("cannot open pattern file"), std::string::npos);
 
   const std::string h5 = fx.dir + "/bad.h5";
-  ASSERT_EQ(test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /flat 5 4 16 20 2").exit_code, 0);
+  ASSERT_EQ(test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /flat 5 4 16 20 2").exit_code,
+            0);
   PatternSourceSpec s;
   s.format = PatternFormat::hdf5;
   s.path = h5;

@@ -28,9 +28,9 @@ TEST(GaussianBlur, MatchesScipyGaussianFilterReflectMode) {
   for (const auto& [w, h, sigma] : {std::tuple{60, 60, 6.0}, {37, 23, 1.5}, {40, 30, 25.0}}) {
     const auto img = random_image(w, h, 3);
     std::ofstream(dir + "/in.f32", std::ios::binary).write(reinterpret_cast<const char*>(img.data()), img.size() * 4);
-    const auto r = test::run_reference_script("gaussian_reference.py", dir + "/in.f32 " + dir + "/out.f64 " +
-                                                                           std::to_string(h) + " " + std::to_string(w) +
-                                                                           " " + std::to_string(sigma));
+    const auto r =
+        test::run_reference_script("gaussian_reference.py", dir + "/in.f32 " + dir + "/out.f64 " + std::to_string(h) +
+                                                                " " + std::to_string(w) + " " + std::to_string(sigma));
     ASSERT_EQ(r.exit_code, 0) << r.err;
     std::vector<double> ref(img.size());
     std::ifstream(dir + "/out.f64", std::ios::binary).read(reinterpret_cast<char*>(ref.data()), ref.size() * 8);
@@ -49,9 +49,10 @@ TEST(Preprocess, RemovesMultiplicativeBackgroundsAndNormalises) {
   for (int i = 0; i < h; ++i)
     for (int j = 0; j < w; ++j) {
       const size_t q = static_cast<size_t>(i) * w + j;
-      band[q] = std::abs(j - 0.7 * i - 12) < 3 ? 1.0f : 0.0f;                 // a straight band
-      static_bg[q] = 500 + 400 * std::exp(-((i - 40.0) * (i - 40) + (j - 25.0) * (j - 25)) / 800);  // detector vignetting
-      const double dyn = 1.0 + 0.3 * std::sin(0.01 * i);                       // this point's own smooth variation
+      band[q] = std::abs(j - 0.7 * i - 12) < 3 ? 1.0f : 0.0f;  // a straight band
+      static_bg[q] =
+          500 + 400 * std::exp(-((i - 40.0) * (i - 40) + (j - 25.0) * (j - 25)) / 800);  // detector vignetting
+      const double dyn = 1.0 + 0.3 * std::sin(0.01 * i);  // this point's own smooth variation
       pattern[q] = static_cast<float>(static_bg[q] * dyn * (1 + 0.08 * band[q]));
     }
   PreprocessSpec spec;

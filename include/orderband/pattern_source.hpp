@@ -16,12 +16,12 @@ enum class SampleType { uint8, uint16, float32 };
 /// scan description resolves relative paths against its own folder).
 struct PatternSourceSpec {
   PatternFormat format = PatternFormat::raw;
-  std::string path;            ///< raw file, HDF5 file, or image folder
+  std::string path;                             ///< raw file, HDF5 file, or image folder
   SampleType sample_type = SampleType::uint16;  ///< raw only: little-endian samples
-  size_t header_bytes = 0;     ///< raw only: bytes to skip at the start
-  int width_px = 0;            ///< raw: required; others: 0 = take from the data, else checked
+  size_t header_bytes = 0;                      ///< raw only: bytes to skip at the start
+  int width_px = 0;                             ///< raw: required; others: 0 = take from the data, else checked
   int height_px = 0;
-  std::string dataset;         ///< HDF5: dataset path, shaped [points, h, w] or [rows, cols, h, w]
+  std::string dataset;  ///< HDF5: dataset path, shaped [points, h, w] or [rows, cols, h, w]
   /// Images: file name with placeholders {index}, {row}, {col}, optionally
   /// zero-padded as {index:05}; e.g. "p_{row:03}_{col:03}.png".
   std::string name_pattern;

@@ -24,8 +24,8 @@ struct PreprocessSpec {
   /// 0: off.
   double dynamic_background_sigma_px = -1;
   MaskKind mask = MaskKind::circle;
-  double mask_radius_px = 0;     ///< circle radius; 0: inscribed circle, min(w, h)/2
-  std::string mask_file;         ///< greyscale PNG/TIFF, non-zero = used (kind = file)
+  double mask_radius_px = 0;  ///< circle radius; 0: inscribed circle, min(w, h)/2
+  std::string mask_file;      ///< greyscale PNG/TIFF, non-zero = used (kind = file)
   bool hot_pixel_filter = false;
   double hot_pixel_threshold = 8;  ///< replace a pixel deviating by more than this many MADs from its 3×3 median
   /// Neighbour averaging in scan space: Gaussian weights exp(−d²/2σ²), d in
@@ -85,8 +85,8 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
 /// with per-point usable flags. Unusable points take no part; the result is
 /// renormalised inside the mask. Writes row r into `out`.
 void neighbour_average_row(const ScanGrid& grid, double sigma_steps, int row, const float* const rows[3],
-                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels,
-                           float* out, uint8_t* out_usable);
+                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
+                           uint8_t* out_usable);
 
 /// Streams preprocessed scan rows with bounded memory (three rows of
 /// patterns plus one output row), neighbour-averaged if the spec asks.

@@ -18,6 +18,7 @@ struct CommandEntry {
 };
 
 std::function<int()> setup_families(CLI::App& sub);
+std::function<int()> setup_check(CLI::App& sub);
 
 /// The full command line, for provenance in every output.
 const std::string& command_line();

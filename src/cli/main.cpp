@@ -14,6 +14,7 @@ const std::vector<CommandEntry>& commands() {
   static const std::vector<CommandEntry> table = {
       {"families", "plane-family table of phases at a voltage: d, Bragg angle, |F|, superlattice sensitivity",
        setup_families},
+      {"check", "validate a scan description and its data; print what a run will do", setup_check},
   };
   return table;
 }

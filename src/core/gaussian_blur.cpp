@@ -26,7 +26,8 @@ struct GaussianBlur::Impl {
 
 GaussianBlur::GaussianBlur(int width, int height, double sigma_px) : impl_(std::make_unique<Impl>()), sigma_(sigma_px) {
   if (width <= 0 || height <= 0) fail("blur: image size must be positive");
-  if (!(sigma_px > 0) || !std::isfinite(sigma_px)) fail("blur: sigma must be a positive number of pixels, got ", sigma_px);
+  if (!(sigma_px > 0) || !std::isfinite(sigma_px))
+    fail("blur: sigma must be a positive number of pixels, got ", sigma_px);
   Impl& m = *impl_;
   m.w = width;
   m.h = height;
@@ -52,8 +53,8 @@ GaussianBlur::GaussianBlur(int width, int height, double sigma_px) : impl_(std::
   std::vector<std::complex<double>> spec(static_cast<size_t>(m.H) * cw);
   {
     std::lock_guard<std::mutex> lock(planner_mutex());
-    fftw_plan p = fftw_plan_dft_r2c_2d(m.H, m.W, kernel.data(), reinterpret_cast<fftw_complex*>(spec.data()),
-                                       FFTW_ESTIMATE);
+    fftw_plan p =
+        fftw_plan_dft_r2c_2d(m.H, m.W, kernel.data(), reinterpret_cast<fftw_complex*>(spec.data()), FFTW_ESTIMATE);
     fftw_execute(p);
     fftw_destroy_plan(p);
     std::vector<double> real(static_cast<size_t>(m.W) * m.H);

@@ -48,8 +48,7 @@ Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, st
     const double r = spec.mask_radius_px > 0 ? spec.mask_radius_px : 0.5 * std::min(w_, h_);
     const double cx = 0.5 * w_, cy = 0.5 * h_;
     for (int i = 0; i < h_; ++i)
-      for (int j = 0; j < w_; ++j)
-        mask_[static_cast<size_t>(i) * w_ + j] = std::hypot(j + 0.5 - cx, i + 0.5 - cy) <= r;
+      for (int j = 0; j < w_; ++j) mask_[static_cast<size_t>(i) * w_ + j] = std::hypot(j + 0.5 - cx, i + 0.5 - cy) <= r;
   } else if (spec.mask == MaskKind::file) {
     const GrayImage m = read_gray_image(spec.mask_file);
     if (m.width != w_ || m.height != h_)
@@ -60,7 +59,8 @@ Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, st
   if (mask_count_ < 16) fail("the pattern mask keeps only ", mask_count_, " pixels; enlarge it");
   // Static background, normalised to mean 1 inside the mask.
   if (spec.static_background != StaticBackgroundKind::none) {
-    if (static_background.size() != n) fail("static background has ", static_background.size(), " values, expected ", n);
+    if (static_background.size() != n)
+      fail("static background has ", static_background.size(), " values, expected ", n);
     double sum = 0;
     for (size_t q = 0; q < n; ++q) sum += mask_[q] ? static_background[q] : 0.0;
     const double mean = sum / mask_count_;
@@ -142,8 +142,8 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
 }
 
 void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const float* const rows[3],
-                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels,
-                           float* out, uint8_t* out_usable) {
+                           const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
+                           uint8_t* out_usable) {
 #pragma omp parallel for schedule(static)
   for (int col = 0; col < grid.cols; ++col) {
     float* dst = out + static_cast<size_t>(col) * pixels;

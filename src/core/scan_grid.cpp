@@ -13,9 +13,7 @@ Eigen::Vector2d ScanGrid::position_um(GridPoint p) const {
   return {x, p.row * row_spacing_um()};
 }
 
-double ScanGrid::row_spacing_um() const {
-  return kind == GridKind::hexagonal ? step_um * std::sqrt(3.0) / 2 : step_um;
-}
+double ScanGrid::row_spacing_um() const { return kind == GridKind::hexagonal ? step_um * std::sqrt(3.0) / 2 : step_um; }
 
 double ScanGrid::field_width_um() const { return cols * step_um; }
 double ScanGrid::field_height_um() const { return rows * row_spacing_um(); }
@@ -28,8 +26,10 @@ std::vector<GridPoint> ScanGrid::neighbours(GridPoint p, int square_connectivity
   };
   if (kind == GridKind::square) {
     add(-1, 0), add(0, -1), add(0, 1), add(1, 0);
-    if (square_connectivity == 8) add(-1, -1), add(-1, 1), add(1, -1), add(1, 1);
-    else if (square_connectivity != 4) fail("square-grid connectivity must be 4 or 8, got ", square_connectivity);
+    if (square_connectivity == 8)
+      add(-1, -1), add(-1, 1), add(1, -1), add(1, 1);
+    else if (square_connectivity != 4)
+      fail("square-grid connectivity must be 4 or 8, got ", square_connectivity);
     return out;
   }
   // Hexagonal: odd rows sit half a step to the right of even rows.

@@ -173,8 +173,10 @@ void write_tiff_gray(const std::string& path, const GrayImage& image) {
     for (int i = 0; i < image.height; ++i) {
       for (int j = 0; j < image.width; ++j) {
         const uint16_t v = image.pixels[static_cast<size_t>(i) * image.width + j];
-        if (image.bits == 16) reinterpret_cast<uint16_t*>(line.data())[j] = v;
-        else line[j] = static_cast<uint8_t>(v);
+        if (image.bits == 16)
+          reinterpret_cast<uint16_t*>(line.data())[j] = v;
+        else
+          line[j] = static_cast<uint8_t>(v);
       }
       if (TIFFWriteScanline(tif.get(), line.data(), i, 0) < 0) fail("error while writing TIFF '", path, "'");
     }

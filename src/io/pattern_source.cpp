@@ -31,9 +31,12 @@ SampleType parse_sample_type(const std::string& name) {
 
 const char* sample_type_name(SampleType t) {
   switch (t) {
-    case SampleType::uint8: return "uint8";
-    case SampleType::uint16: return "uint16";
-    case SampleType::float32: return "float32";
+    case SampleType::uint8:
+      return "uint8";
+    case SampleType::uint16:
+      return "uint16";
+    case SampleType::float32:
+      return "float32";
   }
   return "?";
 }
@@ -69,8 +72,8 @@ class RawSource final : public PatternSource {
     if (size_ < needed) {
       ::close(fd_);
       fail(spec.path, " is ", size_, " bytes, shorter than header ", spec.header_bytes, " + ", grid.rows, " rows x ",
-           grid.cols, " cols x ", height_, " x ", width_, " px x ", sample_bytes(spec.sample_type), " bytes = ",
-           needed, " bytes; check the grid size, pattern size, sample type and header");
+           grid.cols, " cols x ", height_, " x ", width_, " px x ", sample_bytes(spec.sample_type), " bytes = ", needed,
+           " bytes; check the grid size, pattern size, sample type and header");
     }
     map_ = ::mmap(nullptr, size_, PROT_READ, MAP_PRIVATE, fd_, 0);
     if (map_ == MAP_FAILED) {
@@ -285,9 +288,15 @@ std::unique_ptr<PatternSource> open_pattern_source(const PatternSourceSpec& spec
   grid.validate();
   std::unique_ptr<PatternSource> src;
   switch (spec.format) {
-    case PatternFormat::raw: src = std::make_unique<RawSource>(spec, grid); break;
-    case PatternFormat::hdf5: src = std::make_unique<Hdf5Source>(spec, grid); break;
-    case PatternFormat::images: src = std::make_unique<ImageFolderSource>(spec, grid); break;
+    case PatternFormat::raw:
+      src = std::make_unique<RawSource>(spec, grid);
+      break;
+    case PatternFormat::hdf5:
+      src = std::make_unique<Hdf5Source>(spec, grid);
+      break;
+    case PatternFormat::images:
+      src = std::make_unique<ImageFolderSource>(spec, grid);
+      break;
   }
   if ((spec.width_px && spec.width_px != src->width()) || (spec.height_px && spec.height_px != src->height()))
     fail(src->describe(), ": patterns are ", src->width(), " x ", src->height(), " px, but the scan description says ",

@@ -1,0 +1,55 @@
+// The scan description: grid, patterns, geometry, voltage, phases, orientations, preprocessing, output.
+#pragma once
+
+#include <optional>
+#include <ostream>
+#include <string>
+
+#include "orderband/detector_geometry.hpp"
+#include "orderband/pattern_source.hpp"
+#include "orderband/preprocess.hpp"
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+/// The ordered/disordered pair: a named pair from crystal-data/pairs.toml or
+/// two CIF files (absolute paths after reading).
+struct PhaseSelection {
+  std::string pair_name;  ///< e.g. "ni"; empty when files are given
+  std::string ordered_cif, disordered_cif;
+};
+
+enum class OrientationSourceKind { find, file };
+
+struct OrientationSelection {
+  OrientationSourceKind source = OrientationSourceKind::find;
+  std::string file;   ///< CSV (absolute path) when source = file
+  bool refine = true;
+};
+
+struct ScanConfig {
+  std::string path;    ///< the description file
+  std::string folder;  ///< its folder: relative paths resolve against it
+  ScanGrid grid;
+  PatternSourceSpec patterns;
+  DetectorGeometrySpec geometry;  ///< width/height filled from [patterns] or the data
+  double kv = 20.0;
+  PhaseSelection phases;
+  OrientationSelection orientations;
+  PreprocessSpec preprocess;
+  std::string output_folder;  ///< absolute
+};
+
+/// Reads and validates a scan description (TOML). Unknown tables or keys,
+/// wrong types and out-of-range values are errors naming the file, the key,
+/// the value and the expected form.
+ScanConfig read_scan_config(const std::string& path);
+/// Same from text; `path` names it in messages and gives the base folder.
+ScanConfig parse_scan_config(const std::string& toml_text, const std::string& path);
+
+/// Writes a scan description that read_scan_config reads back to the same
+/// values; paths are written relative to `relative_to` where possible.
+void write_scan_config(std::ostream& os, const ScanConfig& config, const std::string& relative_to,
+                       const std::string& header_comment = "");
+
+}  // namespace orderband

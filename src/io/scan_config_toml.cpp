@@ -1,0 +1,297 @@
+// Reading and writing the scan description (TOML).
+#include <filesystem>
+#include <fstream>
+#include <set>
+#include <sstream>
+#include <toml++/toml.h>
+
+#include "orderband/error.hpp"
+#include "orderband/scan_config.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+class Reader {
+ public:
+  Reader(const toml::table& root, std::string path) : root_(root), path_(std::move(path)) {
+    folder_ = fs::absolute(fs::path(path_)).parent_path();
+  }
+
+  const toml::table* table(const std::string& name, bool required) {
+    const toml::node* n = root_.get(name);
+    if (!n) {
+      if (required) fail(path_, ": missing table [", name, "]");
+      return nullptr;
+    }
+    if (!n->is_table()) fail(path_, ": '", name, "' must be a table [", name, "]");
+    return n->as_table();
+  }
+
+  void check_keys(const toml::table* t, const std::string& name, const std::set<std::string>& allowed) {
+    if (!t) return;
+    for (const auto& [k, v] : *t)
+      if (!allowed.count(std::string(k.str()))) {
+        std::string list;
+        for (const auto& a : allowed) list += (list.empty() ? "" : ", ") + a;
+        fail(path_, ": unknown key '", k.str(), "' in [", name, "] (known: ", list, ")");
+      }
+  }
+
+  template <class T>
+  std::optional<T> get(const toml::table* t, const std::string& table_name, const std::string& key) {
+    if (!t) return std::nullopt;
+    const toml::node* n = t->get(key);
+    if (!n) return std::nullopt;
+    if constexpr (std::is_same_v<T, double>) {
+      if (auto v = n->value<double>()) return *v;  // integers convert
+      fail(path_, ": [", table_name, "] ", key, " must be a number");
+    } else if constexpr (std::is_same_v<T, int64_t>) {
+      if (n->is_integer()) return n->value<int64_t>();
+      fail(path_, ": [", table_name, "] ", key, " must be an integer");
+    } else if constexpr (std::is_same_v<T, bool>) {
+      if (n->is_boolean()) return n->value<bool>();
+      fail(path_, ": [", table_name, "] ", key, " must be true or false");
+    } else {
+      if (n->is_string()) return n->value<std::string>();
+      fail(path_, ": [", table_name, "] ", key, " must be a string");
+    }
+  }
+
+  template <class T>
+  T require(const toml::table* t, const std::string& table_name, const std::string& key) {
+    auto v = get<T>(t, table_name, key);
+    if (!v) fail(path_, ": [", table_name, "] needs '", key, "'");
+    return *v;
+  }
+
+  std::string resolve(const std::string& p) const {
+    const fs::path q(p);
+    return (q.is_absolute() ? q : folder_ / q).lexically_normal().string();
+  }
+
+  const std::string& path() const { return path_; }
+  std::string folder() const { return folder_.string(); }
+
+ private:
+  const toml::table& root_;
+  std::string path_;
+  fs::path folder_;
+};
+
+}  // namespace
+
+ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
+  toml::table root;
+  try {
+    root = toml::parse(text, path);
+  } catch (const toml::parse_error& e) {
+    fail(path, ":", e.source().begin.line, ": ", e.description());
+  }
+  Reader r(root, path);
+  for (const auto& [k, v] : root) {
+    static const std::set<std::string> tables{"scan", "patterns", "geometry", "microscope", "phases",
+                                              "orientations", "preprocess", "output"};
+    if (!tables.count(std::string(k.str())))
+      fail(path, ": unknown table [", k.str(),
+           "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, output)");
+  }
+  ScanConfig c;
+  c.path = fs::absolute(path).lexically_normal().string();
+  c.folder = r.folder();
+
+  // [scan]
+  const toml::table* scan = r.table("scan", true);
+  r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um"});
+  const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
+  if (grid == "square") c.grid.kind = GridKind::square;
+  else if (grid == "hexagonal") c.grid.kind = GridKind::hexagonal;
+  else fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
+  const int64_t rows = r.require<int64_t>(scan, "scan", "rows"), cols = r.require<int64_t>(scan, "scan", "cols");
+  if (rows <= 0 || cols <= 0 || rows > 100000 || cols > 100000)
+    fail(path, ": [scan] rows and cols must be positive integers, got ", rows, " x ", cols);
+  c.grid.rows = static_cast<int>(rows);
+  c.grid.cols = static_cast<int>(cols);
+  c.grid.step_um = r.require<double>(scan, "scan", "step_um");
+  if (!(c.grid.step_um > 0)) fail(path, ": [scan] step_um must be a positive step in µm, got ", c.grid.step_um);
+
+  // [patterns]
+  const toml::table* pat = r.table("patterns", true);
+  r.check_keys(pat, "patterns",
+               {"format", "file", "sample_type", "header_bytes", "width_px", "height_px", "dataset", "name_pattern"});
+  const std::string format = r.require<std::string>(pat, "patterns", "format");
+  if (format == "raw") c.patterns.format = PatternFormat::raw;
+  else if (format == "hdf5") c.patterns.format = PatternFormat::hdf5;
+  else if (format == "images") c.patterns.format = PatternFormat::images;
+  else fail(path, ": [patterns] format = \"", format, "\" is not \"raw\", \"hdf5\" or \"images\"");
+  c.patterns.path = r.resolve(r.require<std::string>(pat, "patterns", "file"));
+  if (auto t = r.get<std::string>(pat, "patterns", "sample_type")) {
+    try {
+      c.patterns.sample_type = parse_sample_type(*t);
+    } catch (const Error& e) {
+      fail(path, ": [patterns] sample_type: ", e.what());
+    }
+  }
+  const int64_t header = r.get<int64_t>(pat, "patterns", "header_bytes").value_or(0);
+  if (header < 0) fail(path, ": [patterns] header_bytes must be >= 0, got ", header);
+  c.patterns.header_bytes = static_cast<size_t>(header);
+  c.patterns.width_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "width_px").value_or(0));
+  c.patterns.height_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "height_px").value_or(0));
+  if (c.patterns.width_px < 0 || c.patterns.height_px < 0) fail(path, ": [patterns] width_px and height_px must be positive");
+  if (c.patterns.format == PatternFormat::raw && (c.patterns.width_px == 0 || c.patterns.height_px == 0))
+    fail(path, ": [patterns] a raw stack needs width_px and height_px");
+  c.patterns.dataset = r.get<std::string>(pat, "patterns", "dataset").value_or("");
+  if (c.patterns.format == PatternFormat::hdf5 && c.patterns.dataset.empty())
+    fail(path, ": [patterns] an HDF5 source needs 'dataset' (the path of the pattern dataset in the file)");
+  c.patterns.name_pattern = r.get<std::string>(pat, "patterns", "name_pattern").value_or("");
+  if (c.patterns.format == PatternFormat::images && c.patterns.name_pattern.empty())
+    fail(path, ": [patterns] an image folder needs 'name_pattern', e.g. \"p_{row:03}_{col:03}.png\"");
+
+  // [geometry]
+  const toml::table* geo = r.table("geometry", true);
+  r.check_keys(geo, "geometry",
+               {"pc_px", "distance_px", "sample_tilt_deg", "detector_tilt_deg", "binning", "screen_pixel_um"});
+  const toml::array* pc = geo->get("pc_px") ? geo->get("pc_px")->as_array() : nullptr;
+  if (!pc || pc->size() != 2 || !(*pc)[0].value<double>() || !(*pc)[1].value<double>())
+    fail(path, ": [geometry] pc_px must be [x, y] in pixels from the top-left corner (x right, y down)");
+  c.geometry.pc_px = {*(*pc)[0].value<double>(), *(*pc)[1].value<double>()};
+  c.geometry.distance_px = r.require<double>(geo, "geometry", "distance_px");
+  c.geometry.sample_tilt_deg = r.get<double>(geo, "geometry", "sample_tilt_deg").value_or(70.0);
+  c.geometry.detector_tilt_deg = r.get<double>(geo, "geometry", "detector_tilt_deg").value_or(0.0);
+  c.geometry.binning = static_cast<int>(r.get<int64_t>(geo, "geometry", "binning").value_or(1));
+  if (auto px = r.get<double>(geo, "geometry", "screen_pixel_um")) c.geometry.screen_pixel_um = *px;
+  c.geometry.width_px = c.patterns.width_px;
+  c.geometry.height_px = c.patterns.height_px;
+
+  // [microscope]
+  const toml::table* mic = r.table("microscope", false);
+  r.check_keys(mic, "microscope", {"kv"});
+  c.kv = r.get<double>(mic, "microscope", "kv").value_or(20.0);
+  if (!(c.kv > 0)) fail(path, ": [microscope] kv must be a positive voltage in kV, got ", c.kv);
+
+  // [phases]
+  const toml::table* ph = r.table("phases", false);
+  r.check_keys(ph, "phases", {"pair", "ordered", "disordered"});
+  c.phases.pair_name = r.get<std::string>(ph, "phases", "pair").value_or("");
+  const auto ord = r.get<std::string>(ph, "phases", "ordered"), dis = r.get<std::string>(ph, "phases", "disordered");
+  if (ord || dis) {
+    if (!ord || !dis) fail(path, ": [phases] 'ordered' and 'disordered' go together (two CIF files)");
+    if (!c.phases.pair_name.empty()) fail(path, ": [phases] give either 'pair' or 'ordered'/'disordered', not both");
+    c.phases.ordered_cif = r.resolve(*ord);
+    c.phases.disordered_cif = r.resolve(*dis);
+    for (const auto& f : {c.phases.ordered_cif, c.phases.disordered_cif})
+      if (!fs::exists(f)) fail(path, ": [phases] CIF file '", f, "' does not exist");
+  } else if (c.phases.pair_name.empty()) {
+    c.phases.pair_name = "ni";
+  }
+
+  // [orientations]
+  const toml::table* ori = r.table("orientations", false);
+  r.check_keys(ori, "orientations", {"source", "file", "refine"});
+  const std::string source = r.get<std::string>(ori, "orientations", "source").value_or("find");
+  if (source == "find") c.orientations.source = OrientationSourceKind::find;
+  else if (source == "file") c.orientations.source = OrientationSourceKind::file;
+  else fail(path, ": [orientations] source = \"", source, "\" is not \"find\" or \"file\"");
+  if (auto f = r.get<std::string>(ori, "orientations", "file")) c.orientations.file = r.resolve(*f);
+  if (c.orientations.source == OrientationSourceKind::file && c.orientations.file.empty())
+    fail(path, ": [orientations] source = \"file\" needs 'file' (a CSV of orientations)");
+  c.orientations.refine = r.get<bool>(ori, "orientations", "refine").value_or(true);
+
+  // [preprocess]
+  const toml::table* pre = r.table("preprocess", false);
+  r.check_keys(pre, "preprocess",
+               {"static_background", "dynamic_background_sigma_px", "mask", "mask_radius_px", "hot_pixel_filter",
+                "hot_pixel_threshold", "neighbour_sigma_steps"});
+  PreprocessSpec& p = c.preprocess;
+  const std::string sb = r.get<std::string>(pre, "preprocess", "static_background").value_or("scan_mean");
+  if (sb == "scan_mean") p.static_background = StaticBackgroundKind::scan_mean;
+  else if (sb == "none") p.static_background = StaticBackgroundKind::none;
+  else {
+    p.static_background = StaticBackgroundKind::file;
+    p.static_background_file = r.resolve(sb);
+    if (!fs::exists(p.static_background_file))
+      fail(path, ": [preprocess] static_background '", sb, "' is not \"scan_mean\", \"none\" or an existing image file");
+  }
+  p.dynamic_background_sigma_px = r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0);
+  const std::string mask = r.get<std::string>(pre, "preprocess", "mask").value_or("circle");
+  if (mask == "circle") p.mask = MaskKind::circle;
+  else if (mask == "none") p.mask = MaskKind::none;
+  else {
+    p.mask = MaskKind::file;
+    p.mask_file = r.resolve(mask);
+    if (!fs::exists(p.mask_file))
+      fail(path, ": [preprocess] mask '", mask, "' is not \"circle\", \"none\" or an existing image file");
+  }
+  p.mask_radius_px = r.get<double>(pre, "preprocess", "mask_radius_px").value_or(0.0);
+  if (p.mask_radius_px < 0) fail(path, ": [preprocess] mask_radius_px must be >= 0");
+  p.hot_pixel_filter = r.get<bool>(pre, "preprocess", "hot_pixel_filter").value_or(false);
+  p.hot_pixel_threshold = r.get<double>(pre, "preprocess", "hot_pixel_threshold").value_or(8.0);
+  if (!(p.hot_pixel_threshold > 0)) fail(path, ": [preprocess] hot_pixel_threshold must be positive");
+  p.neighbour_sigma_steps = r.get<double>(pre, "preprocess", "neighbour_sigma_steps").value_or(0.0);
+  if (p.neighbour_sigma_steps < 0) fail(path, ": [preprocess] neighbour_sigma_steps must be >= 0");
+
+  // [output]
+  const toml::table* out = r.table("output", false);
+  r.check_keys(out, "output", {"folder"});
+  c.output_folder = r.resolve(r.get<std::string>(out, "output", "folder").value_or("orderband-out"));
+  return c;
+}
+
+ScanConfig read_scan_config(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) fail("cannot read scan description '", path, "' (missing or unreadable)");
+  std::ostringstream text;
+  text << in.rdbuf();
+  return parse_scan_config(text.str(), path);
+}
+
+void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string& relative_to,
+                       const std::string& header_comment) {
+  auto rel = [&](const std::string& p) {
+    if (p.empty()) return p;
+    const fs::path r = fs::path(p).lexically_relative(fs::absolute(relative_to));
+    return r.empty() ? p : r.string();
+  };
+  auto q = [](const std::string& s) { return toml::value<std::string>(s); };
+  os.precision(17);
+  if (!header_comment.empty()) {
+    std::istringstream lines(header_comment);
+    for (std::string line; std::getline(lines, line);) os << "# " << line << "\n";
+    os << "\n";
+  }
+  os << "[scan]\ngrid = \"" << (c.grid.kind == GridKind::hexagonal ? "hexagonal" : "square") << "\"\nrows = "
+     << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um << "\n\n";
+  os << "[patterns]\nformat = \""
+     << (c.patterns.format == PatternFormat::raw ? "raw" : c.patterns.format == PatternFormat::hdf5 ? "hdf5" : "images")
+     << "\"\nfile = " << q(rel(c.patterns.path)) << "\n";
+  if (c.patterns.format == PatternFormat::raw)
+    os << "sample_type = \"" << sample_type_name(c.patterns.sample_type) << "\"\nheader_bytes = " << c.patterns.header_bytes
+       << "\n";
+  if (c.patterns.width_px) os << "width_px = " << c.patterns.width_px << "\nheight_px = " << c.patterns.height_px << "\n";
+  if (!c.patterns.dataset.empty()) os << "dataset = " << q(c.patterns.dataset) << "\n";
+  if (!c.patterns.name_pattern.empty()) os << "name_pattern = " << q(c.patterns.name_pattern) << "\n";
+  os << "\n[geometry]\npc_px = [" << c.geometry.pc_px.x() << ", " << c.geometry.pc_px.y()
+     << "]\ndistance_px = " << c.geometry.distance_px << "\nsample_tilt_deg = " << c.geometry.sample_tilt_deg
+     << "\ndetector_tilt_deg = " << c.geometry.detector_tilt_deg << "\nbinning = " << c.geometry.binning << "\n";
+  if (c.geometry.screen_pixel_um) os << "screen_pixel_um = " << *c.geometry.screen_pixel_um << "\n";
+  os << "\n[microscope]\nkv = " << c.kv << "\n\n[phases]\n";
+  if (!c.phases.pair_name.empty()) os << "pair = " << q(c.phases.pair_name) << "\n";
+  else os << "ordered = " << q(rel(c.phases.ordered_cif)) << "\ndisordered = " << q(rel(c.phases.disordered_cif)) << "\n";
+  os << "\n[orientations]\nsource = \"" << (c.orientations.source == OrientationSourceKind::file ? "file" : "find")
+     << "\"\n";
+  if (!c.orientations.file.empty()) os << "file = " << q(rel(c.orientations.file)) << "\n";
+  os << "refine = " << (c.orientations.refine ? "true" : "false") << "\n\n[preprocess]\n";
+  const PreprocessSpec& p = c.preprocess;
+  os << "static_background = "
+     << q(p.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
+          : p.static_background == StaticBackgroundKind::none    ? "none"
+                                                                 : rel(p.static_background_file))
+     << "\ndynamic_background_sigma_px = " << p.dynamic_background_sigma_px << "\nmask = "
+     << q(p.mask == MaskKind::circle ? "circle" : p.mask == MaskKind::none ? "none" : rel(p.mask_file))
+     << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
+     << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
+     << "\n\n[output]\nfolder = " << q(rel(c.output_folder)) << "\n";
+}
+
+}  // namespace orderband

@@ -1,0 +1,61 @@
+// `orderband check`: summary numbers by hand and one clear error line for bad data.
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <fstream>
+#include <random>
+
+#include "test_support.hpp"
+
+namespace orderband {
+namespace {
+
+struct SmallScan {
+  std::string dir;
+  SmallScan(size_t drop_bytes = 0) : dir(test::make_temp_dir("check")) {
+    std::mt19937 rng(1);
+    std::poisson_distribution<int> counts(800);
+    std::vector<uint16_t> data(4 * 5 * 40 * 40);
+    for (auto& v : data) v = static_cast<uint16_t>(counts(rng));
+    std::fill(data.begin() + 7 * 1600, data.begin() + 8 * 1600, 1000);  // point 7 is dead (constant)
+    std::ofstream(dir + "/p.raw", std::ios::binary)
+        .write(reinterpret_cast<const char*>(data.data()), data.size() * 2 - drop_bytes);
+    std::ofstream(dir + "/scan.toml") << "[scan]\nrows = 4\ncols = 5\nstep_um = 0.05\n"
+                                         "[patterns]\nformat = \"raw\"\nfile = \"p.raw\"\nwidth_px = 40\nheight_px = 40\n"
+                                         "[geometry]\npc_px = [20.0, 10.0]\ndistance_px = 40.0\n";
+  }
+  ~SmallScan() { std::filesystem::remove_all(dir); }
+};
+
+TEST(CliCheck, SummaryNumbersByHand) {
+  SmallScan s;
+  const auto r = test::run_orderband("check " + s.dir + "/scan.toml --sample 20");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_NE(r.out.find("4 rows x 5 cols = 20 points, step 0.05 um"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("field:       0.25 x 0.2 um"), std::string::npos) << r.out;
+  // atan(1/40) = 1.4321° per pixel; the screen spans atan(20/40) + atan(20/40) = 53.13° across.
+  EXPECT_NE(r.out.find("53.13 x"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("1.4321 deg per pixel"), std::string::npos) << r.out;
+  // PC direction is +y_L = (0, −cos 70°, −sin 70°) in the sample frame.
+  EXPECT_NE(r.out.find("[0.0000, -0.3420, -0.9397]"), std::string::npos) << r.out;
+  // γ′ {111}: θ_B = 1.193°, band 2θ_B / 1.4321° = 1.67 px wide.
+  const auto row = r.out.find("\n{111}");
+  ASSERT_NE(row, std::string::npos);
+  EXPECT_NE(r.out.substr(row, 80).find("1.67"), std::string::npos) << r.out.substr(row, 80);
+  EXPECT_NE(r.out.find("20 patterns preprocessed, 1 unusable"), std::string::npos) << r.out;
+}
+
+TEST(CliCheck, ShortFileIsOneClearError) {
+  SmallScan s(100);
+  const auto r = test::run_orderband("check " + s.dir + "/scan.toml");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.err.find("orderband check: error: " + s.dir + "/p.raw is 63900 bytes, shorter than"), std::string::npos)
+      << r.err;
+  EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1);
+  const auto missing = test::run_orderband("check " + s.dir + "/nothing.toml");
+  EXPECT_EQ(missing.exit_code, 1);
+  EXPECT_NE(missing.err.find("cannot read scan description"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace orderband

@@ -1,0 +1,105 @@
+// Scan description: reading, defaults, relative paths, round trip, one clear error per problem.
+#include "orderband/scan_config.hpp"
+
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "orderband/error.hpp"
+#include "test_support.hpp"
+
+namespace orderband {
+namespace {
+
+const std::string kMinimal = R"(
+[scan]
+rows = 3
+cols = 4
+step_um = 0.05
+
+[patterns]
+format = "raw"
+file = "data/p.raw"
+width_px = 20
+height_px = 16
+
+[geometry]
+pc_px = [10.0, 5.5]
+distance_px = 18.0
+)";
+
+std::string error_of(const std::string& text) {
+  try {
+    parse_scan_config(text, "/tmp/scans/s.toml");
+  } catch (const Error& e) {
+    return e.what();
+  }
+  return "no error";
+}
+
+TEST(ScanConfig, DefaultsAndRelativePaths) {
+  const ScanConfig c = parse_scan_config(kMinimal, "/tmp/scans/s.toml");
+  EXPECT_EQ(c.grid.kind, GridKind::square);
+  EXPECT_EQ(c.grid.count(), 12u);
+  EXPECT_EQ(c.patterns.path, "/tmp/scans/data/p.raw");  // relative to the description's folder
+  EXPECT_EQ(c.patterns.sample_type, SampleType::uint16);
+  EXPECT_DOUBLE_EQ(c.geometry.sample_tilt_deg, 70.0);
+  EXPECT_DOUBLE_EQ(c.kv, 20.0);
+  EXPECT_EQ(c.phases.pair_name, "ni");
+  EXPECT_EQ(c.orientations.source, OrientationSourceKind::find);
+  EXPECT_EQ(c.preprocess.static_background, StaticBackgroundKind::scan_mean);
+  EXPECT_DOUBLE_EQ(c.preprocess.dynamic_background_sigma_px, -1.0);  // 0.1 × width when used
+  EXPECT_EQ(c.output_folder, "/tmp/scans/orderband-out");
+  EXPECT_FALSE(c.geometry.screen_pixel_um.has_value());
+}
+
+TEST(ScanConfig, WriteThenReadGivesTheSameValues) {
+  std::string text = kMinimal;
+  text.replace(text.find("rows = 3"), 8, "grid = \"hexagonal\"\nrows = 3");
+  text += "binning = 2\nscreen_pixel_um = 59.5\ndetector_tilt_deg = -3.25\n[microscope]\nkv = 15\n"
+          "[preprocess]\nneighbour_sigma_steps = 0.8\nhot_pixel_filter = true\n[orientations]\nsource = \"file\"\n"
+          "file = \"o \\\"1\\\".csv\"\nrefine = false\n";
+  const ScanConfig a = parse_scan_config(text, "/tmp/scans/s.toml");
+  std::ostringstream os;
+  write_scan_config(os, a, "/tmp/scans", "written by a test");
+  const ScanConfig b = parse_scan_config(os.str(), "/tmp/scans/s.toml");
+  EXPECT_EQ(b.grid.kind, GridKind::hexagonal);
+  EXPECT_EQ(b.patterns.path, a.patterns.path);
+  EXPECT_EQ(b.geometry.pc_px, a.geometry.pc_px);
+  EXPECT_EQ(b.geometry.detector_tilt_deg, -3.25);
+  EXPECT_EQ(*b.geometry.screen_pixel_um, 59.5);
+  EXPECT_EQ(b.geometry.binning, 2);
+  EXPECT_EQ(b.kv, 15.0);
+  EXPECT_EQ(b.orientations.file, "/tmp/scans/o \"1\".csv");
+  EXPECT_FALSE(b.orientations.refine);
+  EXPECT_EQ(b.preprocess.neighbour_sigma_steps, 0.8);
+  EXPECT_TRUE(b.preprocess.hot_pixel_filter);
+  EXPECT_NE(os.str().find("# written by a test"), std::string::npos);
+}
+
+TEST(ScanConfig, OneClearLinePerProblem) {
+  auto with = [](const std::string& from, const std::string& to) {
+    std::string t = kMinimal;
+    t.replace(t.find(from), from.size(), to);
+    return t;
+  };
+  EXPECT_NE(error_of(with("rows = 3", "rows = 0")).find("rows and cols must be positive"), std::string::npos);
+  EXPECT_NE(error_of(with("step_um = 0.05", "step_um = -1")).find("step_um must be a positive step in µm"),
+            std::string::npos);
+  EXPECT_NE(error_of(with("format = \"raw\"", "format = \"zip\"")).find("format = \"zip\" is not"), std::string::npos);
+  EXPECT_NE(error_of(with("width_px = 20\n", "")).find("a raw stack needs width_px and height_px"), std::string::npos);
+  EXPECT_NE(error_of(with("pc_px = [10.0, 5.5]", "pc_px = 10")).find("pc_px must be [x, y]"), std::string::npos);
+  EXPECT_NE(error_of(with("rows = 3", "rows = 3\nstep = 2")).find("unknown key 'step' in [scan]"), std::string::npos);
+  EXPECT_NE(error_of(kMinimal + "[scna]\n").find("unknown table [scna]"), std::string::npos);
+  EXPECT_NE(error_of(kMinimal + "[microscope]\nkv = 0\n").find("kv must be a positive voltage"), std::string::npos);
+  EXPECT_NE(error_of(kMinimal + "[phases]\nordered = \"x.cif\"\n").find("go together"), std::string::npos);
+  EXPECT_NE(error_of(with("rows = 3", "rows = \"three\"")).find("rows must be an integer"), std::string::npos);
+  EXPECT_NE(error_of("[scan\n").find("/tmp/scans/s.toml:1"), std::string::npos);
+  EXPECT_NE(error_of(kMinimal + "[orientations]\nsource = \"file\"\n").find("needs 'file'"), std::string::npos);
+  EXPECT_THROW(read_scan_config("/no/such/scan.toml"), Error);
+}
+
+}  // namespace
+}  // namespace orderband
