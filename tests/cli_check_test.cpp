@@ -20,9 +20,10 @@ struct SmallScan {
     std::fill(data.begin() + 7 * 1600, data.begin() + 8 * 1600, 1000);  // point 7 is dead (constant)
     std::ofstream(dir + "/p.raw", std::ios::binary)
         .write(reinterpret_cast<const char*>(data.data()), data.size() * 2 - drop_bytes);
-    std::ofstream(dir + "/scan.toml") << "[scan]\nrows = 4\ncols = 5\nstep_um = 0.05\n"
-                                         "[patterns]\nformat = \"raw\"\nfile = \"p.raw\"\nwidth_px = 40\nheight_px = 40\n"
-                                         "[geometry]\npc_px = [20.0, 10.0]\ndistance_px = 40.0\n";
+    std::ofstream(dir + "/scan.toml")
+        << "[scan]\nrows = 4\ncols = 5\nstep_um = 0.05\n"
+           "[patterns]\nformat = \"raw\"\nfile = \"p.raw\"\nwidth_px = 40\nheight_px = 40\n"
+           "[geometry]\npc_px = [20.0, 10.0]\ndistance_px = 40.0\n";
   }
   ~SmallScan() { std::filesystem::remove_all(dir); }
 };

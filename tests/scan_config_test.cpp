@@ -58,9 +58,10 @@ TEST(ScanConfig, DefaultsAndRelativePaths) {
 TEST(ScanConfig, WriteThenReadGivesTheSameValues) {
   std::string text = kMinimal;
   text.replace(text.find("rows = 3"), 8, "grid = \"hexagonal\"\nrows = 3");
-  text += "binning = 2\nscreen_pixel_um = 59.5\ndetector_tilt_deg = -3.25\n[microscope]\nkv = 15\n"
-          "[preprocess]\nneighbour_sigma_steps = 0.8\nhot_pixel_filter = true\n[orientations]\nsource = \"file\"\n"
-          "file = \"o \\\"1\\\".csv\"\nrefine = false\n";
+  text +=
+      "binning = 2\nscreen_pixel_um = 59.5\ndetector_tilt_deg = -3.25\n[microscope]\nkv = 15\n"
+      "[preprocess]\nneighbour_sigma_steps = 0.8\nhot_pixel_filter = true\n[orientations]\nsource = \"file\"\n"
+      "file = \"o \\\"1\\\".csv\"\nrefine = false\n";
   const ScanConfig a = parse_scan_config(text, "/tmp/scans/s.toml");
   std::ostringstream os;
   write_scan_config(os, a, "/tmp/scans", "written by a test");

@@ -23,7 +23,7 @@ enum class OrientationSourceKind { find, file };
 
 struct OrientationSelection {
   OrientationSourceKind source = OrientationSourceKind::find;
-  std::string file;   ///< CSV (absolute path) when source = file
+  std::string file;  ///< CSV (absolute path) when source = file
   bool refine = true;
 };
 

@@ -19,6 +19,7 @@ struct CommandEntry {
 
 std::function<int()> setup_families(CLI::App& sub);
 std::function<int()> setup_check(CLI::App& sub);
+std::function<int()> setup_synth(CLI::App& sub);
 
 /// The full command line, for provenance in every output.
 const std::string& command_line();
@@ -27,5 +28,10 @@ void set_command_line(int argc, char** argv);
 /// Output format option shared by the commands that print tables.
 enum class TableFormat { text, csv, json };
 void add_format_option(CLI::App& sub, TableFormat& format);
+
+/// `--threads N` (0: all cores), shared by the commands that compute.
+void add_threads_option(CLI::App& sub, int& threads);
+/// Sets the OpenMP thread count (0 leaves the default: all cores).
+void apply_threads(int threads);
 
 }  // namespace orderband::cli

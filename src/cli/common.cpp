@@ -1,4 +1,6 @@
 // Helpers shared by the commands: provenance and shared options.
+#include <omp.h>
+
 #include <map>
 
 #include "command.hpp"
@@ -24,6 +26,16 @@ void add_format_option(CLI::App& sub, TableFormat& format) {
   sub.add_option("--format", format, "output format: text (aligned table), csv or json")
       ->transform(CLI::CheckedTransformer(names, CLI::ignore_case))
       ->default_str("text");
+}
+
+void add_threads_option(CLI::App& sub, int& threads) {
+  sub.add_option("--threads", threads, "worker threads (0: all cores)")
+      ->check(CLI::NonNegativeNumber)
+      ->default_str("0");
+}
+
+void apply_threads(int threads) {
+  if (threads > 0) omp_set_num_threads(threads);
 }
 
 }  // namespace orderband::cli

@@ -15,6 +15,7 @@ const std::vector<CommandEntry>& commands() {
       {"families", "plane-family table of phases at a voltage: d, Bragg angle, |F|, superlattice sensitivity",
        setup_families},
       {"check", "validate a scan description and its data; print what a run will do", setup_check},
+      {"synth", "make a synthetic scan (patterns and truth) from a scenario", setup_synth},
   };
   return table;
 }

@@ -1,98 +1,23 @@
 // Reading and writing the scan description (TOML).
+#include <toml++/toml.h>
 #include <filesystem>
 #include <fstream>
 #include <set>
 #include <sstream>
-#include <toml++/toml.h>
 
 #include "orderband/error.hpp"
 #include "orderband/scan_config.hpp"
+#include "toml_reader.hpp"
 
 namespace fs = std::filesystem;
 
 namespace orderband {
-namespace {
-
-class Reader {
- public:
-  Reader(const toml::table& root, std::string path) : root_(root), path_(std::move(path)) {
-    folder_ = fs::absolute(fs::path(path_)).parent_path();
-  }
-
-  const toml::table* table(const std::string& name, bool required) {
-    const toml::node* n = root_.get(name);
-    if (!n) {
-      if (required) fail(path_, ": missing table [", name, "]");
-      return nullptr;
-    }
-    if (!n->is_table()) fail(path_, ": '", name, "' must be a table [", name, "]");
-    return n->as_table();
-  }
-
-  void check_keys(const toml::table* t, const std::string& name, const std::set<std::string>& allowed) {
-    if (!t) return;
-    for (const auto& [k, v] : *t)
-      if (!allowed.count(std::string(k.str()))) {
-        std::string list;
-        for (const auto& a : allowed) list += (list.empty() ? "" : ", ") + a;
-        fail(path_, ": unknown key '", k.str(), "' in [", name, "] (known: ", list, ")");
-      }
-  }
-
-  template <class T>
-  std::optional<T> get(const toml::table* t, const std::string& table_name, const std::string& key) {
-    if (!t) return std::nullopt;
-    const toml::node* n = t->get(key);
-    if (!n) return std::nullopt;
-    if constexpr (std::is_same_v<T, double>) {
-      if (auto v = n->value<double>()) return *v;  // integers convert
-      fail(path_, ": [", table_name, "] ", key, " must be a number");
-    } else if constexpr (std::is_same_v<T, int64_t>) {
-      if (n->is_integer()) return n->value<int64_t>();
-      fail(path_, ": [", table_name, "] ", key, " must be an integer");
-    } else if constexpr (std::is_same_v<T, bool>) {
-      if (n->is_boolean()) return n->value<bool>();
-      fail(path_, ": [", table_name, "] ", key, " must be true or false");
-    } else {
-      if (n->is_string()) return n->value<std::string>();
-      fail(path_, ": [", table_name, "] ", key, " must be a string");
-    }
-  }
-
-  template <class T>
-  T require(const toml::table* t, const std::string& table_name, const std::string& key) {
-    auto v = get<T>(t, table_name, key);
-    if (!v) fail(path_, ": [", table_name, "] needs '", key, "'");
-    return *v;
-  }
-
-  std::string resolve(const std::string& p) const {
-    const fs::path q(p);
-    return (q.is_absolute() ? q : folder_ / q).lexically_normal().string();
-  }
-
-  const std::string& path() const { return path_; }
-  std::string folder() const { return folder_.string(); }
-
- private:
-  const toml::table& root_;
-  std::string path_;
-  fs::path folder_;
-};
-
-}  // namespace
-
 ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
-  toml::table root;
-  try {
-    root = toml::parse(text, path);
-  } catch (const toml::parse_error& e) {
-    fail(path, ":", e.source().begin.line, ": ", e.description());
-  }
-  Reader r(root, path);
+  const toml::table root = parse_toml_or_fail(text, path);
+  TomlReader r(root, path);
   for (const auto& [k, v] : root) {
-    static const std::set<std::string> tables{"scan", "patterns", "geometry", "microscope", "phases",
-                                              "orientations", "preprocess", "output"};
+    static const std::set<std::string> tables{"scan",   "patterns",     "geometry",   "microscope",
+                                              "phases", "orientations", "preprocess", "output"};
     if (!tables.count(std::string(k.str())))
       fail(path, ": unknown table [", k.str(),
            "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, output)");
@@ -105,9 +30,12 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table* scan = r.table("scan", true);
   r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um"});
   const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
-  if (grid == "square") c.grid.kind = GridKind::square;
-  else if (grid == "hexagonal") c.grid.kind = GridKind::hexagonal;
-  else fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
+  if (grid == "square")
+    c.grid.kind = GridKind::square;
+  else if (grid == "hexagonal")
+    c.grid.kind = GridKind::hexagonal;
+  else
+    fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
   const int64_t rows = r.require<int64_t>(scan, "scan", "rows"), cols = r.require<int64_t>(scan, "scan", "cols");
   if (rows <= 0 || cols <= 0 || rows > 100000 || cols > 100000)
     fail(path, ": [scan] rows and cols must be positive integers, got ", rows, " x ", cols);
@@ -121,10 +49,14 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   r.check_keys(pat, "patterns",
                {"format", "file", "sample_type", "header_bytes", "width_px", "height_px", "dataset", "name_pattern"});
   const std::string format = r.require<std::string>(pat, "patterns", "format");
-  if (format == "raw") c.patterns.format = PatternFormat::raw;
-  else if (format == "hdf5") c.patterns.format = PatternFormat::hdf5;
-  else if (format == "images") c.patterns.format = PatternFormat::images;
-  else fail(path, ": [patterns] format = \"", format, "\" is not \"raw\", \"hdf5\" or \"images\"");
+  if (format == "raw")
+    c.patterns.format = PatternFormat::raw;
+  else if (format == "hdf5")
+    c.patterns.format = PatternFormat::hdf5;
+  else if (format == "images")
+    c.patterns.format = PatternFormat::images;
+  else
+    fail(path, ": [patterns] format = \"", format, "\" is not \"raw\", \"hdf5\" or \"images\"");
   c.patterns.path = r.resolve(r.require<std::string>(pat, "patterns", "file"));
   if (auto t = r.get<std::string>(pat, "patterns", "sample_type")) {
     try {
@@ -138,7 +70,8 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   c.patterns.header_bytes = static_cast<size_t>(header);
   c.patterns.width_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "width_px").value_or(0));
   c.patterns.height_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "height_px").value_or(0));
-  if (c.patterns.width_px < 0 || c.patterns.height_px < 0) fail(path, ": [patterns] width_px and height_px must be positive");
+  if (c.patterns.width_px < 0 || c.patterns.height_px < 0)
+    fail(path, ": [patterns] width_px and height_px must be positive");
   if (c.patterns.format == PatternFormat::raw && (c.patterns.width_px == 0 || c.patterns.height_px == 0))
     fail(path, ": [patterns] a raw stack needs width_px and height_px");
   c.patterns.dataset = r.get<std::string>(pat, "patterns", "dataset").value_or("");
@@ -190,9 +123,12 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table* ori = r.table("orientations", false);
   r.check_keys(ori, "orientations", {"source", "file", "refine"});
   const std::string source = r.get<std::string>(ori, "orientations", "source").value_or("find");
-  if (source == "find") c.orientations.source = OrientationSourceKind::find;
-  else if (source == "file") c.orientations.source = OrientationSourceKind::file;
-  else fail(path, ": [orientations] source = \"", source, "\" is not \"find\" or \"file\"");
+  if (source == "find")
+    c.orientations.source = OrientationSourceKind::find;
+  else if (source == "file")
+    c.orientations.source = OrientationSourceKind::file;
+  else
+    fail(path, ": [orientations] source = \"", source, "\" is not \"find\" or \"file\"");
   if (auto f = r.get<std::string>(ori, "orientations", "file")) c.orientations.file = r.resolve(*f);
   if (c.orientations.source == OrientationSourceKind::file && c.orientations.file.empty())
     fail(path, ": [orientations] source = \"file\" needs 'file' (a CSV of orientations)");
@@ -205,18 +141,23 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
                 "hot_pixel_threshold", "neighbour_sigma_steps"});
   PreprocessSpec& p = c.preprocess;
   const std::string sb = r.get<std::string>(pre, "preprocess", "static_background").value_or("scan_mean");
-  if (sb == "scan_mean") p.static_background = StaticBackgroundKind::scan_mean;
-  else if (sb == "none") p.static_background = StaticBackgroundKind::none;
+  if (sb == "scan_mean")
+    p.static_background = StaticBackgroundKind::scan_mean;
+  else if (sb == "none")
+    p.static_background = StaticBackgroundKind::none;
   else {
     p.static_background = StaticBackgroundKind::file;
     p.static_background_file = r.resolve(sb);
     if (!fs::exists(p.static_background_file))
-      fail(path, ": [preprocess] static_background '", sb, "' is not \"scan_mean\", \"none\" or an existing image file");
+      fail(path, ": [preprocess] static_background '", sb,
+           "' is not \"scan_mean\", \"none\" or an existing image file");
   }
   p.dynamic_background_sigma_px = r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0);
   const std::string mask = r.get<std::string>(pre, "preprocess", "mask").value_or("circle");
-  if (mask == "circle") p.mask = MaskKind::circle;
-  else if (mask == "none") p.mask = MaskKind::none;
+  if (mask == "circle")
+    p.mask = MaskKind::circle;
+  else if (mask == "none")
+    p.mask = MaskKind::none;
   else {
     p.mask = MaskKind::file;
     p.mask_file = r.resolve(mask);
@@ -238,12 +179,16 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   return c;
 }
 
-ScanConfig read_scan_config(const std::string& path) {
+std::string read_text_file(const std::string& path, const std::string& what) {
   std::ifstream in(path, std::ios::binary);
-  if (!in) fail("cannot read scan description '", path, "' (missing or unreadable)");
+  if (!in) fail("cannot read ", what, " '", path, "' (missing or unreadable)");
   std::ostringstream text;
   text << in.rdbuf();
-  return parse_scan_config(text.str(), path);
+  return text.str();
+}
+
+ScanConfig read_scan_config(const std::string& path) {
+  return parse_scan_config(read_text_file(path, "scan description"), path);
 }
 
 void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string& relative_to,
@@ -260,15 +205,18 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
     for (std::string line; std::getline(lines, line);) os << "# " << line << "\n";
     os << "\n";
   }
-  os << "[scan]\ngrid = \"" << (c.grid.kind == GridKind::hexagonal ? "hexagonal" : "square") << "\"\nrows = "
-     << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um << "\n\n";
+  os << "[scan]\ngrid = \"" << (c.grid.kind == GridKind::hexagonal ? "hexagonal" : "square")
+     << "\"\nrows = " << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um << "\n\n";
   os << "[patterns]\nformat = \""
-     << (c.patterns.format == PatternFormat::raw ? "raw" : c.patterns.format == PatternFormat::hdf5 ? "hdf5" : "images")
+     << (c.patterns.format == PatternFormat::raw    ? "raw"
+         : c.patterns.format == PatternFormat::hdf5 ? "hdf5"
+                                                    : "images")
      << "\"\nfile = " << q(rel(c.patterns.path)) << "\n";
   if (c.patterns.format == PatternFormat::raw)
-    os << "sample_type = \"" << sample_type_name(c.patterns.sample_type) << "\"\nheader_bytes = " << c.patterns.header_bytes
-       << "\n";
-  if (c.patterns.width_px) os << "width_px = " << c.patterns.width_px << "\nheight_px = " << c.patterns.height_px << "\n";
+    os << "sample_type = \"" << sample_type_name(c.patterns.sample_type)
+       << "\"\nheader_bytes = " << c.patterns.header_bytes << "\n";
+  if (c.patterns.width_px)
+    os << "width_px = " << c.patterns.width_px << "\nheight_px = " << c.patterns.height_px << "\n";
   if (!c.patterns.dataset.empty()) os << "dataset = " << q(c.patterns.dataset) << "\n";
   if (!c.patterns.name_pattern.empty()) os << "name_pattern = " << q(c.patterns.name_pattern) << "\n";
   os << "\n[geometry]\npc_px = [" << c.geometry.pc_px.x() << ", " << c.geometry.pc_px.y()
@@ -276,8 +224,10 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
      << "\ndetector_tilt_deg = " << c.geometry.detector_tilt_deg << "\nbinning = " << c.geometry.binning << "\n";
   if (c.geometry.screen_pixel_um) os << "screen_pixel_um = " << *c.geometry.screen_pixel_um << "\n";
   os << "\n[microscope]\nkv = " << c.kv << "\n\n[phases]\n";
-  if (!c.phases.pair_name.empty()) os << "pair = " << q(c.phases.pair_name) << "\n";
-  else os << "ordered = " << q(rel(c.phases.ordered_cif)) << "\ndisordered = " << q(rel(c.phases.disordered_cif)) << "\n";
+  if (!c.phases.pair_name.empty())
+    os << "pair = " << q(c.phases.pair_name) << "\n";
+  else
+    os << "ordered = " << q(rel(c.phases.ordered_cif)) << "\ndisordered = " << q(rel(c.phases.disordered_cif)) << "\n";
   os << "\n[orientations]\nsource = \"" << (c.orientations.source == OrientationSourceKind::file ? "file" : "find")
      << "\"\n";
   if (!c.orientations.file.empty()) os << "file = " << q(rel(c.orientations.file)) << "\n";
@@ -288,7 +238,9 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
           : p.static_background == StaticBackgroundKind::none    ? "none"
                                                                  : rel(p.static_background_file))
      << "\ndynamic_background_sigma_px = " << p.dynamic_background_sigma_px << "\nmask = "
-     << q(p.mask == MaskKind::circle ? "circle" : p.mask == MaskKind::none ? "none" : rel(p.mask_file))
+     << q(p.mask == MaskKind::circle ? "circle"
+          : p.mask == MaskKind::none ? "none"
+                                     : rel(p.mask_file))
      << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
      << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
      << "\n\n[output]\nfolder = " << q(rel(c.output_folder)) << "\n";

@@ -1,0 +1,78 @@
+// The kinematic band model: pattern intensity on the sphere from plane families and structure factors.
+#pragma once
+
+#include <Eigen/Core>
+#include <cmath>
+#include <vector>
+
+#include "orderband/frames.hpp"
+#include "orderband/phase.hpp"
+
+namespace orderband {
+
+/// Parameters of the declared kinematic band model (a model, not a dynamical
+/// simulation). Every family {hkl} with d ≥ d_min_A gives, for each of its
+/// planes with unit normal n, a band of half-width θ_B around the great
+/// circle n·x = 0:
+///   I(x) = 1 + Σ_planes w_hkl · p(α / θ_B),  α = asin(n·x),
+///   w_hkl = band_contrast · (|F_hkl| / |F_max|)^band_exponent,
+///   p(u) = s(u) + edge_contrast · exp(−(|u| − 1)² / (2 e²)),
+///   s(u) = ½ [1 + tanh((1 − |u|) / e)],  e = edge_width (in units of θ_B),
+/// where F_max is the phase's strongest family, so the strongest band of
+/// every phase has the same contrast. With band_exponent = 2 the weights are
+/// the kinematic intensities |F|² (textbook kinematic theory).
+struct BandModelParams {
+  double band_contrast = 0.12;  ///< weight of the strongest band (fraction of background)
+  double band_exponent = 2.0;   ///< w ∝ |F|^exponent
+  double edge_contrast = 0.25;  ///< bright edge lines, relative to the band's own weight
+  double edge_width = 0.12;     ///< edge softness e, in units of θ_B
+  double d_min_A = 0.8;         ///< families with d below this are left out
+};
+
+/// One plane of the model: unit normal (crystal frame), half-width, weight.
+struct ModelBand {
+  Eigen::Vector3d normal;
+  double theta_b = 0;  ///< radians
+  double weight = 0;
+  int family = 0;      ///< index into families()
+};
+
+struct ModelFamily {
+  Eigen::Vector3i hkl;
+  double d_A = 0, theta_b = 0, f_abs_A = 0, weight = 0;
+};
+
+class KinematicBandModel {
+ public:
+  KinematicBandModel(const Phase& phase, double kilovolts, const BandModelParams& params);
+
+  /// Relative intensity I(x) at a crystal-frame direction (1 = background).
+  double intensity(const CrystalDirection& x) const { return intensity(x.vec()); }
+  double intensity(const Eigen::Vector3d& crystal_unit) const;
+
+  const std::vector<ModelBand>& bands() const { return bands_; }
+  const std::vector<ModelFamily>& families() const { return families_; }
+  const BandModelParams& params() const { return params_; }
+  /// Profile p(u) of the model at u = α / θ_B.
+  double profile(double u) const;
+  /// The same from a table (linear interpolation, relative error < 1e-5), for rendering.
+  double profile_table(double u) const {
+    const double x = std::abs(u) * table_scale_;
+    const size_t k = static_cast<size_t>(x);
+    if (k + 1 >= table_.size()) return 0.0;
+    const double t = x - static_cast<double>(k);
+    return table_[k] + t * (table_[k + 1] - table_[k]);
+  }
+  /// |u| beyond which the profile is below 1e-5 of the band weight.
+  double profile_reach() const { return 1 + 6 * params_.edge_width; }
+
+ private:
+  BandModelParams params_;
+  std::vector<ModelFamily> families_;
+  std::vector<ModelBand> bands_;
+  std::vector<double> sin_reach_;  ///< per band: sin of the largest |α| with a non-negligible profile
+  std::vector<double> table_;      ///< profile at |u| = k / table_scale_
+  double table_scale_ = 1;
+};
+
+}  // namespace orderband

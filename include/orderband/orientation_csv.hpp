@@ -1,0 +1,33 @@
+// Orientation tables as CSV: row, col, phi1_deg, Phi_deg, phi2_deg, phase.
+#pragma once
+
+#include <istream>
+#include <optional>
+#include <ostream>
+#include <string>
+#include <vector>
+
+#include "orderband/rotation.hpp"
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+/// One orientation per scan point, in scan order. An absent orientation
+/// (unusable point) is written with empty angle fields.
+struct OrientationTable {
+  std::vector<std::optional<Rotation>> orientations;
+  std::vector<std::string> phases;  ///< optional phase label per point ("" if none)
+};
+
+/// Writes the CSV: a `#` provenance line (if given), the header
+/// `row,col,phi1_deg,Phi_deg,phi2_deg,phase` and one line per point, angles
+/// with 17 significant digits so that reading gives back the same rotation.
+void write_orientation_csv(std::ostream& os, const ScanGrid& grid, const OrientationTable& table,
+                           const std::string& provenance = "");
+
+/// Reads the CSV and checks it against the grid: one line per point in scan
+/// order, row/col matching, angles in range (φ1, φ2 ∈ [−360, 360], Φ ∈ [0, 180]),
+/// `phase` optional. Errors name the file (`origin`), the line and the value.
+OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, const std::string& origin);
+
+}  // namespace orderband

@@ -1,0 +1,107 @@
+// Synthetic scans: scenario, per-point phase mixtures, kinematic pattern rendering and truth.
+#pragma once
+
+#include <cstdint>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "orderband/band_model.hpp"
+#include "orderband/detector_geometry.hpp"
+#include "orderband/microstructure.hpp"
+#include "orderband/ordering_pair.hpp"
+#include "orderband/scan_config.hpp"
+
+namespace orderband {
+
+/// Everything a synthetic scan is made from (read from a scenario TOML file).
+struct SynthScenario {
+  std::string path;  ///< scenario file (absolute), empty when built in code
+  std::string name;
+  std::string description;
+  std::uint64_t seed = 1;
+  ScanGrid grid;
+  DetectorGeometrySpec geometry;  ///< stored-pattern pixels (after binning)
+  double kv = 20;
+  PhaseSelection phases;
+  SampleType sample_type = SampleType::uint16;  ///< uint8 or uint16
+  double counts_per_px = 5000;  ///< mean expected counts per stored pixel
+  BandModelParams band;
+  double beam_sigma_nm = 10;    ///< Gaussian beam-interaction blur in the scan plane; 0: none
+  double background_falloff = 0.5;  ///< background: 1 − falloff at the far corners relative to the bright centre
+  bool pc_drift = false;        ///< render with the PC drifting across the scan (needs screen_pixel_um)
+  MicrostructureSpec micro;
+  bool scan_uses_truth_orientations = false;  ///< the written scan.toml reads truth_orientations.csv
+};
+
+/// Reads a scenario; one clear error line per problem (negative sizes,
+/// fractions above 1, unknown phase files, unknown keys).
+SynthScenario read_synth_scenario(const std::string& path);
+SynthScenario parse_synth_scenario(const std::string& toml_text, const std::string& path);
+
+/// One phase component of a point's pattern: a lattice orientation, ordered
+/// or not, with its share of the diffracting volume.
+struct MixtureComponent {
+  Rotation orientation;
+  bool ordered = false;
+  double weight = 0;
+  int key = 0;  ///< grain index, or −(particle index + 1) for a particle's own orientation
+};
+
+/// Phase mixture at a scan point: the Gaussian beam blur sampled on a 5 × 5
+/// grid of offsets spaced σ apart (weights exp(−r²/2σ²)), each offset taking
+/// the microstructure there (matrix: 1 − f_t disordered + f_t ordered with the
+/// host grain's orientation; particle: ordered with its own orientation).
+std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um,
+                                            double beam_sigma_um);
+
+/// Renders patterns from the kinematic band model (see band_model.hpp):
+/// expected counts = counts_per_px · B(pixel) · Σ_c w_c I_c(g_c v), with B a
+/// smooth background of mean 1 over the screen, then Poisson noise. Binned
+/// stored pixels average binning² sub-pixel directions.
+class PatternRenderer {
+ public:
+  PatternRenderer(const DetectorGeometry& geometry, const KinematicBandModel& ordered,
+                  const KinematicBandModel& disordered, double counts_per_px, double background_falloff);
+  /// Expected counts (no noise) for a mixture, with the geometry given (PC drift).
+  void expected(const std::vector<MixtureComponent>& mix, const DetectorGeometry& geometry, float* out) const;
+  /// Expected counts then Poisson noise from `seed`, clipped to the sample type's range.
+  void render(const std::vector<MixtureComponent>& mix, const DetectorGeometry& geometry, std::uint64_t seed,
+              SampleType type, double scale_8bit, std::uint16_t* out) const;
+  const std::vector<float>& background() const { return background_; }
+
+ private:
+  const KinematicBandModel& ordered_;
+  const KinematicBandModel& disordered_;
+  double counts_;
+  int width_, height_, sub_;
+  std::vector<float> background_;  ///< mean 1 over the stored pattern
+};
+
+/// Truth of a synthetic scan.
+struct SynthTruth {
+  std::vector<float> ordered_fraction;  ///< per point: beam-weighted ordered fraction
+  std::vector<int32_t> grain;           ///< per point: grain at the point centre
+  std::vector<int32_t> particle;        ///< per point: particle id at the centre, 0 for matrix
+  std::vector<Rotation> orientation;    ///< per point: lattice orientation at the centre
+  std::vector<uint8_t> ordered_at_centre;
+  double ordered_area_fraction = 0;     ///< primary + secondary + tertiary, fine raster
+  double primary_area_fraction = 0, secondary_area_fraction = 0, tertiary_area_fraction = 0;
+  int primary_count = 0, secondary_count = 0;   ///< particles whose section centre lies in the field
+  double primary_mean_ecd_um = 0, secondary_mean_ecd_um = 0;  ///< section ECDs of those
+};
+
+/// Truth maps and statistics (fine raster: 4 × 4 samples per point).
+SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_um);
+
+using SynthProgress = std::function<void(size_t done, size_t total)>;
+
+/// Writes a complete synthetic scan into `folder` (created if needed):
+/// scan.toml, patterns.raw, truth.json, truth_fraction.npy, truth_grains.npy,
+/// truth_orientations.csv, truth_particles.csv. Multi-threaded over points;
+/// byte-identical for a seed whatever the thread count. `command_line` goes
+/// into the provenance.
+void write_synthetic_scan(const SynthScenario& scenario, const std::string& folder, const std::string& command_line,
+                          const SynthProgress& progress = {});
+
+}  // namespace orderband

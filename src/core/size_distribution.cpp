@@ -1,0 +1,132 @@
+// Log-normal and LSW size distributions.
+#include "orderband/size_distribution.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+#include "orderband/error.hpp"
+#include "orderband/units.hpp"
+
+namespace orderband {
+
+double lsw_density(double u) {
+  if (u <= 0 || u >= 1.5) return 0.0;
+  return 4.0 / 9.0 * u * u * std::pow(3.0 / (3.0 + u), 7.0 / 3.0) * std::pow(1.5 / (1.5 - u), 11.0 / 3.0) *
+         std::exp(-u / (1.5 - u));
+}
+
+SizeDistribution SizeDistribution::lognormal(double median_um, double sigma_ln) {
+  if (!(median_um > 0)) fail("log-normal median diameter must be positive, got ", median_um, " µm");
+  if (!(sigma_ln >= 0) || sigma_ln > 2) fail("log-normal sigma must be within [0, 2], got ", sigma_ln);
+  SizeDistribution d;
+  d.kind_ = Kind::lognormal;
+  d.a_ = median_um;
+  d.b_ = sigma_ln;
+  return d;
+}
+
+SizeDistribution SizeDistribution::lsw(double mean_um) {
+  if (!(mean_um > 0)) fail("LSW mean diameter must be positive, got ", mean_um, " µm");
+  SizeDistribution d;
+  d.kind_ = Kind::lsw;
+  d.a_ = mean_um;
+  // Tabulated CDF of h(u) by the trapezoid rule on a fine grid.
+  const int n = 20000;
+  d.lsw_cdf_u_.resize(n + 1);
+  d.lsw_cdf_p_.resize(n + 1);
+  double acc = 0;
+  for (int k = 0; k <= n; ++k) {
+    const double u = 1.5 * k / n;
+    if (k > 0) acc += 0.5 * (lsw_density(u) + lsw_density(1.5 * (k - 1) / n)) * 1.5 / n;
+    d.lsw_cdf_u_[k] = u;
+    d.lsw_cdf_p_[k] = acc;
+  }
+  for (double& p : d.lsw_cdf_p_) p /= acc;
+  return d;
+}
+
+SizeDistribution SizeDistribution::fixed(double diameter_um) {
+  if (!(diameter_um > 0)) fail("particle diameter must be positive, got ", diameter_um, " µm");
+  SizeDistribution d;
+  d.kind_ = Kind::fixed;
+  d.a_ = diameter_um;
+  return d;
+}
+
+double SizeDistribution::quantile(double p) const {
+  p = std::clamp(p, 1e-12, 1 - 1e-12);
+  switch (kind_) {
+    case Kind::fixed: return a_;
+    case Kind::lognormal: {
+      // Inverse normal CDF by bisection on erfc (robust, fast enough for sampling).
+      double lo = -10, hi = 10;
+      for (int it = 0; it < 80; ++it) {
+        const double mid = 0.5 * (lo + hi);
+        (0.5 * std::erfc(-mid / std::sqrt(2.0)) < p ? lo : hi) = mid;
+      }
+      return a_ * std::exp(b_ * 0.5 * (lo + hi));
+    }
+    case Kind::lsw: {
+      const auto it = std::lower_bound(lsw_cdf_p_.begin(), lsw_cdf_p_.end(), p);
+      const size_t k = std::clamp<size_t>(it - lsw_cdf_p_.begin(), 1, lsw_cdf_p_.size() - 1);
+      const double t = (p - lsw_cdf_p_[k - 1]) / std::max(1e-300, lsw_cdf_p_[k] - lsw_cdf_p_[k - 1]);
+      return a_ * (lsw_cdf_u_[k - 1] + t * (lsw_cdf_u_[k] - lsw_cdf_u_[k - 1]));
+    }
+  }
+  return a_;
+}
+
+double SizeDistribution::sample(std::mt19937_64& rng) const {
+  if (kind_ == Kind::fixed) return a_;
+  if (kind_ == Kind::lognormal) return a_ * std::exp(b_ * std::normal_distribution<double>(0, 1)(rng));
+  return quantile(std::uniform_real_distribution<double>(0, 1)(rng));
+}
+
+double SizeDistribution::mean_um() const {
+  switch (kind_) {
+    case Kind::fixed: return a_;
+    case Kind::lognormal: return a_ * std::exp(0.5 * b_ * b_);
+    case Kind::lsw: return a_;
+  }
+  return a_;
+}
+
+double SizeDistribution::mean_cube_um3() const {
+  switch (kind_) {
+    case Kind::fixed: return a_ * a_ * a_;
+    case Kind::lognormal: return a_ * a_ * a_ * std::exp(4.5 * b_ * b_);
+    case Kind::lsw: {
+      double acc = 0;
+      const int n = 20000;
+      for (int k = 0; k < n; ++k) {
+        const double u = 1.5 * (k + 0.5) / n;
+        acc += u * u * u * lsw_density(u) * 1.5 / n;
+      }
+      return acc * a_ * a_ * a_;
+    }
+  }
+  return 0;
+}
+
+double SizeDistribution::max_um() const {
+  switch (kind_) {
+    case Kind::fixed: return a_;
+    case Kind::lognormal: return quantile(1 - 1e-6);
+    case Kind::lsw: return 1.5 * a_;
+  }
+  return a_;
+}
+
+double SizeDistribution::density(double d) const {
+  switch (kind_) {
+    case Kind::fixed: return 0;
+    case Kind::lognormal:
+      if (d <= 0) return 0;
+      if (b_ == 0) return 0;
+      return std::exp(-0.5 * std::pow(std::log(d / a_) / b_, 2)) / (d * b_ * std::sqrt(2 * kPi));
+    case Kind::lsw: return lsw_density(d / a_) / a_;
+  }
+  return 0;
+}
+
+}  // namespace orderband

@@ -1,0 +1,90 @@
+// Orientation CSV reading and writing.
+#include "orderband/orientation_csv.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <sstream>
+
+#include "orderband/error.hpp"
+#include "orderband/units.hpp"
+
+namespace orderband {
+
+void write_orientation_csv(std::ostream& os, const ScanGrid& grid, const OrientationTable& t,
+                           const std::string& provenance) {
+  if (t.orientations.size() != grid.count()) fail("orientation table has ", t.orientations.size(), " points, grid ", grid.count());
+  if (!provenance.empty()) os << "# " << provenance << "\n";
+  os << "row,col,phi1_deg,Phi_deg,phi2_deg,phase\n";
+  char buf[160];
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const GridPoint p = grid.point(k);
+    const std::string phase = k < t.phases.size() ? t.phases[k] : "";
+    if (t.orientations[k]) {
+      const Eigen::Vector3d e = t.orientations[k]->bunge();
+      std::snprintf(buf, sizeof buf, "%d,%d,%.17g,%.17g,%.17g,", p.row, p.col, rad_to_deg(e[0]), rad_to_deg(e[1]),
+                    rad_to_deg(e[2]));
+    } else {
+      std::snprintf(buf, sizeof buf, "%d,%d,,,,", p.row, p.col);
+    }
+    os << buf << phase << "\n";
+  }
+}
+
+OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, const std::string& origin) {
+  OrientationTable t;
+  std::string line;
+  size_t line_no = 0;
+  bool header = false;
+  while (std::getline(is, line)) {
+    ++line_no;
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (line.empty() || line[0] == '#') continue;
+    std::vector<std::string> f;
+    std::stringstream ss(line);
+    for (std::string item; std::getline(ss, item, ',');) f.push_back(item);
+    if (!line.empty() && line.back() == ',') f.push_back("");
+    if (!header) {
+      if (f.size() < 5 || f[0] != "row" || f[1] != "col" || f[2] != "phi1_deg" || f[3] != "Phi_deg" || f[4] != "phi2_deg")
+        fail(origin, ":", line_no, ": header must be row,col,phi1_deg,Phi_deg,phi2_deg[,phase], got '", line, "'");
+      header = true;
+      continue;
+    }
+    const size_t k = t.orientations.size();
+    if (k >= grid.count()) fail(origin, ":", line_no, ": more lines than the ", grid.count(), " scan points");
+    if (f.size() < 5) fail(origin, ":", line_no, ": expected at least 5 fields, got ", f.size());
+    const GridPoint want = grid.point(k);
+    int row, col;
+    try {
+      row = std::stoi(f[0]);
+      col = std::stoi(f[1]);
+    } catch (...) {
+      fail(origin, ":", line_no, ": row and col must be integers, got '", f[0], "', '", f[1], "'");
+    }
+    if (row != want.row || col != want.col)
+      fail(origin, ":", line_no, ": expected row ", want.row, ", col ", want.col, " (points in scan order), got ", row,
+           ", ", col);
+    if (f[2].empty() && f[3].empty() && f[4].empty()) {
+      t.orientations.push_back(std::nullopt);
+    } else {
+      double e[3];
+      for (int i = 0; i < 3; ++i) {
+        char* end = nullptr;
+        e[i] = std::strtod(f[2 + i].c_str(), &end);
+        if (f[2 + i].empty() || *end || !std::isfinite(e[i]))
+          fail(origin, ":", line_no, ": angle '", f[2 + i], "' is not a number of degrees");
+      }
+      if (std::abs(e[0]) > 360 || std::abs(e[2]) > 360 || e[1] < 0 || e[1] > 180)
+        fail(origin, ":", line_no, ": Euler angles (", e[0], ", ", e[1], ", ", e[2],
+             ") deg out of range (phi1, phi2 within ±360, Phi within [0, 180]); are they in radians?");
+      t.orientations.push_back(Rotation::from_bunge(deg_to_rad(e[0]), deg_to_rad(e[1]), deg_to_rad(e[2])));
+    }
+    t.phases.push_back(f.size() > 5 ? f[5] : "");
+  }
+  if (!header) fail(origin, ": no header line row,col,phi1_deg,Phi_deg,phi2_deg[,phase]");
+  if (t.orientations.size() != grid.count())
+    fail(origin, ": ", t.orientations.size(), " orientations for ", grid.count(), " scan points (", grid.rows, " x ",
+         grid.cols, ")");
+  return t;
+}
+
+}  // namespace orderband

@@ -1,0 +1,361 @@
+// Scenario files and writing a complete synthetic scan.
+#include <omp.h>
+
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "orderband/atomic_file.hpp"
+#include "orderband/error.hpp"
+#include "orderband/npy_io.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "orderband/synth.hpp"
+#include "orderband/units.hpp"
+#include "orderband/version.hpp"
+#include "toml_reader.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+SizeDistribution read_size(TomlReader& r, const toml::table* t, const std::string& name) {
+  const std::string kind = r.get<std::string>(t, name, "distribution").value_or("lognormal");
+  auto positive = [&](const char* key) {
+    const double v = r.require<double>(t, name, key);
+    if (!(v > 0)) fail(r.path(), ": [", name, "] ", key, " must be a positive size in µm, got ", v);
+    return v;
+  };
+  if (kind == "lognormal") {
+    const double sigma = r.get<double>(t, name, "sigma_ln").value_or(0.2);
+    if (!(sigma >= 0 && sigma <= 2)) fail(r.path(), ": [", name, "] sigma_ln must be within [0, 2], got ", sigma);
+    return SizeDistribution::lognormal(positive("median_diameter_um"), sigma);
+  }
+  if (kind == "lsw") return SizeDistribution::lsw(positive("mean_diameter_um"));
+  if (kind == "fixed") return SizeDistribution::fixed(positive("diameter_um"));
+  fail(r.path(), ": [", name, "] distribution = \"", kind, "\" is not \"lognormal\", \"lsw\" or \"fixed\"");
+}
+
+void read_class(TomlReader& r, const toml::table* t, const std::string& name, PrecipitateClassSpec& c) {
+  r.check_keys(t, name,
+               {"area_fraction", "distribution", "median_diameter_um", "sigma_ln", "mean_diameter_um", "diameter_um",
+                "shape", "own_orientation"});
+  if (!t) return;
+  c.area_fraction = r.get<double>(t, name, "area_fraction").value_or(0.0);
+  if (!(c.area_fraction >= 0 && c.area_fraction < 1))
+    fail(r.path(), ": [", name, "] area_fraction must be within [0, 1), got ", c.area_fraction);
+  if (c.area_fraction == 0) return;
+  c.size = read_size(r, t, name);
+  const std::string shape = r.get<std::string>(t, name, "shape").value_or("sphere");
+  if (shape == "sphere") c.shape = ParticleShape::sphere;
+  else if (shape == "cuboid") c.shape = ParticleShape::cuboid;
+  else fail(r.path(), ": [", name, "] shape = \"", shape, "\" is not \"sphere\" or \"cuboid\"");
+  c.own_orientation = r.get<bool>(t, name, "own_orientation").value_or(false);
+}
+
+std::uint64_t point_seed(std::uint64_t seed, size_t index) {
+  // splitmix64 of (seed, index): independent streams per point, whatever the thread schedule.
+  std::uint64_t z = seed + 0x9e3779b97f4a7c15ull * (index + 1);
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+  return z ^ (z >> 31);
+}
+
+}  // namespace
+
+SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
+  const toml::table root = parse_toml_or_fail(text, path);
+  TomlReader r(root, path);
+  static const std::set<std::string> tables{"scenario", "scan",    "detector", "microscope", "phases",  "patterns",
+                                            "grains",   "primary", "secondary", "tertiary",  "output"};
+  for (const auto& [k, v] : root)
+    if (!tables.count(std::string(k.str())))
+      fail(path, ": unknown table [", k.str(),
+           "] (known: scenario, scan, detector, microscope, phases, patterns, grains, primary, secondary, tertiary, "
+           "output)");
+  SynthScenario s;
+  s.path = fs::absolute(path).lexically_normal().string();
+
+  const toml::table* sc = r.table("scenario", false);
+  r.check_keys(sc, "scenario", {"name", "description", "seed"});
+  s.name = r.get<std::string>(sc, "scenario", "name").value_or(fs::path(path).stem().string());
+  s.description = r.get<std::string>(sc, "scenario", "description").value_or("");
+  const int64_t seed = r.get<int64_t>(sc, "scenario", "seed").value_or(1);
+  if (seed < 0) fail(path, ": [scenario] seed must be >= 0");
+  s.seed = static_cast<std::uint64_t>(seed);
+
+  const toml::table* scan = r.table("scan", true);
+  r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um"});
+  const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
+  if (grid != "square" && grid != "hexagonal") fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
+  s.grid.kind = grid == "square" ? GridKind::square : GridKind::hexagonal;
+  s.grid.rows = static_cast<int>(r.require<int64_t>(scan, "scan", "rows"));
+  s.grid.cols = static_cast<int>(r.require<int64_t>(scan, "scan", "cols"));
+  s.grid.step_um = r.require<double>(scan, "scan", "step_um");
+  if (s.grid.rows <= 0 || s.grid.cols <= 0) fail(path, ": [scan] rows and cols must be positive");
+  if (!(s.grid.step_um > 0)) fail(path, ": [scan] step_um must be a positive step in µm, got ", s.grid.step_um);
+
+  const toml::table* det = r.table("detector", true);
+  r.check_keys(det, "detector",
+               {"width_px", "height_px", "pc_px", "distance_px", "sample_tilt_deg", "detector_tilt_deg", "binning",
+                "screen_pixel_um", "pc_drift"});
+  s.geometry.width_px = static_cast<int>(r.require<int64_t>(det, "detector", "width_px"));
+  s.geometry.height_px = static_cast<int>(r.require<int64_t>(det, "detector", "height_px"));
+  const toml::array* pc = det->get("pc_px") ? det->get("pc_px")->as_array() : nullptr;
+  if (!pc || pc->size() != 2 || !(*pc)[0].value<double>() || !(*pc)[1].value<double>())
+    fail(path, ": [detector] pc_px must be [x, y] in pixels from the top-left corner");
+  s.geometry.pc_px = {*(*pc)[0].value<double>(), *(*pc)[1].value<double>()};
+  s.geometry.distance_px = r.require<double>(det, "detector", "distance_px");
+  s.geometry.sample_tilt_deg = r.get<double>(det, "detector", "sample_tilt_deg").value_or(70.0);
+  s.geometry.detector_tilt_deg = r.get<double>(det, "detector", "detector_tilt_deg").value_or(0.0);
+  s.geometry.binning = static_cast<int>(r.get<int64_t>(det, "detector", "binning").value_or(1));
+  if (auto px = r.get<double>(det, "detector", "screen_pixel_um")) s.geometry.screen_pixel_um = *px;
+  s.pc_drift = r.get<bool>(det, "detector", "pc_drift").value_or(false);
+  if (s.pc_drift && !s.geometry.screen_pixel_um)
+    fail(path, ": [detector] pc_drift = true needs screen_pixel_um (the unbinned screen pixel size in µm)");
+  DetectorGeometry check(s.geometry);  // validates ranges
+
+  const toml::table* mic = r.table("microscope", false);
+  r.check_keys(mic, "microscope", {"kv"});
+  s.kv = r.get<double>(mic, "microscope", "kv").value_or(20.0);
+  if (!(s.kv > 0)) fail(path, ": [microscope] kv must be a positive voltage in kV, got ", s.kv);
+
+  const toml::table* ph = r.table("phases", false);
+  r.check_keys(ph, "phases", {"pair", "ordered", "disordered"});
+  s.phases.pair_name = r.get<std::string>(ph, "phases", "pair").value_or("");
+  const auto ord = r.get<std::string>(ph, "phases", "ordered"), dis = r.get<std::string>(ph, "phases", "disordered");
+  if (ord || dis) {
+    if (!ord || !dis) fail(path, ": [phases] 'ordered' and 'disordered' go together (two CIF files)");
+    s.phases.ordered_cif = r.resolve(*ord);
+    s.phases.disordered_cif = r.resolve(*dis);
+    for (const auto& f : {s.phases.ordered_cif, s.phases.disordered_cif})
+      if (!fs::exists(f)) fail(path, ": [phases] CIF file '", f, "' does not exist");
+  } else if (s.phases.pair_name.empty()) {
+    s.phases.pair_name = "ni";
+  }
+
+  const toml::table* pat = r.table("patterns", false);
+  r.check_keys(pat, "patterns",
+               {"sample_type", "counts_per_px", "band_contrast", "band_exponent", "edge_contrast", "edge_width",
+                "d_min_A", "beam_sigma_nm", "background_falloff"});
+  const std::string type = r.get<std::string>(pat, "patterns", "sample_type").value_or("uint16");
+  if (type == "uint8") s.sample_type = SampleType::uint8;
+  else if (type == "uint16") s.sample_type = SampleType::uint16;
+  else fail(path, ": [patterns] sample_type = \"", type, "\" is not \"uint8\" or \"uint16\"");
+  s.counts_per_px = r.get<double>(pat, "patterns", "counts_per_px").value_or(5000.0);
+  if (!(s.counts_per_px > 0 && s.counts_per_px < 60000))
+    fail(path, ": [patterns] counts_per_px must be within (0, 60000), got ", s.counts_per_px);
+  s.band.band_contrast = r.get<double>(pat, "patterns", "band_contrast").value_or(s.band.band_contrast);
+  s.band.band_exponent = r.get<double>(pat, "patterns", "band_exponent").value_or(s.band.band_exponent);
+  s.band.edge_contrast = r.get<double>(pat, "patterns", "edge_contrast").value_or(s.band.edge_contrast);
+  s.band.edge_width = r.get<double>(pat, "patterns", "edge_width").value_or(s.band.edge_width);
+  s.band.d_min_A = r.get<double>(pat, "patterns", "d_min_A").value_or(s.band.d_min_A);
+  if (!(s.band.band_contrast >= 0 && s.band.band_contrast <= 1))
+    fail(path, ": [patterns] band_contrast must be within [0, 1], got ", s.band.band_contrast);
+  if (!(s.band.band_exponent > 0)) fail(path, ": [patterns] band_exponent must be positive");
+  if (!(s.band.edge_width > 0)) fail(path, ": [patterns] edge_width must be positive");
+  if (!(s.band.d_min_A > 0)) fail(path, ": [patterns] d_min_A must be positive");
+  s.beam_sigma_nm = r.get<double>(pat, "patterns", "beam_sigma_nm").value_or(10.0);
+  if (!(s.beam_sigma_nm >= 0)) fail(path, ": [patterns] beam_sigma_nm must be >= 0, got ", s.beam_sigma_nm);
+  s.background_falloff = r.get<double>(pat, "patterns", "background_falloff").value_or(0.5);
+  if (!(s.background_falloff >= 0 && s.background_falloff < 1))
+    fail(path, ": [patterns] background_falloff must be within [0, 1)");
+
+  MicrostructureSpec& m = s.micro;
+  m.width_um = s.grid.field_width_um();
+  m.height_um = s.grid.field_height_um();
+  m.seed = s.seed;
+  const toml::table* gr = r.table("grains", false);
+  r.check_keys(gr, "grains", {"count", "texture", "texture_spread_deg"});
+  m.grain_count = static_cast<int>(r.get<int64_t>(gr, "grains", "count").value_or(1));
+  if (m.grain_count < 1) fail(path, ": [grains] count must be at least 1");
+  const std::string tex = r.get<std::string>(gr, "grains", "texture").value_or("random");
+  if (tex == "random") m.texture = Texture::random;
+  else if (tex == "cube") m.texture = Texture::cube;
+  else fail(path, ": [grains] texture = \"", tex, "\" is not \"random\" or \"cube\"");
+  m.texture_spread_deg = r.get<double>(gr, "grains", "texture_spread_deg").value_or(10.0);
+  read_class(r, r.table("primary", false), "primary", m.primary);
+  read_class(r, r.table("secondary", false), "secondary", m.secondary);
+  if (m.primary.area_fraction > 0 && m.grain_count < 2)
+    fail(path, ": [primary] particles sit on grain boundaries: [grains] count must be at least 2");
+  if (m.primary.area_fraction + m.secondary.area_fraction >= 0.9)
+    fail(path, ": primary + secondary area fractions must stay below 0.9");
+  const toml::table* ter = r.table("tertiary", false);
+  r.check_keys(ter, "tertiary", {"fraction"});
+  m.tertiary_fraction = r.get<double>(ter, "tertiary", "fraction").value_or(0.0);
+  if (!(m.tertiary_fraction >= 0 && m.tertiary_fraction <= 1))
+    fail(path, ": [tertiary] fraction must be within [0, 1], got ", m.tertiary_fraction);
+
+  const toml::table* out = r.table("output", false);
+  r.check_keys(out, "output", {"orientations"});
+  const std::string ori = r.get<std::string>(out, "output", "orientations").value_or("find");
+  if (ori != "find" && ori != "truth") fail(path, ": [output] orientations = \"", ori, "\" is not \"find\" or \"truth\"");
+  s.scan_uses_truth_orientations = ori == "truth";
+  return s;
+}
+
+SynthScenario read_synth_scenario(const std::string& path) {
+  return parse_synth_scenario(read_text_file(path, "scenario"), path);
+}
+
+void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
+                          const SynthProgress& progress) {
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const std::string dir = fs::absolute(folder).lexically_normal().string();
+
+  const OrderingPair pair = s.phases.pair_name.empty() ? load_pair(s.phases.ordered_cif, s.phases.disordered_cif)
+                                                       : load_named_pair(s.phases.pair_name);
+  const KinematicBandModel ordered(pair.ordered, s.kv, s.band), disordered(pair.disordered, s.kv, s.band);
+  const Microstructure micro(s.micro);
+  const DetectorGeometry geometry(s.geometry);
+  const PatternRenderer renderer(geometry, ordered, disordered, s.counts_per_px, s.background_falloff);
+  const double beam_um = s.beam_sigma_nm * 1e-3;
+  const size_t px = static_cast<size_t>(geometry.width()) * geometry.height();
+  const double scale_8bit = 250.0 / (s.counts_per_px * 1.6 * *std::max_element(renderer.background().begin(),
+                                                                               renderer.background().end()));
+
+  // Patterns, row by row; points of a row in parallel, each with its own random stream.
+  const std::string patterns_path = dir + "/patterns.raw";
+  write_atomically(patterns_path, [&](const std::string& temp) {
+    std::ofstream out(temp, std::ios::binary);
+    if (!out) fail("cannot create '", temp, "'");
+    std::vector<std::uint16_t> row(static_cast<size_t>(s.grid.cols) * px);
+    std::vector<std::uint8_t> row8;
+    for (int r = 0; r < s.grid.rows; ++r) {
+#pragma omp parallel for schedule(dynamic)
+      for (int c = 0; c < s.grid.cols; ++c) {
+        const GridPoint p{r, c};
+        const Eigen::Vector2d pos = s.grid.position_um(p);
+        const DetectorGeometry g = s.pc_drift ? geometry.at_beam_offset(pos.x(), pos.y()) : geometry;
+        renderer.render(point_mixture(micro, pos, beam_um), g, point_seed(s.seed, s.grid.index(p)), s.sample_type,
+                        scale_8bit, row.data() + static_cast<size_t>(c) * px);
+      }
+      if (s.sample_type == SampleType::uint8) {
+        row8.assign(row.begin(), row.end());
+        out.write(reinterpret_cast<const char*>(row8.data()), static_cast<std::streamsize>(row8.size()));
+      } else {
+        out.write(reinterpret_cast<const char*>(row.data()), static_cast<std::streamsize>(row.size() * 2));
+      }
+      if (progress) progress(static_cast<size_t>(r + 1) * s.grid.cols, s.grid.count());
+    }
+    if (!out) fail("error while writing '", patterns_path, "' (disk full?)");
+  });
+
+  const SynthTruth truth = compute_truth(micro, s.grid, beam_um);
+  write_npy_float32(dir + "/truth_fraction.npy", s.grid.rows, s.grid.cols, truth.ordered_fraction);
+  write_npy_int32(dir + "/truth_grains.npy", s.grid.rows, s.grid.cols, truth.grain);
+  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
+  {
+    OrientationTable t;
+    for (size_t k = 0; k < s.grid.count(); ++k) {
+      t.orientations.emplace_back(truth.orientation[k]);
+      t.phases.push_back(truth.ordered_at_centre[k] ? pair.ordered.name : pair.disordered.name);
+    }
+    std::ostringstream os;
+    write_orientation_csv(os, s.grid, t, provenance);
+    write_text_atomically(dir + "/truth_orientations.csv", os.str());
+  }
+  {
+    std::ostringstream os;
+    os << "# " << provenance << "\n"
+       << "id,class,shape,x_um,y_um,z_um,diameter_3d_um,section_ecd_um,host_grain,own_orientation,phi1_deg,Phi_deg,"
+          "phi2_deg,in_field\n";
+    const double dx = s.grid.step_um, dy = s.grid.row_spacing_um();
+    char buf[400];
+    for (const Particle& q : micro.particles()) {
+      const Eigen::Vector3d e = q.orientation.bunge();
+      const bool in_field = q.centre_um.x() >= -0.5 * dx && q.centre_um.x() < s.grid.field_width_um() - 0.5 * dx &&
+                            q.centre_um.y() >= -0.5 * dy && q.centre_um.y() < s.grid.field_height_um() - 0.5 * dy;
+      std::snprintf(buf, sizeof buf, "%d,%s,%s,%.6f,%.6f,%.6f,%.6f,%.6f,%d,%d,%.6f,%.6f,%.6f,%d\n", q.id,
+                    particle_class_name(q.cls), q.shape == ParticleShape::sphere ? "sphere" : "cuboid",
+                    q.centre_um.x(), q.centre_um.y(), q.centre_um.z(), q.diameter_um, q.section_ecd_um(),
+                    q.host_grain, q.own_orientation ? 1 : 0, rad_to_deg(e[0]), rad_to_deg(e[1]), rad_to_deg(e[2]),
+                    in_field ? 1 : 0);
+      os << buf;
+    }
+    write_text_atomically(dir + "/truth_particles.csv", os.str());
+  }
+
+  // The scan description a user's scan would have.
+  ScanConfig scan;
+  scan.grid = s.grid;
+  scan.patterns.format = PatternFormat::raw;
+  scan.patterns.path = patterns_path;
+  scan.patterns.sample_type = s.sample_type;
+  scan.patterns.width_px = geometry.width();
+  scan.patterns.height_px = geometry.height();
+  scan.geometry = s.geometry;
+  if (!s.pc_drift) scan.geometry.screen_pixel_um.reset();
+  scan.kv = s.kv;
+  scan.phases = s.phases;
+  if (s.scan_uses_truth_orientations) {
+    scan.orientations.source = OrientationSourceKind::file;
+    scan.orientations.file = dir + "/truth_orientations.csv";
+  }
+  scan.output_folder = dir + "/orderband-out";
+  {
+    std::ostringstream os;
+    write_scan_config(os, scan, dir,
+                      "synthetic scan '" + s.name + "' made by " + provenance +
+                          "\nkinematic band model, not a dynamical simulation; truth in truth.json");
+    write_text_atomically(dir + "/scan.toml", os.str());
+  }
+
+  nlohmann::json j;
+  j["tool"] = "orderband";
+  j["version"] = kVersion;
+  j["command_line"] = command_line;
+  j["scenario"] = {{"name", s.name},
+                   {"description", s.description},
+                   {"file", s.path},
+                   {"seed", s.seed},
+                   {"rows", s.grid.rows},
+                   {"cols", s.grid.cols},
+                   {"step_um", s.grid.step_um},
+                   {"grid", s.grid.kind == GridKind::hexagonal ? "hexagonal" : "square"},
+                   {"pattern_width_px", geometry.width()},
+                   {"pattern_height_px", geometry.height()},
+                   {"counts_per_px", s.counts_per_px},
+                   {"sample_type", sample_type_name(s.sample_type)},
+                   {"band_contrast", s.band.band_contrast},
+                   {"band_exponent", s.band.band_exponent},
+                   {"edge_contrast", s.band.edge_contrast},
+                   {"edge_width_theta_b", s.band.edge_width},
+                   {"d_min_A", s.band.d_min_A},
+                   {"beam_sigma_nm", s.beam_sigma_nm},
+                   {"background_falloff", s.background_falloff},
+                   {"kv", s.kv},
+                   {"pair", pair.name},
+                   {"grain_count", s.micro.grain_count},
+                   {"primary_target_area_fraction", s.micro.primary.area_fraction},
+                   {"secondary_target_area_fraction", s.micro.secondary.area_fraction},
+                   {"tertiary_fraction", s.micro.tertiary_fraction},
+                   {"secondary_mean_diameter_3d_um",
+                    s.micro.secondary.area_fraction > 0 ? s.micro.secondary.size.mean_um() : 0.0}};
+  j["ordered_area_fraction"] = truth.ordered_area_fraction;
+  j["classes"] = {{"primary",
+                   {{"area_fraction", truth.primary_area_fraction},
+                    {"count", truth.primary_count},
+                    {"mean_ecd_um", truth.primary_mean_ecd_um}}},
+                  {"secondary",
+                   {{"area_fraction", truth.secondary_area_fraction},
+                    {"count", truth.secondary_count},
+                    {"mean_ecd_um", truth.secondary_mean_ecd_um}}},
+                  {"tertiary", {{"area_fraction", truth.tertiary_area_fraction}}}};
+  j["subresolution_ordered_fraction"] = s.micro.tertiary_fraction;
+  j["particle_count"] = truth.primary_count + truth.secondary_count;
+  j["files"] = {{"patterns", "patterns.raw"},
+                {"scan", "scan.toml"},
+                {"fraction_map", "truth_fraction.npy"},
+                {"grain_map", "truth_grains.npy"},
+                {"orientations", "truth_orientations.csv"},
+                {"particles", "truth_particles.csv"}};
+  write_text_atomically(dir + "/truth.json", j.dump(2) + "\n");
+}
+
+}  // namespace orderband
