@@ -133,10 +133,11 @@ TEST(SynthRender, OrderingShowsOnlyInSuperlatticeBands) {
 
 TEST(SynthScan, DeterministicAcrossThreadCountsAndTruthIsConsistent) {
   const std::string dir = test::make_temp_dir("synth");
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 7\n[scan]\nrows = 12\ncols = 10\nstep_um = 0.05\n"
-                                    "[detector]\nwidth_px = 40\nheight_px = 40\npc_px = [20.0, 12.0]\ndistance_px = 30.0\n"
-                                    "[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\ndistribution = \"fixed\"\n"
-                                    "diameter_um = 0.15\n[tertiary]\nfraction = 0.05\n";
+  std::ofstream(dir + "/s.toml")
+      << "[scenario]\nseed = 7\n[scan]\nrows = 12\ncols = 10\nstep_um = 0.05\n"
+         "[detector]\nwidth_px = 40\nheight_px = 40\npc_px = [20.0, 12.0]\ndistance_px = 30.0\n"
+         "[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\ndistribution = \"fixed\"\n"
+         "diameter_um = 0.15\n[tertiary]\nfraction = 0.05\n";
   const auto r1 = test::run_orderband("synth " + dir + "/s.toml -o " + dir + "/t1 --threads 1 --quiet");
   const auto r2 = test::run_orderband("synth " + dir + "/s.toml -o " + dir + "/t2 --threads 2 --quiet");
   ASSERT_EQ(r1.exit_code, 0) << r1.err;
@@ -148,7 +149,8 @@ TEST(SynthScan, DeterministicAcrossThreadCountsAndTruthIsConsistent) {
   EXPECT_EQ(body(slurp(dir + "/t1/truth_orientations.csv")), body(slurp(dir + "/t2/truth_orientations.csv")));
   EXPECT_EQ(slurp(dir + "/t1/patterns.raw").size(), 12u * 10 * 40 * 40 * 2);
   const auto truth = nlohmann::json::parse(slurp(dir + "/t1/truth.json"));
-  const double sec = truth["classes"]["secondary"]["area_fraction"], ter = truth["classes"]["tertiary"]["area_fraction"];
+  const double sec = truth["classes"]["secondary"]["area_fraction"],
+               ter = truth["classes"]["tertiary"]["area_fraction"];
   EXPECT_NEAR(ter, 0.05 * (1 - sec), 1e-12);
   EXPECT_NEAR(truth["ordered_area_fraction"].get<double>(), sec + ter, 1e-12);
   // The written scan is readable as it is.
@@ -159,8 +161,9 @@ TEST(SynthScan, DeterministicAcrossThreadCountsAndTruthIsConsistent) {
 }
 
 TEST(SynthScenario, OneClearLinePerProblem) {
-  const std::string base = "[scan]\nrows = 4\ncols = 4\nstep_um = 0.05\n[detector]\nwidth_px = 40\nheight_px = 40\n"
-                           "pc_px = [20.0, 12.0]\ndistance_px = 30.0\n";
+  const std::string base =
+      "[scan]\nrows = 4\ncols = 4\nstep_um = 0.05\n[detector]\nwidth_px = 40\nheight_px = 40\n"
+      "pc_px = [20.0, 12.0]\ndistance_px = 30.0\n";
   auto error_of = [&](const std::string& extra) {
     try {
       parse_synth_scenario(base + extra, "/tmp/x/scenario.toml");
@@ -177,7 +180,8 @@ TEST(SynthScenario, OneClearLinePerProblem) {
             std::string::npos);
   EXPECT_NE(error_of("[phases]\nordered = \"nope.cif\"\ndisordered = \"nope2.cif\"\n").find("does not exist"),
             std::string::npos);
-  EXPECT_NE(error_of("[tertiary]\nfraction = 2\n").find("[tertiary] fraction must be within [0, 1]"), std::string::npos);
+  EXPECT_NE(error_of("[tertiary]\nfraction = 2\n").find("[tertiary] fraction must be within [0, 1]"),
+            std::string::npos);
   EXPECT_NE(error_of("[patterns]\ncounts = 5\n").find("unknown key 'counts' in [patterns]"), std::string::npos);
   EXPECT_NE(error_of("[primary]\narea_fraction = 0.1\nmedian_diameter_um = 0.5\n").find("count must be at least 2"),
             std::string::npos);

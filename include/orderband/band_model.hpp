@@ -34,7 +34,7 @@ struct ModelBand {
   Eigen::Vector3d normal;
   double theta_b = 0;  ///< radians
   double weight = 0;
-  int family = 0;      ///< index into families()
+  int family = 0;  ///< index into families()
 };
 
 struct ModelFamily {

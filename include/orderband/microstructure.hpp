@@ -19,7 +19,7 @@ enum class Texture { random, cube };
 const char* particle_class_name(ParticleClass c);
 
 struct PrecipitateClassSpec {
-  double area_fraction = 0;  ///< target area (= volume) fraction of the class
+  double area_fraction = 0;                              ///< target area (= volume) fraction of the class
   SizeDistribution size = SizeDistribution::fixed(0.1);  ///< volume-equivalent sphere diameter (µm)
   ParticleShape shape = ParticleShape::sphere;
   bool own_orientation = false;  ///< primary only: an orientation of its own instead of the host grain's
@@ -48,7 +48,7 @@ struct Particle {
   Eigen::Vector3d centre_um{0, 0, 0};  ///< x_S, y_S in the field; z from the section plane (into the sample)
   double diameter_um = 0;              ///< volume-equivalent sphere diameter (3-D truth)
   int host_grain = 0;
-  Rotation orientation;                ///< lattice orientation of the particle
+  Rotation orientation;  ///< lattice orientation of the particle
   bool own_orientation = false;
   /// Diameter of the circle of equal area cut by the scan plane (µm).
   double section_ecd_um() const;

@@ -25,11 +25,11 @@ struct SynthScenario {
   double kv = 20;
   PhaseSelection phases;
   SampleType sample_type = SampleType::uint16;  ///< uint8 or uint16
-  double counts_per_px = 5000;  ///< mean expected counts per stored pixel
+  double counts_per_px = 5000;                  ///< mean expected counts per stored pixel
   BandModelParams band;
-  double beam_sigma_nm = 10;    ///< Gaussian beam-interaction blur in the scan plane; 0: none
+  double beam_sigma_nm = 10;        ///< Gaussian beam-interaction blur in the scan plane; 0: none
   double background_falloff = 0.5;  ///< background: 1 − falloff at the far corners relative to the bright centre
-  bool pc_drift = false;        ///< render with the PC drifting across the scan (needs screen_pixel_um)
+  bool pc_drift = false;            ///< render with the PC drifting across the scan (needs screen_pixel_um)
   MicrostructureSpec micro;
   bool scan_uses_truth_orientations = false;  ///< the written scan.toml reads truth_orientations.csv
 };
@@ -52,8 +52,7 @@ struct MixtureComponent {
 /// grid of offsets spaced σ apart (weights exp(−r²/2σ²)), each offset taking
 /// the microstructure there (matrix: 1 − f_t disordered + f_t ordered with the
 /// host grain's orientation; particle: ordered with its own orientation).
-std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um,
-                                            double beam_sigma_um);
+std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um, double beam_sigma_um);
 
 /// Renders patterns from the kinematic band model (see band_model.hpp):
 /// expected counts = counts_per_px · B(pixel) · Σ_c w_c I_c(g_c v), with B a
@@ -85,9 +84,9 @@ struct SynthTruth {
   std::vector<int32_t> particle;        ///< per point: particle id at the centre, 0 for matrix
   std::vector<Rotation> orientation;    ///< per point: lattice orientation at the centre
   std::vector<uint8_t> ordered_at_centre;
-  double ordered_area_fraction = 0;     ///< primary + secondary + tertiary, fine raster
+  double ordered_area_fraction = 0;  ///< primary + secondary + tertiary, fine raster
   double primary_area_fraction = 0, secondary_area_fraction = 0, tertiary_area_fraction = 0;
-  int primary_count = 0, secondary_count = 0;   ///< particles whose section centre lies in the field
+  int primary_count = 0, secondary_count = 0;                 ///< particles whose section centre lies in the field
   double primary_mean_ecd_um = 0, secondary_mean_ecd_um = 0;  ///< section ECDs of those
 };
 

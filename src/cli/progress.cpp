@@ -23,15 +23,15 @@ void ProgressReporter::operator()(size_t done, size_t total) {
     last_ = now;
     const int width = 30, filled = static_cast<int>(width * double(done) / total);
     std::fprintf(stderr, "\r%s [%.*s%*s] %zu/%zu %s, %.0f %s/s, %.0f s left ", label_.c_str(), filled,
-                 "##############################", width - filled, "", done, total, unit_.c_str(), rate,
-                 unit_.c_str(), left);
+                 "##############################", width - filled, "", done, total, unit_.c_str(), rate, unit_.c_str(),
+                 left);
     drawn_ = true;
   } else {
     const int decile = static_cast<int>(10.0 * done / total);
     if (decile == last_decile_) return;
     last_decile_ = decile;
-    std::fprintf(stderr, "%s: %zu/%zu %s (%d%%), %.0f %s/s, %.0f s left\n", label_.c_str(), done, total,
-                 unit_.c_str(), 10 * decile, rate, unit_.c_str(), left);
+    std::fprintf(stderr, "%s: %zu/%zu %s (%d%%), %.0f %s/s, %.0f s left\n", label_.c_str(), done, total, unit_.c_str(),
+                 10 * decile, rate, unit_.c_str(), left);
   }
   std::fflush(stderr);
 }

@@ -27,7 +27,8 @@ std::function<int()> setup_synth(CLI::App& sub) {
     ProgressReporter progress("synth " + s.name, "patterns", o->quiet);
     write_synthetic_scan(s, o->out, command_line(), [&](size_t d, size_t t) { progress(d, t); });
     progress.finish();
-    if (!o->quiet) std::fprintf(stderr, "synthetic scan written to %s (scan.toml, patterns.raw, truth.json)\n", o->out.c_str());
+    if (!o->quiet)
+      std::fprintf(stderr, "synthetic scan written to %s (scan.toml, patterns.raw, truth.json)\n", o->out.c_str());
     return 0;
   };
 }

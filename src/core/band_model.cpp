@@ -10,8 +10,7 @@
 
 namespace orderband {
 
-KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const BandModelParams& params)
-    : params_(params) {
+KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const BandModelParams& params) : params_(params) {
   if (!(params.band_contrast >= 0)) fail("band contrast must be >= 0, got ", params.band_contrast);
   if (!(params.band_exponent > 0)) fail("band exponent must be positive, got ", params.band_exponent);
   if (!(params.edge_width > 0)) fail("band edge width must be positive, got ", params.edge_width);

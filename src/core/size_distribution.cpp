@@ -56,7 +56,8 @@ SizeDistribution SizeDistribution::fixed(double diameter_um) {
 double SizeDistribution::quantile(double p) const {
   p = std::clamp(p, 1e-12, 1 - 1e-12);
   switch (kind_) {
-    case Kind::fixed: return a_;
+    case Kind::fixed:
+      return a_;
     case Kind::lognormal: {
       // Inverse normal CDF by bisection on erfc (robust, fast enough for sampling).
       double lo = -10, hi = 10;
@@ -84,17 +85,22 @@ double SizeDistribution::sample(std::mt19937_64& rng) const {
 
 double SizeDistribution::mean_um() const {
   switch (kind_) {
-    case Kind::fixed: return a_;
-    case Kind::lognormal: return a_ * std::exp(0.5 * b_ * b_);
-    case Kind::lsw: return a_;
+    case Kind::fixed:
+      return a_;
+    case Kind::lognormal:
+      return a_ * std::exp(0.5 * b_ * b_);
+    case Kind::lsw:
+      return a_;
   }
   return a_;
 }
 
 double SizeDistribution::mean_cube_um3() const {
   switch (kind_) {
-    case Kind::fixed: return a_ * a_ * a_;
-    case Kind::lognormal: return a_ * a_ * a_ * std::exp(4.5 * b_ * b_);
+    case Kind::fixed:
+      return a_ * a_ * a_;
+    case Kind::lognormal:
+      return a_ * a_ * a_ * std::exp(4.5 * b_ * b_);
     case Kind::lsw: {
       double acc = 0;
       const int n = 20000;
@@ -110,21 +116,26 @@ double SizeDistribution::mean_cube_um3() const {
 
 double SizeDistribution::max_um() const {
   switch (kind_) {
-    case Kind::fixed: return a_;
-    case Kind::lognormal: return quantile(1 - 1e-6);
-    case Kind::lsw: return 1.5 * a_;
+    case Kind::fixed:
+      return a_;
+    case Kind::lognormal:
+      return quantile(1 - 1e-6);
+    case Kind::lsw:
+      return 1.5 * a_;
   }
   return a_;
 }
 
 double SizeDistribution::density(double d) const {
   switch (kind_) {
-    case Kind::fixed: return 0;
+    case Kind::fixed:
+      return 0;
     case Kind::lognormal:
       if (d <= 0) return 0;
       if (b_ == 0) return 0;
       return std::exp(-0.5 * std::pow(std::log(d / a_) / b_, 2)) / (d * b_ * std::sqrt(2 * kPi));
-    case Kind::lsw: return lsw_density(d / a_) / a_;
+    case Kind::lsw:
+      return lsw_density(d / a_) / a_;
   }
   return 0;
 }

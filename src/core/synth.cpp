@@ -39,8 +39,7 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
     for (int a = -2; a <= 2; ++a)
       for (int b = -2; b <= 2; ++b) total += std::exp(-0.5 * (a * a + b * b));
     for (int a = -2; a <= 2; ++a)
-      for (int b = -2; b <= 2; ++b)
-        add(p + sigma_um * Eigen::Vector2d(a, b), std::exp(-0.5 * (a * a + b * b)) / total);
+      for (int b = -2; b <= 2; ++b) add(p + sigma_um * Eigen::Vector2d(a, b), std::exp(-0.5 * (a * a + b * b)) / total);
   }
   std::vector<MixtureComponent> out;
   for (auto& [k, c] : acc) out.push_back(c);

@@ -33,12 +33,14 @@ void write_npy(const std::string& path, const char* descr, int rows, int cols, c
 }  // namespace
 
 void write_npy_float32(const std::string& path, int rows, int cols, const std::vector<float>& v) {
-  if (v.size() != static_cast<size_t>(rows) * cols) fail("npy: ", v.size(), " values for a ", rows, " x ", cols, " map");
+  if (v.size() != static_cast<size_t>(rows) * cols)
+    fail("npy: ", v.size(), " values for a ", rows, " x ", cols, " map");
   write_npy(path, "<f4", rows, cols, v.data(), v.size() * 4);
 }
 
 void write_npy_int32(const std::string& path, int rows, int cols, const std::vector<int32_t>& v) {
-  if (v.size() != static_cast<size_t>(rows) * cols) fail("npy: ", v.size(), " values for a ", rows, " x ", cols, " map");
+  if (v.size() != static_cast<size_t>(rows) * cols)
+    fail("npy: ", v.size(), " values for a ", rows, " x ", cols, " map");
   write_npy(path, "<i4", rows, cols, v.data(), v.size() * 4);
 }
 

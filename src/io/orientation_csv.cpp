@@ -12,7 +12,8 @@ namespace orderband {
 
 void write_orientation_csv(std::ostream& os, const ScanGrid& grid, const OrientationTable& t,
                            const std::string& provenance) {
-  if (t.orientations.size() != grid.count()) fail("orientation table has ", t.orientations.size(), " points, grid ", grid.count());
+  if (t.orientations.size() != grid.count())
+    fail("orientation table has ", t.orientations.size(), " points, grid ", grid.count());
   if (!provenance.empty()) os << "# " << provenance << "\n";
   os << "row,col,phi1_deg,Phi_deg,phi2_deg,phase\n";
   char buf[160];
@@ -44,7 +45,8 @@ OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, co
     for (std::string item; std::getline(ss, item, ',');) f.push_back(item);
     if (!line.empty() && line.back() == ',') f.push_back("");
     if (!header) {
-      if (f.size() < 5 || f[0] != "row" || f[1] != "col" || f[2] != "phi1_deg" || f[3] != "Phi_deg" || f[4] != "phi2_deg")
+      if (f.size() < 5 || f[0] != "row" || f[1] != "col" || f[2] != "phi1_deg" || f[3] != "Phi_deg" ||
+          f[4] != "phi2_deg")
         fail(origin, ":", line_no, ": header must be row,col,phi1_deg,Phi_deg,phi2_deg[,phase], got '", line, "'");
       header = true;
       continue;

@@ -50,9 +50,12 @@ void read_class(TomlReader& r, const toml::table* t, const std::string& name, Pr
   if (c.area_fraction == 0) return;
   c.size = read_size(r, t, name);
   const std::string shape = r.get<std::string>(t, name, "shape").value_or("sphere");
-  if (shape == "sphere") c.shape = ParticleShape::sphere;
-  else if (shape == "cuboid") c.shape = ParticleShape::cuboid;
-  else fail(r.path(), ": [", name, "] shape = \"", shape, "\" is not \"sphere\" or \"cuboid\"");
+  if (shape == "sphere")
+    c.shape = ParticleShape::sphere;
+  else if (shape == "cuboid")
+    c.shape = ParticleShape::cuboid;
+  else
+    fail(r.path(), ": [", name, "] shape = \"", shape, "\" is not \"sphere\" or \"cuboid\"");
   c.own_orientation = r.get<bool>(t, name, "own_orientation").value_or(false);
 }
 
@@ -69,8 +72,8 @@ std::uint64_t point_seed(std::uint64_t seed, size_t index) {
 SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
-  static const std::set<std::string> tables{"scenario", "scan",    "detector", "microscope", "phases",  "patterns",
-                                            "grains",   "primary", "secondary", "tertiary",  "output"};
+  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases", "patterns",
+                                            "grains",   "primary", "secondary", "tertiary",   "output"};
   for (const auto& [k, v] : root)
     if (!tables.count(std::string(k.str())))
       fail(path, ": unknown table [", k.str(),
@@ -90,7 +93,8 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   const toml::table* scan = r.table("scan", true);
   r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um"});
   const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
-  if (grid != "square" && grid != "hexagonal") fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
+  if (grid != "square" && grid != "hexagonal")
+    fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
   s.grid.kind = grid == "square" ? GridKind::square : GridKind::hexagonal;
   s.grid.rows = static_cast<int>(r.require<int64_t>(scan, "scan", "rows"));
   s.grid.cols = static_cast<int>(r.require<int64_t>(scan, "scan", "cols"));
@@ -142,9 +146,12 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
                {"sample_type", "counts_per_px", "band_contrast", "band_exponent", "edge_contrast", "edge_width",
                 "d_min_A", "beam_sigma_nm", "background_falloff"});
   const std::string type = r.get<std::string>(pat, "patterns", "sample_type").value_or("uint16");
-  if (type == "uint8") s.sample_type = SampleType::uint8;
-  else if (type == "uint16") s.sample_type = SampleType::uint16;
-  else fail(path, ": [patterns] sample_type = \"", type, "\" is not \"uint8\" or \"uint16\"");
+  if (type == "uint8")
+    s.sample_type = SampleType::uint8;
+  else if (type == "uint16")
+    s.sample_type = SampleType::uint16;
+  else
+    fail(path, ": [patterns] sample_type = \"", type, "\" is not \"uint8\" or \"uint16\"");
   s.counts_per_px = r.get<double>(pat, "patterns", "counts_per_px").value_or(5000.0);
   if (!(s.counts_per_px > 0 && s.counts_per_px < 60000))
     fail(path, ": [patterns] counts_per_px must be within (0, 60000), got ", s.counts_per_px);
@@ -173,9 +180,12 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   m.grain_count = static_cast<int>(r.get<int64_t>(gr, "grains", "count").value_or(1));
   if (m.grain_count < 1) fail(path, ": [grains] count must be at least 1");
   const std::string tex = r.get<std::string>(gr, "grains", "texture").value_or("random");
-  if (tex == "random") m.texture = Texture::random;
-  else if (tex == "cube") m.texture = Texture::cube;
-  else fail(path, ": [grains] texture = \"", tex, "\" is not \"random\" or \"cube\"");
+  if (tex == "random")
+    m.texture = Texture::random;
+  else if (tex == "cube")
+    m.texture = Texture::cube;
+  else
+    fail(path, ": [grains] texture = \"", tex, "\" is not \"random\" or \"cube\"");
   m.texture_spread_deg = r.get<double>(gr, "grains", "texture_spread_deg").value_or(10.0);
   read_class(r, r.table("primary", false), "primary", m.primary);
   read_class(r, r.table("secondary", false), "secondary", m.secondary);
@@ -192,7 +202,8 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   const toml::table* out = r.table("output", false);
   r.check_keys(out, "output", {"orientations"});
   const std::string ori = r.get<std::string>(out, "output", "orientations").value_or("find");
-  if (ori != "find" && ori != "truth") fail(path, ": [output] orientations = \"", ori, "\" is not \"find\" or \"truth\"");
+  if (ori != "find" && ori != "truth")
+    fail(path, ": [output] orientations = \"", ori, "\" is not \"find\" or \"truth\"");
   s.scan_uses_truth_orientations = ori == "truth";
   return s;
 }
@@ -216,8 +227,8 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   const PatternRenderer renderer(geometry, ordered, disordered, s.counts_per_px, s.background_falloff);
   const double beam_um = s.beam_sigma_nm * 1e-3;
   const size_t px = static_cast<size_t>(geometry.width()) * geometry.height();
-  const double scale_8bit = 250.0 / (s.counts_per_px * 1.6 * *std::max_element(renderer.background().begin(),
-                                                                               renderer.background().end()));
+  const double scale_8bit =
+      250.0 / (s.counts_per_px * 1.6 * *std::max_element(renderer.background().begin(), renderer.background().end()));
 
   // Patterns, row by row; points of a row in parallel, each with its own random stream.
   const std::string patterns_path = dir + "/patterns.raw";
@@ -272,10 +283,9 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
       const bool in_field = q.centre_um.x() >= -0.5 * dx && q.centre_um.x() < s.grid.field_width_um() - 0.5 * dx &&
                             q.centre_um.y() >= -0.5 * dy && q.centre_um.y() < s.grid.field_height_um() - 0.5 * dy;
       std::snprintf(buf, sizeof buf, "%d,%s,%s,%.6f,%.6f,%.6f,%.6f,%.6f,%d,%d,%.6f,%.6f,%.6f,%d\n", q.id,
-                    particle_class_name(q.cls), q.shape == ParticleShape::sphere ? "sphere" : "cuboid",
-                    q.centre_um.x(), q.centre_um.y(), q.centre_um.z(), q.diameter_um, q.section_ecd_um(),
-                    q.host_grain, q.own_orientation ? 1 : 0, rad_to_deg(e[0]), rad_to_deg(e[1]), rad_to_deg(e[2]),
-                    in_field ? 1 : 0);
+                    particle_class_name(q.cls), q.shape == ParticleShape::sphere ? "sphere" : "cuboid", q.centre_um.x(),
+                    q.centre_um.y(), q.centre_um.z(), q.diameter_um, q.section_ecd_um(), q.host_grain,
+                    q.own_orientation ? 1 : 0, rad_to_deg(e[0]), rad_to_deg(e[1]), rad_to_deg(e[2]), in_field ? 1 : 0);
       os << buf;
     }
     write_text_atomically(dir + "/truth_particles.csv", os.str());
@@ -310,33 +320,33 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   j["tool"] = "orderband";
   j["version"] = kVersion;
   j["command_line"] = command_line;
-  j["scenario"] = {{"name", s.name},
-                   {"description", s.description},
-                   {"file", s.path},
-                   {"seed", s.seed},
-                   {"rows", s.grid.rows},
-                   {"cols", s.grid.cols},
-                   {"step_um", s.grid.step_um},
-                   {"grid", s.grid.kind == GridKind::hexagonal ? "hexagonal" : "square"},
-                   {"pattern_width_px", geometry.width()},
-                   {"pattern_height_px", geometry.height()},
-                   {"counts_per_px", s.counts_per_px},
-                   {"sample_type", sample_type_name(s.sample_type)},
-                   {"band_contrast", s.band.band_contrast},
-                   {"band_exponent", s.band.band_exponent},
-                   {"edge_contrast", s.band.edge_contrast},
-                   {"edge_width_theta_b", s.band.edge_width},
-                   {"d_min_A", s.band.d_min_A},
-                   {"beam_sigma_nm", s.beam_sigma_nm},
-                   {"background_falloff", s.background_falloff},
-                   {"kv", s.kv},
-                   {"pair", pair.name},
-                   {"grain_count", s.micro.grain_count},
-                   {"primary_target_area_fraction", s.micro.primary.area_fraction},
-                   {"secondary_target_area_fraction", s.micro.secondary.area_fraction},
-                   {"tertiary_fraction", s.micro.tertiary_fraction},
-                   {"secondary_mean_diameter_3d_um",
-                    s.micro.secondary.area_fraction > 0 ? s.micro.secondary.size.mean_um() : 0.0}};
+  j["scenario"] = {
+      {"name", s.name},
+      {"description", s.description},
+      {"file", s.path},
+      {"seed", s.seed},
+      {"rows", s.grid.rows},
+      {"cols", s.grid.cols},
+      {"step_um", s.grid.step_um},
+      {"grid", s.grid.kind == GridKind::hexagonal ? "hexagonal" : "square"},
+      {"pattern_width_px", geometry.width()},
+      {"pattern_height_px", geometry.height()},
+      {"counts_per_px", s.counts_per_px},
+      {"sample_type", sample_type_name(s.sample_type)},
+      {"band_contrast", s.band.band_contrast},
+      {"band_exponent", s.band.band_exponent},
+      {"edge_contrast", s.band.edge_contrast},
+      {"edge_width_theta_b", s.band.edge_width},
+      {"d_min_A", s.band.d_min_A},
+      {"beam_sigma_nm", s.beam_sigma_nm},
+      {"background_falloff", s.background_falloff},
+      {"kv", s.kv},
+      {"pair", pair.name},
+      {"grain_count", s.micro.grain_count},
+      {"primary_target_area_fraction", s.micro.primary.area_fraction},
+      {"secondary_target_area_fraction", s.micro.secondary.area_fraction},
+      {"tertiary_fraction", s.micro.tertiary_fraction},
+      {"secondary_mean_diameter_3d_um", s.micro.secondary.area_fraction > 0 ? s.micro.secondary.size.mean_um() : 0.0}};
   j["ordered_area_fraction"] = truth.ordered_area_fraction;
   j["classes"] = {{"primary",
                    {{"area_fraction", truth.primary_area_fraction},

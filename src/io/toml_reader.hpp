@@ -1,11 +1,11 @@
 // Internal: typed TOML access shared by the readers of scan descriptions, scenarios and trials.
 #pragma once
 
+#include <toml++/toml.h>
 #include <filesystem>
 #include <optional>
 #include <set>
 #include <string>
-#include <toml++/toml.h>
 
 #include "orderband/error.hpp"
 
@@ -78,7 +78,6 @@ class TomlReader {
   std::string path_;
   std::filesystem::path folder_;
 };
-
 
 /// Parses TOML text; syntax errors become one line "path:line: description".
 inline toml::table parse_toml_or_fail(const std::string& text, const std::string& path) {

@@ -1,0 +1,99 @@
+// Band profiles: the spherical Radon transform along small circles at offset α from each family's planes.
+#pragma once
+
+#include <Eigen/Core>
+#include <string>
+#include <vector>
+
+#include "orderband/plane_family.hpp"
+#include "orderband/rotation.hpp"
+#include "orderband/sphere.hpp"
+
+namespace orderband {
+
+/// A plane family as the profiler sees it: its plane normals (crystal frame) and Bragg angle.
+struct ProfileFamily {
+  std::string label;
+  std::vector<Eigen::Vector3d> normals;
+  double theta_b = 0;  ///< radians
+};
+
+/// Profile sampling: α from −u_max·θ_B to +u_max·θ_B in bins of bin_u·θ_B
+/// (u = α/θ_B), so every family is sampled alike in units of its own band width.
+struct ProfileSpec {
+  double u_max = 2.5;
+  double bin_u = 0.1;
+};
+
+/// One family's profile: per α bin, the solid-angle-weighted sums over every
+/// detector pixel whose crystal direction x lies at α = asin(n·x) from one of
+/// the family's planes (all symmetric equivalents on the detector add up).
+struct FamilyProfile {
+  std::vector<double> sum;      ///< Σ w v
+  std::vector<double> sum_sq;   ///< Σ w v²
+  std::vector<double> weight;   ///< Σ w (solid angle, sr)
+  std::vector<double> weight_sq;///< Σ w²
+  std::vector<int> count;       ///< pixels
+  double mean(size_t bin) const { return weight[bin] > 0 ? sum[bin] / weight[bin] : 0.0; }
+  void clear();
+};
+
+/// Window statistics of one family: weighted mean of the pixel values in the
+/// window, its variance (pixel scatter over the effective number of pixels)
+/// and the pixel count.
+struct WindowStats {
+  double sum = 0, weight = 0, mean = 0, variance_of_mean = 0;
+  int count = 0;
+};
+
+/// Off-peak windows in units of θ_B: the band interior |u| ≤ interior_max
+/// (leaving out the edge peaks near |u| = 1) and the flanks
+/// flank_min ≤ |u| ≤ flank_max outside the edges. Only whole bins count.
+struct WindowSpec {
+  double interior_max = 0.6;
+  double flank_min = 1.4;
+  double flank_max = 2.2;
+};
+
+struct FamilyWindows {
+  WindowStats interior, flanks;
+};
+
+/// Computes band profiles of many patterns fast: a cube map of the sphere
+/// (6 × cells² cells) lists, for each cell, the planes whose profile strip
+/// (|α| ≤ u_max·θ_B) may reach it; each pattern then costs one rotation, one
+/// cell lookup and the exact α of the few listed planes per detector pixel.
+class BandProfiler {
+ public:
+  BandProfiler(std::vector<ProfileFamily> families, const ProfileSpec& spec, int cells = 192);
+
+  const std::vector<ProfileFamily>& families() const { return families_; }
+  const ProfileSpec& spec() const { return spec_; }
+  int bins() const { return bins_; }
+  /// Centre of bin k in units of θ_B.
+  double bin_centre_u(int k) const { return -spec_.u_max + (k + 0.5) * spec_.bin_u; }
+
+  /// Profiles of one pattern (values per detector pixel, mask may be empty)
+  /// at orientation g; `out` is resized to one profile per family.
+  void profile(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+               std::vector<FamilyProfile>& out) const;
+
+  FamilyWindows windows(const FamilyProfile& p, const WindowSpec& spec = {}) const;
+
+ private:
+  int cell_of(const Eigen::Vector3d& u) const;
+  std::vector<ProfileFamily> families_;
+  ProfileSpec spec_;
+  int bins_ = 0, cells_ = 0;
+  // Flattened planes.
+  std::vector<float> nx_, ny_, nz_, inv_theta_;
+  std::vector<int> plane_family_;
+  // Cube-map cells → candidate planes (CSR).
+  std::vector<uint32_t> offsets_;
+  std::vector<uint16_t> candidates_;
+};
+
+/// Families of a phase as ProfileFamily, Bragg angles at a voltage.
+std::vector<ProfileFamily> profile_families(const std::vector<PlaneFamily>& families, double wavelength_A);
+
+}  // namespace orderband

@@ -1,0 +1,120 @@
+// Band profiles: a synthetic band's edges and centre, flat profiles of a uniform sphere, windows.
+#include "orderband/band_profile.hpp"
+
+#include <gtest/gtest.h>
+
+#include <cmath>
+
+#include "orderband/band_model.hpp"
+#include "orderband/units.hpp"
+
+namespace orderband {
+namespace {
+
+DetectorGeometry detector(int px = 80) {
+  DetectorGeometrySpec s;
+  s.width_px = s.height_px = px;
+  s.pc_px = {px / 2.0, 0.3 * px};
+  s.distance_px = 0.75 * px;
+  return DetectorGeometry(s);
+}
+
+TEST(BandProfile, SyntheticBandEdgesAndCentre) {
+  // One plane, θ_B = 1.2°, flat band with soft edges (the band model's profile, no edge lines),
+  // rendered with 4 × 4 sub-pixel sampling: the profile's half-height points must sit at
+  // ±θ_B within one bin and its centroid within 0.05° of the plane trace.
+  const DetectorGeometry geo = detector();
+  const DetectorRays rays(geo);
+  const double theta = deg_to_rad(1.2);
+  KinematicBandModel shape(load_phase_cif(ORDERBAND_TEST_DATA_DIR "/ni-fcc.cif"), 20, BandModelParams{0.1, 2, 0.0, 0.08, 2.0});
+  const Eigen::Vector3d n = Eigen::Vector3d(0.3, -0.5, 0.8).normalized();
+  int checked = 0;
+  for (const Rotation& g : random_rotations(20, 31)) {
+    // Only orientations whose plane trace crosses the middle of the screen.
+    const SampleDirection ns = g.to_sample(CrystalDirection(n));
+    if (std::abs(ns.dot(geo.pixel_direction(40, 40))) > 0.2) continue;
+    std::vector<float> pattern(80 * 80);
+    for (int i = 0; i < 80; ++i)
+      for (int j = 0; j < 80; ++j) {
+        double v = 0;
+        for (int a = 0; a < 4; ++a)
+          for (int b = 0; b < 4; ++b) {
+            const Eigen::Vector3d c = g.matrix() * geo.direction_sample({j + (b + 0.5) / 4, i + (a + 0.5) / 4}).vec();
+            v += 1 + 0.5 * shape.profile(std::asin(n.dot(c)) / theta);
+          }
+        pattern[i * 80 + j] = static_cast<float>(v / 16);
+      }
+    const BandProfiler profiler({{"(test)", {n}, theta}}, ProfileSpec{2.5, 0.1});
+    std::vector<FamilyProfile> prof;
+    profiler.profile(pattern.data(), {}, rays, g, prof);
+    const FamilyProfile& p = prof[0];
+    // Centroid of (mean − 1) over the bins.
+    double s = 0, sw = 0;
+    for (int k = 0; k < profiler.bins(); ++k) {
+      if (p.weight[k] <= 0) continue;
+      const double excess = p.mean(k) - 1;
+      s += excess * profiler.bin_centre_u(k), sw += excess;
+    }
+    EXPECT_LT(std::abs(rad_to_deg(s / sw * theta)), 0.05);
+    // Half-height crossings on each side.
+    for (int side : {-1, 1}) {
+      double crossing = 0;
+      for (int k = 0; k < profiler.bins(); ++k) {
+        const double u = profiler.bin_centre_u(k);
+        if (u * side <= 0 || p.weight[k] <= 0) continue;
+        const int k2 = k + side;
+        if (k2 < 0 || k2 >= profiler.bins() || p.weight[k2] <= 0) continue;
+        const double a = p.mean(k) - 1.25, b = p.mean(k2) - 1.25;  // half of the 0.5 plateau
+        if (a > 0 && b <= 0) crossing = u + side * 0.1 * a / (a - b);
+      }
+      EXPECT_NEAR(std::abs(crossing), 1.0, 0.1) << "side " << side;  // one bin = 0.1 θ_B
+    }
+    ++checked;
+  }
+  EXPECT_GE(checked, 3);
+}
+
+TEST(BandProfile, UniformSphereGivesFlatProfiles) {
+  const DetectorGeometry geo = detector();
+  const DetectorRays rays(geo);
+  const std::vector<float> uniform(80 * 80, 3.0f);
+  const BandProfiler profiler({{"{111}", {Eigen::Vector3d(1, 1, 1).normalized(), Eigen::Vector3d(1, 1, -1).normalized(),
+                                          Eigen::Vector3d(1, -1, 1).normalized(), Eigen::Vector3d(-1, 1, 1).normalized()},
+                                deg_to_rad(1.2)}},
+                              ProfileSpec{2.5, 0.25});
+  std::vector<FamilyProfile> prof;
+  std::vector<double> total(profiler.bins(), 0.0);
+  for (const Rotation& g : random_rotations(400, 2)) {
+    profiler.profile(uniform.data(), {}, rays, g, prof);
+    for (int k = 0; k < profiler.bins(); ++k) {
+      if (prof[0].weight[k] > 0) EXPECT_NEAR(prof[0].mean(k), 3.0, 1e-6);
+      total[k] += prof[0].weight[k];
+    }
+  }
+  // Solid angle per α bin, summed over many orientations: flat within 1 % (a strip of the
+  // sphere has area ∝ cos α dα, which varies by 1e-4 over ±3°).
+  double mean = 0;
+  for (double t : total) mean += t / total.size();
+  for (int k = 0; k < profiler.bins(); ++k) EXPECT_NEAR(total[k] / mean, 1.0, 0.01) << "bin " << k;
+}
+
+TEST(BandProfile, WindowsSelectWholeBins) {
+  const BandProfiler profiler({{"x", {Eigen::Vector3d(0, 0, 1)}, 0.02}}, ProfileSpec{2.5, 0.1});
+  FamilyProfile p;
+  const int nb = profiler.bins();
+  p.sum.assign(nb, 0), p.sum_sq.assign(nb, 0), p.weight.assign(nb, 1), p.weight_sq.assign(nb, 1), p.count.assign(nb, 1);
+  for (int k = 0; k < nb; ++k) {
+    const double u = std::abs(profiler.bin_centre_u(k));
+    const double v = u < 1 ? 2.0 : 1.0;
+    p.sum[k] = v, p.sum_sq[k] = v * v;
+  }
+  const FamilyWindows w = profiler.windows(p);
+  EXPECT_EQ(w.interior.count, 12);  // |u| ≤ 0.6: bins centred at ±0.05 … ±0.55
+  EXPECT_EQ(w.flanks.count, 16);    // 1.4 ≤ |u| ≤ 2.2: ±1.45 … ±2.15
+  EXPECT_DOUBLE_EQ(w.interior.mean, 2.0);
+  EXPECT_DOUBLE_EQ(w.flanks.mean, 1.0);
+  EXPECT_DOUBLE_EQ(w.interior.variance_of_mean, 0.0);
+}
+
+}  // namespace
+}  // namespace orderband
