@@ -4,9 +4,9 @@
 #include <omp.h>
 
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <cstdlib>
-#include <cmath>
 #include <random>
 
 #include "orderband/band_profile.hpp"
@@ -42,23 +42,23 @@ int main(int argc, char** argv) {
     for (int i = 0; i < px; ++i)
       for (int j = 0; j < px; ++j) circle[i * px + j] = std::hypot(j + 0.5 - px / 2.0, i + 0.5 - px / 2.0) <= px / 2.0;
     for (const bool masked : {false, true})
-    for (int threads : {1, omp_get_max_threads()}) {
-      omp_set_num_threads(threads);
-      const auto t0 = std::chrono::steady_clock::now();
-      double checksum = 0;
+      for (int threads : {1, omp_get_max_threads()}) {
+        omp_set_num_threads(threads);
+        const auto t0 = std::chrono::steady_clock::now();
+        double checksum = 0;
 #pragma omp parallel reduction(+ : checksum)
-      {
-        std::vector<FamilyProfile> out;
+        {
+          std::vector<FamilyProfile> out;
 #pragma omp for schedule(static)
-        for (int k = 0; k < count; ++k) {
-          profiler.profile(pattern.data(), masked ? circle : std::vector<uint8_t>{}, rays, rotations[k], out);
-          checksum += out[0].sum[10];
+          for (int k = 0; k < count; ++k) {
+            profiler.profile(pattern.data(), masked ? circle : std::vector<uint8_t>{}, rays, rotations[k], out);
+            checksum += out[0].sum[10];
+          }
         }
+        const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+        std::printf("%d x %d px%s, 8 families (%d planes), %d thread(s): %.0f patterns/s (checksum %.3g)\n", px, px,
+                    masked ? " in a circular mask" : "", planes, threads, count / sec, checksum);
       }
-      const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-      std::printf("%d x %d px%s, 8 families (%d planes), %d thread(s): %.0f patterns/s (checksum %.3g)\n", px, px,
-                  masked ? " in a circular mask" : "", planes, threads, count / sec, checksum);
-    }
   }
   return 0;
 }

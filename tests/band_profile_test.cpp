@@ -26,7 +26,8 @@ TEST(BandProfile, SyntheticBandEdgesAndCentre) {
   const DetectorGeometry geo = detector();
   const DetectorRays rays(geo);
   const double theta = deg_to_rad(1.2);
-  KinematicBandModel shape(load_phase_cif(ORDERBAND_TEST_DATA_DIR "/ni-fcc.cif"), 20, BandModelParams{0.1, 2, 0.0, 0.08, 2.0});
+  KinematicBandModel shape(load_phase_cif(ORDERBAND_TEST_DATA_DIR "/ni-fcc.cif"), 20,
+                           BandModelParams{0.1, 2, 0.0, 0.08, 2.0});
   const Eigen::Vector3d n = Eigen::Vector3d(0.3, -0.5, 0.8).normalized();
   int checked = 0;
   for (const Rotation& g : random_rotations(20, 31)) {
@@ -78,8 +79,9 @@ TEST(BandProfile, UniformSphereGivesFlatProfiles) {
   const DetectorGeometry geo = detector();
   const DetectorRays rays(geo);
   const std::vector<float> uniform(80 * 80, 3.0f);
-  const BandProfiler profiler({{"{111}", {Eigen::Vector3d(1, 1, 1).normalized(), Eigen::Vector3d(1, 1, -1).normalized(),
-                                          Eigen::Vector3d(1, -1, 1).normalized(), Eigen::Vector3d(-1, 1, 1).normalized()},
+  const BandProfiler profiler({{"{111}",
+                                {Eigen::Vector3d(1, 1, 1).normalized(), Eigen::Vector3d(1, 1, -1).normalized(),
+                                 Eigen::Vector3d(1, -1, 1).normalized(), Eigen::Vector3d(-1, 1, 1).normalized()},
                                 deg_to_rad(1.2)}},
                               ProfileSpec{2.5, 0.25});
   std::vector<FamilyProfile> prof;

@@ -30,7 +30,8 @@ TEST(SphereGrid, PixelsAndCentresEqualHealpy) {
   }
   for (int nside : {64, 1024}) {
     const SphereGrid grid(nside);
-    const auto r = test::run_reference_script("healpix_reference.py", "pixels " + std::to_string(nside) + " " + dir + "/v.txt");
+    const auto r =
+        test::run_reference_script("healpix_reference.py", "pixels " + std::to_string(nside) + " " + dir + "/v.txt");
     ASSERT_EQ(r.exit_code, 0) << r.err;
     std::istringstream in(r.out);
     std::ofstream pix(dir + "/p.txt");
@@ -41,7 +42,8 @@ TEST(SphereGrid, PixelsAndCentresEqualHealpy) {
       pix << grid.pixel_of(v) << '\n';
     }
     pix.close();
-    const auto c = test::run_reference_script("healpix_reference.py", "centres " + std::to_string(nside) + " " + dir + "/p.txt");
+    const auto c =
+        test::run_reference_script("healpix_reference.py", "centres " + std::to_string(nside) + " " + dir + "/p.txt");
     ASSERT_EQ(c.exit_code, 0) << c.err;
     std::istringstream cin(c.out);
     for (const auto& v : dirs) {
@@ -67,7 +69,7 @@ TEST(SphereGrid, EqualPixelAreasAndResolution) {
   double chi2 = 0;
   const double expected = double(n) / g.npix();
   for (int c : counts) chi2 += (c - expected) * (c - expected) / expected;
-  EXPECT_LT(chi2, 85.4);  // 47 degrees of freedom, p = 0.0005
+  EXPECT_LT(chi2, 85.4);                        // 47 degrees of freedom, p = 0.0005
   EXPECT_EQ(SphereGrid::nside_for(0.01), 128);  // 0.0080 rad ≤ 0.01 < 0.016
   EXPECT_THROW(SphereGrid(100), Error);
 }
@@ -121,7 +123,8 @@ TEST(MasterSphere, ManyRandomPatternsRebuildTheModelSphere) {
   // The stereographic image is drawn and covers the disc.
   const RgbImage img = stereographic_image(folded, 64);
   int white = 0;
-  for (size_t q = 0; q < img.rgb.size(); q += 3) white += img.rgb[q] == 255 && img.rgb[q + 1] == 255 && img.rgb[q + 2] == 255;
+  for (size_t q = 0; q < img.rgb.size(); q += 3)
+    white += img.rgb[q] == 255 && img.rgb[q + 1] == 255 && img.rgb[q + 2] == 255;
   EXPECT_NEAR(white, 64 * 64 * (1 - M_PI / 4), 64);  // only the corners outside the disc
 }
 

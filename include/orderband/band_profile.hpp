@@ -29,11 +29,11 @@ struct ProfileSpec {
 /// detector pixel whose crystal direction x lies at α = asin(n·x) from one of
 /// the family's planes (all symmetric equivalents on the detector add up).
 struct FamilyProfile {
-  std::vector<double> sum;      ///< Σ w v
-  std::vector<double> sum_sq;   ///< Σ w v²
-  std::vector<double> weight;   ///< Σ w (solid angle, sr)
-  std::vector<double> weight_sq;///< Σ w²
-  std::vector<int> count;       ///< pixels
+  std::vector<double> sum;        ///< Σ w v
+  std::vector<double> sum_sq;     ///< Σ w v²
+  std::vector<double> weight;     ///< Σ w (solid angle, sr)
+  std::vector<double> weight_sq;  ///< Σ w²
+  std::vector<int> count;         ///< pixels
   double mean(size_t bin) const { return weight[bin] > 0 ? sum[bin] / weight[bin] : 0.0; }
   void clear();
 };

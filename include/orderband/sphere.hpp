@@ -63,8 +63,8 @@ struct DetectorRays {
 /// map: each pixel inside the mask (mask may be empty: all pixels) adds its
 /// value × solid angle to the HEALPix pixel of its crystal direction, and
 /// its solid angle to the weight.
-void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays,
-                  const Rotation& g, SphereMap& into);
+void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                  SphereMap& into);
 
 /// The map folded by the crystal symmetry: every pixel takes the
 /// weight-averaged value of its symmetric equivalents.

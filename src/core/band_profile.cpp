@@ -33,9 +33,12 @@ int BandProfiler::cell_of(const Eigen::Vector3d& u) const {
   const double ax = std::abs(u.x()), ay = std::abs(u.y()), az = std::abs(u.z());
   int face;
   double a, b, m;
-  if (ax >= ay && ax >= az) face = u.x() > 0 ? 0 : 1, m = ax, a = u.y(), b = u.z();
-  else if (ay >= az) face = u.y() > 0 ? 2 : 3, m = ay, a = u.z(), b = u.x();
-  else face = u.z() > 0 ? 4 : 5, m = az, a = u.x(), b = u.y();
+  if (ax >= ay && ax >= az)
+    face = u.x() > 0 ? 0 : 1, m = ax, a = u.y(), b = u.z();
+  else if (ay >= az)
+    face = u.y() > 0 ? 2 : 3, m = ay, a = u.z(), b = u.x();
+  else
+    face = u.z() > 0 ? 4 : 5, m = az, a = u.x(), b = u.y();
   const int i = std::min(cells_ - 1, static_cast<int>((a / m + 1) * 0.5 * cells_));
   const int j = std::min(cells_ - 1, static_cast<int>((b / m + 1) * 0.5 * cells_));
   return (face * cells_ + i) * cells_ + j;
@@ -67,12 +70,24 @@ BandProfiler::BandProfiler(std::vector<ProfileFamily> families, const ProfileSpe
         auto dir = [&](double a, double b) {
           Eigen::Vector3d v;
           switch (face) {
-            case 0: v = {1, a, b}; break;
-            case 1: v = {-1, a, b}; break;
-            case 2: v = {b, 1, a}; break;
-            case 3: v = {b, -1, a}; break;
-            case 4: v = {a, b, 1}; break;
-            default: v = {a, b, -1}; break;
+            case 0:
+              v = {1, a, b};
+              break;
+            case 1:
+              v = {-1, a, b};
+              break;
+            case 2:
+              v = {b, 1, a};
+              break;
+            case 3:
+              v = {b, -1, a};
+              break;
+            case 4:
+              v = {a, b, 1};
+              break;
+            default:
+              v = {a, b, -1};
+              break;
           }
           return v.normalized();
         };
@@ -123,10 +138,12 @@ void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mas
   out.resize(families_.size());
   for (size_t f = 0; f < families_.size(); ++f) {
     FamilyProfile& p = out[f];
-    p.sum.resize(bins_), p.sum_sq.resize(bins_), p.weight.resize(bins_), p.weight_sq.resize(bins_), p.count.resize(bins_);
+    p.sum.resize(bins_), p.sum_sq.resize(bins_), p.weight.resize(bins_), p.weight_sq.resize(bins_),
+        p.count.resize(bins_);
     for (int b = 0; b < bins_; ++b) {
       const Acc& a = acc[f * bins_ + b];
-      p.sum[b] = a.sum, p.sum_sq[b] = a.sum_sq, p.weight[b] = a.weight, p.weight_sq[b] = a.weight_sq, p.count[b] = a.count;
+      p.sum[b] = a.sum, p.sum_sq[b] = a.sum_sq, p.weight[b] = a.weight, p.weight_sq[b] = a.weight_sq,
+      p.count[b] = a.count;
     }
   }
 }
@@ -138,8 +155,10 @@ FamilyWindows BandProfiler::windows(const FamilyProfile& p, const WindowSpec& sp
   for (int k = 0; k < bins_; ++k) {
     const double lo = std::abs(bin_centre_u(k)) - 0.5 * spec_.bin_u, hi = lo + spec_.bin_u;
     int which = -1;
-    if (hi <= spec.interior_max + 1e-9) which = 0;
-    else if (lo >= spec.flank_min - 1e-9 && hi <= spec.flank_max + 1e-9) which = 1;
+    if (hi <= spec.interior_max + 1e-9)
+      which = 0;
+    else if (lo >= spec.flank_min - 1e-9 && hi <= spec.flank_max + 1e-9)
+      which = 1;
     if (which < 0) continue;
     WindowStats& t = *targets[which];
     t.sum += p.sum[k], t.weight += p.weight[k], t.count += p.count[k];

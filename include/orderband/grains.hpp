@@ -1,0 +1,37 @@
+// Grains: flood-fill segmentation by misorientation, mean orientations, kernel-average misorientation.
+#pragma once
+
+#include <optional>
+#include <vector>
+
+#include "orderband/rotation.hpp"
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+struct GrainSpec {
+  double threshold_deg = 5.0;  ///< neighbours closer than this belong to one grain
+  int min_points = 4;          ///< smaller grains are merged into their closest neighbour grain
+};
+
+struct GrainMap {
+  std::vector<int32_t> id;            ///< per point: grain id 1…n, 0 for points without an orientation
+  std::vector<Rotation> mean;         ///< per grain (index id − 1)
+  std::vector<int> size;              ///< points per grain
+  int count() const { return static_cast<int>(mean.size()); }
+};
+
+/// Flood fill over neighbours (8 on square grids, 6 on hexagonal ones) with
+/// a symmetry-aware misorientation threshold; grains below min_points are
+/// merged into the touching grain of smallest mean misorientation (or left
+/// as they are if none touches). Grain ids follow scan order of first points.
+GrainMap segment_grains(const ScanGrid& grid, const std::vector<std::optional<Rotation>>& orientations,
+                        const CrystalSymmetry& symmetry, const GrainSpec& spec = {});
+
+/// Kernel-average misorientation (degrees): per point, the mean
+/// misorientation to its neighbours of the same grain; NaN without any.
+std::vector<float> kernel_average_misorientation(const ScanGrid& grid,
+                                                 const std::vector<std::optional<Rotation>>& orientations,
+                                                 const GrainMap& grains, const CrystalSymmetry& symmetry);
+
+}  // namespace orderband

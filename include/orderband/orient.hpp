@@ -1,0 +1,57 @@
+// Orientations for every scan point: find (detect, index, refine) or read and refine; then grains.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "orderband/band_detect.hpp"
+#include "orderband/grains.hpp"
+#include "orderband/indexing.hpp"
+#include "orderband/preprocess.hpp"
+#include "orderband/refine.hpp"
+#include "orderband/scan_config.hpp"
+
+namespace orderband {
+
+/// Why a point has no orientation (0: it has one).
+enum class PointStatus : uint8_t {
+  ok = 0,
+  unusable_pattern = 1,     ///< constant inside the mask (dead pattern)
+  too_few_bands = 2,        ///< fewer bands matched than the indexing needs
+  fit_failed = 3,           ///< refinement left the model uncorrelated with the pattern
+  missing_in_file = 4,      ///< the orientation file gives no angles for this point
+};
+const char* point_status_name(PointStatus s);
+
+struct OrientSpec {
+  BandDetectSpec detect;
+  IndexingSpec index;
+  RefineSpec refine;
+  GrainSpec grains;
+  double min_correlation = 0.15;  ///< refined model–pattern correlation below this: fit failed
+  int candidates = 12;            ///< best-voted solutions compared by model correlation
+};
+
+struct OrientationResults {
+  std::vector<std::optional<Rotation>> orientation;
+  std::vector<uint8_t> status;
+  std::vector<int16_t> bands_matched;   ///< −1 where not found from the pattern
+  std::vector<float> fit_residual_deg;  ///< indexing residual; NaN where not indexed
+  std::vector<float> correlation;       ///< model–pattern correlation after refinement (pattern quality)
+  GrainMap grains;
+  std::vector<float> kam_deg;
+  size_t usable() const;
+  size_t with_orientation() const;
+};
+
+/// Runs the orientation stage of a scan: preprocesses the patterns (streamed
+/// by rows), then per point either finds the orientation (band detection,
+/// indexing against the parent phase, Gauss–Newton refinement) or takes it
+/// from the orientation CSV and refines it (unless refine = false), and
+/// finally segments grains. Multi-threaded over the points of each row.
+OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {},
+                               const ProgressFn& progress = {});
+
+}  // namespace orderband

@@ -1,0 +1,133 @@
+// The orientation stage of a scan.
+#include "orderband/orient.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <fstream>
+
+#include "orderband/error.hpp"
+#include "orderband/laue_group.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/pair_catalog.hpp"
+
+namespace orderband {
+
+const char* point_status_name(PointStatus s) {
+  switch (s) {
+    case PointStatus::ok: return "ok";
+    case PointStatus::unusable_pattern: return "unusable_pattern";
+    case PointStatus::too_few_bands: return "too_few_bands";
+    case PointStatus::fit_failed: return "fit_failed";
+    case PointStatus::missing_in_file: return "missing_in_file";
+  }
+  return "?";
+}
+
+size_t OrientationResults::usable() const {
+  return static_cast<size_t>(std::count_if(status.begin(), status.end(), [](uint8_t s) {
+    return s != static_cast<uint8_t>(PointStatus::unusable_pattern);
+  }));
+}
+
+size_t OrientationResults::with_orientation() const {
+  return static_cast<size_t>(std::count_if(orientation.begin(), orientation.end(), [](const auto& o) { return o.has_value(); }));
+}
+
+OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec, const ProgressFn& progress) {
+  const ScanGrid& grid = config.grid;
+  auto source = open_pattern_source(config.patterns, grid);
+  DetectorGeometrySpec gspec = config.geometry;
+  gspec.width_px = source->width();
+  gspec.height_px = source->height();
+  const DetectorGeometry geometry(gspec);
+  const OrderingPair pair = config.phases.pair_name.empty()
+                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
+                                : load_named_pair(config.phases.pair_name);
+  // γ and γ′ share the lattice (cube-on-cube): index and refine as the disordered parent.
+  const Phase& parent = pair.disordered;
+  const CrystalSymmetry symmetry(laue_rotations(parent));
+  BandModelParams model_params;
+  model_params.d_min_A = 0.9;
+  const KinematicBandModel model(parent, config.kv, model_params);
+  const Indexer indexer(parent, config.kv, spec.index);
+
+  std::optional<OrientationTable> given;
+  if (config.orientations.source == OrientationSourceKind::file) {
+    std::ifstream in(config.orientations.file);
+    if (!in) fail("cannot read orientation file '", config.orientations.file, "'");
+    given = read_orientation_csv(in, grid, config.orientations.file);
+  }
+
+  const Preprocessor pre = make_preprocessor(config.preprocess, *source);
+  const BandDetector detector(geometry, pre.mask(), spec.detect);
+  const DetectorRays rays(geometry);
+  const OrientationRefiner refiner(model, rays, pre.mask(), spec.refine);
+
+  OrientationResults r;
+  const size_t n = grid.count();
+  r.orientation.assign(n, std::nullopt);
+  r.status.assign(n, 0);
+  r.bands_matched.assign(n, -1);
+  r.fit_residual_deg.assign(n, std::nanf(""));
+  r.correlation.assign(n, std::nanf(""));
+
+  PreprocessedRows rows(*source, grid, pre);
+  std::vector<float> patterns;
+  std::vector<uint8_t> usable;
+  const size_t px = source->pixels();
+  int row = 0;
+  while (rows.next(patterns, usable)) {
+#pragma omp parallel for schedule(dynamic)
+    for (int col = 0; col < grid.cols; ++col) {
+      const size_t k = grid.index({row, col});
+      const float* p = patterns.data() + static_cast<size_t>(col) * px;
+      if (!usable[col]) {
+        r.status[k] = static_cast<uint8_t>(PointStatus::unusable_pattern);
+        continue;
+      }
+      std::optional<Rotation> start;
+      if (given) {
+        start = given->orientations[k];
+        if (!start) {
+          r.status[k] = static_cast<uint8_t>(PointStatus::missing_in_file);
+          continue;
+        }
+      } else {
+        // The best-voted distinct solutions compete by how well the model matches the pattern.
+        const auto found = indexer.candidates(detector.detect(p), spec.candidates);
+        if (found.empty()) {
+          r.status[k] = static_cast<uint8_t>(PointStatus::too_few_bands);
+          continue;
+        }
+        size_t best = 0;
+        double best_r = -2;
+        for (size_t c = 0; c < found.size(); ++c) {
+          const double corr = refiner.correlation(p, found[c].orientation, true);
+          if (corr > best_r) best_r = corr, best = c;
+        }
+        start = found[best].orientation;
+        r.bands_matched[k] = static_cast<int16_t>(found[best].bands_matched);
+        r.fit_residual_deg[k] = static_cast<float>(found[best].fit_residual_deg);
+      }
+      if (config.orientations.refine) {
+        const RefineResult fit = refiner.refine(p, *start);
+        r.correlation[k] = static_cast<float>(fit.correlation);
+        if (fit.correlation < spec.min_correlation) {
+          r.status[k] = static_cast<uint8_t>(PointStatus::fit_failed);
+          continue;
+        }
+        start = symmetry.reduce(fit.orientation);
+      } else {
+        r.correlation[k] = static_cast<float>(refiner.correlation(p, *start));
+      }
+      r.orientation[k] = *start;
+    }
+    ++row;
+    if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
+  }
+  r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
+  r.kam_deg = kernel_average_misorientation(grid, r.orientation, r.grains, symmetry);
+  return r;
+}
+
+}  // namespace orderband
