@@ -56,13 +56,15 @@ int main(int argc, char** argv) {
   int status_count[5] = {0, 0, 0, 0, 0};
   for (uint8_t st : r.status) status_count[st]++;
   for (int k = 0; k < 5; ++k)
-    if (status_count[k]) std::printf("  status %s: %d points\n", point_status_name(static_cast<PointStatus>(k)), status_count[k]);
+    if (status_count[k])
+      std::printf("  status %s: %d points\n", point_status_name(static_cast<PointStatus>(k)), status_count[k]);
   if (std::getenv("ORDERBAND_BENCH_DETAIL")) {
     for (size_t k = 0; k < config.grid.count(); ++k) {
       if (!r.orientation[k]) continue;
       const double e = rad_to_deg(cubic.misorientation_angle(*r.orientation[k], *truth.orientations[k]));
-      if (e > 2) std::printf("  point %zu: error %.1f deg, bands %d, residual %.2f, r %.3f\n", k, e, r.bands_matched[k],
-                             r.fit_residual_deg[k], r.correlation[k]);
+      if (e > 2)
+        std::printf("  point %zu: error %.1f deg, bands %d, residual %.2f, r %.3f\n", k, e, r.bands_matched[k],
+                    r.fit_residual_deg[k], r.correlation[k]);
     }
   }
   if (!std::getenv("ORDERBAND_BENCH_KEEP")) std::filesystem::remove_all(dir);

@@ -12,15 +12,15 @@ namespace orderband {
 /// A detected band: its plane normal in the sample frame and its strength.
 struct DetectedBand {
   SampleDirection normal;
-  double strength = 0;     ///< band-filtered mean along the line (pattern units)
-  double theta_deg = 0;    ///< line angle on the image
-  double rho_px = 0;       ///< signed distance of the line from the image centre
+  double strength = 0;   ///< band-filtered mean along the line (pattern units)
+  double theta_deg = 0;  ///< line angle on the image
+  double rho_px = 0;     ///< signed distance of the line from the image centre
 };
 
 struct BandDetectSpec {
-  int angle_steps = 120;     ///< line angles over [0°, 180°) (peaks are interpolated between them)
-  int max_bands = 9;         ///< strongest bands kept
-  double min_separation_px = 4;   ///< peaks whose lines stay this close across the screen are one band
+  int angle_steps = 120;            ///< line angles over [0°, 180°) (peaks are interpolated between them)
+  int max_bands = 9;                ///< strongest bands kept
+  double min_separation_px = 4;     ///< peaks whose lines stay this close across the screen are one band
   double band_half_width_px = 1.5;  ///< half-width of the band filter's positive centre
 };
 

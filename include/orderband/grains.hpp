@@ -15,9 +15,9 @@ struct GrainSpec {
 };
 
 struct GrainMap {
-  std::vector<int32_t> id;            ///< per point: grain id 1…n, 0 for points without an orientation
-  std::vector<Rotation> mean;         ///< per grain (index id − 1)
-  std::vector<int> size;              ///< points per grain
+  std::vector<int32_t> id;     ///< per point: grain id 1…n, 0 for points without an orientation
+  std::vector<Rotation> mean;  ///< per grain (index id − 1)
+  std::vector<int> size;       ///< points per grain
   int count() const { return static_cast<int>(mean.size()); }
 };
 

@@ -11,10 +11,10 @@
 namespace orderband {
 
 struct IndexingSpec {
-  double angle_tolerance_deg = 3.0;   ///< pair angles and band matches
-  double min_rel_intensity = 0.1;     ///< reference families: kinematic |F|²/max ≥ this
+  double angle_tolerance_deg = 3.0;     ///< pair angles and band matches
+  double min_rel_intensity = 0.1;       ///< reference families: kinematic |F|²/max ≥ this
   double proposal_rel_intensity = 0.2;  ///< families whose plane pairs propose orientations
-  int proposal_bands = 7;             ///< pairs among this many strongest detected bands propose
+  int proposal_bands = 7;               ///< pairs among this many strongest detected bands propose
   double d_min_A = 0.9;
   int min_bands_matched = 3;
 };

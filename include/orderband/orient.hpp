@@ -18,10 +18,10 @@ namespace orderband {
 /// Why a point has no orientation (0: it has one).
 enum class PointStatus : uint8_t {
   ok = 0,
-  unusable_pattern = 1,     ///< constant inside the mask (dead pattern)
-  too_few_bands = 2,        ///< fewer bands matched than the indexing needs
-  fit_failed = 3,           ///< refinement left the model uncorrelated with the pattern
-  missing_in_file = 4,      ///< the orientation file gives no angles for this point
+  unusable_pattern = 1,  ///< constant inside the mask (dead pattern)
+  too_few_bands = 2,     ///< fewer bands matched than the indexing needs
+  fit_failed = 3,        ///< refinement left the model uncorrelated with the pattern
+  missing_in_file = 4,   ///< the orientation file gives no angles for this point
 };
 const char* point_status_name(PointStatus s);
 
@@ -51,7 +51,6 @@ struct OrientationResults {
 /// indexing against the parent phase, Gauss–Newton refinement) or takes it
 /// from the orientation CSV and refines it (unless refine = false), and
 /// finally segments grains. Multi-threaded over the points of each row.
-OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {},
-                               const ProgressFn& progress = {});
+OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {}, const ProgressFn& progress = {});
 
 }  // namespace orderband

@@ -80,9 +80,10 @@ class PatternRenderer {
 /// Truth of a synthetic scan.
 struct SynthTruth {
   std::vector<float> ordered_fraction;  ///< per point: beam-weighted ordered fraction
-  std::vector<int32_t> grain;           ///< per point: grain at the point centre
-  std::vector<int32_t> particle;        ///< per point: particle id at the centre, 0 for matrix
-  std::vector<Rotation> orientation;    ///< per point: lattice orientation at the centre
+  std::vector<int32_t> grain;  ///< per point: whose lattice the centre carries (grain, coherent particle's host grain,
+                               ///< or grain count + particle id for a particle with its own orientation)
+  std::vector<int32_t> particle;      ///< per point: particle id at the centre, 0 for matrix
+  std::vector<Rotation> orientation;  ///< per point: lattice orientation at the centre
   std::vector<uint8_t> ordered_at_centre;
   double ordered_area_fraction = 0;  ///< primary + secondary + tertiary, fine raster
   double primary_area_fraction = 0, secondary_area_fraction = 0, tertiary_area_fraction = 0;

@@ -16,6 +16,7 @@ const std::vector<CommandEntry>& commands() {
        setup_families},
       {"check", "validate a scan description and its data; print what a run will do", setup_check},
       {"synth", "make a synthetic scan (patterns and truth) from a scenario", setup_synth},
+      {"orient", "find or read and refine orientations; reconstruct grains", setup_orient},
   };
   return table;
 }

@@ -102,7 +102,8 @@ std::vector<IndexingResult> Indexer::candidates(const std::vector<DetectedBand>&
   for (const auto& [score_value, r] : found) {
     if (static_cast<int>(out.size()) >= count) break;
     bool seen = false;
-    for (const IndexingResult& o : out) seen = seen || symmetry_.misorientation_angle(o.orientation, r.orientation) < distinct;
+    for (const IndexingResult& o : out)
+      seen = seen || symmetry_.misorientation_angle(o.orientation, r.orientation) < distinct;
     if (seen) continue;
     out.push_back(r);
     out.back().orientation = symmetry_.reduce(r.orientation);

@@ -9,16 +9,22 @@
 #include "orderband/laue_group.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/units.hpp"
 
 namespace orderband {
 
 const char* point_status_name(PointStatus s) {
   switch (s) {
-    case PointStatus::ok: return "ok";
-    case PointStatus::unusable_pattern: return "unusable_pattern";
-    case PointStatus::too_few_bands: return "too_few_bands";
-    case PointStatus::fit_failed: return "fit_failed";
-    case PointStatus::missing_in_file: return "missing_in_file";
+    case PointStatus::ok:
+      return "ok";
+    case PointStatus::unusable_pattern:
+      return "unusable_pattern";
+    case PointStatus::too_few_bands:
+      return "too_few_bands";
+    case PointStatus::fit_failed:
+      return "fit_failed";
+    case PointStatus::missing_in_file:
+      return "missing_in_file";
   }
   return "?";
 }
@@ -30,7 +36,8 @@ size_t OrientationResults::usable() const {
 }
 
 size_t OrientationResults::with_orientation() const {
-  return static_cast<size_t>(std::count_if(orientation.begin(), orientation.end(), [](const auto& o) { return o.has_value(); }));
+  return static_cast<size_t>(
+      std::count_if(orientation.begin(), orientation.end(), [](const auto& o) { return o.has_value(); }));
 }
 
 OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec, const ProgressFn& progress) {
@@ -124,6 +131,47 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
     }
     ++row;
     if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
+  }
+  // Neighbour check: a point that disagrees with most of its neighbours while they agree with
+  // each other is refined again from their orientation, and takes it if the model then fits
+  // its pattern better (an isolated wrong solution of the indexing).
+  const double threshold = deg_to_rad(spec.grains.threshold_deg);
+  std::vector<size_t> suspects;
+  for (size_t k = 0; k < n; ++k) {
+    if (!r.orientation[k]) continue;
+    const auto nbs = grid.neighbours(grid.point(k), 8);
+    int disagree = 0, with = 0;
+    for (const GridPoint& nb : nbs) {
+      const size_t j = grid.index(nb);
+      if (!r.orientation[j]) continue;
+      ++with;
+      disagree += symmetry.misorientation_angle(*r.orientation[k], *r.orientation[j]) > threshold;
+    }
+    if (with >= 3 && disagree * 4 >= with * 3) suspects.push_back(k);
+  }
+  std::vector<float> pattern(px);
+  for (size_t k : suspects) {
+    std::optional<Rotation> consensus;
+    int best_votes = 0;
+    const auto nbs = grid.neighbours(grid.point(k), 8);
+    for (const GridPoint& a : nbs) {
+      const size_t ja = grid.index(a);
+      if (!r.orientation[ja]) continue;
+      int votes = 0;
+      for (const GridPoint& b : nbs) {
+        const size_t jb = grid.index(b);
+        votes += r.orientation[jb] && symmetry.misorientation_angle(*r.orientation[ja], *r.orientation[jb]) < threshold;
+      }
+      if (votes > best_votes) best_votes = votes, consensus = r.orientation[ja];
+    }
+    if (!consensus || best_votes < 3) continue;
+    source->read(k, 1, pattern.data());
+    if (!pre.apply(pattern.data())) continue;
+    const RefineResult fit = refiner.refine(pattern.data(), *consensus);
+    if (fit.correlation > r.correlation[k] + 0.02) {
+      r.orientation[k] = symmetry.reduce(fit.orientation);
+      r.correlation[k] = static_cast<float>(fit.correlation);
+    }
   }
   r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
   r.kam_deg = kernel_average_misorientation(grid, r.orientation, r.grains, symmetry);

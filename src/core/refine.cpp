@@ -108,8 +108,9 @@ RefineResult OrientationRefiner::refine(const float* pattern, const Rotation& st
     const double angle = eps.norm(), max_step = deg_to_rad(spec_.max_step_deg);
     if (angle > max_step) eps *= max_step / angle;
     // c' = c + ε × c: a rotation of the crystal frame by |ε| about ε.
-    if (eps.norm() > 0) r.orientation = Rotation::from_matrix(Eigen::AngleAxisd(eps.norm(), eps.normalized()).toRotationMatrix() *
-                                                              r.orientation.matrix());
+    if (eps.norm() > 0)
+      r.orientation = Rotation::from_matrix(Eigen::AngleAxisd(eps.norm(), eps.normalized()).toRotationMatrix() *
+                                            r.orientation.matrix());
     r.iterations = it + 1;
     if (rad_to_deg(eps.norm()) < spec_.converged_deg) {
       r.converged = true;

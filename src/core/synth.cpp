@@ -140,7 +140,13 @@ SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double b
     for (const MixtureComponent& c : point_mixture(m, p, beam_sigma_um)) f += c.ordered ? c.weight : 0.0;
     t.ordered_fraction[k] = static_cast<float>(f);
     const MicrostructureSample s = m.at(p);
+    // The lattice the point carries: its grain's, a coherent particle's host grain's, or, for a
+    // particle with its own orientation, a label of its own after the grains.
     t.grain[k] = s.grain;
+    if (s.particle >= 0) {
+      const Particle& q = m.particles()[s.particle];
+      t.grain[k] = q.own_orientation ? static_cast<int32_t>(m.grains().size()) + q.id : q.host_grain;
+    }
     t.particle[k] = s.particle >= 0 ? m.particles()[s.particle].id : 0;
     t.orientation[k] = s.particle >= 0 ? m.particles()[s.particle].orientation : m.grains()[s.grain].orientation;
     t.ordered_at_centre[k] = s.particle >= 0;

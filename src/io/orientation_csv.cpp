@@ -22,7 +22,7 @@ void write_orientation_csv(std::ostream& os, const ScanGrid& grid, const Orienta
     const std::string phase = k < t.phases.size() ? t.phases[k] : "";
     if (t.orientations[k]) {
       const Eigen::Vector3d e = t.orientations[k]->bunge();
-      std::snprintf(buf, sizeof buf, "%d,%d,%.17g,%.17g,%.17g,", p.row, p.col, rad_to_deg(e[0]), rad_to_deg(e[1]),
+      std::snprintf(buf, sizeof buf, "%d,%d,%.10f,%.10f,%.10f,", p.row, p.col, rad_to_deg(e[0]), rad_to_deg(e[1]),
                     rad_to_deg(e[2]));
     } else {
       std::snprintf(buf, sizeof buf, "%d,%d,,,,", p.row, p.col);

@@ -1,0 +1,22 @@
+// Writing the orientation stage's results: CSV, maps (.npy), pictures (PNG), summary (JSON).
+#pragma once
+
+#include <string>
+
+#include "orderband/orient.hpp"
+
+namespace orderband {
+
+/// Writes into `folder` (created if needed), every file atomically:
+/// orientations.csv, point_status.npy, grain_ids.npy, bands_matched.npy,
+/// fit_residual_deg.npy, model_correlation.npy, kam_deg.npy,
+/// orientation_map.png (inverse-pole-figure colours along the sample
+/// normal z_S, with the key beside the map and a µm scale bar),
+/// grain_map.png and orient_summary.json (counts, grains, parameters).
+void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& results,
+                               const OrientSpec& spec, const std::string& phase_name, const std::string& command_line);
+
+/// The inverse-pole-figure map with its key and scale bar (white where no orientation).
+RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& results);
+
+}  // namespace orderband

@@ -1,0 +1,50 @@
+// `orderband orient SCAN.toml -o DIR`: orientations, grains and their maps.
+#include <cstdio>
+#include <memory>
+
+#include "command.hpp"
+#include "orderband/orient_output.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "progress.hpp"
+
+namespace orderband::cli {
+
+std::function<int()> setup_orient(CLI::App& sub) {
+  struct Options {
+    std::string scan, out;
+    int threads = 0;
+    bool quiet = false;
+    double grain_threshold = 5.0;
+    int min_grain = 4;
+  };
+  auto o = std::make_shared<Options>();
+  sub.add_option("scan", o->scan, "scan description (TOML)")->required();
+  sub.add_option("-o,--output", o->out, "output folder (default: the scan's [output] folder)");
+  sub.add_option("--grain-threshold", o->grain_threshold, "misorientation that separates grains (deg)")
+      ->capture_default_str();
+  sub.add_option("--min-grain", o->min_grain, "smallest grain (points); smaller ones merge into a neighbour")
+      ->capture_default_str();
+  add_threads_option(sub, o->threads);
+  sub.add_flag("--quiet", o->quiet, "no progress on stderr");
+  return [o]() {
+    apply_threads(o->threads);
+    const ScanConfig config = read_scan_config(o->scan);
+    OrientSpec spec;
+    spec.grains.threshold_deg = o->grain_threshold;
+    spec.grains.min_points = o->min_grain;
+    ProgressReporter progress("orient", "points", o->quiet);
+    const OrientationResults r = orient_scan(config, spec, [&](size_t d, size_t t) { progress(d, t); });
+    progress.finish();
+    const std::string folder = o->out.empty() ? config.output_folder : o->out;
+    const OrderingPair pair = config.phases.pair_name.empty()
+                                  ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
+                                  : load_named_pair(config.phases.pair_name);
+    write_orientation_outputs(folder, config, r, spec, pair.disordered.name, command_line());
+    if (!o->quiet)
+      std::fprintf(stderr, "orientations for %zu of %zu points (%zu usable), %d grains; written to %s\n",
+                   r.with_orientation(), config.grid.count(), r.usable(), r.grains.count(), folder.c_str());
+    return 0;
+  };
+}
+
+}  // namespace orderband::cli

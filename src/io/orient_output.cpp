@@ -1,0 +1,97 @@
+// Orientation stage outputs.
+#include "orderband/orient_output.hpp"
+
+#include <filesystem>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "orderband/atomic_file.hpp"
+#include "orderband/error.hpp"
+#include "orderband/map_image.hpp"
+#include "orderband/npy_io.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/version.hpp"
+
+namespace orderband {
+
+namespace {
+double pixels_per_step(const ScanGrid& grid) { return std::max(1.0, std::min(8.0, 600.0 / std::max(grid.rows, grid.cols))); }
+}  // namespace
+
+RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& r) {
+  const MapCanvas canvas(grid, pixels_per_step(grid));
+  std::vector<Colour> colours(grid.count(), Colour{255, 255, 255});
+  for (size_t k = 0; k < grid.count(); ++k)
+    if (r.orientation[k]) colours[k] = ipf_colour(*r.orientation[k], Eigen::Vector3d(0, 0, 1));
+  return side_by_side(with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um), ipf_key(140));
+}
+
+void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& r,
+                               const OrientSpec& spec, const std::string& phase_name, const std::string& command_line) {
+  std::error_code ec;
+  std::filesystem::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const ScanGrid& grid = config.grid;
+  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
+  {
+    OrientationTable t;
+    t.orientations = r.orientation;
+    for (size_t k = 0; k < grid.count(); ++k) t.phases.push_back(r.orientation[k] ? phase_name : "");
+    std::ostringstream os;
+    write_orientation_csv(os, grid, t, provenance);
+    write_text_atomically(folder + "/orientations.csv", os.str());
+  }
+  std::vector<int32_t> status(r.status.begin(), r.status.end()), bands(r.bands_matched.begin(), r.bands_matched.end());
+  write_npy_int32(folder + "/point_status.npy", grid.rows, grid.cols, status);
+  write_npy_int32(folder + "/grain_ids.npy", grid.rows, grid.cols, r.grains.id);
+  write_npy_int32(folder + "/bands_matched.npy", grid.rows, grid.cols, bands);
+  write_npy_float32(folder + "/fit_residual_deg.npy", grid.rows, grid.cols, r.fit_residual_deg);
+  write_npy_float32(folder + "/model_correlation.npy", grid.rows, grid.cols, r.correlation);
+  write_npy_float32(folder + "/kam_deg.npy", grid.rows, grid.cols, r.kam_deg);
+
+  const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
+  write_png_rgb(folder + "/orientation_map.png", orientation_map_image(grid, r), text);
+  const MapCanvas canvas(grid, pixels_per_step(grid));
+  std::vector<Colour> grain_colours(grid.count());
+  for (size_t k = 0; k < grid.count(); ++k) grain_colours[k] = label_colour(r.grains.id[k]);
+  write_png_rgb(folder + "/grain_map.png", with_scale_bar(draw_point_colours(canvas, grain_colours), canvas.pixels_per_um),
+                text);
+
+  nlohmann::json j;
+  j["tool"] = "orderband";
+  j["version"] = kVersion;
+  j["command_line"] = command_line;
+  j["scan"] = config.path;
+  j["points"] = grid.count();
+  j["usable_points"] = r.usable();
+  j["points_with_orientation"] = r.with_orientation();
+  nlohmann::json by_status;
+  for (int s = 0; s <= 4; ++s)
+    by_status[point_status_name(static_cast<PointStatus>(s))] =
+        std::count(r.status.begin(), r.status.end(), static_cast<uint8_t>(s));
+  j["points_by_status"] = by_status;
+  j["grain_count"] = r.grains.count();
+  nlohmann::json grains = nlohmann::json::array();
+  for (int g = 0; g < r.grains.count(); ++g) {
+    const Eigen::Vector3d e = r.grains.mean[g].bunge() * 180 / M_PI;
+    grains.push_back({{"id", g + 1}, {"points", r.grains.size[g]}, {"mean_euler_deg", {e[0], e[1], e[2]}}});
+  }
+  j["grains"] = grains;
+  j["parameters"] = {{"orientation_source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
+                     {"refine", config.orientations.refine},
+                     {"grain_threshold_deg", spec.grains.threshold_deg},
+                     {"grain_min_points", spec.grains.min_points},
+                     {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
+                     {"max_bands", spec.detect.max_bands},
+                     {"candidates", spec.candidates},
+                     {"min_correlation", spec.min_correlation},
+                     {"refine_max_iterations", spec.refine.max_iterations}};
+  j["status_codes"] = {{"0", "ok"},
+                       {"1", "unusable_pattern"},
+                       {"2", "too_few_bands"},
+                       {"3", "fit_failed"},
+                       {"4", "missing_in_file"}};
+  write_text_atomically(folder + "/orient_summary.json", j.dump(2) + "\n");
+}
+
+}  // namespace orderband

@@ -1,0 +1,154 @@
+// Orientation stage on a synthetic scan with truth: finding, refinement accuracy, grains, CSV.
+#include "orderband/orient.hpp"
+
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <fstream>
+#include <set>
+#include <sstream>
+
+#include "orderband/error.hpp"
+#include "orderband/npy_io.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/synth.hpp"
+#include "orderband/units.hpp"
+#include "test_support.hpp"
+
+namespace orderband {
+namespace {
+
+// One synthetic scan shared by the tests of this file (not the demo scenario): 40 × 40 points,
+// 60 × 60 px, 5,000 counts per pixel (the demo's noise level), four grains, secondary γ′.
+class OrientScan : public ::testing::Test {
+ protected:
+  static void SetUpTestSuite() {
+    dir_ = new std::string(test::make_temp_dir("orient"));
+    std::ofstream(*dir_ + "/s.toml") << "[scenario]\nseed = 11\n[scan]\nrows = 40\ncols = 40\nstep_um = 0.03\n"
+                                        "[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
+                                        "distance_px = 45.0\n[patterns]\ncounts_per_px = 5000\n[grains]\ncount = 4\n"
+                                        "[secondary]\narea_fraction = 0.3\ndistribution = \"lognormal\"\n"
+                                        "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
+    write_synthetic_scan(read_synth_scenario(*dir_ + "/s.toml"), *dir_ + "/scan", "test");
+    config_ = new ScanConfig(read_scan_config(*dir_ + "/scan/scan.toml"));
+    results_ = new OrientationResults(orient_scan(*config_));
+    std::ifstream in(*dir_ + "/scan/truth_orientations.csv");
+    truth_ = new OrientationTable(read_orientation_csv(in, config_->grid, "truth"));
+  }
+  static void TearDownTestSuite() {
+    std::filesystem::remove_all(*dir_);
+    delete dir_, delete config_, delete results_, delete truth_;
+  }
+  static std::string* dir_;
+  static ScanConfig* config_;
+  static OrientationResults* results_;
+  static OrientationTable* truth_;
+};
+std::string* OrientScan::dir_ = nullptr;
+ScanConfig* OrientScan::config_ = nullptr;
+OrientationResults* OrientScan::results_ = nullptr;
+OrientationTable* OrientScan::truth_ = nullptr;
+
+TEST_F(OrientScan, FindingAndRefinementAccuracy) {
+  const CrystalSymmetry cubic = CrystalSymmetry::cubic();
+  std::vector<double> err;
+  size_t usable = 0, within2 = 0;
+  for (size_t k = 0; k < config_->grid.count(); ++k) {
+    if (results_->status[k] == static_cast<uint8_t>(PointStatus::unusable_pattern)) continue;
+    ++usable;
+    if (!results_->orientation[k]) continue;
+    const double e = rad_to_deg(cubic.misorientation_angle(*results_->orientation[k], *truth_->orientations[k]));
+    err.push_back(e);
+    within2 += e < 2;
+  }
+  EXPECT_GE(double(within2) / usable, 0.99);  // issue Step 5: ≥ 99 % within 2°
+  std::sort(err.begin(), err.end());
+  EXPECT_LT(err[err.size() / 2], 0.1);                     // median < 0.1°
+  EXPECT_LT(err[static_cast<size_t>(0.95 * err.size())], 0.3);  // 95th percentile < 0.3°
+}
+
+TEST_F(OrientScan, GrainsMatchTheTruth) {
+  const NpyArray truth_grains = read_npy(*dir_ + "/scan/truth_grains.npy");
+  const ScanGrid& grid = config_->grid;
+  std::set<int> truth_ids(truth_grains.values.begin(), truth_grains.values.end());
+  EXPECT_EQ(results_->grains.count(), static_cast<int>(truth_ids.size()));
+  // Each truth grain maps to the found id most of its points carry; away from boundaries, all agree.
+  std::map<int, std::map<int, int>> votes;
+  for (size_t k = 0; k < grid.count(); ++k) votes[static_cast<int>(truth_grains.values[k])][results_->grains.id[k]]++;
+  std::map<int, int> mapped;
+  for (auto& [t, m] : votes)
+    mapped[t] = std::max_element(m.begin(), m.end(), [](auto& a, auto& b) { return a.second < b.second; })->first;
+  int inner = 0, agree = 0;
+  for (size_t k = 0; k < grid.count(); ++k) {
+    bool boundary = false;
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
+      boundary = boundary || truth_grains.values[grid.index(nb)] != truth_grains.values[k];
+    if (boundary) continue;
+    ++inner;
+    const bool same = results_->grains.id[k] == mapped[static_cast<int>(truth_grains.values[k])];
+    agree += same;
+    if (!same) ADD_FAILURE() << "point " << k << " in truth grain " << truth_grains.values[k] << " has grain "
+                             << results_->grains.id[k] << ", status " << int(results_->status[k]);
+  }
+  EXPECT_EQ(agree, inner);
+}
+
+TEST_F(OrientScan, CsvRoundTripsExactlyAndReadOrientationsAreRefined) {
+  const ScanGrid& grid = config_->grid;
+  OrientationTable t;
+  t.orientations = results_->orientation;
+  t.phases.assign(grid.count(), "ni_gamma");
+  std::ostringstream a;
+  write_orientation_csv(a, grid, t);
+  std::istringstream in(a.str());
+  const OrientationTable back = read_orientation_csv(in, grid, "a.csv");
+  std::ostringstream b;
+  write_orientation_csv(b, grid, back);
+  EXPECT_TRUE(a.str() == b.str());  // written, read and written again: the same text
+  for (size_t k = 0; k < grid.count(); ++k)
+    if (t.orientations[k])
+      EXPECT_LT((back.orientations[k]->quaternion() - t.orientations[k]->quaternion()).norm(), 1e-11);
+
+  // Orientations read from a CSV, each off by 1° about a random axis, come back refined.
+  const auto axes = random_rotations(grid.count(), 5);
+  OrientationTable noisy;
+  for (size_t k = 0; k < grid.count(); ++k)
+    noisy.orientations.push_back(Rotation::from_axis_angle(axes[k].axis(), deg_to_rad(1.0)) * *truth_->orientations[k]);
+  std::ostringstream os;
+  write_orientation_csv(os, grid, noisy);
+  std::ofstream(*dir_ + "/noisy.csv") << os.str();
+  ScanConfig c = *config_;
+  c.orientations.source = OrientationSourceKind::file;
+  c.orientations.file = *dir_ + "/noisy.csv";
+  const OrientationResults r = orient_scan(c);
+  const CrystalSymmetry cubic = CrystalSymmetry::cubic();
+  std::vector<double> err;
+  for (size_t k = 0; k < grid.count(); ++k)
+    if (r.orientation[k]) err.push_back(rad_to_deg(cubic.misorientation_angle(*r.orientation[k], *truth_->orientations[k])));
+  std::sort(err.begin(), err.end());
+  EXPECT_GT(err.size(), grid.count() * 99 / 100);
+  EXPECT_LT(err[err.size() / 2], 0.1);
+}
+
+TEST(OrientationCsv, RejectsBadTables) {
+  const ScanGrid grid{GridKind::square, 1, 2, 0.1};
+  auto error_of = [&](const std::string& text) {
+    std::istringstream in(text);
+    try {
+      read_orientation_csv(in, grid, "o.csv");
+    } catch (const Error& e) {
+      return std::string(e.what());
+    }
+    return std::string("no error");
+  };
+  const std::string header = "row,col,phi1_deg,Phi_deg,phi2_deg,phase\n";
+  EXPECT_EQ(error_of(header + "0,0,10,20,30,g\n0,1,,,,\n"), "no error");
+  EXPECT_NE(error_of(header + "0,0,10,20,30,g\n").find("1 orientations for 2 scan points"), std::string::npos);
+  EXPECT_NE(error_of(header + "0,1,10,20,30,g\n0,0,1,2,3,g\n").find("o.csv:2: expected row 0, col 0"), std::string::npos);
+  EXPECT_NE(error_of(header + "0,0,10,200,30,g\n0,1,1,2,3,g\n").find("out of range"), std::string::npos);
+  EXPECT_NE(error_of(header + "0,0,ten,20,30,g\n0,1,1,2,3,g\n").find("'ten' is not a number"), std::string::npos);
+  EXPECT_NE(error_of("a,b,c\n").find("header must be"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace orderband
