@@ -63,7 +63,7 @@ TEST_F(OrientScan, FindingAndRefinementAccuracy) {
   }
   EXPECT_GE(double(within2) / usable, 0.99);  // issue Step 5: ≥ 99 % within 2°
   std::sort(err.begin(), err.end());
-  EXPECT_LT(err[err.size() / 2], 0.1);                     // median < 0.1°
+  EXPECT_LT(err[err.size() / 2], 0.1);                          // median < 0.1°
   EXPECT_LT(err[static_cast<size_t>(0.95 * err.size())], 0.3);  // 95th percentile < 0.3°
 }
 
@@ -87,8 +87,9 @@ TEST_F(OrientScan, GrainsMatchTheTruth) {
     ++inner;
     const bool same = results_->grains.id[k] == mapped[static_cast<int>(truth_grains.values[k])];
     agree += same;
-    if (!same) ADD_FAILURE() << "point " << k << " in truth grain " << truth_grains.values[k] << " has grain "
-                             << results_->grains.id[k] << ", status " << int(results_->status[k]);
+    if (!same)
+      ADD_FAILURE() << "point " << k << " in truth grain " << truth_grains.values[k] << " has grain "
+                    << results_->grains.id[k] << ", status " << int(results_->status[k]);
   }
   EXPECT_EQ(agree, inner);
 }
@@ -124,7 +125,8 @@ TEST_F(OrientScan, CsvRoundTripsExactlyAndReadOrientationsAreRefined) {
   const CrystalSymmetry cubic = CrystalSymmetry::cubic();
   std::vector<double> err;
   for (size_t k = 0; k < grid.count(); ++k)
-    if (r.orientation[k]) err.push_back(rad_to_deg(cubic.misorientation_angle(*r.orientation[k], *truth_->orientations[k])));
+    if (r.orientation[k])
+      err.push_back(rad_to_deg(cubic.misorientation_angle(*r.orientation[k], *truth_->orientations[k])));
   std::sort(err.begin(), err.end());
   EXPECT_GT(err.size(), grid.count() * 99 / 100);
   EXPECT_LT(err[err.size() / 2], 0.1);
@@ -144,7 +146,8 @@ TEST(OrientationCsv, RejectsBadTables) {
   const std::string header = "row,col,phi1_deg,Phi_deg,phi2_deg,phase\n";
   EXPECT_EQ(error_of(header + "0,0,10,20,30,g\n0,1,,,,\n"), "no error");
   EXPECT_NE(error_of(header + "0,0,10,20,30,g\n").find("1 orientations for 2 scan points"), std::string::npos);
-  EXPECT_NE(error_of(header + "0,1,10,20,30,g\n0,0,1,2,3,g\n").find("o.csv:2: expected row 0, col 0"), std::string::npos);
+  EXPECT_NE(error_of(header + "0,1,10,20,30,g\n0,0,1,2,3,g\n").find("o.csv:2: expected row 0, col 0"),
+            std::string::npos);
   EXPECT_NE(error_of(header + "0,0,10,200,30,g\n0,1,1,2,3,g\n").find("out of range"), std::string::npos);
   EXPECT_NE(error_of(header + "0,0,ten,20,30,g\n0,1,1,2,3,g\n").find("'ten' is not a number"), std::string::npos);
   EXPECT_NE(error_of("a,b,c\n").find("header must be"), std::string::npos);

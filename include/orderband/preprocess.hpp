@@ -20,6 +20,10 @@ enum class MaskKind { none, circle, file };
 struct PreprocessSpec {
   StaticBackgroundKind static_background = StaticBackgroundKind::scan_mean;
   std::string static_background_file;  ///< greyscale PNG/TIFF of the pattern size (kind = file)
+  /// The scan-mean background is blurred by a Gaussian of this σ (px) so that
+  /// the bands of the few grains a small scan holds do not enter it.
+  /// Negative: 0.1 × pattern width; 0: the raw mean (scans of many grains).
+  double static_background_sigma_px = -1;
   /// σ of the dynamic-background Gaussian (px). Negative: 0.1 × pattern width.
   /// 0: off.
   double dynamic_background_sigma_px = -1;
@@ -55,6 +59,8 @@ class Preprocessor {
   int height() const { return h_; }
   const PreprocessSpec& spec() const { return spec_; }
   double dynamic_sigma_px() const { return blur_ ? blur_->sigma_px() : 0.0; }
+  /// The static background as used (normalised to mean 1 inside the mask); empty if none.
+  std::vector<float> static_background() const;
 
  private:
   PreprocessSpec spec_;

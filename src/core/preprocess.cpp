@@ -74,6 +74,12 @@ Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, st
   if (sigma > 0) blur_ = std::make_unique<GaussianBlur>(w_, h_, sigma);
 }
 
+std::vector<float> Preprocessor::static_background() const {
+  std::vector<float> b(static_inv_.size());
+  for (size_t q = 0; q < b.size(); ++q) b[q] = 1.0f / static_inv_[q];
+  return b;
+}
+
 bool Preprocessor::apply(float* p) const {
   const size_t n = static_cast<size_t>(w_) * h_;
   // A dead pattern (constant inside the mask) is unusable, whatever comes next.
@@ -131,6 +137,9 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
   std::vector<float> background;
   if (spec.static_background == StaticBackgroundKind::scan_mean) {
     background = scan_mean_pattern(source, 256, progress);
+    double sigma = spec.static_background_sigma_px;
+    if (sigma < 0) sigma = 0.1 * source.width();
+    if (sigma > 0) GaussianBlur(source.width(), source.height(), sigma).apply(background.data(), background.data());
   } else if (spec.static_background == StaticBackgroundKind::file) {
     const GrayImage img = read_gray_image(spec.static_background_file);
     if (img.width != source.width() || img.height != source.height())

@@ -66,7 +66,8 @@ Colour lab_to_srgb(double L, double a, double b) {
   const double r = 3.2406 * X - 1.5372 * Y - 0.4986 * Z;
   const double g = -0.9689 * X + 1.8758 * Y + 0.0415 * Z;
   const double bl = 0.0557 * X - 0.2040 * Y + 1.0570 * Z;
-  return {static_cast<uint8_t>(std::lround(255 * srgb_gamma(r))), static_cast<uint8_t>(std::lround(255 * srgb_gamma(g))),
+  return {static_cast<uint8_t>(std::lround(255 * srgb_gamma(r))),
+          static_cast<uint8_t>(std::lround(255 * srgb_gamma(g))),
           static_cast<uint8_t>(std::lround(255 * srgb_gamma(bl)))};
 }
 }  // namespace
@@ -184,7 +185,8 @@ RgbImage side_by_side(const RgbImage& a, const RgbImage& b, int gap) {
   out.rgb.assign(static_cast<size_t>(out.width) * out.height * 3, 255);
   auto blit = [&](const RgbImage& s, int x0) {
     for (int i = 0; i < s.height; ++i)
-      std::copy(s.rgb.begin() + static_cast<size_t>(i) * s.width * 3, s.rgb.begin() + static_cast<size_t>(i + 1) * s.width * 3,
+      std::copy(s.rgb.begin() + static_cast<size_t>(i) * s.width * 3,
+                s.rgb.begin() + static_cast<size_t>(i + 1) * s.width * 3,
                 out.rgb.begin() + (static_cast<size_t>(i) * out.width + x0) * 3);
   };
   blit(a, 0);
@@ -224,7 +226,8 @@ RgbImage colour_bar(int height, double lo, double hi, int ticks) {
   const int top = 6, bottom = height - 6;
   for (int i = top; i <= bottom; ++i) {
     const Colour c = sequential_colour(double(bottom - i) / (bottom - top));
-    for (int j = 4; j < 20; ++j) std::copy(c.begin(), c.end(), img.rgb.begin() + (static_cast<size_t>(i) * img.width + j) * 3);
+    for (int j = 4; j < 20; ++j)
+      std::copy(c.begin(), c.end(), img.rgb.begin() + (static_cast<size_t>(i) * img.width + j) * 3);
   }
   for (int t = 0; t < ticks; ++t) {
     const double f = double(t) / (ticks - 1);

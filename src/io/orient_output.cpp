@@ -15,7 +15,9 @@
 namespace orderband {
 
 namespace {
-double pixels_per_step(const ScanGrid& grid) { return std::max(1.0, std::min(8.0, 600.0 / std::max(grid.rows, grid.cols))); }
+double pixels_per_step(const ScanGrid& grid) {
+  return std::max(1.0, std::min(8.0, 600.0 / std::max(grid.rows, grid.cols)));
+}
 }  // namespace
 
 RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& r) {
@@ -54,8 +56,8 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
   const MapCanvas canvas(grid, pixels_per_step(grid));
   std::vector<Colour> grain_colours(grid.count());
   for (size_t k = 0; k < grid.count(); ++k) grain_colours[k] = label_colour(r.grains.id[k]);
-  write_png_rgb(folder + "/grain_map.png", with_scale_bar(draw_point_colours(canvas, grain_colours), canvas.pixels_per_um),
-                text);
+  write_png_rgb(folder + "/grain_map.png",
+                with_scale_bar(draw_point_colours(canvas, grain_colours), canvas.pixels_per_um), text);
 
   nlohmann::json j;
   j["tool"] = "orderband";
@@ -77,20 +79,18 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
     grains.push_back({{"id", g + 1}, {"points", r.grains.size[g]}, {"mean_euler_deg", {e[0], e[1], e[2]}}});
   }
   j["grains"] = grains;
-  j["parameters"] = {{"orientation_source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
-                     {"refine", config.orientations.refine},
-                     {"grain_threshold_deg", spec.grains.threshold_deg},
-                     {"grain_min_points", spec.grains.min_points},
-                     {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
-                     {"max_bands", spec.detect.max_bands},
-                     {"candidates", spec.candidates},
-                     {"min_correlation", spec.min_correlation},
-                     {"refine_max_iterations", spec.refine.max_iterations}};
-  j["status_codes"] = {{"0", "ok"},
-                       {"1", "unusable_pattern"},
-                       {"2", "too_few_bands"},
-                       {"3", "fit_failed"},
-                       {"4", "missing_in_file"}};
+  j["parameters"] = {
+      {"orientation_source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
+      {"refine", config.orientations.refine},
+      {"grain_threshold_deg", spec.grains.threshold_deg},
+      {"grain_min_points", spec.grains.min_points},
+      {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
+      {"max_bands", spec.detect.max_bands},
+      {"candidates", spec.candidates},
+      {"min_correlation", spec.min_correlation},
+      {"refine_max_iterations", spec.refine.max_iterations}};
+  j["status_codes"] = {
+      {"0", "ok"}, {"1", "unusable_pattern"}, {"2", "too_few_bands"}, {"3", "fit_failed"}, {"4", "missing_in_file"}};
   write_text_atomically(folder + "/orient_summary.json", j.dump(2) + "\n");
 }
 

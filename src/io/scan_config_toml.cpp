@@ -137,8 +137,8 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   // [preprocess]
   const toml::table* pre = r.table("preprocess", false);
   r.check_keys(pre, "preprocess",
-               {"static_background", "dynamic_background_sigma_px", "mask", "mask_radius_px", "hot_pixel_filter",
-                "hot_pixel_threshold", "neighbour_sigma_steps"});
+               {"static_background", "static_background_sigma_px", "dynamic_background_sigma_px", "mask",
+                "mask_radius_px", "hot_pixel_filter", "hot_pixel_threshold", "neighbour_sigma_steps"});
   PreprocessSpec& p = c.preprocess;
   const std::string sb = r.get<std::string>(pre, "preprocess", "static_background").value_or("scan_mean");
   if (sb == "scan_mean")
@@ -152,6 +152,7 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
       fail(path, ": [preprocess] static_background '", sb,
            "' is not \"scan_mean\", \"none\" or an existing image file");
   }
+  p.static_background_sigma_px = r.get<double>(pre, "preprocess", "static_background_sigma_px").value_or(-1.0);
   p.dynamic_background_sigma_px = r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0);
   const std::string mask = r.get<std::string>(pre, "preprocess", "mask").value_or("circle");
   if (mask == "circle")
@@ -237,6 +238,7 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
      << q(p.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
           : p.static_background == StaticBackgroundKind::none    ? "none"
                                                                  : rel(p.static_background_file))
+     << "\nstatic_background_sigma_px = " << p.static_background_sigma_px
      << "\ndynamic_background_sigma_px = " << p.dynamic_background_sigma_px << "\nmask = "
      << q(p.mask == MaskKind::circle ? "circle"
           : p.mask == MaskKind::none ? "none"

@@ -1,0 +1,417 @@
+// Ordered-phase fraction per point.
+#include "orderband/ordered_fraction.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <map>
+#include <numeric>
+
+#include <Eigen/Dense>
+
+#include "orderband/error.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "orderband/synth.hpp"
+
+namespace orderband {
+
+size_t FractionResults::measured() const {
+  return static_cast<size_t>(std::count(reason.begin(), reason.end(), static_cast<uint8_t>(FractionReason::ok)));
+}
+
+double FractionResults::mean_raw() const {
+  double s = 0;
+  size_t n = 0;
+  for (size_t k = 0; k < raw.size(); ++k)
+    if (reason[k] == static_cast<uint8_t>(FractionReason::ok)) s += raw[k], ++n;
+  return n ? s / n : std::nan("");
+}
+
+std::array<EndMember, 2> two_component_mixture(const std::vector<double>& v) {
+  std::array<EndMember, 2> c;
+  if (v.size() < 4) return c;
+  std::vector<double> sorted = v;
+  std::sort(sorted.begin(), sorted.end());
+  c[0] = {sorted[sorted.size() / 5], 0, 0.5};
+  c[1] = {sorted[sorted.size() * 4 / 5], 0, 0.5};
+  const double spread = std::max(1e-6, sorted[sorted.size() * 9 / 10] - sorted[sorted.size() / 10]);
+  c[0].sd = c[1].sd = spread / 4;
+  std::vector<double> resp(v.size());
+  for (int it = 0; it < 200; ++it) {
+    for (size_t k = 0; k < v.size(); ++k) {
+      double p[2];
+      for (int j = 0; j < 2; ++j)
+        p[j] = c[j].weight / c[j].sd * std::exp(-0.5 * std::pow((v[k] - c[j].mean) / c[j].sd, 2));
+      resp[k] = p[1] / std::max(p[0] + p[1], 1e-300);
+    }
+    double w1 = 0, m0 = 0, m1 = 0;
+    for (size_t k = 0; k < v.size(); ++k) w1 += resp[k], m1 += resp[k] * v[k], m0 += (1 - resp[k]) * v[k];
+    const double w0 = v.size() - w1;
+    if (w0 < 1e-9 || w1 < 1e-9) break;
+    m0 /= w0, m1 /= w1;
+    double s0 = 0, s1 = 0;
+    for (size_t k = 0; k < v.size(); ++k) s1 += resp[k] * std::pow(v[k] - m1, 2), s0 += (1 - resp[k]) * std::pow(v[k] - m0, 2);
+    const double floor = 1e-4 * spread;
+    EndMember n0{m0, std::max(std::sqrt(s0 / w0), floor), w0 / v.size()}, n1{m1, std::max(std::sqrt(s1 / w1), floor), w1 / v.size()};
+    const bool done = std::abs(n0.mean - c[0].mean) + std::abs(n1.mean - c[1].mean) < 1e-9 * spread;
+    c = {n0, n1};
+    if (done) break;
+  }
+  if (c[0].mean > c[1].mean) std::swap(c[0], c[1]);
+  return c;
+}
+
+namespace {
+
+struct Reference {
+  std::vector<double> r0, r1, a;  // per family: model signals of both phases, weights
+  double denominator = 0;         // Σ a (r1 − r0)
+  std::vector<FamilyProfile> profile0, profile1;
+};
+
+struct WindowSignals {
+  std::vector<double> s, var;  // per family: interior − flanks, its variance
+  std::vector<int> n_int, n_flank;
+};
+
+WindowSignals window_signals(const BandProfiler& profiler, const std::vector<FamilyProfile>& prof, const WindowSpec& w) {
+  WindowSignals out;
+  for (const FamilyProfile& p : prof) {
+    const FamilyWindows fw = profiler.windows(p, w);
+    const bool ok = fw.interior.count > 0 && fw.flanks.count > 0;
+    out.s.push_back(ok ? fw.interior.mean - fw.flanks.mean : 0.0);
+    out.var.push_back(ok ? fw.interior.variance_of_mean + fw.flanks.variance_of_mean : 0.0);
+    out.n_int.push_back(fw.interior.count);
+    out.n_flank.push_back(fw.flanks.count);
+  }
+  return out;
+}
+
+double contrast(const WindowSignals& w, const std::vector<double>& fundamental_weight, size_t first_fundamental) {
+  double c = 0;
+  for (size_t k = first_fundamental; k < w.s.size(); ++k) c += fundamental_weight[k - first_fundamental] * w.s[k];
+  return c;
+}
+
+/// The detector background B as a smooth cubic polynomial in the pixel position, fitted by linear
+/// least squares so that the smoothed product B·Ī_model reproduces the data's static background
+/// (the smoothed scan mean) inside the mask.
+std::vector<float> fit_detector_background(const std::vector<float>& data_static, const std::vector<float>& model_mean,
+                                           const std::vector<uint8_t>& mask, int w, int h, double sigma) {
+  const int terms = 10;
+  auto basis = [&](int t, int i, int j) {
+    const double x = (j + 0.5) / w - 0.5, y = (i + 0.5) / h - 0.5;
+    const int px[10] = {0, 1, 0, 2, 1, 0, 3, 2, 1, 0}, py[10] = {0, 0, 1, 0, 1, 2, 0, 1, 2, 3};
+    return std::pow(x, px[t]) * std::pow(y, py[t]);
+  };
+  const size_t n = static_cast<size_t>(w) * h;
+  std::vector<std::vector<float>> columns(terms, std::vector<float>(n));
+  for (int t = 0; t < terms; ++t) {
+    for (int i = 0; i < h; ++i)
+      for (int j = 0; j < w; ++j) columns[t][static_cast<size_t>(i) * w + j] =
+          static_cast<float>(basis(t, i, j) * model_mean[static_cast<size_t>(i) * w + j]);
+    if (sigma > 0) GaussianBlur(w, h, sigma).apply(columns[t].data(), columns[t].data());
+  }
+  Eigen::MatrixXd ata = Eigen::MatrixXd::Zero(terms, terms);
+  Eigen::VectorXd atb = Eigen::VectorXd::Zero(terms);
+  for (size_t q = 0; q < n; ++q) {
+    if (!mask[q]) continue;
+    for (int a = 0; a < terms; ++a) {
+      atb[a] += columns[a][q] * data_static[q];
+      for (int b = 0; b < terms; ++b) ata(a, b) += columns[a][q] * columns[b][q];
+    }
+  }
+  const Eigen::VectorXd coef = ata.ldlt().solve(atb);
+  std::vector<float> background(n);
+  for (int i = 0; i < h; ++i)
+    for (int j = 0; j < w; ++j) {
+      double v = 0;
+      for (int t = 0; t < terms; ++t) v += coef[t] * basis(t, i, j);
+      background[static_cast<size_t>(i) * w + j] = static_cast<float>(std::max(v, 1e-6));
+    }
+  return background;
+}
+
+}  // namespace
+
+FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& ori, const FractionSpec& spec,
+                                      const ProgressFn& progress) {
+  const ScanGrid& grid = config.grid;
+  const size_t n = grid.count();
+  if (ori.orientation.size() != n) fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", n);
+  const OrderingPair pair = config.phases.pair_name.empty()
+                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
+                                : load_named_pair(config.phases.pair_name);
+  const std::vector<PairFamily> table = pair_family_table(pair, config.kv, spec.d_min_A);
+
+  // Families: every superlattice-sensitive one, then the strongest fundamental ones.
+  std::vector<PairFamily> chosen;
+  for (const PairFamily& f : table)
+    if (f.sensitivity >= spec.sensitivity_threshold) chosen.push_back(f);
+  const size_t first_fundamental = chosen.size();
+  if (first_fundamental == 0)
+    fail("pair ", pair.name, ": no plane family reaches superlattice sensitivity ", spec.sensitivity_threshold,
+         " with d >= ", spec.d_min_A, " A; the two phases give the same bands");
+  std::vector<PairFamily> fundamentals;
+  for (const PairFamily& f : table)
+    if (f.sensitivity < spec.sensitivity_threshold) fundamentals.push_back(f);
+  std::sort(fundamentals.begin(), fundamentals.end(),
+            [](const PairFamily& a, const PairFamily& b) { return a.rel_intensity_disordered > b.rel_intensity_disordered; });
+  if (fundamentals.size() > static_cast<size_t>(spec.fundamental_families)) fundamentals.resize(spec.fundamental_families);
+  if (fundamentals.empty()) fail("pair ", pair.name, ": no fundamental family to normalise the band contrast");
+  std::vector<double> fundamental_weight;
+  for (const PairFamily& f : fundamentals) fundamental_weight.push_back(f.rel_intensity_disordered);
+  chosen.insert(chosen.end(), fundamentals.begin(), fundamentals.end());
+  std::vector<ProfileFamily> pf;
+  for (const PairFamily& f : chosen) {
+    ProfileFamily p;
+    p.label = f.family.label();
+    p.theta_b = f.sensitivity >= spec.sensitivity_threshold ? f.bragg_ordered_rad : f.bragg_disordered_rad;
+    for (const CrystalDirection& d : f.family.normals) p.normals.push_back(d.vec());
+    pf.push_back(p);
+  }
+  const BandProfiler profiler(pf, spec.profile);
+  const size_t nf = chosen.size();
+
+  auto source = open_pattern_source(config.patterns, grid);
+  DetectorGeometrySpec gspec = config.geometry;
+  gspec.width_px = source->width();
+  gspec.height_px = source->height();
+  const DetectorGeometry geometry(gspec);
+  const DetectorRays rays(geometry);
+  const Preprocessor pre = make_preprocessor(config.preprocess, *source);
+
+  // Model references per grain, at the grain's mean orientation.
+  const BandModelParams band_params;
+  const KinematicBandModel model_ordered(pair.ordered, config.kv, band_params),
+      model_disordered(pair.disordered, config.kv, band_params);
+  const PatternRenderer renderer(geometry, model_ordered, model_disordered, 1000.0, 0.0);
+  const int grains_n = ori.grains.count();
+  // The model patterns meet the data's processing: they carry an estimate of the detector
+  // background B and are divided by the same kind of static background. With the scan mean as
+  // static background, the data are divided by smooth(B·Ī), Ī the scan's mean band pattern; the
+  // model's Ī is the grains' model patterns weighted by their share of the scan, and
+  // B ≈ S_data / smooth(Ī_model).
+  std::vector<std::vector<float>> grain_model(grains_n + 1);
+  std::vector<float> model_mean(source->pixels(), 0.0f);
+  double total = 0;
+  for (int g = 1; g <= grains_n; ++g) total += ori.grains.size[g - 1];
+#pragma omp parallel for schedule(dynamic)
+  for (int g = 1; g <= grains_n; ++g) {
+    grain_model[g].resize(source->pixels());
+    renderer.expected({{ori.grains.mean[g - 1], false, 1.0, 0}}, geometry, grain_model[g].data());
+  }
+  for (int g = 1; g <= grains_n; ++g)
+    for (size_t q = 0; q < model_mean.size(); ++q)
+      model_mean[q] += static_cast<float>(grain_model[g][q] * ori.grains.size[g - 1] / std::max(total, 1.0));
+  const std::vector<float> data_static = pre.static_background();
+  std::vector<float> detector_background(source->pixels(), 1.0f), model_static;
+  PreprocessSpec model_spec = config.preprocess;
+  model_spec.hot_pixel_filter = false;
+  if (!data_static.empty()) {
+    double sigma = 0;
+    if (config.preprocess.static_background == StaticBackgroundKind::scan_mean) {
+      sigma = config.preprocess.static_background_sigma_px < 0 ? 0.1 * source->width()
+                                                               : config.preprocess.static_background_sigma_px;
+      detector_background = fit_detector_background(data_static, model_mean, pre.mask(), source->width(),
+                                                    source->height(), sigma);
+    } else {
+      detector_background = data_static;  // a user's flat field is the detector background itself
+    }
+    model_static.resize(model_mean.size());
+    for (size_t q = 0; q < model_static.size(); ++q) model_static[q] = model_mean[q] * detector_background[q];
+    if (sigma > 0) GaussianBlur(source->width(), source->height(), sigma).apply(model_static.data(), model_static.data());
+    if (config.preprocess.static_background != StaticBackgroundKind::scan_mean) model_static = data_static;
+    model_spec.static_background = StaticBackgroundKind::file;  // given directly below
+  } else {
+    model_spec.static_background = StaticBackgroundKind::none;
+  }
+  const Preprocessor model_pre(model_spec, source->width(), source->height(), model_static);
+  const int grains = ori.grains.count();
+  std::vector<Reference> refs(grains + 1);
+#pragma omp parallel for schedule(dynamic)
+  for (int g = 1; g <= grains; ++g) {
+    Reference& ref = refs[g];
+    std::vector<float> img(source->pixels());
+    WindowSignals w[2];
+    for (int phase = 0; phase < 2; ++phase) {
+      renderer.expected({{ori.grains.mean[g - 1], phase == 1, 1.0, 0}}, geometry, img.data());
+      for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
+      model_pre.apply(img.data());
+      std::vector<FamilyProfile>& prof = phase ? ref.profile1 : ref.profile0;
+      profiler.profile(img.data(), pre.mask(), rays, ori.grains.mean[g - 1], prof);
+      w[phase] = window_signals(profiler, prof, spec.windows);
+    }
+    const double c0 = contrast(w[0], fundamental_weight, first_fundamental);
+    const double c1 = contrast(w[1], fundamental_weight, first_fundamental);
+    ref.r0.assign(nf, 0.0), ref.r1.assign(nf, 0.0), ref.a.assign(nf, 0.0);
+    for (size_t f = 0; f < first_fundamental; ++f) {
+      if (c0 <= 0 || c1 <= 0 || w[0].n_int[f] == 0 || w[0].n_flank[f] == 0) continue;
+      ref.r0[f] = w[0].s[f] / c0;
+      ref.r1[f] = w[1].s[f] / c1;
+      const double var = 1.0 / w[0].n_int[f] + 1.0 / w[0].n_flank[f];  // pixel noise alike everywhere
+      ref.a[f] = (ref.r1[f] - ref.r0[f]) / var;
+      ref.denominator += ref.a[f] * (ref.r1[f] - ref.r0[f]);
+    }
+  }
+
+  FractionResults r;
+  r.fraction.assign(n, std::nanf(""));
+  r.raw.assign(n, std::nanf(""));
+  r.uncertainty.assign(n, std::nanf(""));
+  r.band_contrast.assign(n, std::nanf(""));
+  r.reason.assign(n, static_cast<uint8_t>(FractionReason::ok));
+  std::vector<double> sep_num(nf, 0.0), sep_den(nf, 0.0);
+
+  PreprocessedRows rows(*source, grid, pre);
+  std::vector<float> patterns;
+  std::vector<uint8_t> usable;
+  const size_t px = source->pixels();
+  int row = 0;
+  while (rows.next(patterns, usable)) {
+#pragma omp parallel
+    {
+      std::vector<FamilyProfile> prof;
+      std::vector<double> local_num(nf, 0.0), local_den(nf, 0.0);
+#pragma omp for schedule(dynamic)
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row, col});
+        if (!usable[col]) {
+          r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
+          continue;
+        }
+        const int g = ori.grains.id[k];
+        if (!ori.orientation[k] || g <= 0) {
+          r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
+          continue;
+        }
+        const Reference& ref = refs[g];
+        profiler.profile(patterns.data() + static_cast<size_t>(col) * px, pre.mask(), rays, *ori.orientation[k], prof);
+        const WindowSignals w = window_signals(profiler, prof, spec.windows);
+        const double c = contrast(w, fundamental_weight, first_fundamental);
+        r.band_contrast[k] = static_cast<float>(c);
+        if (!(c > 0) || !(ref.denominator > 0)) {
+          r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+          continue;
+        }
+        double num = 0, var = 0;
+        for (size_t f = 0; f < first_fundamental; ++f) {
+          if (ref.a[f] == 0) continue;
+          const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
+          num += ref.a[f] * (rf - ref.r0[f]);
+          var += ref.a[f] * ref.a[f] * vf;
+          local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
+          local_den[f] += std::sqrt(vf);
+        }
+        r.raw[k] = static_cast<float>(num / ref.denominator);
+        r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
+      }
+#pragma omp critical
+      for (size_t f = 0; f < nf; ++f) sep_num[f] += local_num[f], sep_den[f] += local_den[f];
+    }
+    ++row;
+    if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
+  }
+
+  // End members from the scan: a two-component mixture of the raw estimates.
+  std::vector<double> values;
+  for (size_t k = 0; k < n; ++k)
+    if (r.reason[k] == static_cast<uint8_t>(FractionReason::ok)) values.push_back(r.raw[k]);
+  const auto mix = two_component_mixture(values);
+  r.disordered = mix[0];
+  r.ordered = mix[1];
+  if (spec.end_members == EndMemberMode::mixture) {
+    if (mix[1].mean - mix[0].mean < 0.3 || mix[0].weight < 0.02 || mix[1].weight < 0.02)
+      fail("fraction: the scan does not show two separated phases (mixture means ", mix[0].mean, " and ", mix[1].mean,
+           "); use the model end members or reference regions");
+    r.calibration_offset = mix[0].mean;
+    r.calibration_scale = 1.0 / (mix[1].mean - mix[0].mean);
+  } else if (spec.end_members == EndMemberMode::regions) {
+    double m[2] = {0, 0};
+    int cnt[2] = {0, 0};
+    for (size_t k = 0; k < n; ++k) {
+      if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      for (int phase = 0; phase < 2; ++phase)
+        for (const PointRect& rect : phase ? spec.ordered_regions : spec.disordered_regions)
+          if (rect.contains(grid.point(k))) m[phase] += r.raw[k], cnt[phase] += 1;
+    }
+    if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
+    m[0] /= cnt[0], m[1] /= cnt[1];
+    if (!(m[1] > m[0])) fail("fraction: the ordered reference region is not above the disordered one");
+    r.calibration_offset = m[0];
+    r.calibration_scale = 1.0 / (m[1] - m[0]);
+  }
+  for (size_t k = 0; k < n; ++k) {
+    if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    r.raw[k] = static_cast<float>((r.raw[k] - r.calibration_offset) * r.calibration_scale);
+    r.uncertainty[k] = static_cast<float>(r.uncertainty[k] * r.calibration_scale);
+    r.fraction[k] = std::clamp(r.raw[k], 0.0f, 1.0f);
+  }
+
+  // Sub-resolution ordering in the matrix away from resolved particles.
+  {
+    std::map<std::pair<int, int>, std::pair<double, int>> blocks;
+    double sum = 0;
+    size_t count = 0;
+    for (size_t k = 0; k < n; ++k) {
+      if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[k] >= 0.5) continue;
+      bool near_particle = false;
+      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+        const size_t j = grid.index(nb);
+        near_particle = near_particle || r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[j] >= 0.5;
+      }
+      if (near_particle) continue;
+      sum += r.raw[k], ++count;
+      const GridPoint p = grid.point(k);
+      auto& b = blocks[{p.row / 4, p.col / 4}];
+      b.first += r.raw[k], b.second += 1;
+    }
+    r.subresolution_points = count;
+    if (count) {
+      r.subresolution_fraction = sum / count;
+      // Block means weighted by their point counts: SE of the weighted mean.
+      double ss = 0, w2 = 0;
+      for (const auto& [key, b] : blocks) {
+        const double m = b.first / b.second;
+        ss += b.second * b.second * (m - r.subresolution_fraction) * (m - r.subresolution_fraction);
+        w2 += double(b.second) * b.second;
+      }
+      const double nb = static_cast<double>(blocks.size());
+      r.subresolution_se = nb > 1 ? std::sqrt(ss / (count * double(count)) * nb / (nb - 1)) : std::nan("");
+    }
+  }
+
+  // Diagnostics per family, averaged over grains by their size.
+  std::vector<double> share(nf, 0.0), lo(nf, 0.0), hi(nf, 0.0);
+  double total_points = 0;
+  for (int g = 1; g <= grains; ++g) {
+    const double wgt = ori.grains.size[g - 1];
+    total_points += wgt;
+    for (size_t f = 0; f < first_fundamental; ++f) {
+      share[f] += wgt * (refs[g].denominator > 0 ? refs[g].a[f] * (refs[g].r1[f] - refs[g].r0[f]) / refs[g].denominator : 0);
+      lo[f] += wgt * refs[g].r0[f], hi[f] += wgt * refs[g].r1[f];
+    }
+  }
+  int largest = 0, largest_size = -1;
+  for (int g = 1; g <= grains; ++g)
+    if (ori.grains.size[g - 1] > largest_size) largest_size = ori.grains.size[g - 1], largest = g;
+  for (size_t f = 0; f < nf; ++f) {
+    FamilyDiagnostic d;
+    d.label = chosen[f].family.label();
+    d.superlattice = f < first_fundamental;
+    d.sensitivity = chosen[f].sensitivity;
+    if (total_points > 0) d.weight = share[f] / total_points, d.disordered_level = lo[f] / total_points,
+                          d.ordered_level = hi[f] / total_points;
+    d.separation = sep_den[f] > 0 ? sep_num[f] / sep_den[f] : 0.0;
+    for (int b = 0; b < profiler.bins(); ++b) d.profile_u.push_back(profiler.bin_centre_u(b));
+    if (largest > 0) {
+      for (int b = 0; b < profiler.bins(); ++b) {
+        d.profile_disordered.push_back(refs[largest].profile0[f].mean(b));
+        d.profile_ordered.push_back(refs[largest].profile1[f].mean(b));
+      }
+    }
+    r.families.push_back(std::move(d));
+  }
+  return r;
+}
+
+}  // namespace orderband
