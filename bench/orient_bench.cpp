@@ -24,7 +24,9 @@ int main(int argc, char** argv) {
   std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 3\n[scan]\nrows = " << side << "\ncols = " << side
                                  << "\nstep_um = 0.03\n[detector]\nwidth_px = " << px << "\nheight_px = " << px
                                  << "\npc_px = [" << px / 2.0 << ", " << 0.3 * px << "]\ndistance_px = " << 0.75 * px
-                                 << "\n[patterns]\ncounts_per_px = " << counts
+                                 << "\n[phases]\npair = \""
+                                 << (std::getenv("ORDERBAND_BENCH_PAIR") ? std::getenv("ORDERBAND_BENCH_PAIR") : "ni")
+                                 << "\"\n[patterns]\ncounts_per_px = " << counts
                                  << "\n[grains]\ncount = 4\n[secondary]\narea_fraction = 0.3\ndistribution = "
                                     "\"lognormal\"\nmedian_diameter_um = 0.12\nsigma_ln = 0.2\n";
   const SynthScenario s = read_synth_scenario(dir + "/s.toml");

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <array>
+#include <cmath>
 #include <string>
 #include <vector>
 
@@ -32,13 +33,24 @@ struct PointRect {
   bool contains(GridPoint p) const { return p.row >= row0 && p.row <= row1 && p.col >= col0 && p.col <= col1; }
 };
 
+/// How the superlattice profiles are combined into one number per point.
+enum class FractionEstimator {
+  profile,  ///< matched filter over every profile bin of the superlattice families (default)
+  windows,  ///< off-peak windows only: band interior minus flanks per family
+};
+
 struct FractionSpec {
+  FractionEstimator estimator = FractionEstimator::profile;
   double sensitivity_threshold = 0.5;  ///< families at or above: superlattice-sensitive
   double d_min_A = 0.8;
-  int fundamental_families = 4;        ///< strongest fundamental families used for the contrast normalisation
+  int fundamental_families = 4;  ///< strongest fundamental families used for the contrast normalisation
   ProfileSpec profile;
   WindowSpec windows;
   EndMemberMode end_members = EndMemberMode::model;
+  /// Orientation uncertainty (radians) whose effect on the profiles down-weights the bins where
+  /// the reference changes steeply (beside strong fundamental band edges).
+  double orientation_uncertainty_rad = 0.05 * M_PI / 180;
+  int min_points_for_grain_fit = 10;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
 };
 
@@ -51,20 +63,20 @@ struct FamilyDiagnostic {
   std::string label;
   bool superlattice = false;
   double sensitivity = 0;
-  double weight = 0;        ///< share in the estimator (superlattice families; sums to 1)
-  double separation = 0;    ///< d′: end-member difference over the per-point noise of this family alone
-  double ordered_level = 0, disordered_level = 0;  ///< model window signal, scan mean over grains
-  std::vector<double> profile_u;                   ///< bin centres (θ_B units)
+  double weight = 0;      ///< share in the estimator (superlattice families; sums to 1)
+  double separation = 0;  ///< d′: end-member difference over the per-point noise of this family alone
+  double ordered_level = 0, disordered_level = 0;           ///< model window signal, scan mean over grains
+  std::vector<double> profile_u;                            ///< bin centres (θ_B units)
   std::vector<double> profile_ordered, profile_disordered;  ///< model reference profiles (first grain)
 };
 
 struct FractionResults {
-  std::vector<float> fraction;      ///< per point, clipped to [0, 1]; NaN where not measured
-  std::vector<float> raw;           ///< per point, unclipped estimate (for unbiased means)
-  std::vector<float> uncertainty;   ///< per point, standard error of the estimate
-  std::vector<float> band_contrast; ///< per point, fundamental band contrast (pattern quality)
+  std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
+  std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
+  std::vector<float> uncertainty;    ///< per point, standard error of the estimate
+  std::vector<float> band_contrast;  ///< per point, fundamental band contrast (pattern quality)
   std::vector<uint8_t> reason;
-  EndMember disordered, ordered;    ///< found from the scan (mixture of the raw estimates)
+  EndMember disordered, ordered;                         ///< found from the scan (mixture of the raw estimates)
   double calibration_offset = 0, calibration_scale = 1;  ///< applied after the model reference
   std::vector<FamilyDiagnostic> families;
   /// Sub-resolution ordered fraction: the mean unclipped estimate over matrix points
@@ -74,7 +86,7 @@ struct FractionResults {
   double subresolution_fraction = 0, subresolution_se = 0;
   size_t subresolution_points = 0;
   size_t measured() const;
-  double mean_raw() const;          ///< mean over measured points of the unclipped estimate
+  double mean_raw() const;  ///< mean over measured points of the unclipped estimate
 };
 
 /// The estimator, per point with orientation g in grain G:
@@ -95,7 +107,8 @@ struct FractionResults {
 FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& orientations,
                                       const FractionSpec& spec = {}, const ProgressFn& progress = {});
 
-/// Two-component Gaussian mixture of values by EM: (component 0 lower mean).
+/// End members of the raw estimates by EM: two Gaussians plus a uniform component for the points
+/// that mix both phases (component 0 has the lower mean).
 std::array<EndMember, 2> two_component_mixture(const std::vector<double>& values);
 
 }  // namespace orderband

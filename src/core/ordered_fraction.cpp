@@ -11,6 +11,7 @@
 #include "orderband/error.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/units.hpp"
 
 namespace orderband {
 
@@ -27,33 +28,45 @@ double FractionResults::mean_raw() const {
 }
 
 std::array<EndMember, 2> two_component_mixture(const std::vector<double>& v) {
+  // Two Gaussians (the end members) plus a uniform component over the range of the values for the
+  // points that mix both phases under the beam (particle edges), fitted by EM.
   std::array<EndMember, 2> c;
   if (v.size() < 4) return c;
   std::vector<double> sorted = v;
   std::sort(sorted.begin(), sorted.end());
-  c[0] = {sorted[sorted.size() / 5], 0, 0.5};
-  c[1] = {sorted[sorted.size() * 4 / 5], 0, 0.5};
-  const double spread = std::max(1e-6, sorted[sorted.size() * 9 / 10] - sorted[sorted.size() / 10]);
-  c[0].sd = c[1].sd = spread / 4;
-  std::vector<double> resp(v.size());
-  for (int it = 0; it < 200; ++it) {
+  const double lo = sorted[sorted.size() / 200], hi = sorted[sorted.size() - 1 - sorted.size() / 200];
+  const double range = std::max(hi - lo, 1e-6);
+  // Start from the model's end members, 0 and 1 (the values are in those units).
+  c[0] = {0.0, 0.2, 0.45};
+  c[1] = {1.0, 0.2, 0.45};
+  double uniform = 0.1;
+  std::vector<double> r0(v.size()), r1(v.size());
+  for (int it = 0; it < 300; ++it) {
     for (size_t k = 0; k < v.size(); ++k) {
       double p[2];
       for (int j = 0; j < 2; ++j)
-        p[j] = c[j].weight / c[j].sd * std::exp(-0.5 * std::pow((v[k] - c[j].mean) / c[j].sd, 2));
-      resp[k] = p[1] / std::max(p[0] + p[1], 1e-300);
+        p[j] =
+            c[j].weight / (c[j].sd * std::sqrt(2 * M_PI)) * std::exp(-0.5 * std::pow((v[k] - c[j].mean) / c[j].sd, 2));
+      const double pu = (v[k] >= lo && v[k] <= hi) ? uniform / range : 0.0;
+      const double total = std::max(p[0] + p[1] + pu, 1e-300);
+      r0[k] = p[0] / total, r1[k] = p[1] / total;
     }
-    double w1 = 0, m0 = 0, m1 = 0;
-    for (size_t k = 0; k < v.size(); ++k) w1 += resp[k], m1 += resp[k] * v[k], m0 += (1 - resp[k]) * v[k];
-    const double w0 = v.size() - w1;
-    if (w0 < 1e-9 || w1 < 1e-9) break;
-    m0 /= w0, m1 /= w1;
-    double s0 = 0, s1 = 0;
-    for (size_t k = 0; k < v.size(); ++k) s1 += resp[k] * std::pow(v[k] - m1, 2), s0 += (1 - resp[k]) * std::pow(v[k] - m0, 2);
-    const double floor = 1e-4 * spread;
-    EndMember n0{m0, std::max(std::sqrt(s0 / w0), floor), w0 / v.size()}, n1{m1, std::max(std::sqrt(s1 / w1), floor), w1 / v.size()};
-    const bool done = std::abs(n0.mean - c[0].mean) + std::abs(n1.mean - c[1].mean) < 1e-9 * spread;
-    c = {n0, n1};
+    std::array<EndMember, 2> next;
+    double used = 0;
+    for (int j = 0; j < 2; ++j) {
+      const std::vector<double>& r = j ? r1 : r0;
+      double w = 0, m = 0;
+      for (size_t k = 0; k < v.size(); ++k) w += r[k], m += r[k] * v[k];
+      if (w < 1e-9) return c;
+      m /= w;
+      double ss = 0;
+      for (size_t k = 0; k < v.size(); ++k) ss += r[k] * (v[k] - m) * (v[k] - m);
+      next[j] = {m, std::max(std::sqrt(ss / w), 1e-4 * range), w / v.size()};
+      used += next[j].weight;
+    }
+    const bool done = std::abs(next[0].mean - c[0].mean) + std::abs(next[1].mean - c[1].mean) < 1e-9;
+    c = next;
+    uniform = std::max(1e-6, 1 - used);
     if (done) break;
   }
   if (c[0].mean > c[1].mean) std::swap(c[0], c[1]);
@@ -63,9 +76,16 @@ std::array<EndMember, 2> two_component_mixture(const std::vector<double>& v) {
 namespace {
 
 struct Reference {
-  std::vector<double> r0, r1, a;  // per family: model signals of both phases, weights
-  double denominator = 0;         // Σ a (r1 − r0)
+  std::vector<double> r0, r1, a;  // per family: model window signals of both phases, window weights
+  double denominator = 0;         // Σ a (r1 − r0) over families
   std::vector<FamilyProfile> profile0, profile1;
+  // Per (superlattice family, bin): model means of both phases over the fundamental contrast,
+  // and the matched weight W = Δ · n (Δ = m1 − m0, n pixels in the bin: variance ∝ 1/n).
+  std::vector<std::vector<double>> m0, m1, w;
+  std::vector<std::vector<double>> slope;  // |dm0/du| per bin: sensitivity to an orientation error
+  double bin_denominator = 0;              // Σ W Δ
+  double c0 = 0, c1 = 0;                   // fundamental band contrast of the pure phases (window estimator)
+  double q1 = 1;                           // ordered phase's fundamental profiles regressed on the disordered phase's
 };
 
 struct WindowSignals {
@@ -73,7 +93,8 @@ struct WindowSignals {
   std::vector<int> n_int, n_flank;
 };
 
-WindowSignals window_signals(const BandProfiler& profiler, const std::vector<FamilyProfile>& prof, const WindowSpec& w) {
+WindowSignals window_signals(const BandProfiler& profiler, const std::vector<FamilyProfile>& prof,
+                             const WindowSpec& w) {
   WindowSignals out;
   for (const FamilyProfile& p : prof) {
     const FamilyWindows fw = profiler.windows(p, w);
@@ -107,8 +128,9 @@ std::vector<float> fit_detector_background(const std::vector<float>& data_static
   std::vector<std::vector<float>> columns(terms, std::vector<float>(n));
   for (int t = 0; t < terms; ++t) {
     for (int i = 0; i < h; ++i)
-      for (int j = 0; j < w; ++j) columns[t][static_cast<size_t>(i) * w + j] =
-          static_cast<float>(basis(t, i, j) * model_mean[static_cast<size_t>(i) * w + j]);
+      for (int j = 0; j < w; ++j)
+        columns[t][static_cast<size_t>(i) * w + j] =
+            static_cast<float>(basis(t, i, j) * model_mean[static_cast<size_t>(i) * w + j]);
     if (sigma > 0) GaussianBlur(w, h, sigma).apply(columns[t].data(), columns[t].data());
   }
   Eigen::MatrixXd ata = Eigen::MatrixXd::Zero(terms, terms);
@@ -129,6 +151,57 @@ std::vector<float> fit_detector_background(const std::vector<float>& data_static
       background[static_cast<size_t>(i) * w + j] = static_cast<float>(std::max(v, 1e-6));
     }
   return background;
+}
+
+/// Nelder–Mead minimisation over a 3-vector from the origin (initial simplex size `step`),
+/// until the simplex is smaller than `tolerance` or after `max_evaluations`.
+template <class F>
+Eigen::Vector3d nelder_mead_3(F&& f, double step, double tolerance, int max_evaluations) {
+  std::array<Eigen::Vector3d, 4> x{Eigen::Vector3d::Zero(), Eigen::Vector3d(step, 0, 0), Eigen::Vector3d(0, step, 0),
+                                   Eigen::Vector3d(0, 0, step)};
+  std::array<double, 4> y;
+  for (int i = 0; i < 4; ++i) y[i] = f(x[i]);
+  int evaluations = 4;
+  while (evaluations < max_evaluations) {
+    std::array<int, 4> order{0, 1, 2, 3};
+    std::sort(order.begin(), order.end(), [&](int a, int b) { return y[a] < y[b]; });
+    const int best = order[0], worst = order[3], second = order[2];
+    double size = 0;
+    for (int i = 1; i < 4; ++i) size = std::max(size, (x[order[i]] - x[best]).norm());
+    if (size < tolerance) break;
+    const Eigen::Vector3d centroid = (x[order[0]] + x[order[1]] + x[order[2]]) / 3;
+    const Eigen::Vector3d reflected = centroid + (centroid - x[worst]);
+    const double yr = f(reflected);
+    ++evaluations;
+    if (yr < y[best]) {
+      const Eigen::Vector3d expanded = centroid + 2 * (centroid - x[worst]);
+      const double ye = f(expanded);
+      ++evaluations;
+      if (ye < yr)
+        x[worst] = expanded, y[worst] = ye;
+      else
+        x[worst] = reflected, y[worst] = yr;
+    } else if (yr < y[second]) {
+      x[worst] = reflected, y[worst] = yr;
+    } else {
+      const Eigen::Vector3d contracted = centroid + 0.5 * (x[worst] - centroid);
+      const double yc = f(contracted);
+      ++evaluations;
+      if (yc < y[worst]) {
+        x[worst] = contracted, y[worst] = yc;
+      } else {
+        for (int i = 1; i < 4; ++i) {
+          x[order[i]] = x[best] + 0.5 * (x[order[i]] - x[best]);
+          y[order[i]] = f(x[order[i]]);
+          ++evaluations;
+        }
+      }
+    }
+  }
+  int best = 0;
+  for (int i = 1; i < 4; ++i)
+    if (y[i] < y[best]) best = i;
+  return x[best];
 }
 
 }  // namespace
@@ -154,9 +227,11 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   std::vector<PairFamily> fundamentals;
   for (const PairFamily& f : table)
     if (f.sensitivity < spec.sensitivity_threshold) fundamentals.push_back(f);
-  std::sort(fundamentals.begin(), fundamentals.end(),
-            [](const PairFamily& a, const PairFamily& b) { return a.rel_intensity_disordered > b.rel_intensity_disordered; });
-  if (fundamentals.size() > static_cast<size_t>(spec.fundamental_families)) fundamentals.resize(spec.fundamental_families);
+  std::sort(fundamentals.begin(), fundamentals.end(), [](const PairFamily& a, const PairFamily& b) {
+    return a.rel_intensity_disordered > b.rel_intensity_disordered;
+  });
+  if (fundamentals.size() > static_cast<size_t>(spec.fundamental_families))
+    fundamentals.resize(spec.fundamental_families);
   if (fundamentals.empty()) fail("pair ", pair.name, ": no fundamental family to normalise the band contrast");
   std::vector<double> fundamental_weight;
   for (const PairFamily& f : fundamentals) fundamental_weight.push_back(f.rel_intensity_disordered);
@@ -212,14 +287,15 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     if (config.preprocess.static_background == StaticBackgroundKind::scan_mean) {
       sigma = config.preprocess.static_background_sigma_px < 0 ? 0.1 * source->width()
                                                                : config.preprocess.static_background_sigma_px;
-      detector_background = fit_detector_background(data_static, model_mean, pre.mask(), source->width(),
-                                                    source->height(), sigma);
+      detector_background =
+          fit_detector_background(data_static, model_mean, pre.mask(), source->width(), source->height(), sigma);
     } else {
       detector_background = data_static;  // a user's flat field is the detector background itself
     }
     model_static.resize(model_mean.size());
     for (size_t q = 0; q < model_static.size(); ++q) model_static[q] = model_mean[q] * detector_background[q];
-    if (sigma > 0) GaussianBlur(source->width(), source->height(), sigma).apply(model_static.data(), model_static.data());
+    if (sigma > 0)
+      GaussianBlur(source->width(), source->height(), sigma).apply(model_static.data(), model_static.data());
     if (config.preprocess.static_background != StaticBackgroundKind::scan_mean) model_static = data_static;
     model_spec.static_background = StaticBackgroundKind::file;  // given directly below
   } else {
@@ -227,6 +303,56 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   }
   const Preprocessor model_pre(model_spec, source->width(), source->height(), model_static);
   const int grains = ori.grains.count();
+
+  // Grain orientations refined against the model processed exactly like the data: the mean
+  // preprocessed pattern of each grain is matched (Nelder–Mead on a rotation vector, correlation
+  // with the processed model pattern). Every point of the grain then takes the same correction,
+  // which keeps its own deviation from the grain mean (intragranular gradients) but removes a
+  // bias that fitting the unprocessed model leaves in the orientation stage.
+  std::vector<Rotation> grain_orientation(grains + 1), correction(grains + 1);
+  for (int g = 1; g <= grains; ++g) grain_orientation[g] = ori.grains.mean[g - 1];
+  {
+    std::vector<std::vector<double>> sums(grains + 1);
+    std::vector<int> counts(grains + 1, 0);
+    PreprocessedRows pass(*source, grid, pre);
+    std::vector<float> pats;
+    std::vector<uint8_t> ok;
+    int row0 = 0;
+    while (pass.next(pats, ok)) {
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row0, col});
+        const int g = ori.grains.id[k];
+        if (!ok[col] || g <= 0 || !ori.orientation[k]) continue;
+        if (sums[g].empty()) sums[g].assign(source->pixels(), 0.0);
+        const float* p = pats.data() + static_cast<size_t>(col) * source->pixels();
+        for (size_t q = 0; q < source->pixels(); ++q) sums[g][q] += p[q];
+        counts[g] += 1;
+      }
+      ++row0;
+    }
+#pragma omp parallel for schedule(dynamic)
+    for (int g = 1; g <= grains; ++g) {
+      if (counts[g] < spec.min_points_for_grain_fit) continue;
+      std::vector<float> mean(source->pixels()), img(source->pixels());
+      for (size_t q = 0; q < mean.size(); ++q) mean[q] = static_cast<float>(sums[g][q] / counts[g]);
+      const Rotation start = grain_orientation[g];
+      auto cost = [&](const Eigen::Vector3d& v) {
+        const Rotation trial = v.norm() > 0 ? Rotation::from_axis_angle(v, v.norm()) * start : start;
+        renderer.expected({{trial, false, 1.0, 0}}, geometry, img.data());
+        for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
+        model_pre.apply(img.data());
+        double sxy = 0, sxx = 0, syy = 0;
+        for (size_t q = 0; q < img.size(); ++q)
+          if (pre.mask()[q]) sxy += img[q] * mean[q], sxx += img[q] * img[q], syy += mean[q] * mean[q];
+        return -sxy / std::sqrt(std::max(sxx * syy, 1e-300));
+      };
+      const Eigen::Vector3d best = nelder_mead_3(cost, deg_to_rad(0.1), deg_to_rad(0.001), 150);
+      if (best.norm() > 0) {
+        correction[g] = Rotation::from_axis_angle(best, best.norm());
+        grain_orientation[g] = correction[g] * start;
+      }
+    }
+  }
   std::vector<Reference> refs(grains + 1);
 #pragma omp parallel for schedule(dynamic)
   for (int g = 1; g <= grains; ++g) {
@@ -234,15 +360,16 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     std::vector<float> img(source->pixels());
     WindowSignals w[2];
     for (int phase = 0; phase < 2; ++phase) {
-      renderer.expected({{ori.grains.mean[g - 1], phase == 1, 1.0, 0}}, geometry, img.data());
+      renderer.expected({{grain_orientation[g], phase == 1, 1.0, 0}}, geometry, img.data());
       for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
       model_pre.apply(img.data());
       std::vector<FamilyProfile>& prof = phase ? ref.profile1 : ref.profile0;
-      profiler.profile(img.data(), pre.mask(), rays, ori.grains.mean[g - 1], prof);
+      profiler.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
       w[phase] = window_signals(profiler, prof, spec.windows);
     }
     const double c0 = contrast(w[0], fundamental_weight, first_fundamental);
     const double c1 = contrast(w[1], fundamental_weight, first_fundamental);
+    ref.c0 = c0, ref.c1 = c1;
     ref.r0.assign(nf, 0.0), ref.r1.assign(nf, 0.0), ref.a.assign(nf, 0.0);
     for (size_t f = 0; f < first_fundamental; ++f) {
       if (c0 <= 0 || c1 <= 0 || w[0].n_int[f] == 0 || w[0].n_flank[f] == 0) continue;
@@ -251,6 +378,38 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       const double var = 1.0 / w[0].n_int[f] + 1.0 / w[0].n_flank[f];  // pixel noise alike everywhere
       ref.a[f] = (ref.r1[f] - ref.r0[f]) / var;
       ref.denominator += ref.a[f] * (ref.r1[f] - ref.r0[f]);
+    }
+    ref.m0.assign(first_fundamental, {}), ref.m1.assign(first_fundamental, {}), ref.w.assign(first_fundamental, {});
+    ref.slope.assign(first_fundamental, {});
+    for (size_t f = 0; f < first_fundamental; ++f) {
+      ref.m0[f].assign(profiler.bins(), 0.0), ref.m1[f].assign(profiler.bins(), 0.0),
+          ref.w[f].assign(profiler.bins(), 0.0);
+      if (c0 <= 0 || c1 <= 0) continue;
+      for (int b = 0; b < profiler.bins(); ++b) {
+        const int pixels = ref.profile0[f].count[b];
+        if (pixels == 0) continue;
+        // Profile estimator: model means in the units of the disordered model's fundamental bands.
+        ref.m0[f][b] = ref.profile0[f].mean(b);
+        ref.m1[f][b] = ref.profile1[f].mean(b);
+        const double delta = ref.m1[f][b] - ref.m0[f][b];
+        ref.w[f][b] = delta * pixels;
+        ref.bin_denominator += ref.w[f][b] * delta;
+      }
+      ref.slope[f].assign(profiler.bins(), 0.0);
+      for (int b = 1; b + 1 < profiler.bins(); ++b)
+        if (ref.profile0[f].count[b - 1] && ref.profile0[f].count[b + 1])
+          ref.slope[f][b] = std::abs(ref.m0[f][b + 1] - ref.m0[f][b - 1]) / (2 * spec.profile.bin_u);
+    }
+    {
+      double sxy = 0, sxx = 0;
+      for (size_t f = first_fundamental; f < nf; ++f)
+        for (int b = 0; b < profiler.bins(); ++b) {
+          const int pixels = ref.profile0[f].count[b];
+          if (!pixels) continue;
+          sxy += pixels * ref.profile1[f].mean(b) * ref.profile0[f].mean(b);
+          sxx += pixels * ref.profile0[f].mean(b) * ref.profile0[f].mean(b);
+        }
+      ref.q1 = sxx > 0 ? sxy / sxx : 1.0;
     }
   }
 
@@ -285,25 +444,88 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
           continue;
         }
         const Reference& ref = refs[g];
-        profiler.profile(patterns.data() + static_cast<size_t>(col) * px, pre.mask(), rays, *ori.orientation[k], prof);
+        const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
+        profiler.profile(pattern, pre.mask(), rays, correction[g] * *ori.orientation[k], prof);
+        // Pixel noise of this pattern from differences of horizontal neighbours inside the mask
+        // (bands vary little from one pixel to the next): σ = 1.4826 · MAD / √2.
+        std::vector<float> diffs;
+        diffs.reserve(px);
+        for (size_t q = 0; q + 1 < px; ++q)
+          if ((q + 1) % source->width() && pre.mask()[q] && pre.mask()[q + 1])
+            diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
+        std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
+        const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
         const WindowSignals w = window_signals(profiler, prof, spec.windows);
         const double c = contrast(w, fundamental_weight, first_fundamental);
         r.band_contrast[k] = static_cast<float>(c);
-        if (!(c > 0) || !(ref.denominator > 0)) {
+        if (spec.estimator == FractionEstimator::windows && (!(c > 0) || !(ref.denominator > 0))) {
           r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
           continue;
         }
         double num = 0, var = 0;
-        for (size_t f = 0; f < first_fundamental; ++f) {
-          if (ref.a[f] == 0) continue;
-          const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
-          num += ref.a[f] * (rf - ref.r0[f]);
-          var += ref.a[f] * ref.a[f] * vf;
-          local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
-          local_den[f] += std::sqrt(vf);
+        if (spec.estimator == FractionEstimator::windows) {
+          for (size_t f = 0; f < first_fundamental; ++f) {
+            if (ref.a[f] == 0) continue;
+            const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
+            num += ref.a[f] * (rf - ref.r0[f]);
+            var += ref.a[f] * ref.a[f] * vf;
+            local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
+            local_den[f] += std::sqrt(vf);
+          }
+          r.raw[k] = static_cast<float>(num / ref.denominator);
+          r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
+        } else {
+          // Pattern quality q: the point's fundamental profiles regressed on the disordered model's
+          // (all bins of the strongest fundamental families: many pixels, so q is precise and the
+          // ratio below carries no noticeable bias).
+          double sxy = 0, sxx = 0;
+          for (size_t f = first_fundamental; f < nf; ++f)
+            for (int b = 0; b < profiler.bins(); ++b) {
+              const int pixels = ref.profile0[f].count[b];
+              if (!pixels || prof[f].weight[b] <= 0) continue;
+              sxy += pixels * prof[f].mean(b) * ref.profile0[f].mean(b);
+              sxx += pixels * ref.profile0[f].mean(b) * ref.profile0[f].mean(b);
+            }
+          const double q = sxx > 0 ? sxy / sxx : 0.0;
+          r.band_contrast[k] = static_cast<float>(q);
+          if (!(q > 0.05)) {
+            r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+            continue;
+          }
+          // Matched weights per bin: W = Δ / (noise variance + systematic variance), the latter
+          // from the reference's slope times the orientation uncertainty in units of θ_B.
+          double D = 0, wy = 0;
+          for (size_t f = 0; f < first_fundamental; ++f) {
+            const FamilyProfile& p = prof[f];
+            const double du = spec.orientation_uncertainty_rad / pf[f].theta_b;
+            double fam_num = 0, fam_var = 0, fam_sig = 0;
+            for (int b = 0; b < profiler.bins(); ++b) {
+              if (ref.w[f][b] == 0 || p.weight[b] <= 0) continue;
+              const double x = p.mean(b) / q;
+              const double n_eff = p.weight[b] * p.weight[b] / std::max(p.weight_sq[b], 1e-300);
+              const double vb = pixel_sd * pixel_sd / n_eff / (q * q);
+              const double vs = std::pow(ref.slope[f][b] * du, 2);
+              const double delta = ref.m1[f][b] - ref.m0[f][b];
+              const double wb = delta / (vb + vs);
+              fam_num += wb * (x - ref.m0[f][b]);
+              fam_var += wb * wb * vb;
+              fam_sig += wb * delta;
+              wy += wb * x;
+            }
+            num += fam_num, var += fam_var, D += fam_sig;
+            if (fam_var > 0) local_num[f] += fam_sig / std::sqrt(fam_var), local_den[f] += 1;
+          }
+          if (!(D > 0)) {
+            r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+            continue;
+          }
+          // A mixture's fundamental bands are (1 − f + f q1) times the disordered model's, so
+          // y (1 − f + f q1) = (1 − f) m0 + f m1 in every bin; summed with the weights:
+          // f = Σ W (y − m0) / Σ W [(m1 − m0) − (q1 − 1) y]  (= Σ W (y − m0) / Σ W Δ for q1 = 1).
+          const double denom = D - (ref.q1 - 1) * wy;
+          r.raw[k] = static_cast<float>(num / denom);
+          r.uncertainty[k] = static_cast<float>(std::sqrt(var) / std::abs(denom));
         }
-        r.raw[k] = static_cast<float>(num / ref.denominator);
-        r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
       }
 #pragma omp critical
       for (size_t f = 0; f < nf; ++f) sep_num[f] += local_num[f], sep_den[f] += local_den[f];
@@ -357,7 +579,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       bool near_particle = false;
       for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
         const size_t j = grid.index(nb);
-        near_particle = near_particle || r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[j] >= 0.5;
+        near_particle =
+            near_particle || r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[j] >= 0.5;
       }
       if (near_particle) continue;
       sum += r.raw[k], ++count;
@@ -387,7 +610,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     const double wgt = ori.grains.size[g - 1];
     total_points += wgt;
     for (size_t f = 0; f < first_fundamental; ++f) {
-      share[f] += wgt * (refs[g].denominator > 0 ? refs[g].a[f] * (refs[g].r1[f] - refs[g].r0[f]) / refs[g].denominator : 0);
+      share[f] +=
+          wgt * (refs[g].denominator > 0 ? refs[g].a[f] * (refs[g].r1[f] - refs[g].r0[f]) / refs[g].denominator : 0);
       lo[f] += wgt * refs[g].r0[f], hi[f] += wgt * refs[g].r1[f];
     }
   }
@@ -399,8 +623,9 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     d.label = chosen[f].family.label();
     d.superlattice = f < first_fundamental;
     d.sensitivity = chosen[f].sensitivity;
-    if (total_points > 0) d.weight = share[f] / total_points, d.disordered_level = lo[f] / total_points,
-                          d.ordered_level = hi[f] / total_points;
+    if (total_points > 0)
+      d.weight = share[f] / total_points, d.disordered_level = lo[f] / total_points,
+      d.ordered_level = hi[f] / total_points;
     d.separation = sep_den[f] > 0 ? sep_num[f] / sep_den[f] : 0.0;
     for (int b = 0; b < profiler.bins(); ++b) d.profile_u.push_back(profiler.bin_centre_u(b));
     if (largest > 0) {
