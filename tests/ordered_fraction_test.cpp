@@ -50,7 +50,8 @@ ScenarioRun run_scenario(const std::string& scenario, double neighbour_sigma = 0
 std::string scenario(const std::string& extra, int side = 40, double counts = 5000, const std::string& pair = "ni") {
   return "[scenario]\nseed = 21\n[scan]\nrows = " + std::to_string(side) + "\ncols = " + std::to_string(side) +
          "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\ndistance_px = 45.0\n"
-         "[phases]\npair = \"" + pair + "\"\n[patterns]\ncounts_per_px = " + std::to_string(counts) + "\n" + extra;
+         "[phases]\npair = \"" +
+         pair + "\"\n[patterns]\ncounts_per_px = " + std::to_string(counts) + "\n" + extra;
 }
 
 const std::string kSecondary =
@@ -65,7 +66,8 @@ double classification(const ScenarioRun& r) {
     if (r.fraction.reason[k]) continue;
     const bool t = r.truth[k] >= 0.5;
     bool boundary = false;
-    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) boundary = boundary || ((r.truth[grid.index(nb)] >= 0.5) != t);
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
+      boundary = boundary || ((r.truth[grid.index(nb)] >= 0.5) != t);
     if (boundary) continue;
     ++inner;
     correct += (r.fraction.fraction[k] >= 0.5) == t;
@@ -82,21 +84,24 @@ double truth_mean(const ScenarioRun& r) {
 TEST(OrderedFraction, ClassifiesPointsAndAreaFractionAt5000Counts) {
   const ScenarioRun r = run_scenario(scenario(kSecondary));
   EXPECT_EQ(r.fraction.measured(), r.config.grid.count());
-  EXPECT_GE(classification(r), 0.97);                           // issue Step 6: ≥ 97 %
-  EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.02);      // area fraction within ±0.02
+  EXPECT_GE(classification(r), 0.97);                       // issue Step 6: ≥ 97 %
+  EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.02);  // area fraction within ±0.02
   // The mixture end members land near the model's 0 and 1; the superlattice families carry the weight.
   EXPECT_NEAR(r.fraction.disordered.mean, 0.0, 0.15);
   EXPECT_NEAR(r.fraction.ordered.mean, 1.0, 0.15);
   double super_weight = 0;
   for (const auto& f : r.fraction.families)
-    if (f.superlattice) super_weight += f.weight;
-    else EXPECT_EQ(f.weight, 0.0);
+    if (f.superlattice)
+      super_weight += f.weight;
+    else
+      EXPECT_EQ(f.weight, 0.0);
   EXPECT_NEAR(super_weight, 1.0, 1e-9);
   // Per-point uncertainties describe the scatter of the pure-γ points.
   double s = 0, s2 = 0, u = 0;
   int n = 0;
   for (size_t k = 0; k < r.truth.size(); ++k)
-    if (r.truth[k] == 0.0f) s += r.fraction.raw[k], s2 += r.fraction.raw[k] * r.fraction.raw[k], u += r.fraction.uncertainty[k], ++n;
+    if (r.truth[k] == 0.0f)
+      s += r.fraction.raw[k], s2 += r.fraction.raw[k] * r.fraction.raw[k], u += r.fraction.uncertainty[k], ++n;
   const double sd = std::sqrt(s2 / n - (s / n) * (s / n));
   EXPECT_NEAR(u / n / sd, 1.0, 0.35);
 }
@@ -116,9 +121,10 @@ TEST(OrderedFraction, SubResolutionTertiaryFraction) {
 
 TEST(OrderedFraction, NoOrientationBiasPureGammaGrainsAndAPrimaryParticle) {
   // Four pure-γ grains of different orientations and one primary γ′ particle with its own orientation.
-  const ScenarioRun r = run_scenario(scenario("[grains]\ncount = 4\n[primary]\narea_fraction = 0.08\ndistribution = \"fixed\"\n"
-                                      "diameter_um = 0.45\nown_orientation = true\n",
-                                      40));
+  const ScenarioRun r =
+      run_scenario(scenario("[grains]\ncount = 4\n[primary]\narea_fraction = 0.08\ndistribution = \"fixed\"\n"
+                            "diameter_um = 0.45\nown_orientation = true\n",
+                            40));
   std::map<int, std::pair<double, int>> by_grain;
   for (size_t k = 0; k < r.truth.size(); ++k) {
     // Points of one phase only (the beam at a particle's edge sees both, and rightly so).

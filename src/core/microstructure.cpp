@@ -123,7 +123,9 @@ Microstructure::Microstructure(const MicrostructureSpec& spec) : spec_(spec) {
     const double T = sd.max_um(), margin = 0.5 * T;
     const double n_v = spec.secondary.area_fraction / (kPi / 6 * sd.mean_cube_um3());
     const double volume = (W + 2 * margin) * (H + 2 * margin) * T;
-    const long n = std::poisson_distribution<long>(n_v * volume)(rng);
+    // The expected number, not a Poisson draw: the specimen's volume fraction is the target
+    // (up to the sampled sizes), so that sections of it test the stereology, not the count.
+    const long n = std::lround(n_v * volume);
     if (n > 5'000'000) fail("secondary particles too small for the field: ", n, " would be generated");
     for (long k = 0; k < n; ++k) {
       Particle p;

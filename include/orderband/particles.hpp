@@ -1,0 +1,113 @@
+// Precipitate statistics from a fraction map: segmentation, particles, size classes, confidence, unfolding.
+#pragma once
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+enum class ThresholdMethod { fixed, otsu };
+
+struct SegmentSpec {
+  ThresholdMethod method = ThresholdMethod::fixed;
+  double threshold = 0.5;        ///< fixed threshold on f
+  int square_connectivity = 8;   ///< 4 or 8 (hexagonal grids always use 6)
+  int min_points = 1;            ///< smaller components are dropped (matrix)
+  bool smooth = false;           ///< 3 × 3 (hexagonal: 7-point) mean of f before thresholding
+  bool exclude_border = true;    ///< particles touching the map border stay out of size statistics
+};
+
+struct Particle2D {
+  int id = 0;                    ///< 1…n in scan order of first points
+  int points = 0;
+  double area_um2 = 0, ecd_um = 0;
+  double centroid_x_um = 0, centroid_y_um = 0;
+  /// Second central moments of the point centres (µm²): x along columns, y along rows.
+  double mxx_um2 = 0, myy_um2 = 0, mxy_um2 = 0;
+  double aspect_ratio = 1;       ///< sqrt(λ_max/λ_min) of the second-moment tensor (cells of one step)
+  double major_axis_deg = 0;     ///< angle of the major axis from x_S toward y_S (image: down), in (−90, 90]
+  double mean_fraction = 0;
+  int host_grain = 0;            ///< the grain most of its points belong to (0: unknown)
+  bool on_grain_boundary = false;///< its neighbours outside it belong to two or more grains
+  bool touches_border = false;
+  std::string size_class;
+};
+
+struct Segmentation {
+  double threshold = 0.5;        ///< the threshold used (fixed or Otsu)
+  std::vector<int32_t> label;    ///< per point: particle id, 0 matrix, −1 unusable
+  std::vector<Particle2D> particles;
+  size_t usable_points = 0;
+};
+
+/// Thresholds and labels the map; unusable points (NaN) are neither particle nor matrix.
+/// `grain` (optional, may be empty) gives each point's grain for host and boundary flags.
+Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& fraction,
+                               const std::vector<int32_t>& grain, const SegmentSpec& spec = {});
+
+/// Otsu's threshold (Otsu, IEEE Trans. SMC 9 (1979) 62) of the finite values in [0, 1], 256 bins.
+double otsu_threshold(const std::vector<float>& values);
+
+/// Size classes by equivalent-circle diameter: names and lower bounds in µm, ascending
+/// (defaults, common practice for nickel-base superalloys: tertiary below 0.1 µm, secondary
+/// 0.1–1 µm, primary from 1 µm; tertiary particles are mostly below the scan step and are
+/// reported through the sub-resolution fraction instead).
+struct SizeClasses {
+  std::vector<std::string> names{"tertiary", "secondary", "primary"};
+  std::vector<double> lower_um{0.0, 0.1, 1.0};
+  std::string classify(double ecd_um) const;
+};
+
+struct ClassStats {
+  std::string name;
+  double lower_um = 0, upper_um = 0;  ///< upper: infinity for the last class
+  int count = 0;                      ///< particles in the statistics (not touching the border)
+  double area_fraction = 0;           ///< all particles of the class (border ones included) / analysed area
+  double number_density_per_um2 = 0;  ///< counted particles / analysed area (guard-frame counting)
+  double mean_ecd_um = 0, median_ecd_um = 0;
+  double lognormal_mu = 0, lognormal_sigma = 0;  ///< maximum-likelihood fit of ln ECD
+};
+
+std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg, const SizeClasses& classes);
+
+/// Confidence interval of the ordered area fraction.
+struct FractionCI {
+  std::string method;
+  double mean = 0, low = 0, high = 0, half_width = 0;
+  int fields = 0;
+};
+
+/// Student t quantile t_{p, ν} (e.g. p = 0.975 for a two-sided 95 % interval).
+double student_t_quantile(double p, int dof);
+
+/// ASTM E562 (systematic manual point count, 2019): the map cut into tiles as fields, P_P(i)
+/// the mean fraction of field i, s their standard deviation, 95 % CI = t_{0.975, n−1} · s / √n.
+FractionCI astm_e562_ci(const ScanGrid& grid, const std::vector<float>& fraction, int tiles_per_side = 4);
+/// From field values directly (for the worked example).
+FractionCI astm_e562_ci(const std::vector<double>& field_values);
+/// Moving-block bootstrap: blocks of `block` × `block` points drawn with replacement over the
+/// map (keeps the spatial correlation inside blocks), `resamples` means, percentile interval.
+FractionCI block_bootstrap_ci(const ScanGrid& grid, const std::vector<float>& fraction, int block = 8,
+                              int resamples = 1000, uint64_t seed = 1);
+
+/// Schwartz–Saltykov unfolding (Saltykov, Stereometric Metallography, 1958; Underwood,
+/// Quantitative Stereology, 1970) of section diameters into sphere diameters in `classes`
+/// classes of equal width Δ = max/classes: N_A(i) = Σ_{j≥i} N_V(j) D_j P(i, j), with
+/// P(i, j) = [√(j² − (i−1)²) − √(j² − i²)] / j, solved from the largest class down.
+/// Counts are per unit volume if section counts are per unit area. Negative counts are kept:
+/// the method assumes spheres and is ill-conditioned for few particles (Russ & DeHoff,
+/// Practical Stereology, ch. 12).
+struct Unfolding {
+  double class_width_um = 0;
+  std::vector<double> diameter_um;   ///< class upper bounds D_j = jΔ
+  std::vector<double> section_count; ///< N_A per class (input histogram)
+  std::vector<double> sphere_count;  ///< N_V per class (may be negative)
+  int negative_classes = 0;
+  double mean_diameter_um = 0;       ///< Σ N_V D_mid / Σ N_V over positive classes
+};
+Unfolding saltykov_unfold(const std::vector<double>& section_diameters_um, int classes, double area_um2 = 1.0);
+
+}  // namespace orderband

@@ -1,0 +1,339 @@
+// Particle segmentation and statistics.
+#include "orderband/particles.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <deque>
+#include <limits>
+#include <map>
+#include <random>
+#include <set>
+
+#include "orderband/error.hpp"
+#include "orderband/units.hpp"
+
+namespace orderband {
+
+double otsu_threshold(const std::vector<float>& values) {
+  std::vector<double> hist(256, 0.0);
+  double total = 0;
+  for (float v : values)
+    if (std::isfinite(v)) hist[std::clamp(static_cast<int>(v * 255.999), 0, 255)] += 1, total += 1;
+  if (total == 0) return 0.5;
+  double sum_all = 0;
+  for (int k = 0; k < 256; ++k) sum_all += k * hist[k];
+  // Between-class variance for every split; a run of equal maxima (an empty stretch of the
+  // histogram between the classes) gives its middle.
+  std::vector<double> between(255, -1.0);
+  double w0 = 0, sum0 = 0, best = -1;
+  for (int k = 0; k < 255; ++k) {
+    w0 += hist[k], sum0 += k * hist[k];
+    const double w1 = total - w0;
+    if (w0 == 0 || w1 == 0) continue;
+    const double m0 = sum0 / w0, m1 = (sum_all - sum0) / w1;
+    between[k] = w0 * w1 * (m0 - m1) * (m0 - m1);
+    best = std::max(best, between[k]);
+  }
+  if (best < 0) return 0.5;
+  int first = -1, last = -1;
+  for (int k = 0; k < 255; ++k)
+    if (between[k] >= best * (1 - 1e-12)) {
+      if (first < 0) first = k;
+      last = k;
+    }
+  return (0.5 * (first + last) + 1) / 256.0;
+}
+
+std::string SizeClasses::classify(double ecd) const {
+  std::string name = names.empty() ? "" : names.front();
+  for (size_t k = 0; k < names.size(); ++k)
+    if (ecd >= lower_um[k]) name = names[k];
+  return name;
+}
+
+Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& fraction,
+                               const std::vector<int32_t>& grain, const SegmentSpec& spec) {
+  grid.validate();
+  const size_t n = grid.count();
+  if (fraction.size() != n) fail("segmentation: ", fraction.size(), " values for ", n, " points");
+  if (spec.square_connectivity != 4 && spec.square_connectivity != 8)
+    fail("square-grid connectivity must be 4 or 8, got ", spec.square_connectivity);
+  const int conn = grid.kind == GridKind::hexagonal ? 6 : spec.square_connectivity;
+  std::vector<float> f = fraction;
+  if (spec.smooth) {
+    for (size_t k = 0; k < n; ++k) {
+      if (!std::isfinite(fraction[k])) continue;
+      double s = fraction[k];
+      int c = 1;
+      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+        const float v = fraction[grid.index(nb)];
+        if (std::isfinite(v)) s += v, ++c;
+      }
+      f[k] = static_cast<float>(s / c);
+    }
+  }
+  Segmentation seg;
+  seg.threshold = spec.method == ThresholdMethod::otsu ? otsu_threshold(f) : spec.threshold;
+  seg.label.assign(n, 0);
+  for (size_t k = 0; k < n; ++k) {
+    if (!std::isfinite(f[k])) seg.label[k] = -1;
+    else ++seg.usable_points;
+  }
+  const double cell = grid.step_um * grid.row_spacing_um();  // area of one point's cell (µm²)
+  int next = 0;
+  std::vector<int32_t> provisional(n, 0);
+  for (size_t start = 0; start < n; ++start) {
+    if (seg.label[start] < 0 || provisional[start] || f[start] < seg.threshold) continue;
+    std::vector<size_t> members{start};
+    provisional[start] = ++next;
+    for (size_t head = 0; head < members.size(); ++head)
+      for (const GridPoint& nb : grid.neighbours(grid.point(members[head]), conn)) {
+        const size_t j = grid.index(nb);
+        if (seg.label[j] < 0 || provisional[j] || f[j] < seg.threshold) continue;
+        provisional[j] = next;
+        members.push_back(j);
+      }
+    if (static_cast<int>(members.size()) < spec.min_points) {
+      for (size_t k : members) provisional[k] = -2;  // dropped: matrix
+      --next;
+      continue;
+    }
+    Particle2D p;
+    p.id = next;
+    p.points = static_cast<int>(members.size());
+    p.area_um2 = p.points * cell;
+    p.ecd_um = 2 * std::sqrt(p.area_um2 / kPi);
+    double sx = 0, sy = 0, sf = 0;
+    std::map<int, int> grains;
+    for (size_t k : members) {
+      const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+      sx += pos.x(), sy += pos.y(), sf += fraction[k];
+      if (!grain.empty()) grains[grain[k]]++;
+      const GridPoint q = grid.point(k);
+      if (q.row == 0 || q.col == 0 || q.row == grid.rows - 1 || q.col == grid.cols - 1) p.touches_border = true;
+    }
+    p.centroid_x_um = sx / p.points, p.centroid_y_um = sy / p.points, p.mean_fraction = sf / p.points;
+    // Second moments about the centroid (each point a cell: add the cell's own moment step²/12).
+    double mxx = 0, myy = 0, mxy = 0;
+    for (size_t k : members) {
+      const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+      const double dx = pos.x() - p.centroid_x_um, dy = pos.y() - p.centroid_y_um;
+      mxx += dx * dx, myy += dy * dy, mxy += dx * dy;
+    }
+    p.mxx_um2 = mxx / p.points, p.myy_um2 = myy / p.points, p.mxy_um2 = mxy / p.points;
+    mxx = mxx / p.points + grid.step_um * grid.step_um / 12;
+    myy = myy / p.points + grid.row_spacing_um() * grid.row_spacing_um() / 12;
+    mxy /= p.points;
+    const double tr = mxx + myy, det = mxx * myy - mxy * mxy;
+    const double disc = std::sqrt(std::max(0.0, tr * tr / 4 - det));
+    const double l1 = tr / 2 + disc, l2 = std::max(tr / 2 - disc, 1e-30);
+    p.aspect_ratio = std::sqrt(l1 / l2);
+    p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
+    if (!grains.empty()) {
+      p.host_grain = std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; })->first;
+      std::set<int> outside;
+      for (size_t k : members)
+        for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+          const size_t j = grid.index(nb);
+          if (provisional[j] != next && grain[j] > 0) outside.insert(grain[j]);
+        }
+      p.on_grain_boundary = outside.size() >= 2;
+    }
+    seg.particles.push_back(p);
+  }
+  for (size_t k = 0; k < n; ++k)
+    if (seg.label[k] >= 0) seg.label[k] = provisional[k] > 0 ? provisional[k] : 0;
+  return seg;
+}
+
+std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg, const SizeClasses& classes) {
+  if (classes.names.size() != classes.lower_um.size() || classes.names.empty())
+    fail("size classes need one lower bound per name");
+  for (size_t k = 1; k < classes.lower_um.size(); ++k)
+    if (!(classes.lower_um[k] > classes.lower_um[k - 1])) fail("size-class bounds must increase");
+  const double analysed = seg.usable_points * grid.step_um * grid.row_spacing_um();
+  std::vector<ClassStats> out;
+  for (size_t c = 0; c < classes.names.size(); ++c) {
+    ClassStats s;
+    s.name = classes.names[c];
+    s.lower_um = classes.lower_um[c];
+    s.upper_um = c + 1 < classes.names.size() ? classes.lower_um[c + 1] : std::numeric_limits<double>::infinity();
+    out.push_back(s);
+  }
+  std::vector<std::vector<double>> ecds(out.size());
+  for (Particle2D& p : seg.particles) {
+    p.size_class = classes.classify(p.ecd_um);
+    const size_t c = std::find(classes.names.begin(), classes.names.end(), p.size_class) - classes.names.begin();
+    out[c].area_fraction += p.area_um2 / analysed;
+    if (!p.touches_border) ecds[c].push_back(p.ecd_um);
+  }
+  for (size_t c = 0; c < out.size(); ++c) {
+    auto& e = ecds[c];
+    ClassStats& s = out[c];
+    s.count = static_cast<int>(e.size());
+    s.number_density_per_um2 = analysed > 0 ? e.size() / analysed : 0;
+    if (e.empty()) continue;
+    std::sort(e.begin(), e.end());
+    double sum = 0, sl = 0, sl2 = 0;
+    for (double d : e) sum += d, sl += std::log(d), sl2 += std::log(d) * std::log(d);
+    s.mean_ecd_um = sum / e.size();
+    s.median_ecd_um = e.size() % 2 ? e[e.size() / 2] : 0.5 * (e[e.size() / 2 - 1] + e[e.size() / 2]);
+    s.lognormal_mu = sl / e.size();
+    s.lognormal_sigma = std::sqrt(std::max(0.0, sl2 / e.size() - s.lognormal_mu * s.lognormal_mu));
+  }
+  return out;
+}
+
+namespace {
+// Regularised incomplete beta function I_x(a, b) by Lentz's continued fraction.
+double incomplete_beta(double a, double b, double x) {
+  if (x <= 0) return 0;
+  if (x >= 1) return 1;
+  const double front = std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
+  if (x > (a + 1) / (a + b + 2)) return 1 - incomplete_beta(b, a, 1 - x);
+  double f = 1, c = 1, d = 0;
+  for (int i = 0; i <= 400; ++i) {
+    const int m = i / 2;
+    double num;
+    if (i == 0) num = 1;
+    else if (i % 2 == 0) num = m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m));
+    else num = -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1));
+    d = 1 + num * d;
+    d = std::abs(d) < 1e-30 ? 1e-30 : d;
+    d = 1 / d;
+    c = 1 + num / c;
+    c = std::abs(c) < 1e-30 ? 1e-30 : c;
+    const double cd = c * d;
+    f *= cd;
+    if (std::abs(1 - cd) < 1e-14) break;
+  }
+  return front * (f - 1) / a;
+}
+double student_t_cdf(double t, int dof) {
+  const double x = dof / (dof + t * t);
+  const double tail = 0.5 * incomplete_beta(0.5 * dof, 0.5, x);
+  return t >= 0 ? 1 - tail : tail;
+}
+}  // namespace
+
+double student_t_quantile(double p, int dof) {
+  if (dof < 1) fail("Student t needs at least 1 degree of freedom");
+  double lo = -1e3, hi = 1e3;
+  for (int it = 0; it < 200; ++it) {
+    const double mid = 0.5 * (lo + hi);
+    (student_t_cdf(mid, dof) < p ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+FractionCI astm_e562_ci(const std::vector<double>& v) {
+  FractionCI ci;
+  ci.method = "ASTM E562 point count over fields";
+  ci.fields = static_cast<int>(v.size());
+  if (v.size() < 2) fail("ASTM E562 needs at least 2 fields");
+  double m = 0;
+  for (double x : v) m += x;
+  m /= v.size();
+  double ss = 0;
+  for (double x : v) ss += (x - m) * (x - m);
+  const double s = std::sqrt(ss / (v.size() - 1));
+  ci.mean = m;
+  ci.half_width = student_t_quantile(0.975, static_cast<int>(v.size()) - 1) * s / std::sqrt(double(v.size()));
+  ci.low = m - ci.half_width, ci.high = m + ci.half_width;
+  return ci;
+}
+
+FractionCI astm_e562_ci(const ScanGrid& grid, const std::vector<float>& f, int tiles) {
+  std::vector<double> sum(tiles * tiles, 0.0), cnt(tiles * tiles, 0.0);
+  for (size_t k = 0; k < grid.count(); ++k) {
+    if (!std::isfinite(f[k])) continue;
+    const GridPoint p = grid.point(k);
+    const int t = (p.row * tiles / grid.rows) * tiles + p.col * tiles / grid.cols;
+    sum[t] += f[k], cnt[t] += 1;
+  }
+  std::vector<double> fields;
+  for (size_t t = 0; t < sum.size(); ++t)
+    if (cnt[t] > 0) fields.push_back(sum[t] / cnt[t]);
+  FractionCI ci = astm_e562_ci(fields);
+  ci.method = "ASTM E562 over " + std::to_string(fields.size()) + " fields (" + std::to_string(tiles) + " x " +
+              std::to_string(tiles) + " tiles of the map)";
+  return ci;
+}
+
+FractionCI block_bootstrap_ci(const ScanGrid& grid, const std::vector<float>& f, int block, int resamples, uint64_t seed) {
+  if (block < 1 || block > std::min(grid.rows, grid.cols)) block = std::max(1, std::min(grid.rows, grid.cols) / 2);
+  // Every block position (moving blocks): its sum and count of finite values.
+  std::vector<double> bsum, bcnt;
+  for (int r = 0; r + block <= grid.rows; ++r)
+    for (int c = 0; c + block <= grid.cols; ++c) {
+      double s = 0, n = 0;
+      for (int i = 0; i < block; ++i)
+        for (int j = 0; j < block; ++j) {
+          const float v = f[grid.index({r + i, c + j})];
+          if (std::isfinite(v)) s += v, n += 1;
+        }
+      bsum.push_back(s), bcnt.push_back(n);
+    }
+  const int needed = static_cast<int>(std::ceil(double(grid.rows) * grid.cols / (block * block)));
+  std::mt19937_64 rng(seed);
+  std::uniform_int_distribution<size_t> pick(0, bsum.size() - 1);
+  std::vector<double> means;
+  for (int b = 0; b < resamples; ++b) {
+    double s = 0, n = 0;
+    for (int k = 0; k < needed; ++k) {
+      const size_t i = pick(rng);
+      s += bsum[i], n += bcnt[i];
+    }
+    if (n > 0) means.push_back(s / n);
+  }
+  std::sort(means.begin(), means.end());
+  FractionCI ci;
+  ci.method = "moving-block bootstrap (" + std::to_string(block) + " x " + std::to_string(block) + " point blocks, " +
+              std::to_string(resamples) + " resamples, percentile interval)";
+  double s = 0, n = 0;
+  for (size_t k = 0; k < f.size(); ++k)
+    if (std::isfinite(f[k])) s += f[k], n += 1;
+  ci.mean = n > 0 ? s / n : 0;
+  ci.low = means[static_cast<size_t>(0.025 * (means.size() - 1))];
+  ci.high = means[static_cast<size_t>(0.975 * (means.size() - 1))];
+  ci.half_width = 0.5 * (ci.high - ci.low);
+  ci.fields = static_cast<int>(bsum.size());
+  return ci;
+}
+
+Unfolding saltykov_unfold(const std::vector<double>& d, int classes, double area_um2) {
+  if (classes < 1) fail("unfolding needs at least one class");
+  Unfolding u;
+  double dmax = 0;
+  for (double x : d) dmax = std::max(dmax, x);
+  if (dmax <= 0) return u;
+  u.class_width_um = dmax / classes;
+  u.section_count.assign(classes, 0.0);
+  for (double x : d) {
+    const int i = std::clamp(static_cast<int>(std::ceil(x / u.class_width_um)) - 1, 0, classes - 1);
+    u.section_count[i] += 1.0 / area_um2;
+  }
+  for (int j = 1; j <= classes; ++j) u.diameter_um.push_back(j * u.class_width_um);
+  auto P = [](int i, int j) {  // 1-based: sphere class j gives a section in class i
+    return (std::sqrt(double(j) * j - double(i - 1) * (i - 1)) - std::sqrt(std::max(0.0, double(j) * j - double(i) * i))) / j;
+  };
+  u.sphere_count.assign(classes, 0.0);
+  for (int i = classes; i >= 1; --i) {
+    double rest = u.section_count[i - 1];
+    for (int j = i + 1; j <= classes; ++j) rest -= u.sphere_count[j - 1] * u.diameter_um[j - 1] * P(i, j);
+    u.sphere_count[i - 1] = rest / (u.diameter_um[i - 1] * P(i, i));
+  }
+  double num = 0, den = 0;
+  for (int j = 0; j < classes; ++j) {
+    if (u.sphere_count[j] < 0) {
+      ++u.negative_classes;
+      continue;
+    }
+    num += u.sphere_count[j] * (j + 0.5) * u.class_width_um;
+    den += u.sphere_count[j];
+  }
+  u.mean_diameter_um = den > 0 ? num / den : 0;
+  return u;
+}
+
+}  // namespace orderband
