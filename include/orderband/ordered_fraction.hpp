@@ -9,6 +9,7 @@
 #include "orderband/band_profile.hpp"
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
+#include "orderband/row_store.hpp"
 
 namespace orderband {
 
@@ -105,7 +106,8 @@ struct FractionResults {
 /// estimate is unbiased where the model holds; `end_members` can rescale it
 /// by the data.
 FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& orientations,
-                                      const FractionSpec& spec = {}, const ProgressFn& progress = {});
+                                      const FractionSpec& spec = {}, const ProgressFn& progress = {},
+                                      RowStore* store = nullptr);
 
 /// End members of the raw estimates by EM: two Gaussians plus a uniform component for the points
 /// that mix both phases (component 0 has the lower mean).

@@ -11,6 +11,7 @@
 #include "orderband/indexing.hpp"
 #include "orderband/preprocess.hpp"
 #include "orderband/refine.hpp"
+#include "orderband/row_store.hpp"
 #include "orderband/scan_config.hpp"
 
 namespace orderband {
@@ -51,6 +52,9 @@ struct OrientationResults {
 /// indexing against the parent phase, Gauss–Newton refinement) or takes it
 /// from the orientation CSV and refines it (unless refine = false), and
 /// finally segments grains. Multi-threaded over the points of each row.
-OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {}, const ProgressFn& progress = {});
+/// With a RowStore, finished rows are saved, and rows saved by an earlier (interrupted) run
+/// are taken from it instead of being computed again; the results are the same either way.
+OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {}, const ProgressFn& progress = {},
+                               RowStore* store = nullptr);
 
 }  // namespace orderband

@@ -13,32 +13,32 @@ enum class ThresholdMethod { fixed, otsu };
 
 struct SegmentSpec {
   ThresholdMethod method = ThresholdMethod::fixed;
-  double threshold = 0.5;        ///< fixed threshold on f
-  int square_connectivity = 8;   ///< 4 or 8 (hexagonal grids always use 6)
-  int min_points = 1;            ///< smaller components are dropped (matrix)
-  bool smooth = false;           ///< 3 × 3 (hexagonal: 7-point) mean of f before thresholding
-  bool exclude_border = true;    ///< particles touching the map border stay out of size statistics
+  double threshold = 0.5;       ///< fixed threshold on f
+  int square_connectivity = 8;  ///< 4 or 8 (hexagonal grids always use 6)
+  int min_points = 1;           ///< smaller components are dropped (matrix)
+  bool smooth = false;          ///< 3 × 3 (hexagonal: 7-point) mean of f before thresholding
+  bool exclude_border = true;   ///< particles touching the map border stay out of size statistics
 };
 
 struct Particle2D {
-  int id = 0;                    ///< 1…n in scan order of first points
+  int id = 0;  ///< 1…n in scan order of first points
   int points = 0;
   double area_um2 = 0, ecd_um = 0;
   double centroid_x_um = 0, centroid_y_um = 0;
   /// Second central moments of the point centres (µm²): x along columns, y along rows.
   double mxx_um2 = 0, myy_um2 = 0, mxy_um2 = 0;
-  double aspect_ratio = 1;       ///< sqrt(λ_max/λ_min) of the second-moment tensor (cells of one step)
-  double major_axis_deg = 0;     ///< angle of the major axis from x_S toward y_S (image: down), in (−90, 90]
+  double aspect_ratio = 1;    ///< sqrt(λ_max/λ_min) of the second-moment tensor (cells of one step)
+  double major_axis_deg = 0;  ///< angle of the major axis from x_S toward y_S (image: down), in (−90, 90]
   double mean_fraction = 0;
-  int host_grain = 0;            ///< the grain most of its points belong to (0: unknown)
-  bool on_grain_boundary = false;///< its neighbours outside it belong to two or more grains
+  int host_grain = 0;              ///< the grain most of its points belong to (0: unknown)
+  bool on_grain_boundary = false;  ///< its neighbours outside it belong to two or more grains
   bool touches_border = false;
   std::string size_class;
 };
 
 struct Segmentation {
-  double threshold = 0.5;        ///< the threshold used (fixed or Otsu)
-  std::vector<int32_t> label;    ///< per point: particle id, 0 matrix, −1 unusable
+  double threshold = 0.5;      ///< the threshold used (fixed or Otsu)
+  std::vector<int32_t> label;  ///< per point: particle id, 0 matrix, −1 unusable
   std::vector<Particle2D> particles;
   size_t usable_points = 0;
 };
@@ -102,11 +102,11 @@ FractionCI block_bootstrap_ci(const ScanGrid& grid, const std::vector<float>& fr
 /// Practical Stereology, ch. 12).
 struct Unfolding {
   double class_width_um = 0;
-  std::vector<double> diameter_um;   ///< class upper bounds D_j = jΔ
-  std::vector<double> section_count; ///< N_A per class (input histogram)
-  std::vector<double> sphere_count;  ///< N_V per class (may be negative)
+  std::vector<double> diameter_um;    ///< class upper bounds D_j = jΔ
+  std::vector<double> section_count;  ///< N_A per class (input histogram)
+  std::vector<double> sphere_count;   ///< N_V per class (may be negative)
   int negative_classes = 0;
-  double mean_diameter_um = 0;       ///< Σ N_V D_mid / Σ N_V over positive classes
+  double mean_diameter_um = 0;  ///< Σ N_V D_mid / Σ N_V over positive classes
 };
 Unfolding saltykov_unfold(const std::vector<double>& section_diameters_um, int classes, double area_um2 = 1.0);
 

@@ -21,6 +21,7 @@ std::function<int()> setup_families(CLI::App& sub);
 std::function<int()> setup_check(CLI::App& sub);
 std::function<int()> setup_synth(CLI::App& sub);
 std::function<int()> setup_orient(CLI::App& sub);
+std::function<int()> setup_map(CLI::App& sub);
 
 /// The full command line, for provenance in every output.
 const std::string& command_line();

@@ -17,6 +17,7 @@ const std::vector<CommandEntry>& commands() {
       {"check", "validate a scan description and its data; print what a run will do", setup_check},
       {"synth", "make a synthetic scan (patterns and truth) from a scenario", setup_synth},
       {"orient", "find or read and refine orientations; reconstruct grains", setup_orient},
+      {"map", "the whole analysis of one scan: fraction map, precipitates, report", setup_map},
   };
   return table;
 }

@@ -16,7 +16,7 @@ void ProgressReporter::operator()(size_t done, size_t total) {
   if (quiet_ || total == 0) return;
   const auto now = std::chrono::steady_clock::now();
   const double elapsed = std::chrono::duration<double>(now - start_).count();
-  const double rate = elapsed > 0 ? done / elapsed : 0;
+  const double rate = elapsed > 0.05 ? done / elapsed : 0;  // too early for a meaningful rate
   const double left = rate > 0 ? (total - done) / rate : 0;
   if (tty_) {
     if (done < total && std::chrono::duration<double>(now - last_).count() < 0.2) return;

@@ -207,7 +207,7 @@ Eigen::Vector3d nelder_mead_3(F&& f, double step, double tolerance, int max_eval
 }  // namespace
 
 FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& ori, const FractionSpec& spec,
-                                      const ProgressFn& progress) {
+                                      const ProgressFn& progress, RowStore* store) {
   const ScanGrid& grid = config.grid;
   const size_t n = grid.count();
   if (ori.orientation.size() != n) fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", n);
@@ -426,7 +426,23 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   std::vector<uint8_t> usable;
   const size_t px = source->pixels();
   int row = 0;
+  std::vector<uint8_t> saved;
   while (rows.next(patterns, usable)) {
+    if (store && store->load("fraction", row, saved)) {
+      ByteReader in(saved);
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row, col});
+        r.reason[k] = in.get<uint8_t>();
+        r.raw[k] = in.get<float>();
+        r.uncertainty[k] = in.get<float>();
+        r.band_contrast[k] = in.get<float>();
+      }
+      for (size_t f = 0; f < nf; ++f) sep_num[f] += in.get<double>(), sep_den[f] += in.get<double>();
+      ++row;
+      if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
+      continue;
+    }
+    std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);
 #pragma omp parallel
     {
       std::vector<FamilyProfile> prof;
@@ -528,7 +544,20 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         }
       }
 #pragma omp critical
-      for (size_t f = 0; f < nf; ++f) sep_num[f] += local_num[f], sep_den[f] += local_den[f];
+      for (size_t f = 0; f < nf; ++f) row_num[f] += local_num[f], row_den[f] += local_den[f];
+    }
+    for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
+    if (store) {
+      ByteWriter out;
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row, col});
+        out.put<uint8_t>(r.reason[k]);
+        out.put<float>(r.raw[k]);
+        out.put<float>(r.uncertainty[k]);
+        out.put<float>(r.band_contrast[k]);
+      }
+      for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
+      store->save("fraction", row, out.bytes);
     }
     ++row;
     if (progress) progress(static_cast<size_t>(row) * grid.cols, n);

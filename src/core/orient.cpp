@@ -40,7 +40,8 @@ size_t OrientationResults::with_orientation() const {
       std::count_if(orientation.begin(), orientation.end(), [](const auto& o) { return o.has_value(); }));
 }
 
-OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec, const ProgressFn& progress) {
+OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec, const ProgressFn& progress,
+                               RowStore* store) {
   const ScanGrid& grid = config.grid;
   auto source = open_pattern_source(config.patterns, grid);
   DetectorGeometrySpec gspec = config.geometry;
@@ -83,7 +84,26 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
   std::vector<uint8_t> usable;
   const size_t px = source->pixels();
   int row = 0;
+  std::vector<uint8_t> saved;
   while (rows.next(patterns, usable)) {
+    if (store && store->load("orient", row, saved)) {
+      ByteReader in(saved);
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row, col});
+        r.status[k] = in.get<uint8_t>();
+        if (in.get<uint8_t>()) {
+          double q[4];
+          for (double& v : q) v = in.get<double>();
+          r.orientation[k] = Rotation::from_quaternion(q[0], q[1], q[2], q[3]);
+        }
+        r.bands_matched[k] = in.get<int16_t>();
+        r.fit_residual_deg[k] = in.get<float>();
+        r.correlation[k] = in.get<float>();
+      }
+      ++row;
+      if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
+      continue;
+    }
 #pragma omp parallel for schedule(dynamic)
     for (int col = 0; col < grid.cols; ++col) {
       const size_t k = grid.index({row, col});
@@ -128,6 +148,20 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
         r.correlation[k] = static_cast<float>(refiner.correlation(p, *start));
       }
       r.orientation[k] = *start;
+    }
+    if (store) {
+      ByteWriter out;
+      for (int col = 0; col < grid.cols; ++col) {
+        const size_t k = grid.index({row, col});
+        out.put<uint8_t>(r.status[k]);
+        out.put<uint8_t>(r.orientation[k] ? 1 : 0);
+        if (r.orientation[k])
+          for (int i = 0; i < 4; ++i) out.put<double>(r.orientation[k]->quaternion()[i]);
+        out.put<int16_t>(r.bands_matched[k]);
+        out.put<float>(r.fit_residual_deg[k]);
+        out.put<float>(r.correlation[k]);
+      }
+      store->save("orient", row, out.bytes);
     }
     ++row;
     if (progress) progress(static_cast<size_t>(row) * grid.cols, n);

@@ -76,8 +76,10 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
   seg.threshold = spec.method == ThresholdMethod::otsu ? otsu_threshold(f) : spec.threshold;
   seg.label.assign(n, 0);
   for (size_t k = 0; k < n; ++k) {
-    if (!std::isfinite(f[k])) seg.label[k] = -1;
-    else ++seg.usable_points;
+    if (!std::isfinite(f[k]))
+      seg.label[k] = -1;
+    else
+      ++seg.usable_points;
   }
   const double cell = grid.step_um * grid.row_spacing_um();  // area of one point's cell (µm²)
   int next = 0;
@@ -130,7 +132,8 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
     p.aspect_ratio = std::sqrt(l1 / l2);
     p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
     if (!grains.empty()) {
-      p.host_grain = std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; })->first;
+      p.host_grain =
+          std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; })->first;
       std::set<int> outside;
       for (size_t k : members)
         for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
@@ -189,15 +192,19 @@ namespace {
 double incomplete_beta(double a, double b, double x) {
   if (x <= 0) return 0;
   if (x >= 1) return 1;
-  const double front = std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
+  const double front =
+      std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
   if (x > (a + 1) / (a + b + 2)) return 1 - incomplete_beta(b, a, 1 - x);
   double f = 1, c = 1, d = 0;
   for (int i = 0; i <= 400; ++i) {
     const int m = i / 2;
     double num;
-    if (i == 0) num = 1;
-    else if (i % 2 == 0) num = m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m));
-    else num = -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1));
+    if (i == 0)
+      num = 1;
+    else if (i % 2 == 0)
+      num = m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m));
+    else
+      num = -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1));
     d = 1 + num * d;
     d = std::abs(d) < 1e-30 ? 1e-30 : d;
     d = 1 / d;
@@ -260,7 +267,8 @@ FractionCI astm_e562_ci(const ScanGrid& grid, const std::vector<float>& f, int t
   return ci;
 }
 
-FractionCI block_bootstrap_ci(const ScanGrid& grid, const std::vector<float>& f, int block, int resamples, uint64_t seed) {
+FractionCI block_bootstrap_ci(const ScanGrid& grid, const std::vector<float>& f, int block, int resamples,
+                              uint64_t seed) {
   if (block < 1 || block > std::min(grid.rows, grid.cols)) block = std::max(1, std::min(grid.rows, grid.cols) / 2);
   // Every block position (moving blocks): its sum and count of finite values.
   std::vector<double> bsum, bcnt;
@@ -315,7 +323,9 @@ Unfolding saltykov_unfold(const std::vector<double>& d, int classes, double area
   }
   for (int j = 1; j <= classes; ++j) u.diameter_um.push_back(j * u.class_width_um);
   auto P = [](int i, int j) {  // 1-based: sphere class j gives a section in class i
-    return (std::sqrt(double(j) * j - double(i - 1) * (i - 1)) - std::sqrt(std::max(0.0, double(j) * j - double(i) * i))) / j;
+    return (std::sqrt(double(j) * j - double(i - 1) * (i - 1)) -
+            std::sqrt(std::max(0.0, double(j) * j - double(i) * i))) /
+           j;
   };
   u.sphere_count.assign(classes, 0.0);
   for (int i = classes; i >= 1; --i) {

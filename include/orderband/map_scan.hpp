@@ -1,0 +1,50 @@
+// The whole per-scan analysis: orientations, ordered fraction, precipitates, master spheres.
+#pragma once
+
+#include <functional>
+#include <string>
+
+#include "orderband/ordered_fraction.hpp"
+#include "orderband/particles.hpp"
+#include "orderband/sphere.hpp"
+
+namespace orderband {
+
+struct MapOptions {
+  OrientSpec orient;
+  FractionSpec fraction;
+  SegmentSpec segment;
+  SizeClasses classes;
+  int e562_tiles = 4;           ///< fields per side for the ASTM E562 interval
+  int bootstrap_block = 8;      ///< points per block side for the bootstrap interval
+  int bootstrap_resamples = 1000;
+  int unfold_classes = 10;      ///< Schwartz–Saltykov classes for the secondary particles
+  bool master_spheres = true;
+};
+
+struct MapResults {
+  std::string ordered_phase, disordered_phase;
+  OrientationResults orientations;
+  FractionResults fraction;
+  Segmentation segmentation;
+  std::vector<ClassStats> classes;
+  FractionCI e562, bootstrap;
+  Unfolding unfolding;  ///< of the secondary class's section diameters
+  /// Master spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
+  std::optional<SphereMap> master_disordered, master_ordered;
+  double ordered_area_fraction() const { return fraction.mean_raw(); }
+};
+
+/// Progress of a stage: (stage name, done, total).
+using StageProgress = std::function<void(const std::string& stage, size_t done, size_t total)>;
+
+/// Runs every stage on a scan. With a RowStore the orientation and fraction stages resume.
+MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress = {},
+                    RowStore* store = nullptr);
+
+/// Writes every output of `map` into `folder` (see README: outputs of map), each atomically,
+/// with the tool version, the command line, the input files' hashes and the parameters.
+void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& results,
+                       const MapOptions& options, const std::string& command_line);
+
+}  // namespace orderband

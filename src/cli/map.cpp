@@ -1,0 +1,54 @@
+// `orderband map SCAN.toml -o OUT`: the whole per-scan analysis, resumable.
+#include <cstdio>
+#include <filesystem>
+#include <memory>
+#include <sstream>
+
+#include "command.hpp"
+#include "map_runner.hpp"
+#include "orderband/version.hpp"
+
+namespace orderband::cli {
+
+void add_map_options(CLI::App& sub, MapRunOptions& o) {
+  sub.add_option("--threshold", o.threshold, "fraction threshold for particles")->capture_default_str();
+  sub.add_flag("--otsu", o.otsu, "threshold particles by Otsu's method instead");
+  sub.add_option("--connectivity", o.connectivity, "square grids: 4 or 8 (hexagonal grids use 6)")
+      ->check(CLI::IsMember({4, 8}))
+      ->capture_default_str();
+  sub.add_option("--min-particle", o.min_particle, "smallest particle (points)")->capture_default_str();
+  sub.add_option("--class-bounds", o.class_bounds,
+                 "lower ECD bounds of the secondary and primary classes (µm), e.g. 0.1 1.0")
+      ->expected(2);
+  sub.add_option("--grain-threshold", o.grain_threshold, "misorientation that separates grains (deg)")
+      ->capture_default_str();
+  sub.add_option("--end-members", o.end_members, "model, mixture (rescale to the scan's two modes) or regions")
+      ->check(CLI::IsMember({"model", "mixture"}))
+      ->capture_default_str();
+  sub.add_flag("--no-master-spheres", o.no_master_spheres, "skip the master-sphere pass and images");
+}
+
+std::function<int()> setup_map(CLI::App& sub) {
+  struct Options {
+    std::string scan, out;
+    int threads = 0;
+    bool quiet = false;
+    MapRunOptions run;
+  };
+  auto o = std::make_shared<Options>();
+  sub.add_option("scan", o->scan, "scan description (TOML)")->required();
+  sub.add_option("-o,--output", o->out, "output folder (default: the scan's [output] folder)");
+  add_threads_option(sub, o->threads);
+  sub.add_flag("--quiet", o->quiet, "no progress on stderr");
+  add_map_options(sub, o->run);
+  return [o]() {
+    apply_threads(o->threads);
+    const ScanConfig config = read_scan_config(o->scan);
+    const std::string folder = o->out.empty() ? config.output_folder : o->out;
+    run_map(config, folder, o->run, o->quiet);
+    if (!o->quiet) std::fprintf(stderr, "report: %s/report.html\n", folder.c_str());
+    return 0;
+  };
+}
+
+}  // namespace orderband::cli

@@ -1,0 +1,68 @@
+// Shared `map` runner.
+#include "map_runner.hpp"
+
+#include <filesystem>
+#include <fstream>
+#include <memory>
+#include <sstream>
+
+#include "command.hpp"
+#include "orderband/error.hpp"
+#include "orderband/version.hpp"
+#include "progress.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband::cli {
+
+MapOptions to_map_options(const MapRunOptions& o) {
+  MapOptions m;
+  m.segment.method = o.otsu ? ThresholdMethod::otsu : ThresholdMethod::fixed;
+  m.segment.threshold = o.threshold;
+  m.segment.square_connectivity = o.connectivity;
+  m.segment.min_points = o.min_particle;
+  if (o.class_bounds.size() != 2 || !(o.class_bounds[0] > 0) || !(o.class_bounds[1] > o.class_bounds[0]))
+    fail("--class-bounds needs two increasing positive ECDs in µm (secondary from, primary from)");
+  m.classes.lower_um = {0.0, o.class_bounds[0], o.class_bounds[1]};
+  m.orient.grains.threshold_deg = o.grain_threshold;
+  m.fraction.end_members = o.end_members == "mixture" ? EndMemberMode::mixture : EndMemberMode::model;
+  m.master_spheres = !o.no_master_spheres;
+  return m;
+}
+
+std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
+  std::ostringstream k;
+  k << kVersion << '|' << file_hash_fnv1a64(config.path) << '|'
+    << (fs::is_directory(config.patterns.path) ? config.patterns.path : file_hash_fnv1a64(config.patterns.path)) << '|'
+    << (config.orientations.source == OrientationSourceKind::file ? file_hash_fnv1a64(config.orientations.file) : "find")
+    << '|' << o.threshold << o.otsu << o.connectivity << o.min_particle << o.class_bounds[0] << o.class_bounds[1]
+    << o.grain_threshold << o.end_members << o.no_master_spheres;
+  return text_hash_fnv1a64(k.str());
+}
+
+MapResults run_map(const ScanConfig& config, const std::string& folder, const MapRunOptions& o, bool quiet) {
+  const MapOptions options = to_map_options(o);
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  FolderRowStore store(folder + "/.resume", map_key(config, o));
+  std::unique_ptr<ProgressReporter> bar;
+  std::string current;
+  auto progress = [&](const std::string& stage, size_t done, size_t total) {
+    if (stage != current) {
+      if (bar) bar->finish();
+      current = stage;
+      bar = std::make_unique<ProgressReporter>(stage, "points", quiet);
+    }
+    (*bar)(done, total);
+  };
+  MapResults r = map_scan(config, options, progress, &store);
+  if (bar) bar->finish();
+  if (!quiet && store.rows_found() > 0)
+    std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", store.rows_found());
+  write_map_outputs(folder, config, r, options, command_line());
+  store.clear();
+  return r;
+}
+
+}  // namespace orderband::cli

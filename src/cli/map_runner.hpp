@@ -1,0 +1,32 @@
+// Running `map` on one scan with progress and resume, shared by the map, demo and screen commands.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include <CLI/CLI.hpp>
+
+#include "orderband/map_scan.hpp"
+
+namespace orderband::cli {
+
+struct MapRunOptions {
+  double threshold = 0.5;
+  bool otsu = false;
+  int connectivity = 8;
+  int min_particle = 1;
+  std::vector<double> class_bounds{0.1, 1.0};
+  double grain_threshold = 5.0;
+  std::string end_members = "model";
+  bool no_master_spheres = false;
+};
+
+void add_map_options(CLI::App& sub, MapRunOptions& o);
+MapOptions to_map_options(const MapRunOptions& o);
+/// A key of everything that determines the results: tool version, scan description text,
+/// pattern and orientation file hashes, options.
+std::string map_key(const ScanConfig& config, const MapRunOptions& o);
+/// Runs every stage with a progress bar and a resume store in folder/.resume; writes the outputs.
+MapResults run_map(const ScanConfig& config, const std::string& folder, const MapRunOptions& o, bool quiet);
+
+}  // namespace orderband::cli

@@ -1,0 +1,439 @@
+// Outputs of `map`: maps, tables, summary, plots and the report page.
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "orderband/atomic_file.hpp"
+#include "orderband/electron.hpp"
+#include "orderband/error.hpp"
+#include "orderband/map_image.hpp"
+#include "orderband/map_scan.hpp"
+#include "orderband/npy_io.hpp"
+#include "orderband/orient_output.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/row_store.hpp"
+#include "orderband/svg_plot.hpp"
+#include "orderband/units.hpp"
+#include "orderband/version.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+double pixels_per_step(const ScanGrid& grid) { return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols))); }
+
+std::string base64(const std::string& bytes) {
+  static const char* t = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+  std::string out;
+  size_t i = 0;
+  for (; i + 2 < bytes.size(); i += 3) {
+    const uint32_t v = (uint8_t(bytes[i]) << 16) | (uint8_t(bytes[i + 1]) << 8) | uint8_t(bytes[i + 2]);
+    out += t[v >> 18], out += t[(v >> 12) & 63], out += t[(v >> 6) & 63], out += t[v & 63];
+  }
+  if (i + 1 == bytes.size()) {
+    const uint32_t v = uint8_t(bytes[i]) << 16;
+    out += t[v >> 18], out += t[(v >> 12) & 63], out += "==";
+  } else if (i + 2 == bytes.size()) {
+    const uint32_t v = (uint8_t(bytes[i]) << 16) | (uint8_t(bytes[i + 1]) << 8);
+    out += t[v >> 18], out += t[(v >> 12) & 63], out += t[(v >> 6) & 63], out += '=';
+  }
+  return out;
+}
+
+std::string slurp(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+std::string fmt(const char* f, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, f, v);
+  return b;
+}
+
+RgbImage fraction_map_image(const ScanGrid& grid, const std::vector<float>& f) {
+  const MapCanvas canvas(grid, pixels_per_step(grid));
+  std::vector<Colour> colours(grid.count());
+  for (size_t k = 0; k < grid.count(); ++k) colours[k] = std::isfinite(f[k]) ? sequential_colour(f[k]) : Colour{128, 128, 128};
+  const RgbImage map = with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um);
+  return side_by_side(map, colour_bar(std::min(map.height - 28, 300), 0.0, 1.0, 5));
+}
+
+RgbImage mask_image(const ScanGrid& grid, const MapResults& r) {
+  const MapCanvas canvas(grid, pixels_per_step(grid));
+  // Pattern quality (fundamental band contrast) as grey, ordered points tinted amber, particle outlines red.
+  std::vector<float> q;
+  for (float v : r.fraction.band_contrast)
+    if (std::isfinite(v)) q.push_back(v);
+  std::sort(q.begin(), q.end());
+  const double lo = q.empty() ? 0 : q[q.size() / 100], hi = q.empty() ? 1 : q[q.size() * 99 / 100];
+  std::vector<Colour> colours(grid.count());
+  const auto& label = r.segmentation.label;
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const float v = r.fraction.band_contrast[k];
+    if (label[k] < 0 || !std::isfinite(v)) {
+      colours[k] = {40, 60, 200};  // unusable: blue
+      continue;
+    }
+    const double g = 40 + 200 * std::clamp((v - lo) / std::max(hi - lo, 1e-12), 0.0, 1.0);
+    if (label[k] > 0) {
+      bool edge = false;
+      for (const GridPoint& nb : grid.neighbours(grid.point(k), 4)) edge = edge || label[grid.index(nb)] != label[k];
+      const GridPoint p = grid.point(k);
+      edge = edge || p.row == 0 || p.col == 0 || p.row == grid.rows - 1 || p.col == grid.cols - 1;
+      colours[k] = edge ? Colour{220, 20, 20}
+                        : Colour{static_cast<uint8_t>(std::min(255.0, g * 0.6 + 100)), static_cast<uint8_t>(g * 0.6 + 50),
+                                 static_cast<uint8_t>(g * 0.25)};
+    } else {
+      const auto c = static_cast<uint8_t>(g);
+      colours[k] = {c, c, c};
+    }
+  }
+  return with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um);
+}
+
+std::string band_profile_svg(const MapResults& r, const FractionSpec& spec) {
+  // The superlattice families with the largest weights, model references of both phases.
+  std::vector<const FamilyDiagnostic*> fams;
+  for (const auto& f : r.fraction.families)
+    if (f.superlattice) fams.push_back(&f);
+  std::sort(fams.begin(), fams.end(), [](auto* a, auto* b) { return a->weight > b->weight; });
+  if (fams.size() > 4) fams.resize(4);
+  std::string out = "<div class=\"plots\">";
+  for (const FamilyDiagnostic* f : fams) {
+    SvgPlot p(420, 260, "band profile " + f->label + " (model, largest grain)", "offset from the plane / theta_B",
+              "normalised intensity");
+    p.vertical_band(-spec.windows.interior_max, spec.windows.interior_max, "#ffd27f", 0.45, "interior window");
+    p.vertical_band(spec.windows.flank_min, spec.windows.flank_max, "#9fd3ff", 0.45, "flank windows");
+    p.vertical_band(-spec.windows.flank_max, -spec.windows.flank_min, "#9fd3ff", 0.45);
+    p.line(f->profile_u, f->profile_disordered, "#1f4fa8", "disordered (gamma)");
+    p.line(f->profile_u, f->profile_ordered, "#c0392b", "ordered (gamma-prime)", true);
+    out += p.render();
+  }
+  return out + "</div>";
+}
+
+std::string diagnostics_svg(const MapResults& r) {
+  std::vector<std::string> names;
+  std::vector<double> left, width, weight, sep;
+  int k = 0;
+  for (const auto& f : r.fraction.families) {
+    if (!f.superlattice) continue;
+    names.push_back(f.label);
+    left.push_back(k - 0.4), width.push_back(0.4), weight.push_back(f.weight);
+    ++k;
+  }
+  SvgPlot a(std::max(420, 60 * k), 260, "weight of each superlattice family in the estimator", "family", "weight (sums to 1)");
+  a.bars(left, width, weight, "#2e86ab", "weight");
+  a.x_categories(names);
+  a.x_range(-0.8, k - 0.2);
+  std::vector<double> left2;
+  for (double l : left) left2.push_back(l + 0.4);
+  for (const auto& f : r.fraction.families)
+    if (f.superlattice) sep.push_back(f.separation);
+  SvgPlot b(std::max(420, 60 * k), 260, "end-member separation per family (d' of one point)", "family", "d'");
+  b.bars(left2, width, sep, "#e07a5f", "separation d'");
+  b.x_categories(names);
+  b.x_range(-0.8, k - 0.2);
+  return "<div class=\"plots\">" + a.render() + b.render() + "</div>";
+}
+
+std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
+  std::vector<double> d;
+  for (const Particle2D& p : r.segmentation.particles)
+    if (!p.touches_border) d.push_back(p.ecd_um);
+  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (um)", "particles");
+  if (d.empty()) return p.render();
+  const double dmax = *std::max_element(d.begin(), d.end()) * 1.05;
+  const int bins = std::clamp(static_cast<int>(std::sqrt(double(d.size()))) + 3, 8, 40);
+  const double w = dmax / bins;
+  std::vector<double> left, width, count(bins, 0.0);
+  for (int b = 0; b < bins; ++b) left.push_back(b * w), width.push_back(w * 0.95);
+  for (double x : d) count[std::min(bins - 1, static_cast<int>(x / w))] += 1;
+  p.bars(left, width, count, "#7a9e7e", "particles");
+  for (size_t c = 1; c < classes.lower_um.size(); ++c)
+    if (classes.lower_um[c] < dmax) p.vertical_line(classes.lower_um[c], "#555", c == 1 ? "class boundaries" : "");
+  // Fitted log-normal per class, scaled to counts per bin.
+  const char* colours[] = {"#8e44ad", "#c0392b", "#d35400", "#2c3e50"};
+  for (size_t c = 0; c < r.classes.size(); ++c) {
+    const ClassStats& s = r.classes[c];
+    if (s.count < 3 || !(s.lognormal_sigma > 0)) continue;
+    std::vector<double> xs, ys;
+    for (int k = 1; k <= 200; ++k) {
+      const double x = dmax * k / 200;
+      const double pdf = std::exp(-0.5 * std::pow((std::log(x) - s.lognormal_mu) / s.lognormal_sigma, 2)) /
+                         (x * s.lognormal_sigma * std::sqrt(2 * kPi));
+      xs.push_back(x), ys.push_back(pdf * s.count * w);
+    }
+    p.line(xs, ys, colours[c % 4], "log-normal fit, " + s.name);
+  }
+  return p.render();
+}
+
+}  // namespace
+
+void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
+                       const MapOptions& options, const std::string& command_line) {
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const ScanGrid& grid = config.grid;
+  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
+  const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
+
+  // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
+  write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
+  fs::remove(folder + "/orient_summary.json", ec);  // summary.json holds it all
+
+  write_npy_float32(folder + "/ordered_fraction.npy", grid.rows, grid.cols, r.fraction.fraction);
+  write_npy_float32(folder + "/ordered_fraction_unclipped.npy", grid.rows, grid.cols, r.fraction.raw);
+  write_npy_float32(folder + "/fraction_uncertainty.npy", grid.rows, grid.cols, r.fraction.uncertainty);
+  write_npy_float32(folder + "/pattern_quality.npy", grid.rows, grid.cols, r.fraction.band_contrast);
+  std::vector<int32_t> reason(r.fraction.reason.begin(), r.fraction.reason.end());
+  write_npy_int32(folder + "/fraction_reason.npy", grid.rows, grid.cols, reason);
+  write_npy_int32(folder + "/particle_labels.npy", grid.rows, grid.cols, r.segmentation.label);
+  write_png_rgb(folder + "/fraction_map.png", fraction_map_image(grid, r.fraction.fraction), text);
+  write_png_rgb(folder + "/ordered_mask.png", mask_image(grid, r), text);
+  if (r.master_disordered && r.master_ordered) {
+    write_png_rgb(folder + "/master_sphere_disordered.png", stereographic_image(*r.master_disordered, 360), text);
+    write_png_rgb(folder + "/master_sphere_ordered.png", stereographic_image(*r.master_ordered, 360), text);
+    SphereMap diff(r.master_ordered->grid);
+    for (long p = 0; p < diff.grid.npix(); ++p) {
+      if (r.master_ordered->weight[p] <= 0 || r.master_disordered->weight[p] <= 0) continue;
+      diff.sum[p] = r.master_ordered->value(p) - r.master_disordered->value(p);
+      diff.weight[p] = 1;
+    }
+    write_png_rgb(folder + "/master_sphere_difference.png", stereographic_image_signed(diff, 360), text);
+  }
+
+  // Tables.
+  {
+    std::ostringstream os;
+    os << "# " << provenance << "\n"
+       << "id,class,points,area_um2,ecd_um,centroid_x_um,centroid_y_um,aspect_ratio,major_axis_deg,mean_fraction,"
+          "host_grain,on_grain_boundary,touches_border\n";
+    for (const Particle2D& p : r.segmentation.particles) {
+      char b[400];
+      std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d\n", p.id, p.size_class.c_str(),
+                    p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um, p.aspect_ratio, p.major_axis_deg,
+                    p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0, p.touches_border ? 1 : 0);
+      os << b;
+    }
+    write_text_atomically(folder + "/particles.csv", os.str());
+  }
+  {
+    std::ostringstream os;
+    os << "# " << provenance << "\n"
+       << "class,lower_ecd_um,upper_ecd_um,count,area_fraction,number_density_per_um2,mean_ecd_um,median_ecd_um,"
+          "lognormal_mu_ln_um,lognormal_sigma\n";
+    for (const ClassStats& c : r.classes) {
+      char b[400];
+      std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f\n", c.name.c_str(), c.lower_um,
+                    std::isfinite(c.upper_um) ? fmt("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
+                    c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma);
+      os << b;
+    }
+    write_text_atomically(folder + "/classes.csv", os.str());
+  }
+
+  // Summary.
+  nlohmann::json j;
+  j["tool"] = "orderband";
+  j["version"] = kVersion;
+  j["command_line"] = command_line;
+  j["scan"] = config.path;
+  nlohmann::json hashes;
+  hashes["scan_description"] = {{"file", config.path}, {"fnv1a64", file_hash_fnv1a64(config.path)}};
+  hashes["patterns"] = {{"file", config.patterns.path},
+                        {"fnv1a64", fs::is_directory(config.patterns.path) ? std::string("(folder)")
+                                                                           : file_hash_fnv1a64(config.patterns.path)}};
+  if (config.orientations.source == OrientationSourceKind::file)
+    hashes["orientations"] = {{"file", config.orientations.file}, {"fnv1a64", file_hash_fnv1a64(config.orientations.file)}};
+  j["input_hashes"] = hashes;
+  const size_t n = grid.count();
+  j["points"] = n;
+  j["points_measured"] = r.fraction.measured();
+  j["points_unusable"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 1);
+  j["points_without_orientation"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 2);
+  j["points_without_band_contrast"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 3);
+  j["ordered_area_fraction"] = r.ordered_area_fraction();
+  j["ci95"] = {{"low", r.e562.low}, {"high", r.e562.high}, {"method", r.e562.method}};
+  j["ci95_bootstrap"] = {{"low", r.bootstrap.low}, {"high", r.bootstrap.high}, {"method", r.bootstrap.method}};
+  j["subresolution_ordered_fraction"] = r.fraction.subresolution_fraction;
+  j["subresolution_ordered_fraction_se"] = r.fraction.subresolution_se;
+  j["subresolution_points"] = r.fraction.subresolution_points;
+  j["end_members"] = {{"disordered", {{"mean", r.fraction.disordered.mean}, {"sd", r.fraction.disordered.sd},
+                                      {"share", r.fraction.disordered.weight}}},
+                      {"ordered", {{"mean", r.fraction.ordered.mean}, {"sd", r.fraction.ordered.sd},
+                                   {"share", r.fraction.ordered.weight}}}};
+  nlohmann::json classes = nlohmann::json::object();
+  for (const ClassStats& c : r.classes)
+    classes[c.name] = {{"area_fraction", c.area_fraction},
+                       {"number_density_per_um2", c.number_density_per_um2},
+                       {"mean_ecd_um", c.mean_ecd_um},
+                       {"median_ecd_um", c.median_ecd_um},
+                       {"count", c.count},
+                       {"lower_ecd_um", c.lower_um},
+                       {"lognormal_mu_ln_um", c.lognormal_mu},
+                       {"lognormal_sigma", c.lognormal_sigma}};
+  j["classes"] = classes;
+  j["particles"] = r.segmentation.particles.size();
+  j["threshold"] = r.segmentation.threshold;
+  if (!r.unfolding.sphere_count.empty())
+    j["secondary_unfolding"] = {{"method", "Schwartz-Saltykov, spheres assumed"},
+                                {"class_width_um", r.unfolding.class_width_um},
+                                {"sphere_diameter_um", r.unfolding.diameter_um},
+                                {"section_count_per_um2", r.unfolding.section_count},
+                                {"sphere_count_per_um3", r.unfolding.sphere_count},
+                                {"negative_classes", r.unfolding.negative_classes},
+                                {"mean_sphere_diameter_um", r.unfolding.mean_diameter_um}};
+  nlohmann::json fams = nlohmann::json::array();
+  for (const auto& f : r.fraction.families)
+    fams.push_back({{"family", f.label}, {"superlattice", f.superlattice}, {"sensitivity", f.sensitivity},
+                    {"weight", f.weight}, {"separation_dprime", f.separation}});
+  j["families"] = fams;
+  j["grains"] = r.orientations.grains.count();
+  j["parameters"] = {
+      {"kv", config.kv},
+      {"phases", {{"ordered", r.ordered_phase}, {"disordered", r.disordered_phase}}},
+      {"preprocess",
+       {{"static_background", config.preprocess.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
+                              : config.preprocess.static_background == StaticBackgroundKind::none    ? "none"
+                                                                                                     : "file"},
+        {"static_background_sigma_px", config.preprocess.static_background_sigma_px},
+        {"dynamic_background_sigma_px", config.preprocess.dynamic_background_sigma_px},
+        {"neighbour_sigma_steps", config.preprocess.neighbour_sigma_steps},
+        {"hot_pixel_filter", config.preprocess.hot_pixel_filter}}},
+      {"orientation",
+       {{"source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
+        {"refine", config.orientations.refine},
+        {"grain_threshold_deg", options.orient.grains.threshold_deg},
+        {"grain_min_points", options.orient.grains.min_points}}},
+      {"fraction",
+       {{"estimator", options.fraction.estimator == FractionEstimator::profile ? "profile" : "windows"},
+        {"sensitivity_threshold", options.fraction.sensitivity_threshold},
+        {"d_min_A", options.fraction.d_min_A},
+        {"profile_u_max", options.fraction.profile.u_max},
+        {"profile_bin_u", options.fraction.profile.bin_u},
+        {"window_interior_max", options.fraction.windows.interior_max},
+        {"window_flank_min", options.fraction.windows.flank_min},
+        {"window_flank_max", options.fraction.windows.flank_max},
+        {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
+        {"end_members", options.fraction.end_members == EndMemberMode::model     ? "model"
+                        : options.fraction.end_members == EndMemberMode::mixture ? "mixture"
+                                                                                 : "regions"}}},
+      {"particles",
+       {{"threshold_method", options.segment.method == ThresholdMethod::otsu ? "otsu" : "fixed"},
+        {"threshold", options.segment.threshold},
+        {"connectivity", grid.kind == GridKind::hexagonal ? 6 : options.segment.square_connectivity},
+        {"min_points", options.segment.min_points},
+        {"smooth", options.segment.smooth},
+        {"exclude_border", options.segment.exclude_border},
+        {"class_names", options.classes.names},
+        {"class_lower_um", options.classes.lower_um},
+        {"e562_tiles", options.e562_tiles},
+        {"bootstrap_block", options.bootstrap_block},
+        {"bootstrap_resamples", options.bootstrap_resamples}}}};
+  j["files"] = {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "grain_map.png",
+                "ordered_fraction.npy", "ordered_fraction_unclipped.npy", "fraction_uncertainty.npy",
+                "pattern_quality.npy", "fraction_reason.npy", "particle_labels.npy", "grain_ids.npy",
+                "orientations.csv", "particles.csv", "classes.csv", "band_profiles.svg", "family_diagnostics.svg",
+                "size_histogram.svg", "master_sphere_disordered.png", "master_sphere_ordered.png",
+                "master_sphere_difference.png", "report.html"};
+  write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
+
+  // Plots.
+  const std::string profiles = band_profile_svg(r, options.fraction);
+  const std::string diagnostics = diagnostics_svg(r);
+  const std::string histogram = histogram_svg(r, options.classes);
+  auto standalone = [](const std::string& body) {
+    // A page of several SVG charts stacked as one SVG document is not valid; wrap them in one SVG.
+    return body;
+  };
+  write_text_atomically(folder + "/band_profiles.svg",
+                        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"860\" height=\"540\">" +
+                            standalone(profiles.substr(profiles.find('>') + 1, profiles.rfind("</div>") - profiles.find('>') - 1)) +
+                            "</svg>\n");
+  write_text_atomically(folder + "/family_diagnostics.svg",
+                        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"1200\" height=\"270\">" +
+                            diagnostics.substr(diagnostics.find('>') + 1, diagnostics.rfind("</div>") - diagnostics.find('>') - 1) +
+                            "</svg>\n");
+  write_text_atomically(folder + "/size_histogram.svg", histogram);
+
+  // Report: one self-contained page.
+  auto img = [&](const std::string& file, const std::string& alt) {
+    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," + base64(slurp(folder + "/" + file)) + "\">";
+  };
+  std::ostringstream h;
+  h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>orderband report: "
+    << xml_escape(fs::path(config.path).parent_path().filename().string()) << "</title>\n<style>"
+       "body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
+       "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
+       "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
+       "figure{margin:10px 0}figcaption{font-size:0.9em;color:#444;max-width:900px}.caution{font-size:0.85em;color:#555}"
+       "</style></head><body>\n";
+  h << "<h1>Ordered-phase analysis</h1>\n<p>Scan <code>" << xml_escape(config.path) << "</code>: " << grid.rows << " x "
+    << grid.cols << " points, step " << fmt("%g", grid.step_um) << " µm; pair " << xml_escape(r.ordered_phase) << " / "
+    << xml_escape(r.disordered_phase) << " at " << fmt("%g", config.kv) << " kV.</p>\n";
+  h << "<table><tr><th>quantity</th><th>value</th></tr>"
+    << "<tr><td>ordered area fraction</td><td>" << fmt("%.4f", r.ordered_area_fraction()) << "</td></tr>"
+    << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << fmt("%.4f", r.e562.low) << " – "
+    << fmt("%.4f", r.e562.high) << "</td></tr>"
+    << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << fmt("%.4f", r.bootstrap.low) << " – "
+    << fmt("%.4f", r.bootstrap.high) << "</td></tr>"
+    << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
+    << fmt("%.4f", r.fraction.subresolution_fraction) << " ± " << fmt("%.4f", r.fraction.subresolution_se) << "</td></tr>"
+    << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
+    << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
+  h << "<h2>Size classes</h2><table><tr><th>class</th><th>ECD range (µm)</th><th>count</th><th>area fraction</th>"
+       "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
+  for (const ClassStats& c : r.classes)
+    h << "<tr><td>" << c.name << "</td><td>" << fmt("%g", c.lower_um) << " – "
+      << (std::isfinite(c.upper_um) ? fmt("%g", c.upper_um) : std::string("")) << "</td><td>" << c.count << "</td><td>"
+      << fmt("%.4f", c.area_fraction) << "</td><td>" << fmt("%.3f", c.number_density_per_um2) << "</td><td>"
+      << fmt("%.4f", c.mean_ecd_um) << "</td><td>" << fmt("%.4f", c.median_ecd_um) << "</td></tr>";
+  h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left out of "
+       "counts, densities and sizes (guard frame). The tertiary class lies mostly below the scan step; it is reported "
+       "through the sub-resolution ordered fraction.</p>\n";
+  h << "<h2>Maps</h2>\n<figure>" << img("fraction_map.png", "ordered fraction map")
+    << "<figcaption>Ordered fraction f per point (0: disordered, 1: ordered), with colour bar and scale bar; grey: no "
+       "measurement.</figcaption></figure>\n";
+  h << "<figure>" << img("ordered_mask.png", "ordered mask")
+    << "<figcaption>Particles (f ≥ " << fmt("%.2f", r.segmentation.threshold)
+    << ", amber, outlined red) over the pattern quality (grey: fundamental band contrast); blue: unusable points."
+       "</figcaption></figure>\n";
+  h << "<figure>" << img("orientation_map.png", "orientation map")
+    << "<figcaption>Orientations: inverse-pole-figure colours of the sample normal, key beside the map.</figcaption></figure>\n";
+  h << "<h2>Why the tool concluded this</h2>\n<figure>" << profiles
+    << "<figcaption>Band profiles of the strongest-weighted superlattice families from the kinematic model of both end "
+       "members at the largest grain's orientation, processed like the data; shaded: interior and flank windows.</figcaption></figure>\n";
+  h << "<figure>" << diagnostics
+    << "<figcaption>Each superlattice family's weight in the estimator and the separation of the end members it gives "
+       "alone (d′ per point).</figcaption></figure>\n";
+  h << "<figure>" << histogram
+    << "<figcaption>Particle sizes with the class boundaries and log-normal fits per class.</figcaption></figure>\n";
+  if (r.master_disordered) {
+    h << "<figure><div class=\"plots\">" << img("master_sphere_disordered.png", "master sphere disordered")
+      << img("master_sphere_ordered.png", "master sphere ordered") << img("master_sphere_difference.png", "difference")
+      << "</div><figcaption>Master spheres (stereographic, upper hemisphere of the crystal frame) of the points measured "
+         "as disordered (f &lt; 0.2) and ordered (f &gt; 0.8), and their difference (red: brighter in the ordered "
+         "phase).</figcaption></figure>\n";
+  }
+  h << "<h2>Provenance</h2><p><code>" << xml_escape(provenance) << "</code></p><p>Every parameter and the input hashes "
+       "are in <code>summary.json</code>.</p>\n";
+  h << "<p class=\"caution\">Results are for research and screening. Qualification of safety-critical parts follows the "
+       "applicable material specifications, accredited testing and licensed practice. The band model is kinematic, not "
+       "dynamical.</p>\n";
+  h << "<script>window.addEventListener('load',function(){var im=document.images,ok=0;for(var i=0;i<im.length;i++)"
+       "{if(im[i].complete&&im[i].naturalWidth>0)ok++;}document.body.setAttribute('data-images-loaded',ok+'/'+im.length);"
+       "});</script>\n</body></html>\n";
+  write_text_atomically(folder + "/report.html", h.str());
+}
+
+}  // namespace orderband

@@ -1,0 +1,78 @@
+// Row-result persistence and hashing.
+#include "orderband/row_store.hpp"
+
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+
+#include "orderband/atomic_file.hpp"
+#include "orderband/error.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+
+void ByteReader::throw_short() const { fail("resume data is truncated; delete the .resume folder and run again"); }
+
+FolderRowStore::FolderRowStore(std::string folder, const std::string& key) : folder_(std::move(folder)) {
+  std::error_code ec;
+  const std::string key_file = folder_ + "/key";
+  std::string old;
+  if (std::ifstream in(key_file); in) std::getline(in, old);
+  if (old != key) {
+    fs::remove_all(folder_, ec);
+    fs::create_directories(folder_, ec);
+    if (ec) fail("cannot create resume folder '", folder_, "': ", ec.message());
+    write_text_atomically(key_file, key + "\n");
+  }
+}
+
+bool FolderRowStore::load(const std::string& stage, int row, std::vector<uint8_t>& bytes) {
+  std::ifstream in(folder_ + "/" + stage + "-" + std::to_string(row) + ".bin", std::ios::binary);
+  if (!in) return false;
+  bytes.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+  ++found_;
+  return true;
+}
+
+void FolderRowStore::save(const std::string& stage, int row, const std::vector<uint8_t>& bytes) {
+  write_atomically(folder_ + "/" + stage + "-" + std::to_string(row) + ".bin", [&](const std::string& temp) {
+    std::ofstream out(temp, std::ios::binary);
+    out.write(reinterpret_cast<const char*>(bytes.data()), static_cast<std::streamsize>(bytes.size()));
+    if (!out) fail("cannot write resume data to '", temp, "'");
+  });
+}
+
+void FolderRowStore::clear() {
+  std::error_code ec;
+  fs::remove_all(folder_, ec);
+}
+
+namespace {
+constexpr uint64_t kFnvOffset = 1469598103934665603ull, kFnvPrime = 1099511628211ull;
+std::string hex(uint64_t h) {
+  char buf[17];
+  std::snprintf(buf, sizeof buf, "%016llx", static_cast<unsigned long long>(h));
+  return buf;
+}
+}  // namespace
+
+std::string file_hash_fnv1a64(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) fail("cannot read '", path, "' to hash it");
+  uint64_t h = kFnvOffset;
+  std::vector<char> buf(1 << 20);
+  while (in) {
+    in.read(buf.data(), static_cast<std::streamsize>(buf.size()));
+    for (std::streamsize k = 0; k < in.gcount(); ++k) h = (h ^ static_cast<uint8_t>(buf[k])) * kFnvPrime;
+  }
+  return hex(h);
+}
+
+std::string text_hash_fnv1a64(const std::string& text) {
+  uint64_t h = kFnvOffset;
+  for (char c : text) h = (h ^ static_cast<uint8_t>(c)) * kFnvPrime;
+  return hex(h);
+}
+
+}  // namespace orderband
