@@ -15,10 +15,10 @@ struct MapOptions {
   FractionSpec fraction;
   SegmentSpec segment;
   SizeClasses classes;
-  int e562_tiles = 4;           ///< fields per side for the ASTM E562 interval
-  int bootstrap_block = 8;      ///< points per block side for the bootstrap interval
+  int e562_tiles = 4;       ///< fields per side for the ASTM E562 interval
+  int bootstrap_block = 8;  ///< points per block side for the bootstrap interval
   int bootstrap_resamples = 1000;
-  int unfold_classes = 10;      ///< Schwartz–Saltykov classes for the secondary particles
+  int unfold_classes = 10;  ///< Schwartz–Saltykov classes for the secondary particles
   bool master_spheres = true;
 };
 

@@ -22,6 +22,8 @@ std::function<int()> setup_check(CLI::App& sub);
 std::function<int()> setup_synth(CLI::App& sub);
 std::function<int()> setup_orient(CLI::App& sub);
 std::function<int()> setup_map(CLI::App& sub);
+std::function<int()> setup_screen(CLI::App& sub);
+std::function<int()> setup_demo(CLI::App& sub);
 
 /// The full command line, for provenance in every output.
 const std::string& command_line();

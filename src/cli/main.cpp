@@ -18,6 +18,8 @@ const std::vector<CommandEntry>& commands() {
       {"synth", "make a synthetic scan (patterns and truth) from a scenario", setup_synth},
       {"orient", "find or read and refine orientations; reconstruct grains", setup_orient},
       {"map", "the whole analysis of one scan: fraction map, precipitates, report", setup_map},
+      {"screen", "compare heat-treatment trials: fractions, size classes, coarsening kinetics, ranking", setup_screen},
+      {"demo", "the demo: three synthetic ageing trials mapped and screened (the quick start's main job)", setup_demo},
   };
   return table;
 }

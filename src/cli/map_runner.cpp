@@ -34,7 +34,8 @@ std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
   std::ostringstream k;
   k << kVersion << '|' << file_hash_fnv1a64(config.path) << '|'
     << (fs::is_directory(config.patterns.path) ? config.patterns.path : file_hash_fnv1a64(config.patterns.path)) << '|'
-    << (config.orientations.source == OrientationSourceKind::file ? file_hash_fnv1a64(config.orientations.file) : "find")
+    << (config.orientations.source == OrientationSourceKind::file ? file_hash_fnv1a64(config.orientations.file)
+                                                                  : "find")
     << '|' << o.threshold << o.otsu << o.connectivity << o.min_particle << o.class_bounds[0] << o.class_bounds[1]
     << o.grain_threshold << o.end_members << o.no_master_spheres;
   return text_hash_fnv1a64(k.str());

@@ -24,7 +24,9 @@ namespace fs = std::filesystem;
 namespace orderband {
 namespace {
 
-double pixels_per_step(const ScanGrid& grid) { return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols))); }
+double pixels_per_step(const ScanGrid& grid) {
+  return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols)));
+}
 
 std::string base64(const std::string& bytes) {
   static const char* t = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
@@ -60,7 +62,8 @@ std::string fmt(const char* f, double v) {
 RgbImage fraction_map_image(const ScanGrid& grid, const std::vector<float>& f) {
   const MapCanvas canvas(grid, pixels_per_step(grid));
   std::vector<Colour> colours(grid.count());
-  for (size_t k = 0; k < grid.count(); ++k) colours[k] = std::isfinite(f[k]) ? sequential_colour(f[k]) : Colour{128, 128, 128};
+  for (size_t k = 0; k < grid.count(); ++k)
+    colours[k] = std::isfinite(f[k]) ? sequential_colour(f[k]) : Colour{128, 128, 128};
   const RgbImage map = with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um);
   return side_by_side(map, colour_bar(std::min(map.height - 28, 300), 0.0, 1.0, 5));
 }
@@ -88,8 +91,8 @@ RgbImage mask_image(const ScanGrid& grid, const MapResults& r) {
       const GridPoint p = grid.point(k);
       edge = edge || p.row == 0 || p.col == 0 || p.row == grid.rows - 1 || p.col == grid.cols - 1;
       colours[k] = edge ? Colour{220, 20, 20}
-                        : Colour{static_cast<uint8_t>(std::min(255.0, g * 0.6 + 100)), static_cast<uint8_t>(g * 0.6 + 50),
-                                 static_cast<uint8_t>(g * 0.25)};
+                        : Colour{static_cast<uint8_t>(std::min(255.0, g * 0.6 + 100)),
+                                 static_cast<uint8_t>(g * 0.6 + 50), static_cast<uint8_t>(g * 0.25)};
     } else {
       const auto c = static_cast<uint8_t>(g);
       colours[k] = {c, c, c};
@@ -129,7 +132,8 @@ std::string diagnostics_svg(const MapResults& r) {
     left.push_back(k - 0.4), width.push_back(0.4), weight.push_back(f.weight);
     ++k;
   }
-  SvgPlot a(std::max(420, 60 * k), 260, "weight of each superlattice family in the estimator", "family", "weight (sums to 1)");
+  SvgPlot a(std::max(420, 60 * k), 260, "weight of each superlattice family in the estimator", "family",
+            "weight (sums to 1)");
   a.bars(left, width, weight, "#2e86ab", "weight");
   a.x_categories(names);
   a.x_range(-0.8, k - 0.2);
@@ -148,7 +152,8 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
   std::vector<double> d;
   for (const Particle2D& p : r.segmentation.particles)
     if (!p.touches_border) d.push_back(p.ecd_um);
-  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (um)", "particles");
+  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (um)",
+            "particles");
   if (d.empty()) return p.render();
   const double dmax = *std::max_element(d.begin(), d.end()) * 1.05;
   const int bins = std::clamp(static_cast<int>(std::sqrt(double(d.size()))) + 3, 8, 40);
@@ -254,7 +259,8 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                         {"fnv1a64", fs::is_directory(config.patterns.path) ? std::string("(folder)")
                                                                            : file_hash_fnv1a64(config.patterns.path)}};
   if (config.orientations.source == OrientationSourceKind::file)
-    hashes["orientations"] = {{"file", config.orientations.file}, {"fnv1a64", file_hash_fnv1a64(config.orientations.file)}};
+    hashes["orientations"] = {{"file", config.orientations.file},
+                              {"fnv1a64", file_hash_fnv1a64(config.orientations.file)}};
   j["input_hashes"] = hashes;
   const size_t n = grid.count();
   j["points"] = n;
@@ -268,10 +274,13 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["subresolution_ordered_fraction"] = r.fraction.subresolution_fraction;
   j["subresolution_ordered_fraction_se"] = r.fraction.subresolution_se;
   j["subresolution_points"] = r.fraction.subresolution_points;
-  j["end_members"] = {{"disordered", {{"mean", r.fraction.disordered.mean}, {"sd", r.fraction.disordered.sd},
-                                      {"share", r.fraction.disordered.weight}}},
-                      {"ordered", {{"mean", r.fraction.ordered.mean}, {"sd", r.fraction.ordered.sd},
-                                   {"share", r.fraction.ordered.weight}}}};
+  j["end_members"] = {
+      {"disordered",
+       {{"mean", r.fraction.disordered.mean},
+        {"sd", r.fraction.disordered.sd},
+        {"share", r.fraction.disordered.weight}}},
+      {"ordered",
+       {{"mean", r.fraction.ordered.mean}, {"sd", r.fraction.ordered.sd}, {"share", r.fraction.ordered.weight}}}};
   nlohmann::json classes = nlohmann::json::object();
   for (const ClassStats& c : r.classes)
     classes[c.name] = {{"area_fraction", c.area_fraction},
@@ -286,17 +295,18 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["particles"] = r.segmentation.particles.size();
   j["threshold"] = r.segmentation.threshold;
   if (!r.unfolding.sphere_count.empty())
-    j["secondary_unfolding"] = {{"method", "Schwartz-Saltykov, spheres assumed"},
-                                {"class_width_um", r.unfolding.class_width_um},
-                                {"sphere_diameter_um", r.unfolding.diameter_um},
-                                {"section_count_per_um2", r.unfolding.section_count},
-                                {"sphere_count_per_um3", r.unfolding.sphere_count},
-                                {"negative_classes", r.unfolding.negative_classes},
-                                {"mean_sphere_diameter_um", r.unfolding.mean_diameter_um}};
+    j["secondary_unfolding"] = {
+        {"method", "Schwartz-Saltykov, spheres assumed"},         {"class_width_um", r.unfolding.class_width_um},
+        {"sphere_diameter_um", r.unfolding.diameter_um},          {"section_count_per_um2", r.unfolding.section_count},
+        {"sphere_count_per_um3", r.unfolding.sphere_count},       {"negative_classes", r.unfolding.negative_classes},
+        {"mean_sphere_diameter_um", r.unfolding.mean_diameter_um}};
   nlohmann::json fams = nlohmann::json::array();
   for (const auto& f : r.fraction.families)
-    fams.push_back({{"family", f.label}, {"superlattice", f.superlattice}, {"sensitivity", f.sensitivity},
-                    {"weight", f.weight}, {"separation_dprime", f.separation}});
+    fams.push_back({{"family", f.label},
+                    {"superlattice", f.superlattice},
+                    {"sensitivity", f.sensitivity},
+                    {"weight", f.weight},
+                    {"separation_dprime", f.separation}});
   j["families"] = fams;
   j["grains"] = r.orientations.grains.count();
   j["parameters"] = {
@@ -340,12 +350,27 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"e562_tiles", options.e562_tiles},
         {"bootstrap_block", options.bootstrap_block},
         {"bootstrap_resamples", options.bootstrap_resamples}}}};
-  j["files"] = {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "grain_map.png",
-                "ordered_fraction.npy", "ordered_fraction_unclipped.npy", "fraction_uncertainty.npy",
-                "pattern_quality.npy", "fraction_reason.npy", "particle_labels.npy", "grain_ids.npy",
-                "orientations.csv", "particles.csv", "classes.csv", "band_profiles.svg", "family_diagnostics.svg",
-                "size_histogram.svg", "master_sphere_disordered.png", "master_sphere_ordered.png",
-                "master_sphere_difference.png", "report.html"};
+  j["files"] = {"fraction_map.png",
+                "ordered_mask.png",
+                "orientation_map.png",
+                "grain_map.png",
+                "ordered_fraction.npy",
+                "ordered_fraction_unclipped.npy",
+                "fraction_uncertainty.npy",
+                "pattern_quality.npy",
+                "fraction_reason.npy",
+                "particle_labels.npy",
+                "grain_ids.npy",
+                "orientations.csv",
+                "particles.csv",
+                "classes.csv",
+                "band_profiles.svg",
+                "family_diagnostics.svg",
+                "size_histogram.svg",
+                "master_sphere_disordered.png",
+                "master_sphere_ordered.png",
+                "master_sphere_difference.png",
+                "report.html"};
   write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
 
   // Plots.
@@ -356,27 +381,32 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     // A page of several SVG charts stacked as one SVG document is not valid; wrap them in one SVG.
     return body;
   };
-  write_text_atomically(folder + "/band_profiles.svg",
-                        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"860\" height=\"540\">" +
-                            standalone(profiles.substr(profiles.find('>') + 1, profiles.rfind("</div>") - profiles.find('>') - 1)) +
-                            "</svg>\n");
-  write_text_atomically(folder + "/family_diagnostics.svg",
-                        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"1200\" height=\"270\">" +
-                            diagnostics.substr(diagnostics.find('>') + 1, diagnostics.rfind("</div>") - diagnostics.find('>') - 1) +
-                            "</svg>\n");
+  write_text_atomically(
+      folder + "/band_profiles.svg",
+      "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"860\" height=\"540\">" +
+          standalone(profiles.substr(profiles.find('>') + 1, profiles.rfind("</div>") - profiles.find('>') - 1)) +
+          "</svg>\n");
+  write_text_atomically(
+      folder + "/family_diagnostics.svg",
+      "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"1200\" height=\"270\">" +
+          diagnostics.substr(diagnostics.find('>') + 1, diagnostics.rfind("</div>") - diagnostics.find('>') - 1) +
+          "</svg>\n");
   write_text_atomically(folder + "/size_histogram.svg", histogram);
 
   // Report: one self-contained page.
   auto img = [&](const std::string& file, const std::string& alt) {
-    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," + base64(slurp(folder + "/" + file)) + "\">";
+    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," + base64(slurp(folder + "/" + file)) +
+           "\">";
   };
   std::ostringstream h;
   h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>orderband report: "
-    << xml_escape(fs::path(config.path).parent_path().filename().string()) << "</title>\n<style>"
+    << xml_escape(fs::path(config.path).parent_path().filename().string())
+    << "</title>\n<style>"
        "body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
        "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
        "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
-       "figure{margin:10px 0}figcaption{font-size:0.9em;color:#444;max-width:900px}.caution{font-size:0.85em;color:#555}"
+       "figure{margin:10px "
+       "0}figcaption{font-size:0.9em;color:#444;max-width:900px}.caution{font-size:0.85em;color:#555}"
        "</style></head><body>\n";
   h << "<h1>Ordered-phase analysis</h1>\n<p>Scan <code>" << xml_escape(config.path) << "</code>: " << grid.rows << " x "
     << grid.cols << " points, step " << fmt("%g", grid.step_um) << " µm; pair " << xml_escape(r.ordered_phase) << " / "
@@ -388,7 +418,8 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << fmt("%.4f", r.bootstrap.low) << " – "
     << fmt("%.4f", r.bootstrap.high) << "</td></tr>"
     << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
-    << fmt("%.4f", r.fraction.subresolution_fraction) << " ± " << fmt("%.4f", r.fraction.subresolution_se) << "</td></tr>"
+    << fmt("%.4f", r.fraction.subresolution_fraction) << " ± " << fmt("%.4f", r.fraction.subresolution_se)
+    << "</td></tr>"
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   h << "<h2>Size classes</h2><table><tr><th>class</th><th>ECD range (µm)</th><th>count</th><th>area fraction</th>"
@@ -398,21 +429,24 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
       << (std::isfinite(c.upper_um) ? fmt("%g", c.upper_um) : std::string("")) << "</td><td>" << c.count << "</td><td>"
       << fmt("%.4f", c.area_fraction) << "</td><td>" << fmt("%.3f", c.number_density_per_um2) << "</td><td>"
       << fmt("%.4f", c.mean_ecd_um) << "</td><td>" << fmt("%.4f", c.median_ecd_um) << "</td></tr>";
-  h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left out of "
+  h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left out "
+       "of "
        "counts, densities and sizes (guard frame). The tertiary class lies mostly below the scan step; it is reported "
        "through the sub-resolution ordered fraction.</p>\n";
   h << "<h2>Maps</h2>\n<figure>" << img("fraction_map.png", "ordered fraction map")
     << "<figcaption>Ordered fraction f per point (0: disordered, 1: ordered), with colour bar and scale bar; grey: no "
        "measurement.</figcaption></figure>\n";
-  h << "<figure>" << img("ordered_mask.png", "ordered mask")
-    << "<figcaption>Particles (f ≥ " << fmt("%.2f", r.segmentation.threshold)
+  h << "<figure>" << img("ordered_mask.png", "ordered mask") << "<figcaption>Particles (f ≥ "
+    << fmt("%.2f", r.segmentation.threshold)
     << ", amber, outlined red) over the pattern quality (grey: fundamental band contrast); blue: unusable points."
        "</figcaption></figure>\n";
   h << "<figure>" << img("orientation_map.png", "orientation map")
-    << "<figcaption>Orientations: inverse-pole-figure colours of the sample normal, key beside the map.</figcaption></figure>\n";
+    << "<figcaption>Orientations: inverse-pole-figure colours of the sample normal, key beside the "
+       "map.</figcaption></figure>\n";
   h << "<h2>Why the tool concluded this</h2>\n<figure>" << profiles
     << "<figcaption>Band profiles of the strongest-weighted superlattice families from the kinematic model of both end "
-       "members at the largest grain's orientation, processed like the data; shaded: interior and flank windows.</figcaption></figure>\n";
+       "members at the largest grain's orientation, processed like the data; shaded: interior and flank "
+       "windows.</figcaption></figure>\n";
   h << "<figure>" << diagnostics
     << "<figcaption>Each superlattice family's weight in the estimator and the separation of the end members it gives "
        "alone (d′ per point).</figcaption></figure>\n";
@@ -421,17 +455,21 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   if (r.master_disordered) {
     h << "<figure><div class=\"plots\">" << img("master_sphere_disordered.png", "master sphere disordered")
       << img("master_sphere_ordered.png", "master sphere ordered") << img("master_sphere_difference.png", "difference")
-      << "</div><figcaption>Master spheres (stereographic, upper hemisphere of the crystal frame) of the points measured "
+      << "</div><figcaption>Master spheres (stereographic, upper hemisphere of the crystal frame) of the points "
+         "measured "
          "as disordered (f &lt; 0.2) and ordered (f &gt; 0.8), and their difference (red: brighter in the ordered "
          "phase).</figcaption></figure>\n";
   }
-  h << "<h2>Provenance</h2><p><code>" << xml_escape(provenance) << "</code></p><p>Every parameter and the input hashes "
+  h << "<h2>Provenance</h2><p><code>" << xml_escape(provenance)
+    << "</code></p><p>Every parameter and the input hashes "
        "are in <code>summary.json</code>.</p>\n";
-  h << "<p class=\"caution\">Results are for research and screening. Qualification of safety-critical parts follows the "
+  h << "<p class=\"caution\">Results are for research and screening. Qualification of safety-critical parts follows "
+       "the "
        "applicable material specifications, accredited testing and licensed practice. The band model is kinematic, not "
        "dynamical.</p>\n";
   h << "<script>window.addEventListener('load',function(){var im=document.images,ok=0;for(var i=0;i<im.length;i++)"
-       "{if(im[i].complete&&im[i].naturalWidth>0)ok++;}document.body.setAttribute('data-images-loaded',ok+'/'+im.length);"
+       "{if(im[i].complete&&im[i].naturalWidth>0)ok++;}document.body.setAttribute('data-images-loaded',ok+'/"
+       "'+im.length);"
        "});</script>\n</body></html>\n";
   write_text_atomically(folder + "/report.html", h.str());
 }

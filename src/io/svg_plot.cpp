@@ -13,21 +13,34 @@ std::string xml_escape(const std::string& t) {
   std::string out;
   for (char c : t) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
 }
 
 SvgPlot::SvgPlot(int width, int height, std::string title, std::string x_label, std::string y_label)
-    : width_(width), height_(height), title_(std::move(title)), x_label_(std::move(x_label)), y_label_(std::move(y_label)) {}
+    : width_(width),
+      height_(height),
+      title_(std::move(title)),
+      x_label_(std::move(x_label)),
+      y_label_(std::move(y_label)) {}
 
-void SvgPlot::line(const std::vector<double>& x, const std::vector<double>& y, const std::string& c, const std::string& l,
-                   bool dashed) {
+void SvgPlot::line(const std::vector<double>& x, const std::vector<double>& y, const std::string& c,
+                   const std::string& l, bool dashed) {
   items_.push_back({"line", x, y, {}, {}, c, l, dashed, 1});
 }
 void SvgPlot::markers(const std::vector<double>& x, const std::vector<double>& y, const std::string& c,
@@ -64,7 +77,8 @@ std::vector<double> ticks(double lo, double hi, int target = 6) {
       break;
     }
   std::vector<double> t;
-  for (double v = std::ceil(lo / step) * step; v <= hi + 1e-9 * span; v += step) t.push_back(std::abs(v) < 1e-12 * step ? 0 : v);
+  for (double v = std::ceil(lo / step) * step; v <= hi + 1e-9 * span; v += step)
+    t.push_back(std::abs(v) < 1e-12 * step ? 0 : v);
   return t;
 }
 std::string num(double v) {
@@ -102,19 +116,21 @@ std::string SvgPlot::render() const {
   auto X = [&](double v) { return L + (v - x0) / (x1 - x0) * pw; };
   auto Y = [&](double v) { return T + (1 - (v - y0) / (y1 - y0)) * ph; };
   std::ostringstream s;
-  s << "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" << width_ << "\" height=\"" << height_ << "\" viewBox=\"0 0 "
-    << width_ << ' ' << height_ << "\" font-family=\"sans-serif\" font-size=\"11\">\n";
+  s << "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" << width_ << "\" height=\"" << height_
+    << "\" viewBox=\"0 0 " << width_ << ' ' << height_ << "\" font-family=\"sans-serif\" font-size=\"11\">\n";
   s << "<rect width=\"100%\" height=\"100%\" fill=\"white\"/>\n";
-  s << "<text x=\"" << width_ / 2 << "\" y=\"18\" text-anchor=\"middle\" font-size=\"13\">" << xml_escape(title_) << "</text>\n";
+  s << "<text x=\"" << width_ / 2 << "\" y=\"18\" text-anchor=\"middle\" font-size=\"13\">" << xml_escape(title_)
+    << "</text>\n";
   s << "<defs><clipPath id=\"plot\"><rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
     << "\"/></clipPath></defs>\n";
   // Axes and ticks.
-  s << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph << "\" fill=\"none\" stroke=\"#444\"/>\n";
+  s << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
+    << "\" fill=\"none\" stroke=\"#444\"/>\n";
   if (categories_.empty())
     for (double t : ticks(x0, x1))
       s << "<line x1=\"" << X(t) << "\" x2=\"" << X(t) << "\" y1=\"" << T + ph << "\" y2=\"" << T + ph + 4
-        << "\" stroke=\"#444\"/><text x=\"" << X(t) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">" << num(t)
-        << "</text>\n";
+        << "\" stroke=\"#444\"/><text x=\"" << X(t) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
+        << num(t) << "</text>\n";
   for (size_t k = 0; k < categories_.size(); ++k)
     s << "<text x=\"" << X(double(k)) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
       << xml_escape(categories_[k]) << "</text>\n";
@@ -125,12 +141,12 @@ std::string SvgPlot::render() const {
       << "</text>\n";
   s << "<text x=\"" << L + pw / 2 << "\" y=\"" << height_ - 12 << "\" text-anchor=\"middle\">" << xml_escape(x_label_)
     << "</text>\n";
-  s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">" << xml_escape(y_label_)
-    << "</text>\n<g clip-path=\"url(#plot)\">\n";
+  s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">"
+    << xml_escape(y_label_) << "</text>\n<g clip-path=\"url(#plot)\">\n";
   for (const Item& it : items_) {
     if (it.svg_kind == "vband") {
-      s << "<rect x=\"" << X(it.x[0]) << "\" y=\"" << T << "\" width=\"" << X(it.x[1]) - X(it.x[0]) << "\" height=\"" << ph
-        << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
+      s << "<rect x=\"" << X(it.x[0]) << "\" y=\"" << T << "\" width=\"" << X(it.x[1]) - X(it.x[0]) << "\" height=\""
+        << ph << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
     } else if (it.svg_kind == "vline") {
       s << "<line x1=\"" << X(it.x[0]) << "\" x2=\"" << X(it.x[0]) << "\" y1=\"" << T << "\" y2=\"" << T + ph
         << "\" stroke=\"" << it.colour << "\" stroke-dasharray=\"4 3\"/>\n";
@@ -138,9 +154,9 @@ std::string SvgPlot::render() const {
       for (size_t k = 0; k < it.x.size(); ++k) {
         if (!std::isfinite(it.y[k])) continue;
         const double top = Y(std::max(it.y[k], 0.0)), base = Y(std::min(it.y[k], 0.0));
-        s << "<rect x=\"" << X(it.x[k]) << "\" y=\"" << top << "\" width=\"" << std::max(0.5, X(it.x[k] + it.w[k]) - X(it.x[k]))
-          << "\" height=\"" << std::max(0.0, base - top) << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity
-          << "\"/>\n";
+        s << "<rect x=\"" << X(it.x[k]) << "\" y=\"" << top << "\" width=\""
+          << std::max(0.5, X(it.x[k] + it.w[k]) - X(it.x[k])) << "\" height=\"" << std::max(0.0, base - top)
+          << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
       }
     } else if (it.svg_kind == "line") {
       s << "<polyline fill=\"none\" stroke=\"" << it.colour << "\" stroke-width=\"1.6\""
@@ -151,7 +167,8 @@ std::string SvgPlot::render() const {
     } else if (it.svg_kind == "markers") {
       for (size_t k = 0; k < it.x.size(); ++k)
         if (std::isfinite(it.x[k]) && std::isfinite(it.y[k]))
-          s << "<circle cx=\"" << X(it.x[k]) << "\" cy=\"" << Y(it.y[k]) << "\" r=\"3.5\" fill=\"" << it.colour << "\"/>\n";
+          s << "<circle cx=\"" << X(it.x[k]) << "\" cy=\"" << Y(it.y[k]) << "\" r=\"3.5\" fill=\"" << it.colour
+            << "\"/>\n";
     } else if (it.svg_kind == "errors") {
       for (size_t k = 0; k < it.x.size(); ++k)
         if (std::isfinite(it.y[k]) && std::isfinite(it.y2[k]))
@@ -166,8 +183,8 @@ std::string SvgPlot::render() const {
     if (it.label.empty()) continue;
     const double y = T + 12 + 14 * row++;
     s << "<rect x=\"" << L + pw - 150 << "\" y=\"" << y - 8 << "\" width=\"12\" height=\"8\" fill=\"" << it.colour
-      << "\" fill-opacity=\"" << std::max(0.4, it.opacity) << "\"/><text x=\"" << L + pw - 134 << "\" y=\"" << y << "\">"
-      << xml_escape(it.label) << "</text>\n";
+      << "\" fill-opacity=\"" << std::max(0.4, it.opacity) << "\"/><text x=\"" << L + pw - 134 << "\" y=\"" << y
+      << "\">" << xml_escape(it.label) << "</text>\n";
   }
   s << "</svg>\n";
   return s.str();

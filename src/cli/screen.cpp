@@ -1,0 +1,320 @@
+// `orderband screen TRIALS.toml -o OUT`: heat-treatment trials side by side, kinetics, ranking.
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "command.hpp"
+#include "map_runner.hpp"
+#include "orderband/atomic_file.hpp"
+#include "orderband/error.hpp"
+#include "orderband/kinetics.hpp"
+#include "orderband/svg_plot.hpp"
+#include "orderband/synth.hpp"
+#include "orderband/trials.hpp"
+#include "orderband/version.hpp"
+#include "progress.hpp"
+#include "screen_runner.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband::cli {
+namespace {
+
+std::string slurp(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+std::string fmt(const char* f, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, f, v);
+  return b;
+}
+
+std::string cache_root() {
+  if (const char* c = std::getenv("ORDERBAND_CACHE"); c && *c) return c;
+  if (const char* x = std::getenv("XDG_CACHE_HOME"); x && *x) return std::string(x) + "/orderband";
+  if (const char* h = std::getenv("HOME"); h && *h) return std::string(h) + "/.cache/orderband";
+  return (fs::temp_directory_path() / "orderband-cache").string();
+}
+
+/// A scenario's synthetic scan in the cache, made if absent (keyed by the scenario text and the version).
+std::string cached_scan(const std::string& scenario, bool quiet) {
+  const std::string key = text_hash_fnv1a64(std::string(kVersion) + "|" + slurp(scenario));
+  const std::string dir = cache_root() + "/scans/" + fs::path(scenario).stem().string() + "-" + key;
+  if (fs::exists(dir + "/scan.toml") && fs::exists(dir + "/truth.json")) return dir + "/scan.toml";
+  const SynthScenario s = read_synth_scenario(scenario);
+  ProgressReporter bar("synth " + s.name, "patterns", quiet);
+  write_synthetic_scan(s, dir, command_line(), [&](size_t d, size_t t) { bar(d, t); });
+  bar.finish();
+  return dir + "/scan.toml";
+}
+
+}  // namespace
+
+ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
+  const TrialsConfig tc = read_trials_config(trials_path);
+  std::error_code ec;
+  fs::create_directories(out, ec);
+  if (ec) fail("cannot create output folder '", out, "': ", ec.message());
+  ScreenOutcome outcome;
+  std::ostringstream log;
+  std::vector<nlohmann::json> summaries;
+  for (const Trial& t : tc.trials) {
+    const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, quiet) : t.scan;
+    const ScanConfig config = read_scan_config(scan_path);
+    const std::string folder = out + "/" + t.label;
+    const std::string key = map_key(config, run);
+    const std::string key_file = folder + "/run_key.txt";
+    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
+                       slurp(key_file) == key + "\n";
+    if (reuse) {
+      log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
+      if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
+    } else {
+      if (!quiet) std::fprintf(stderr, "trial %s: mapping %s\n", t.label.c_str(), scan_path.c_str());
+      run_map(config, folder, run, quiet);
+      write_text_atomically(key_file, key + "\n");
+      log << "trial " << t.label << ": computed (key " << key << ")\n";
+      outcome.computed.push_back(t.label);
+    }
+    summaries.push_back(nlohmann::json::parse(slurp(folder + "/summary.json")));
+  }
+  write_text_atomically(out + "/screen_log.txt", log.str());
+
+  // Numbers per trial.
+  std::vector<TrialNumbers> numbers;
+  for (const auto& s : summaries) {
+    TrialNumbers n;
+    n.ordered_fraction = s["ordered_area_fraction"];
+    n.secondary_mean_ecd_um = s["classes"]["secondary"]["mean_ecd_um"];
+    n.primary_fraction = s["classes"]["primary"]["area_fraction"];
+    numbers.push_back(n);
+  }
+  // Kinetics per temperature, on the mean section radius of the secondary class.
+  std::map<double, std::vector<size_t>> by_temperature;
+  for (size_t i = 0; i < tc.trials.size(); ++i) by_temperature[tc.trials[i].temperature_c].push_back(i);
+  nlohmann::json kinetics = nlohmann::json::array();
+  std::vector<double> temps, ks;
+  std::map<double, CoarseningFit> fits;
+  for (const auto& [temp, idx] : by_temperature) {
+    std::vector<double> t, r;
+    for (size_t i : idx)
+      if (numbers[i].secondary_mean_ecd_um > 0) t.push_back(tc.trials[i].time_h), r.push_back(0.5 * numbers[i].secondary_mean_ecd_um);
+    nlohmann::json k = {{"temperature_c", temp}, {"trials", t.size()}};
+    try {
+      if (t.size() < 2) fail("fewer than two trials with secondary particles");
+      const CoarseningFit f = tc.exponent ? fit_coarsening(t, r, *tc.exponent) : fit_coarsening_free(t, r);
+      fits[temp] = f;
+      k["exponent"] = f.exponent;
+      k["exponent_ci95"] = {f.exponent_low, f.exponent_high};
+      k["exponent_fitted"] = !tc.exponent.has_value();
+      k["k_um_pow_n_per_h"] = f.k;
+      k["k_ci95"] = {std::isfinite(f.k_low) ? nlohmann::json(f.k_low) : nlohmann::json(nullptr),
+                     std::isfinite(f.k_high) ? nlohmann::json(f.k_high) : nlohmann::json(nullptr)};
+      k["r0_pow_n_um_pow_n"] = f.r0_pow_n;
+      if (f.k > 0) temps.push_back(temp), ks.push_back(f.k);
+    } catch (const Error& e) {
+      k["note"] = e.what();
+    }
+    kinetics.push_back(k);
+  }
+  nlohmann::json arrhenius = nullptr;
+  if (temps.size() >= 2) {
+    const ArrheniusFit a = fit_arrhenius(temps, ks);
+    arrhenius = {{"activation_energy_kj_mol", a.activation_kj_mol},
+                 {"ci95", {std::isfinite(a.q_low) ? nlohmann::json(a.q_low) : nlohmann::json(nullptr),
+                           std::isfinite(a.q_high) ? nlohmann::json(a.q_high) : nlohmann::json(nullptr)}},
+                 {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
+  }
+  const std::vector<Ranked> ranking = rank_trials(numbers, tc.target);
+
+  // Comparison table.
+  std::ostringstream csv;
+  csv << "# orderband " << kVersion << ": " << command_line() << "\n"
+      << "label,temperature_c,time_h,ordered_area_fraction,ci95_low,ci95_high,subresolution_ordered_fraction,"
+         "primary_area_fraction,secondary_area_fraction,secondary_count,secondary_mean_ecd_um,"
+         "secondary_number_density_per_um2,rank,distance_to_target\n";
+  nlohmann::json table = nlohmann::json::array();
+  for (size_t i = 0; i < tc.trials.size(); ++i) {
+    const auto& s = summaries[i];
+    size_t rank = 0;
+    double dist = 0;
+    for (size_t k = 0; k < ranking.size(); ++k)
+      if (ranking[k].trial == i) rank = k + 1, dist = ranking[k].distance;
+    csv << tc.trials[i].label << ',' << tc.trials[i].temperature_c << ',' << tc.trials[i].time_h << ','
+        << fmt("%.5f", s["ordered_area_fraction"]) << ',' << fmt("%.5f", s["ci95"]["low"]) << ','
+        << fmt("%.5f", s["ci95"]["high"]) << ',' << fmt("%.5f", s["subresolution_ordered_fraction"]) << ','
+        << fmt("%.5f", s["classes"]["primary"]["area_fraction"]) << ','
+        << fmt("%.5f", s["classes"]["secondary"]["area_fraction"]) << ',' << s["classes"]["secondary"]["count"].get<int>()
+        << ',' << fmt("%.5f", s["classes"]["secondary"]["mean_ecd_um"]) << ','
+        << fmt("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ',' << fmt("%.4f", dist)
+        << '\n';
+    table.push_back({{"label", tc.trials[i].label},
+                     {"temperature_c", tc.trials[i].temperature_c},
+                     {"time_h", tc.trials[i].time_h},
+                     {"notes", tc.trials[i].notes},
+                     {"ordered_area_fraction", s["ordered_area_fraction"]},
+                     {"ci95", s["ci95"]},
+                     {"ci95_bootstrap", s["ci95_bootstrap"]},
+                     {"subresolution_ordered_fraction", s["subresolution_ordered_fraction"]},
+                     {"classes", s["classes"]},
+                     {"rank", rank},
+                     {"distance_to_target", dist},
+                     {"report", tc.trials[i].label + "/report.html"}});
+  }
+  write_text_atomically(out + "/comparison.csv", csv.str());
+  nlohmann::json j = {{"tool", "orderband"}, {"version", kVersion}, {"command_line", command_line()},
+                      {"trials_file", tc.path}, {"title", tc.title}, {"trials", table}, {"kinetics", kinetics},
+                      {"arrhenius", arrhenius}};
+  nlohmann::json rk = nlohmann::json::array();
+  for (const Ranked& r : ranking) rk.push_back({{"label", tc.trials[r.trial].label}, {"distance", r.distance}, {"reasons", r.reasons}});
+  j["ranking"] = rk;
+  write_text_atomically(out + "/comparison.json", j.dump(2) + "\n");
+
+  // Plots.
+  const char* colours[] = {"#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#8c564b"};
+  SvgPlot frac(560, 320, "ordered area fraction vs ageing time (95 % CI)", "ageing time (h)", "ordered area fraction");
+  int ci = 0;
+  for (const auto& [temp, idx] : by_temperature) {
+    std::vector<double> t, f, lo, hi;
+    for (size_t i : idx) {
+      t.push_back(tc.trials[i].time_h), f.push_back(summaries[i]["ordered_area_fraction"]);
+      lo.push_back(summaries[i]["ci95"]["low"]), hi.push_back(summaries[i]["ci95"]["high"]);
+    }
+    frac.error_bars(t, lo, hi, colours[ci % 6]);
+    frac.markers(t, f, colours[ci % 6], fmt("%g C", temp));
+    ++ci;
+  }
+  SvgPlot bars(560, 320, "area fraction per size class", "trial", "area fraction");
+  std::vector<std::string> labels;
+  const std::vector<std::string> class_names{"secondary", "primary"};
+  for (size_t c = 0; c < class_names.size(); ++c) {
+    std::vector<double> left, width, height;
+    for (size_t i = 0; i < tc.trials.size(); ++i) {
+      left.push_back(i - 0.35 + 0.35 * c), width.push_back(0.33);
+      height.push_back(summaries[i]["classes"][class_names[c]]["area_fraction"]);
+    }
+    bars.bars(left, width, height, colours[c], class_names[c]);
+  }
+  {
+    std::vector<double> left, width, height;
+    for (size_t i = 0; i < tc.trials.size(); ++i) {
+      left.push_back(i - 0.35 + 0.7), width.push_back(0.0), height.push_back(0);
+      labels.push_back(tc.trials[i].label);
+    }
+  }
+  bars.x_categories(labels);
+  bars.x_range(-0.7, tc.trials.size() - 0.3);
+  SvgPlot sizes(560, 320, "secondary particle sizes (ECD) per trial", "ECD (um)", "share of particles per bin");
+  for (size_t i = 0; i < tc.trials.size(); ++i) {
+    std::ifstream in(out + "/" + tc.trials[i].label + "/particles.csv");
+    std::vector<double> d;
+    for (std::string line; std::getline(in, line);) {
+      if (line.empty() || line[0] == '#' || line.rfind("id,", 0) == 0) continue;
+      std::vector<std::string> f;
+      std::stringstream ss(line);
+      for (std::string item; std::getline(ss, item, ',');) f.push_back(item);
+      if (f.size() > 12 && f[1] == "secondary" && f[12] == "0") d.push_back(std::stod(f[4]));
+    }
+    if (d.empty()) continue;
+    const int bins = 15;
+    const double w = 0.4 / bins;
+    std::vector<double> x, y(bins, 0.0);
+    for (int b = 0; b < bins; ++b) x.push_back((b + 0.5) * w);
+    for (double v : d) y[std::min(bins - 1, static_cast<int>(v / w))] += 1.0 / d.size();
+    sizes.line(x, y, colours[i % 6], tc.trials[i].label);
+  }
+  SvgPlot power(560, 320, "coarsening: mean section radius^n vs time (fit lines)", "ageing time (h)", "<r>^n (um^n)");
+  ci = 0;
+  for (const auto& [temp, idx] : by_temperature) {
+    if (!fits.count(temp)) continue;
+    const CoarseningFit& f = fits[temp];
+    std::vector<double> t, y;
+    double tmax = 0;
+    for (size_t i : idx) {
+      const double r = 0.5 * numbers[i].secondary_mean_ecd_um;
+      t.push_back(tc.trials[i].time_h), y.push_back(std::pow(r, f.exponent));
+      tmax = std::max(tmax, tc.trials[i].time_h);
+    }
+    power.markers(t, y, colours[ci % 6], fmt("%g C", temp) + ", n = " + fmt("%.3g", f.exponent));
+    power.line({0, tmax}, {f.r0_pow_n, f.r0_pow_n + f.k * tmax}, colours[ci % 6], "", true);
+    ++ci;
+  }
+  write_text_atomically(out + "/fraction_vs_time.svg", frac.render());
+  write_text_atomically(out + "/class_fractions.svg", bars.render());
+  write_text_atomically(out + "/size_distributions.svg", sizes.render());
+  write_text_atomically(out + "/coarsening.svg", power.render());
+
+  // Report.
+  std::ostringstream h;
+  h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>" << xml_escape(tc.title)
+    << "</title><style>body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
+       "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
+       "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
+       ".caution{font-size:0.85em;color:#555}</style></head><body>\n<h1>"
+    << xml_escape(tc.title) << "</h1>\n<h2>Ranking against the target</h2><table><tr><th>rank</th><th>trial</th>"
+    << "<th>ordered fraction (95 % CI)</th><th>secondary mean ECD (µm)</th><th>primary fraction</th><th>verdict</th></tr>";
+  for (size_t k = 0; k < ranking.size(); ++k) {
+    const size_t i = ranking[k].trial;
+    std::string verdict = ranking[k].reasons.empty() ? "inside the target window" : "";
+    for (const auto& reason : ranking[k].reasons) verdict += (verdict.empty() ? "" : "; ") + reason;
+    h << "<tr><td>" << k + 1 << "</td><td><a href=\"" << xml_escape(tc.trials[i].label) << "/report.html\">"
+      << xml_escape(tc.trials[i].label) << "</a></td><td>" << fmt("%.3f", numbers[i].ordered_fraction) << " ("
+      << fmt("%.3f", summaries[i]["ci95"]["low"]) << " – " << fmt("%.3f", summaries[i]["ci95"]["high"]) << ")</td><td>"
+      << fmt("%.3f", numbers[i].secondary_mean_ecd_um) << "</td><td>" << fmt("%.3f", numbers[i].primary_fraction)
+      << "</td><td>" << xml_escape(verdict) << "</td></tr>";
+  }
+  h << "</table>\n<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th><th>k (µmⁿ/h)</th>"
+       "<th>k 95 % CI</th></tr>";
+  for (const auto& [temp, f] : fits)
+    h << "<tr><td>" << fmt("%g", temp) << "</td><td>" << fmt("%.3g", f.exponent)
+      << (tc.exponent ? " (set)" : " (fitted " + fmt("%.3g", f.exponent_low) + "–" + fmt("%.3g", f.exponent_high) + ")")
+      << "</td><td>" << fmt("%.4g", f.k) << "</td><td>"
+      << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high) : std::string("needs 3 or more trials"))
+      << "</td></tr>";
+  h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the mean section radius of the secondary class (ECD/2); "
+       "n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has been reported with n below 3, so set or fit n "
+       "for your alloy. With two or more temperatures an Arrhenius fit gives an apparent activation energy (k also "
+       "carries the 1/T prefactor and the solubility terms).</p>\n";
+  if (!arrhenius.is_null())
+    h << "<p>Arrhenius: Q = " << fmt("%.4g", arrhenius["activation_energy_kj_mol"].get<double>()) << " kJ/mol.</p>";
+  h << "<div class=\"plots\">" << frac.render() << bars.render() << sizes.render() << power.render() << "</div>\n";
+  h << "<p>Tables: <code>comparison.csv</code>, <code>comparison.json</code>. Each trial's own report is linked in the "
+       "ranking.</p><p class=\"caution\">Results are for research and screening. Qualification of safety-critical parts "
+       "follows the applicable material specifications, accredited testing and licensed practice.</p>\n</body></html>\n";
+  write_text_atomically(out + "/report.html", h.str());
+  outcome.report = out + "/report.html";
+  return outcome;
+}
+
+std::function<int()> setup_screen(CLI::App& sub) {
+  struct Options {
+    std::string trials, out = "orderband-screen";
+    int threads = 0;
+    bool quiet = false;
+    MapRunOptions run;
+  };
+  auto o = std::make_shared<Options>();
+  sub.add_option("trials", o->trials, "trials description (TOML)")->required();
+  sub.add_option("-o,--output", o->out, "output folder")->capture_default_str();
+  add_threads_option(sub, o->threads);
+  sub.add_flag("--quiet", o->quiet, "no progress on stderr");
+  add_map_options(sub, o->run);
+  return [o]() {
+    apply_threads(o->threads);
+    const ScreenOutcome r = run_screen(o->trials, o->out, o->run, o->quiet);
+    std::printf("report: %s\n", r.report.c_str());
+    return 0;
+  };
+}
+
+}  // namespace orderband::cli

@@ -1,0 +1,145 @@
+// Coarsening and Arrhenius fits.
+#include "orderband/kinetics.hpp"
+
+#include <cmath>
+#include <limits>
+
+#include "orderband/error.hpp"
+
+namespace orderband {
+namespace {
+
+struct Line {
+  double slope = 0, intercept = 0, slope_se = 0, sse = 0;
+};
+
+Line fit_line(const std::vector<double>& x, const std::vector<double>& y) {
+  const size_t m = x.size();
+  double sx = 0, sy = 0;
+  for (size_t i = 0; i < m; ++i) sx += x[i], sy += y[i];
+  const double mx = sx / m, my = sy / m;
+  double sxx = 0, sxy = 0;
+  for (size_t i = 0; i < m; ++i) sxx += (x[i] - mx) * (x[i] - mx), sxy += (x[i] - mx) * (y[i] - my);
+  Line l;
+  if (sxx <= 0) fail("kinetics: all points share one abscissa; need at least two different times or temperatures");
+  l.slope = sxy / sxx;
+  l.intercept = my - l.slope * mx;
+  for (size_t i = 0; i < m; ++i) l.sse += std::pow(y[i] - l.intercept - l.slope * x[i], 2);
+  l.slope_se = m > 2 ? std::sqrt(l.sse / (m - 2) / sxx) : std::nan("");
+  return l;
+}
+
+// Regularised incomplete beta (continued fraction) for the F quantile.
+double ibeta(double a, double b, double x) {
+  if (x <= 0) return 0;
+  if (x >= 1) return 1;
+  if (x > (a + 1) / (a + b + 2)) return 1 - ibeta(b, a, 1 - x);
+  const double front = std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
+  double f = 1, c = 1, d = 0;
+  for (int i = 0; i <= 400; ++i) {
+    const int m = i / 2;
+    double num = i == 0 ? 1 : (i % 2 == 0 ? m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m))
+                                          : -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1)));
+    d = 1 + num * d;
+    d = 1 / (std::abs(d) < 1e-30 ? 1e-30 : d);
+    c = 1 + num / c;
+    c = std::abs(c) < 1e-30 ? 1e-30 : c;
+    f *= c * d;
+    if (std::abs(1 - c * d) < 1e-14) break;
+  }
+  return front * (f - 1) / a;
+}
+
+}  // namespace
+
+double f_quantile(double p, int d1, int d2) {
+  double lo = 0, hi = 1e4;
+  for (int it = 0; it < 200; ++it) {
+    const double mid = 0.5 * (lo + hi);
+    const double cdf = ibeta(0.5 * d1, 0.5 * d2, d1 * mid / (d1 * mid + d2));
+    (cdf < p ? lo : hi) = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<double>& r, double n) {
+  if (t.size() != r.size() || t.size() < 2) fail("kinetics: need at least two (time, radius) points");
+  if (!(n > 0)) fail("kinetics: the coarsening exponent must be positive, got ", n);
+  std::vector<double> y;
+  for (double v : r) {
+    if (!(v > 0)) fail("kinetics: mean radius must be positive, got ", v, " µm");
+    y.push_back(std::pow(v, n));
+  }
+  const Line l = fit_line(t, y);
+  CoarseningFit f;
+  f.exponent = n;
+  f.exponent_low = f.exponent_high = n;
+  f.k = l.slope;
+  f.r0_pow_n = l.intercept;
+  f.points = static_cast<int>(t.size());
+  f.residual_sd = t.size() > 2 ? std::sqrt(l.sse / (t.size() - 2)) : std::nan("");
+  if (t.size() > 2) {
+    const double tq = student_t_quantile(0.975, static_cast<int>(t.size()) - 2);
+    f.k_low = l.slope - tq * l.slope_se, f.k_high = l.slope + tq * l.slope_se;
+  } else {
+    f.k_low = f.k_high = std::nan("");
+  }
+  return f;
+}
+
+CoarseningFit fit_coarsening_free(const std::vector<double>& t, const std::vector<double>& r) {
+  if (t.size() < 4) fail("kinetics: a free exponent needs at least four (time, radius) points, got ", t.size());
+  // SSE in the radius domain for each n, with r0ⁿ and k from the linear fit at that n.
+  auto sse = [&](double n) {
+    const CoarseningFit f = fit_coarsening(t, r, n);
+    double s = 0;
+    for (size_t i = 0; i < t.size(); ++i) {
+      const double model = std::pow(std::max(f.r0_pow_n + f.k * t[i], 1e-300), 1 / n);
+      s += (r[i] - model) * (r[i] - model);
+    }
+    return s;
+  };
+  double best_n = 3, best = std::numeric_limits<double>::infinity();
+  for (double n = 1.0; n <= 6.0 + 1e-9; n += 0.01) {
+    const double s = sse(n);
+    if (s < best) best = s, best_n = n;
+  }
+  CoarseningFit f = fit_coarsening(t, r, best_n);
+  const int m = static_cast<int>(t.size());
+  const double limit = best * (1 + f_quantile(0.95, 1, m - 3) / (m - 3));
+  f.exponent_low = best_n, f.exponent_high = best_n;
+  for (double n = best_n; n >= 1.0; n -= 0.01) {
+    if (sse(n) > limit) break;
+    f.exponent_low = n;
+  }
+  for (double n = best_n; n <= 6.0; n += 0.01) {
+    if (sse(n) > limit) break;
+    f.exponent_high = n;
+  }
+  return f;
+}
+
+ArrheniusFit fit_arrhenius(const std::vector<double>& tc, const std::vector<double>& k) {
+  if (tc.size() != k.size() || tc.size() < 2) fail("Arrhenius fit needs rate constants at two or more temperatures");
+  constexpr double R = 8.314462618;  // J/(mol K), CODATA 2018 (exact since the 2019 SI)
+  std::vector<double> x, y;
+  for (size_t i = 0; i < tc.size(); ++i) {
+    if (!(k[i] > 0)) fail("Arrhenius fit: rate constant at ", tc[i], " C is not positive (", k[i], ")");
+    x.push_back(1.0 / (tc[i] + 273.15));
+    y.push_back(std::log(k[i]));
+  }
+  const Line l = fit_line(x, y);
+  ArrheniusFit a;
+  a.points = static_cast<int>(x.size());
+  a.activation_kj_mol = -l.slope * R / 1000;
+  a.ln_k0 = l.intercept;
+  if (x.size() > 2) {
+    const double tq = student_t_quantile(0.975, static_cast<int>(x.size()) - 2);
+    a.q_low = (-l.slope - tq * l.slope_se) * R / 1000, a.q_high = (-l.slope + tq * l.slope_se) * R / 1000;
+  } else {
+    a.q_low = a.q_high = std::nan("");
+  }
+  return a;
+}
+
+}  // namespace orderband

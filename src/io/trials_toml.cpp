@@ -1,0 +1,114 @@
+// Trials description reading and ranking.
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+
+#include "orderband/error.hpp"
+#include "orderband/trials.hpp"
+#include "toml_reader.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+
+TrialsConfig read_trials_config(const std::string& path) {
+  const std::string text = read_text_file(path, "trials description");
+  const toml::table root = parse_toml_or_fail(text, path);
+  TomlReader r(root, path);
+  for (const auto& [k, v] : root) {
+    const std::string key(k.str());
+    if (key != "screen" && key != "target" && key != "trial")
+      fail(path, ": unknown table [", key, "] (known: screen, target, [[trial]])");
+  }
+  TrialsConfig c;
+  c.path = fs::absolute(path).lexically_normal().string();
+  c.folder = r.folder();
+  const toml::table* s = r.table("screen", false);
+  r.check_keys(s, "screen", {"title", "exponent"});
+  c.title = r.get<std::string>(s, "screen", "title").value_or(fs::path(path).stem().string());
+  if (s && s->get("exponent")) {
+    const toml::node* e = s->get("exponent");
+    if (e->is_string() && *e->value<std::string>() == "free") c.exponent.reset();
+    else if (auto v = e->value<double>(); v && *v > 0) c.exponent = *v;
+    else fail(path, ": [screen] exponent must be a positive number or \"free\"");
+  } else {
+    c.exponent = 3.0;  // LSW
+  }
+  const toml::table* t = r.table("target", false);
+  r.check_keys(t, "target", {"ordered_fraction", "secondary_mean_ecd_um", "max_primary_fraction"});
+  auto range = [&](const char* key) -> std::optional<std::pair<double, double>> {
+    if (!t || !t->get(key)) return std::nullopt;
+    const toml::array* a = t->get(key)->as_array();
+    if (!a || a->size() != 2 || !(*a)[0].value<double>() || !(*a)[1].value<double>())
+      fail(path, ": [target] ", key, " must be [low, high]");
+    const double lo = *(*a)[0].value<double>(), hi = *(*a)[1].value<double>();
+    if (!(hi > lo)) fail(path, ": [target] ", key, " needs low < high, got [", lo, ", ", hi, "]");
+    return std::pair{lo, hi};
+  };
+  c.target.ordered_fraction = range("ordered_fraction");
+  c.target.secondary_mean_ecd_um = range("secondary_mean_ecd_um");
+  if (auto v = r.get<double>(t, "target", "max_primary_fraction")) c.target.max_primary_fraction = *v;
+
+  const toml::array* trials = root.get("trial") ? root.get("trial")->as_array() : nullptr;
+  if (!trials || trials->empty()) fail(path, ": no [[trial]] entries");
+  for (size_t i = 0; i < trials->size(); ++i) {
+    const toml::table* e = (*trials)[i].as_table();
+    const std::string name = "trial " + std::to_string(i + 1);
+    if (!e) fail(path, ": [[trial]] ", i + 1, " must be a table");
+    r.check_keys(e, name, {"label", "scan", "scenario", "temperature_c", "time_h", "notes"});
+    Trial tr;
+    tr.label = r.require<std::string>(e, name, "label");
+    if (tr.label.empty() || tr.label.find_first_of("/\\") != std::string::npos)
+      fail(path, ": [", name, "] label must be a non-empty name without slashes (it names the trial's folder)");
+    if (auto v = r.get<std::string>(e, name, "scan")) tr.scan = r.resolve(*v);
+    if (auto v = r.get<std::string>(e, name, "scenario")) tr.scenario = r.resolve(*v);
+    if (tr.scan.empty() == tr.scenario.empty())
+      fail(path, ": [", name, "] needs exactly one of 'scan' (a scan description) or 'scenario' (synthetic)");
+    for (const std::string& f : {tr.scan, tr.scenario})
+      if (!f.empty() && !fs::exists(f)) fail(path, ": [", name, "] file '", f, "' does not exist");
+    tr.temperature_c = r.require<double>(e, name, "temperature_c");
+    tr.time_h = r.require<double>(e, name, "time_h");
+    if (!(tr.time_h >= 0)) fail(path, ": [", name, "] time_h must be >= 0, got ", tr.time_h);
+    tr.notes = r.get<std::string>(e, name, "notes").value_or("");
+    for (const Trial& o : c.trials)
+      if (o.label == tr.label) fail(path, ": two trials are labelled '", tr.label, "'");
+    c.trials.push_back(tr);
+  }
+  return c;
+}
+
+std::vector<Ranked> rank_trials(const std::vector<TrialNumbers>& nums, const TargetWindow& t) {
+  std::vector<Ranked> out;
+  char buf[200];
+  for (size_t i = 0; i < nums.size(); ++i) {
+    Ranked r;
+    r.trial = i;
+    auto check_range = [&](double v, const std::optional<std::pair<double, double>>& w, const char* what, const char* unit) {
+      if (!w) return;
+      const double width = w->second - w->first;
+      if (v < w->first) {
+        r.distance += (w->first - v) / width;
+        std::snprintf(buf, sizeof buf, "%s %.3g%s below the window [%.3g, %.3g]", what, v, unit, w->first, w->second);
+        r.reasons.push_back(buf);
+      } else if (v > w->second) {
+        r.distance += (v - w->second) / width;
+        std::snprintf(buf, sizeof buf, "%s %.3g%s above the window [%.3g, %.3g]", what, v, unit, w->first, w->second);
+        r.reasons.push_back(buf);
+      }
+    };
+    check_range(nums[i].ordered_fraction, t.ordered_fraction, "ordered fraction", "");
+    check_range(nums[i].secondary_mean_ecd_um, t.secondary_mean_ecd_um, "secondary mean ECD", " um");
+    if (t.max_primary_fraction && nums[i].primary_fraction > *t.max_primary_fraction) {
+      r.distance += (nums[i].primary_fraction - *t.max_primary_fraction) / std::max(*t.max_primary_fraction, 1e-6);
+      std::snprintf(buf, sizeof buf, "primary fraction %.3g above the limit %.3g", nums[i].primary_fraction,
+                    *t.max_primary_fraction);
+      r.reasons.push_back(buf);
+    }
+    out.push_back(r);
+  }
+  std::stable_sort(out.begin(), out.end(), [](const Ranked& a, const Ranked& b) { return a.distance < b.distance; });
+  return out;
+}
+
+}  // namespace orderband
