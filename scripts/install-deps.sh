@@ -9,6 +9,7 @@ packages=(
   gemmi-dev tao-pegtl-dev libstb-dev
   libhdf5-dev libtomlplusplus-dev nlohmann-json3-dev libpng-dev libtiff-dev
   python3-numpy python3-scipy python3-healpy python3-skimage python3-h5py
+  chromium
 )
 
 missing=()

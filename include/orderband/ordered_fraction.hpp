@@ -50,7 +50,7 @@ struct FractionSpec {
   EndMemberMode end_members = EndMemberMode::model;
   /// Orientation uncertainty (radians) whose effect on the profiles down-weights the bins where
   /// the reference changes steeply (beside strong fundamental band edges).
-  double orientation_uncertainty_rad = 0.05 * M_PI / 180;
+  double orientation_uncertainty_rad = 0.1 * M_PI / 180;
   int min_points_for_grain_fit = 10;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
 };

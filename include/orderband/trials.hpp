@@ -41,8 +41,8 @@ struct TrialNumbers {
 };
 
 struct Ranked {
-  size_t trial = 0;           ///< index into the trials
-  double distance = 0;        ///< 0 inside the window; else the sum of relative misses
+  size_t trial = 0;                  ///< index into the trials
+  double distance = 0;               ///< 0 inside the window; else the sum of relative misses
   std::vector<std::string> reasons;  ///< why it misses (empty: inside)
 };
 

@@ -35,8 +35,9 @@ std::function<int()> setup_demo(CLI::App& sub) {
   sub.add_option("-o,--output", o->out, "output folder")->capture_default_str();
   add_threads_option(sub, o->threads);
   sub.add_flag("--quiet", o->quiet, "no progress on stderr");
-  sub.footer("Synthesises the three demo ageing trials (invented alloy Veldite 5) into the cache folder\n"
-             "($ORDERBAND_CACHE, else ~/.cache/orderband) if they are not there yet, maps each and screens them.");
+  sub.footer(
+      "Synthesises the three demo ageing trials (invented alloy Veldite 5) into the cache folder\n"
+      "($ORDERBAND_CACHE, else ~/.cache/orderband) if they are not there yet, maps each and screens them.");
   return [o]() {
     apply_threads(o->threads);
     const ScreenOutcome r = run_screen(demo_data_dir() + "/trials.toml", o->out, MapRunOptions{}, o->quiet);

@@ -74,8 +74,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     const std::string folder = out + "/" + t.label;
     const std::string key = map_key(config, run);
     const std::string key_file = folder + "/run_key.txt";
-    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
-                       slurp(key_file) == key + "\n";
+    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") && slurp(key_file) == key + "\n";
     if (reuse) {
       log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
       if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
@@ -108,7 +107,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   for (const auto& [temp, idx] : by_temperature) {
     std::vector<double> t, r;
     for (size_t i : idx)
-      if (numbers[i].secondary_mean_ecd_um > 0) t.push_back(tc.trials[i].time_h), r.push_back(0.5 * numbers[i].secondary_mean_ecd_um);
+      if (numbers[i].secondary_mean_ecd_um > 0)
+        t.push_back(tc.trials[i].time_h), r.push_back(0.5 * numbers[i].secondary_mean_ecd_um);
     nlohmann::json k = {{"temperature_c", temp}, {"trials", t.size()}};
     try {
       if (t.size() < 2) fail("fewer than two trials with secondary particles");
@@ -130,10 +130,12 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   nlohmann::json arrhenius = nullptr;
   if (temps.size() >= 2) {
     const ArrheniusFit a = fit_arrhenius(temps, ks);
-    arrhenius = {{"activation_energy_kj_mol", a.activation_kj_mol},
-                 {"ci95", {std::isfinite(a.q_low) ? nlohmann::json(a.q_low) : nlohmann::json(nullptr),
-                           std::isfinite(a.q_high) ? nlohmann::json(a.q_high) : nlohmann::json(nullptr)}},
-                 {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
+    arrhenius = {
+        {"activation_energy_kj_mol", a.activation_kj_mol},
+        {"ci95",
+         {std::isfinite(a.q_low) ? nlohmann::json(a.q_low) : nlohmann::json(nullptr),
+          std::isfinite(a.q_high) ? nlohmann::json(a.q_high) : nlohmann::json(nullptr)}},
+        {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
   }
   const std::vector<Ranked> ranking = rank_trials(numbers, tc.target);
 
@@ -154,10 +156,10 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
         << fmt("%.5f", s["ordered_area_fraction"]) << ',' << fmt("%.5f", s["ci95"]["low"]) << ','
         << fmt("%.5f", s["ci95"]["high"]) << ',' << fmt("%.5f", s["subresolution_ordered_fraction"]) << ','
         << fmt("%.5f", s["classes"]["primary"]["area_fraction"]) << ','
-        << fmt("%.5f", s["classes"]["secondary"]["area_fraction"]) << ',' << s["classes"]["secondary"]["count"].get<int>()
-        << ',' << fmt("%.5f", s["classes"]["secondary"]["mean_ecd_um"]) << ','
-        << fmt("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ',' << fmt("%.4f", dist)
-        << '\n';
+        << fmt("%.5f", s["classes"]["secondary"]["area_fraction"]) << ','
+        << s["classes"]["secondary"]["count"].get<int>() << ',' << fmt("%.5f", s["classes"]["secondary"]["mean_ecd_um"])
+        << ',' << fmt("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ','
+        << fmt("%.4f", dist) << '\n';
     table.push_back({{"label", tc.trials[i].label},
                      {"temperature_c", tc.trials[i].temperature_c},
                      {"time_h", tc.trials[i].time_h},
@@ -172,11 +174,12 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
                      {"report", tc.trials[i].label + "/report.html"}});
   }
   write_text_atomically(out + "/comparison.csv", csv.str());
-  nlohmann::json j = {{"tool", "orderband"}, {"version", kVersion}, {"command_line", command_line()},
-                      {"trials_file", tc.path}, {"title", tc.title}, {"trials", table}, {"kinetics", kinetics},
-                      {"arrhenius", arrhenius}};
+  nlohmann::json j = {{"tool", "orderband"},    {"version", kVersion},   {"command_line", command_line()},
+                      {"trials_file", tc.path}, {"title", tc.title},     {"trials", table},
+                      {"kinetics", kinetics},   {"arrhenius", arrhenius}};
   nlohmann::json rk = nlohmann::json::array();
-  for (const Ranked& r : ranking) rk.push_back({{"label", tc.trials[r.trial].label}, {"distance", r.distance}, {"reasons", r.reasons}});
+  for (const Ranked& r : ranking)
+    rk.push_back({{"label", tc.trials[r.trial].label}, {"distance", r.distance}, {"reasons", r.reasons}});
   j["ranking"] = rk;
   write_text_atomically(out + "/comparison.json", j.dump(2) + "\n");
 
@@ -262,7 +265,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
        "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
        ".caution{font-size:0.85em;color:#555}</style></head><body>\n<h1>"
     << xml_escape(tc.title) << "</h1>\n<h2>Ranking against the target</h2><table><tr><th>rank</th><th>trial</th>"
-    << "<th>ordered fraction (95 % CI)</th><th>secondary mean ECD (µm)</th><th>primary fraction</th><th>verdict</th></tr>";
+    << "<th>ordered fraction (95 % CI)</th><th>secondary mean ECD (µm)</th><th>primary "
+       "fraction</th><th>verdict</th></tr>";
   for (size_t k = 0; k < ranking.size(); ++k) {
     const size_t i = ranking[k].trial;
     std::string verdict = ranking[k].reasons.empty() ? "inside the target window" : "";
@@ -279,18 +283,23 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     h << "<tr><td>" << fmt("%g", temp) << "</td><td>" << fmt("%.3g", f.exponent)
       << (tc.exponent ? " (set)" : " (fitted " + fmt("%.3g", f.exponent_low) + "–" + fmt("%.3g", f.exponent_high) + ")")
       << "</td><td>" << fmt("%.4g", f.k) << "</td><td>"
-      << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high) : std::string("needs 3 or more trials"))
+      << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high)
+                                 : std::string("needs 3 or more trials"))
       << "</td></tr>";
-  h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the mean section radius of the secondary class (ECD/2); "
-       "n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has been reported with n below 3, so set or fit n "
+  h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the mean section radius of the secondary class "
+       "(ECD/2); "
+       "n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has been reported with n below 3, so set or fit "
+       "n "
        "for your alloy. With two or more temperatures an Arrhenius fit gives an apparent activation energy (k also "
        "carries the 1/T prefactor and the solubility terms).</p>\n";
   if (!arrhenius.is_null())
     h << "<p>Arrhenius: Q = " << fmt("%.4g", arrhenius["activation_energy_kj_mol"].get<double>()) << " kJ/mol.</p>";
   h << "<div class=\"plots\">" << frac.render() << bars.render() << sizes.render() << power.render() << "</div>\n";
   h << "<p>Tables: <code>comparison.csv</code>, <code>comparison.json</code>. Each trial's own report is linked in the "
-       "ranking.</p><p class=\"caution\">Results are for research and screening. Qualification of safety-critical parts "
-       "follows the applicable material specifications, accredited testing and licensed practice.</p>\n</body></html>\n";
+       "ranking.</p><p class=\"caution\">Results are for research and screening. Qualification of safety-critical "
+       "parts "
+       "follows the applicable material specifications, accredited testing and licensed "
+       "practice.</p>\n</body></html>\n";
   write_text_atomically(out + "/report.html", h.str());
   outcome.report = out + "/report.html";
   return outcome;

@@ -13,18 +13,20 @@ struct Line {
   double slope = 0, intercept = 0, slope_se = 0, sse = 0;
 };
 
-Line fit_line(const std::vector<double>& x, const std::vector<double>& y) {
+/// Weighted least-squares line; the residual variance is estimated from the data (m − 2 dof).
+Line fit_line(const std::vector<double>& x, const std::vector<double>& y, std::vector<double> w = {}) {
   const size_t m = x.size();
-  double sx = 0, sy = 0;
-  for (size_t i = 0; i < m; ++i) sx += x[i], sy += y[i];
-  const double mx = sx / m, my = sy / m;
+  if (w.empty()) w.assign(m, 1.0);
+  double sw = 0, sx = 0, sy = 0;
+  for (size_t i = 0; i < m; ++i) sw += w[i], sx += w[i] * x[i], sy += w[i] * y[i];
+  const double mx = sx / sw, my = sy / sw;
   double sxx = 0, sxy = 0;
-  for (size_t i = 0; i < m; ++i) sxx += (x[i] - mx) * (x[i] - mx), sxy += (x[i] - mx) * (y[i] - my);
+  for (size_t i = 0; i < m; ++i) sxx += w[i] * (x[i] - mx) * (x[i] - mx), sxy += w[i] * (x[i] - mx) * (y[i] - my);
   Line l;
   if (sxx <= 0) fail("kinetics: all points share one abscissa; need at least two different times or temperatures");
   l.slope = sxy / sxx;
   l.intercept = my - l.slope * mx;
-  for (size_t i = 0; i < m; ++i) l.sse += std::pow(y[i] - l.intercept - l.slope * x[i], 2);
+  for (size_t i = 0; i < m; ++i) l.sse += w[i] * std::pow(y[i] - l.intercept - l.slope * x[i], 2);
   l.slope_se = m > 2 ? std::sqrt(l.sse / (m - 2) / sxx) : std::nan("");
   return l;
 }
@@ -34,12 +36,14 @@ double ibeta(double a, double b, double x) {
   if (x <= 0) return 0;
   if (x >= 1) return 1;
   if (x > (a + 1) / (a + b + 2)) return 1 - ibeta(b, a, 1 - x);
-  const double front = std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
+  const double front =
+      std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
   double f = 1, c = 1, d = 0;
   for (int i = 0; i <= 400; ++i) {
     const int m = i / 2;
-    double num = i == 0 ? 1 : (i % 2 == 0 ? m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m))
-                                          : -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1)));
+    double num = i == 0 ? 1
+                        : (i % 2 == 0 ? m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m))
+                                      : -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1)));
     d = 1 + num * d;
     d = 1 / (std::abs(d) < 1e-30 ? 1e-30 : d);
     c = 1 + num / c;
@@ -65,12 +69,15 @@ double f_quantile(double p, int d1, int d2) {
 CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<double>& r, double n) {
   if (t.size() != r.size() || t.size() < 2) fail("kinetics: need at least two (time, radius) points");
   if (!(n > 0)) fail("kinetics: the coarsening exponent must be positive, got ", n);
-  std::vector<double> y;
+  // Mean radii scatter by a similar relative amount at every time, so rⁿ scatters ∝ rⁿ:
+  // weights 1/r^(2n) make the least squares (and the slope's interval) consistent with that.
+  std::vector<double> y, w;
   for (double v : r) {
     if (!(v > 0)) fail("kinetics: mean radius must be positive, got ", v, " µm");
     y.push_back(std::pow(v, n));
+    w.push_back(std::pow(v, -2 * n));
   }
-  const Line l = fit_line(t, y);
+  const Line l = fit_line(t, y, w);
   CoarseningFit f;
   f.exponent = n;
   f.exponent_low = f.exponent_high = n;
@@ -89,13 +96,14 @@ CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<dou
 
 CoarseningFit fit_coarsening_free(const std::vector<double>& t, const std::vector<double>& r) {
   if (t.size() < 4) fail("kinetics: a free exponent needs at least four (time, radius) points, got ", t.size());
-  // SSE in the radius domain for each n, with r0ⁿ and k from the linear fit at that n.
+  // Relative SSE of the radii for each n, with r0ⁿ and k from the weighted fit at that n
+  // (to first order the least-squares solution of the relative residuals).
   auto sse = [&](double n) {
     const CoarseningFit f = fit_coarsening(t, r, n);
     double s = 0;
     for (size_t i = 0; i < t.size(); ++i) {
       const double model = std::pow(std::max(f.r0_pow_n + f.k * t[i], 1e-300), 1 / n);
-      s += (r[i] - model) * (r[i] - model);
+      s += (r[i] - model) * (r[i] - model) / (r[i] * r[i]);
     }
     return s;
   };

@@ -443,12 +443,15 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       continue;
     }
     std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);
+    // Per-point contributions, summed afterwards in column order: the same sums for any thread count.
+    std::vector<double> point_num(static_cast<size_t>(grid.cols) * nf, 0.0), point_den(point_num.size(), 0.0);
 #pragma omp parallel
     {
       std::vector<FamilyProfile> prof;
-      std::vector<double> local_num(nf, 0.0), local_den(nf, 0.0);
 #pragma omp for schedule(dynamic)
       for (int col = 0; col < grid.cols; ++col) {
+        double* local_num = point_num.data() + static_cast<size_t>(col) * nf;
+        double* local_den = point_den.data() + static_cast<size_t>(col) * nf;
         const size_t k = grid.index({row, col});
         if (!usable[col]) {
           r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
@@ -543,9 +546,11 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
           r.uncertainty[k] = static_cast<float>(std::sqrt(var) / std::abs(denom));
         }
       }
-#pragma omp critical
-      for (size_t f = 0; f < nf; ++f) row_num[f] += local_num[f], row_den[f] += local_den[f];
     }
+    for (int col = 0; col < grid.cols; ++col)
+      for (size_t f = 0; f < nf; ++f)
+        row_num[f] += point_num[static_cast<size_t>(col) * nf + f],
+            row_den[f] += point_den[static_cast<size_t>(col) * nf + f];
     for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
     if (store) {
       ByteWriter out;

@@ -29,9 +29,12 @@ TrialsConfig read_trials_config(const std::string& path) {
   c.title = r.get<std::string>(s, "screen", "title").value_or(fs::path(path).stem().string());
   if (s && s->get("exponent")) {
     const toml::node* e = s->get("exponent");
-    if (e->is_string() && *e->value<std::string>() == "free") c.exponent.reset();
-    else if (auto v = e->value<double>(); v && *v > 0) c.exponent = *v;
-    else fail(path, ": [screen] exponent must be a positive number or \"free\"");
+    if (e->is_string() && *e->value<std::string>() == "free")
+      c.exponent.reset();
+    else if (auto v = e->value<double>(); v && *v > 0)
+      c.exponent = *v;
+    else
+      fail(path, ": [screen] exponent must be a positive number or \"free\"");
   } else {
     c.exponent = 3.0;  // LSW
   }
@@ -84,7 +87,8 @@ std::vector<Ranked> rank_trials(const std::vector<TrialNumbers>& nums, const Tar
   for (size_t i = 0; i < nums.size(); ++i) {
     Ranked r;
     r.trial = i;
-    auto check_range = [&](double v, const std::optional<std::pair<double, double>>& w, const char* what, const char* unit) {
+    auto check_range = [&](double v, const std::optional<std::pair<double, double>>& w, const char* what,
+                           const char* unit) {
       if (!w) return;
       const double width = w->second - w->first;
       if (v < w->first) {

@@ -1,0 +1,205 @@
+// `orderband map` and `orderband screen` end to end: numbers against truth, resume after a kill,
+// thread-count independence, hash-based reuse, and the report in a headless browser.
+#include <gtest/gtest.h>
+#include <signal.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <nlohmann/json.hpp>
+#include <sstream>
+#include <thread>
+
+#include "orderband/synth.hpp"
+#include "test_support.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+std::string slurp(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+std::map<std::string, std::string> folder_contents(const std::string& dir) {
+  std::map<std::string, std::string> files;
+  for (const auto& e : fs::directory_iterator(dir))
+    if (e.is_regular_file()) files[e.path().filename().string()] = slurp(e.path().string());
+  return files;
+}
+
+/// A synthetic scan (not the demo): side × side points, 60 × 60 px, 5,000 counts per pixel.
+std::string make_scan(const std::string& dir, int side, int seed) {
+  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
+                                 << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
+                                    "distance_px = 45.0\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
+                                    "distribution = \"lognormal\"\nmedian_diameter_um = 0.15\nsigma_ln = 0.2\n"
+                                    "[tertiary]\nfraction = 0.05\n";
+  write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
+  return dir + "/scan/scan.toml";
+}
+
+class MapRun : public ::testing::Test {
+ protected:
+  static void SetUpTestSuite() {
+    dir_ = new std::string(test::make_temp_dir("map"));
+    scan_ = new std::string(make_scan(*dir_, 40, 31));
+    const auto r = test::run_orderband("map " + *scan_ + " -o " + *dir_ + "/out --quiet");
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+  }
+  static void TearDownTestSuite() {
+    fs::remove_all(*dir_);
+    delete dir_, delete scan_;
+  }
+  static std::string* dir_;
+  static std::string* scan_;
+};
+std::string* MapRun::dir_ = nullptr;
+std::string* MapRun::scan_ = nullptr;
+
+TEST_F(MapRun, SummaryAgreesWithTruth) {
+  const auto s = nlohmann::json::parse(slurp(*dir_ + "/out/summary.json"));
+  const auto t = nlohmann::json::parse(slurp(*dir_ + "/scan/truth.json"));
+  // Step 6 tolerances: area fraction and sub-resolution fraction within ±0.02.
+  EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), t["ordered_area_fraction"].get<double>(), 0.02);
+  EXPECT_NEAR(s["subresolution_ordered_fraction"].get<double>(), 0.05, 0.02);
+  EXPECT_LE(s["ci95"]["low"].get<double>(), s["ordered_area_fraction"].get<double>());
+  EXPECT_GE(s["ci95"]["high"].get<double>(), s["ordered_area_fraction"].get<double>());
+  EXPECT_EQ(s["points_measured"].get<size_t>(), 1600u);
+  for (const char* key : {"area_fraction", "number_density_per_um2", "mean_ecd_um", "count"})
+    EXPECT_TRUE(s["classes"]["secondary"].contains(key)) << key;
+  EXPECT_EQ(s["version"], "0.1.0");
+  EXPECT_NE(s["command_line"].get<std::string>().find("map " + *scan_), std::string::npos);
+  EXPECT_EQ(s["input_hashes"]["patterns"]["fnv1a64"].get<std::string>().size(), 16u);
+  for (const char* f : {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "ordered_fraction.npy",
+                        "particles.csv", "classes.csv", "band_profiles.svg", "family_diagnostics.svg",
+                        "size_histogram.svg", "master_sphere_ordered.png", "master_sphere_disordered.png",
+                        "master_sphere_difference.png", "report.html", "orientations.csv"})
+    EXPECT_TRUE(fs::exists(*dir_ + "/out/" + f)) << f;
+  EXPECT_FALSE(fs::exists(*dir_ + "/out/.resume"));  // cleared after a complete run
+}
+
+TEST_F(MapRun, ResumesAfterAKillWithIdenticalOutputs) {
+  const auto reference = folder_contents(*dir_ + "/out");
+  const std::string out = *dir_ + "/out";
+  fs::remove_all(out);
+  // Start the same command in the background, kill it once some rows are committed.
+  const std::string cmd = std::string(ORDERBAND_BINARY) + " map " + *scan_ + " -o " + out + " --quiet";
+  const pid_t pid = fork();
+  ASSERT_GE(pid, 0);
+  if (pid == 0) {
+    execl("/bin/sh", "sh", "-c", ("exec " + cmd + " >/dev/null 2>&1").c_str(), static_cast<char*>(nullptr));
+    _exit(127);
+  }
+  bool killed = false;
+  for (int i = 0; i < 2000 && !killed; ++i) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+    int rows = 0;
+    if (fs::exists(out + "/.resume"))
+      for (const auto& e : fs::directory_iterator(out + "/.resume")) rows += e.path().filename().string().rfind("orient-", 0) == 0;
+    if (rows >= 8) kill(pid, SIGKILL), killed = true;
+  }
+  int status = 0;
+  waitpid(pid, &status, 0);
+  ASSERT_TRUE(killed) << "the run finished before it could be interrupted";
+  ASSERT_FALSE(fs::exists(out + "/summary.json"));
+  const auto r = test::run_orderband("map " + *scan_ + " -o " + out + " --quiet");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto resumed = folder_contents(out);
+  ASSERT_EQ(resumed.size(), reference.size());
+  for (const auto& [name, bytes] : reference) EXPECT_TRUE(resumed.at(name) == bytes) << name << " differs after resuming";
+}
+
+TEST_F(MapRun, SameResultsWithOneAndTwoThreads) {
+  const std::string a = *dir_ + "/t1", b = *dir_ + "/t2";
+  ASSERT_EQ(test::run_orderband("map " + *scan_ + " -o " + a + " --quiet --threads 1").exit_code, 0);
+  ASSERT_EQ(test::run_orderband("map " + *scan_ + " -o " + b + " --quiet --threads 2").exit_code, 0);
+  for (const auto& [name, bytes] : folder_contents(a)) {
+    const std::string other = slurp(b + "/" + name);
+    if (name.size() > 4 && name.substr(name.size() - 4) == ".npy") {
+      EXPECT_TRUE(bytes == other) << name;
+    } else if (name.size() > 4 && name.substr(name.size() - 4) == ".csv") {
+      EXPECT_EQ(bytes.substr(bytes.find('\n')), other.substr(other.find('\n'))) << name;  // all but the provenance line
+    } else if (name == "summary.json") {
+      auto ja = nlohmann::json::parse(bytes), jb = nlohmann::json::parse(other);
+      ja.erase("command_line"), jb.erase("command_line");
+      EXPECT_EQ(ja, jb);
+    }
+  }
+}
+
+TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {
+  // Debian's chromium (installed by scripts/install-deps.sh): every image of report.html loads and
+  // the page logs no console error; a screenshot is taken.
+  ASSERT_TRUE(fs::exists("/usr/bin/chromium")) << "chromium is missing: run scripts/install-deps.sh";
+  const std::string profile = *dir_ + "/chromium-profile";
+  const std::string flags = "--headless --no-sandbox --disable-gpu --no-first-run --disable-background-networking "
+                            "--disable-component-update --disable-sync --user-data-dir=" + profile +
+                            " --virtual-time-budget=5000 ";
+  const std::string page = "file://" + *dir_ + "/out/report.html";
+  const std::string dom = *dir_ + "/dom.html", log = *dir_ + "/chromium.log";
+  const int rc = std::system(("timeout 120 /usr/bin/chromium " + flags + "--enable-logging=stderr --v=0 --dump-dom " +
+                              page + " >" + dom + " 2>" + log).c_str());
+  ASSERT_EQ(WEXITSTATUS(rc), 0) << slurp(log);
+  const std::string html = slurp(dom);
+  const auto at = html.find("data-images-loaded=\"");
+  ASSERT_NE(at, std::string::npos) << "the page's load script did not run";
+  const std::string value = html.substr(at + 20, html.find('"', at + 20) - at - 20);
+  const auto slash = value.find('/');
+  EXPECT_EQ(value.substr(0, slash), value.substr(slash + 1)) << "images loaded / images: " << value;
+  EXPECT_GE(std::stoi(value.substr(slash + 1)), 6);
+  const std::string console = slurp(log);
+  EXPECT_EQ(console.find("Uncaught"), std::string::npos) << console;
+  EXPECT_EQ(console.find(":ERROR:CONSOLE"), std::string::npos) << console;
+  const std::string shot = *dir_ + "/report.png";
+  std::system(("timeout 120 /usr/bin/chromium " + flags + "--window-size=1200,2000 --screenshot=" + shot + " " + page +
+               " >/dev/null 2>&1").c_str());
+  ASSERT_TRUE(fs::exists(shot));
+  EXPECT_GT(fs::file_size(shot), 20000u);
+}
+
+TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
+  const std::string dir = test::make_temp_dir("screen");
+  fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
+  const std::string a = make_scan(dir + "/a", 16, 41), b = make_scan(dir + "/b", 16, 42);
+  std::ofstream(dir + "/trials.toml") << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
+                                         "[[trial]]\nlabel = \"A\"\nscan = \"" << a << "\"\ntemperature_c = 760\ntime_h = 4\n"
+                                         "[[trial]]\nlabel = \"B\"\nscan = \"" << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
+  const std::string cmd = "screen " + dir + "/trials.toml -o " + dir + "/out --quiet";
+  auto r = test::run_orderband(cmd);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::string log = slurp(dir + "/out/screen_log.txt");
+  EXPECT_NE(log.find("trial A: computed"), std::string::npos) << log;
+  EXPECT_NE(log.find("trial B: computed"), std::string::npos) << log;
+  r = test::run_orderband(cmd);
+  log = slurp(dir + "/out/screen_log.txt");
+  EXPECT_NE(log.find("trial A: reused"), std::string::npos) << log;
+  EXPECT_NE(log.find("trial B: reused"), std::string::npos) << log;
+  // Change trial B's patterns (one sample): B is computed again, A is reused.
+  {
+    std::fstream f(dir + "/b/scan/patterns.raw", std::ios::in | std::ios::out | std::ios::binary);
+    f.seekp(1000);
+    const char byte = 7;
+    f.write(&byte, 1);
+  }
+  r = test::run_orderband(cmd);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  log = slurp(dir + "/out/screen_log.txt");
+  EXPECT_NE(log.find("trial A: reused"), std::string::npos) << log;
+  EXPECT_NE(log.find("trial B: computed"), std::string::npos) << log;
+  const auto j = nlohmann::json::parse(slurp(dir + "/out/comparison.json"));
+  EXPECT_EQ(j["trials"].size(), 2u);
+  EXPECT_EQ(j["ranking"].size(), 2u);
+  EXPECT_TRUE(fs::exists(dir + "/out/report.html"));
+  fs::remove_all(dir);
+}
+
+}  // namespace
+}  // namespace orderband
