@@ -37,11 +37,12 @@ std::map<std::string, std::string> folder_contents(const std::string& dir) {
 
 /// A synthetic scan (not the demo): side × side points, 60 × 60 px, 5,000 counts per pixel.
 std::string make_scan(const std::string& dir, int side, int seed) {
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
-                                 << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
-                                    "distance_px = 45.0\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
-                                    "distribution = \"lognormal\"\nmedian_diameter_um = 0.15\nsigma_ln = 0.2\n"
-                                    "[tertiary]\nfraction = 0.05\n";
+  std::ofstream(dir + "/s.toml")
+      << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
+      << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
+         "distance_px = 45.0\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
+         "distribution = \"lognormal\"\nmedian_diameter_um = 0.15\nsigma_ln = 0.2\n"
+         "[tertiary]\nfraction = 0.05\n";
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
   return dir + "/scan/scan.toml";
 }
@@ -78,10 +79,10 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
   EXPECT_EQ(s["version"], "0.1.0");
   EXPECT_NE(s["command_line"].get<std::string>().find("map " + *scan_), std::string::npos);
   EXPECT_EQ(s["input_hashes"]["patterns"]["fnv1a64"].get<std::string>().size(), 16u);
-  for (const char* f : {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "ordered_fraction.npy",
-                        "particles.csv", "classes.csv", "band_profiles.svg", "family_diagnostics.svg",
-                        "size_histogram.svg", "master_sphere_ordered.png", "master_sphere_disordered.png",
-                        "master_sphere_difference.png", "report.html", "orientations.csv"})
+  for (const char* f :
+       {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "ordered_fraction.npy", "particles.csv",
+        "classes.csv", "band_profiles.svg", "family_diagnostics.svg", "size_histogram.svg", "master_sphere_ordered.png",
+        "master_sphere_disordered.png", "master_sphere_difference.png", "report.html", "orientations.csv"})
     EXPECT_TRUE(fs::exists(*dir_ + "/out/" + f)) << f;
   EXPECT_FALSE(fs::exists(*dir_ + "/out/.resume"));  // cleared after a complete run
 }
@@ -103,7 +104,8 @@ TEST_F(MapRun, ResumesAfterAKillWithIdenticalOutputs) {
     std::this_thread::sleep_for(std::chrono::milliseconds(10));
     int rows = 0;
     if (fs::exists(out + "/.resume"))
-      for (const auto& e : fs::directory_iterator(out + "/.resume")) rows += e.path().filename().string().rfind("orient-", 0) == 0;
+      for (const auto& e : fs::directory_iterator(out + "/.resume"))
+        rows += e.path().filename().string().rfind("orient-", 0) == 0;
     if (rows >= 8) kill(pid, SIGKILL), killed = true;
   }
   int status = 0;
@@ -114,7 +116,8 @@ TEST_F(MapRun, ResumesAfterAKillWithIdenticalOutputs) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const auto resumed = folder_contents(out);
   ASSERT_EQ(resumed.size(), reference.size());
-  for (const auto& [name, bytes] : reference) EXPECT_TRUE(resumed.at(name) == bytes) << name << " differs after resuming";
+  for (const auto& [name, bytes] : reference)
+    EXPECT_TRUE(resumed.at(name) == bytes) << name << " differs after resuming";
 }
 
 TEST_F(MapRun, SameResultsWithOneAndTwoThreads) {
@@ -140,13 +143,15 @@ TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {
   // the page logs no console error; a screenshot is taken.
   ASSERT_TRUE(fs::exists("/usr/bin/chromium")) << "chromium is missing: run scripts/install-deps.sh";
   const std::string profile = *dir_ + "/chromium-profile";
-  const std::string flags = "--headless --no-sandbox --disable-gpu --no-first-run --disable-background-networking "
-                            "--disable-component-update --disable-sync --user-data-dir=" + profile +
-                            " --virtual-time-budget=5000 ";
+  const std::string flags =
+      "--headless --no-sandbox --disable-gpu --no-first-run --disable-background-networking "
+      "--disable-component-update --disable-sync --user-data-dir=" +
+      profile + " --virtual-time-budget=5000 ";
   const std::string page = "file://" + *dir_ + "/out/report.html";
   const std::string dom = *dir_ + "/dom.html", log = *dir_ + "/chromium.log";
   const int rc = std::system(("timeout 120 /usr/bin/chromium " + flags + "--enable-logging=stderr --v=0 --dump-dom " +
-                              page + " >" + dom + " 2>" + log).c_str());
+                              page + " >" + dom + " 2>" + log)
+                                 .c_str());
   ASSERT_EQ(WEXITSTATUS(rc), 0) << slurp(log);
   const std::string html = slurp(dom);
   const auto at = html.find("data-images-loaded=\"");
@@ -160,7 +165,8 @@ TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {
   EXPECT_EQ(console.find(":ERROR:CONSOLE"), std::string::npos) << console;
   const std::string shot = *dir_ + "/report.png";
   std::system(("timeout 120 /usr/bin/chromium " + flags + "--window-size=1200,2000 --screenshot=" + shot + " " + page +
-               " >/dev/null 2>&1").c_str());
+               " >/dev/null 2>&1")
+                  .c_str());
   ASSERT_TRUE(fs::exists(shot));
   EXPECT_GT(fs::file_size(shot), 20000u);
 }
@@ -170,8 +176,11 @@ TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
   fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
   const std::string a = make_scan(dir + "/a", 16, 41), b = make_scan(dir + "/b", 16, 42);
   std::ofstream(dir + "/trials.toml") << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
-                                         "[[trial]]\nlabel = \"A\"\nscan = \"" << a << "\"\ntemperature_c = 760\ntime_h = 4\n"
-                                         "[[trial]]\nlabel = \"B\"\nscan = \"" << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
+                                         "[[trial]]\nlabel = \"A\"\nscan = \""
+                                      << a
+                                      << "\"\ntemperature_c = 760\ntime_h = 4\n"
+                                         "[[trial]]\nlabel = \"B\"\nscan = \""
+                                      << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
   const std::string cmd = "screen " + dir + "/trials.toml -o " + dir + "/out --quiet";
   auto r = test::run_orderband(cmd);
   ASSERT_EQ(r.exit_code, 0) << r.err;

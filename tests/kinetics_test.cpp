@@ -34,7 +34,8 @@ TEST(Kinetics, LswFitRecoversKWithinItsInterval) {
   }
   EXPECT_GE(inside, 17);
   // Exact data: exact constants.
-  const CoarseningFit exact = fit_coarsening({0, 10, 20}, {0.04, std::cbrt(6.4e-5 + 2e-4), std::cbrt(6.4e-5 + 4e-4)}, 3);
+  const CoarseningFit exact =
+      fit_coarsening({0, 10, 20}, {0.04, std::cbrt(6.4e-5 + 2e-4), std::cbrt(6.4e-5 + 4e-4)}, 3);
   EXPECT_NEAR(exact.k, 2e-5, 1e-12);
   EXPECT_NEAR(exact.r0_pow_n, 6.4e-5, 1e-12);
 }
