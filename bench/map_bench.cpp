@@ -17,10 +17,11 @@ int main(int argc, char** argv) {
   const int side = argc > 1 ? std::atoi(argv[1]) : 96;
   const std::string dir = (std::filesystem::temp_directory_path() / "orderband-map-bench").string();
   std::filesystem::create_directories(dir);
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 9\n[scan]\nrows = " << side << "\ncols = " << side
-                                 << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
-                                    "distance_px = 45.0\n[grains]\ncount = 4\n[secondary]\narea_fraction = 0.3\n"
-                                    "distribution = \"lsw\"\nmean_diameter_um = 0.15\n";
+  std::ofstream(dir + "/s.toml")
+      << "[scenario]\nseed = 9\n[scan]\nrows = " << side << "\ncols = " << side
+      << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\n"
+         "distance_px = 45.0\n[grains]\ncount = 4\n[secondary]\narea_fraction = 0.3\n"
+         "distribution = \"lsw\"\nmean_diameter_um = 0.15\n";
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "map_bench");
   struct rusage before {};
   getrusage(RUSAGE_SELF, &before);
@@ -31,10 +32,11 @@ int main(int argc, char** argv) {
   write_map_outputs(dir + "/out", config, r, MapOptions{}, "map_bench");
   struct rusage after {};
   getrusage(RUSAGE_SELF, &after);
-  std::printf("%d x %d points (60 x 60 px patterns, %.0f MB of patterns): map chain %.1f s, %.0f points/s; "
-              "peak resident memory %.0f MB (after synthesis: %.0f MB)\n",
-              side, side, side * side * 3600 * 2 / 1e6, s, side * side / s, after.ru_maxrss / 1024.0,
-              before.ru_maxrss / 1024.0);
+  std::printf(
+      "%d x %d points (60 x 60 px patterns, %.0f MB of patterns): map chain %.1f s, %.0f points/s; "
+      "peak resident memory %.0f MB (after synthesis: %.0f MB)\n",
+      side, side, side * side * 3600 * 2 / 1e6, s, side * side / s, after.ru_maxrss / 1024.0,
+      before.ru_maxrss / 1024.0);
   std::filesystem::remove_all(dir);
   return 0;
 }

@@ -43,6 +43,9 @@ class SvgPlot {
   double x0_ = 0, x1_ = 1, y0_ = 0, y1_ = 1;
 };
 
+/// Several rendered charts placed on a grid in one SVG document (nested svg elements).
+std::string svg_grid(const std::vector<std::string>& charts, int columns, int cell_width, int cell_height);
+
 /// Escapes text for XML/HTML.
 std::string xml_escape(const std::string& text);
 

@@ -101,14 +101,14 @@ RgbImage mask_image(const ScanGrid& grid, const MapResults& r) {
   return with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um);
 }
 
-std::string band_profile_svg(const MapResults& r, const FractionSpec& spec) {
+std::vector<std::string> band_profile_charts(const MapResults& r, const FractionSpec& spec) {
   // The superlattice families with the largest weights, model references of both phases.
   std::vector<const FamilyDiagnostic*> fams;
   for (const auto& f : r.fraction.families)
     if (f.superlattice) fams.push_back(&f);
   std::sort(fams.begin(), fams.end(), [](auto* a, auto* b) { return a->weight > b->weight; });
   if (fams.size() > 4) fams.resize(4);
-  std::string out = "<div class=\"plots\">";
+  std::vector<std::string> out;
   for (const FamilyDiagnostic* f : fams) {
     SvgPlot p(420, 260, "band profile " + f->label + " (model, largest grain)", "offset from the plane / theta_B",
               "normalised intensity");
@@ -117,12 +117,12 @@ std::string band_profile_svg(const MapResults& r, const FractionSpec& spec) {
     p.vertical_band(-spec.windows.flank_max, -spec.windows.flank_min, "#9fd3ff", 0.45);
     p.line(f->profile_u, f->profile_disordered, "#1f4fa8", "disordered (gamma)");
     p.line(f->profile_u, f->profile_ordered, "#c0392b", "ordered (gamma-prime)", true);
-    out += p.render();
+    out.push_back(p.render());
   }
-  return out + "</div>";
+  return out;
 }
 
-std::string diagnostics_svg(const MapResults& r) {
+std::vector<std::string> diagnostics_charts(const MapResults& r) {
   std::vector<std::string> names;
   std::vector<double> left, width, weight, sep;
   int k = 0;
@@ -132,7 +132,7 @@ std::string diagnostics_svg(const MapResults& r) {
     left.push_back(k - 0.4), width.push_back(0.4), weight.push_back(f.weight);
     ++k;
   }
-  SvgPlot a(std::max(420, 60 * k), 260, "weight of each superlattice family in the estimator", "family",
+  SvgPlot a(std::min(900, std::max(420, 60 * k)), 260, "weight of each superlattice family in the estimator", "family",
             "weight (sums to 1)");
   a.bars(left, width, weight, "#2e86ab", "weight");
   a.x_categories(names);
@@ -141,11 +141,18 @@ std::string diagnostics_svg(const MapResults& r) {
   for (double l : left) left2.push_back(l + 0.4);
   for (const auto& f : r.fraction.families)
     if (f.superlattice) sep.push_back(f.separation);
-  SvgPlot b(std::max(420, 60 * k), 260, "end-member separation per family (d' of one point)", "family", "d'");
+  SvgPlot b(std::min(900, std::max(420, 60 * k)), 260, "end-member separation per family (d' of one point)", "family",
+            "d'");
   b.bars(left2, width, sep, "#e07a5f", "separation d'");
   b.x_categories(names);
   b.x_range(-0.8, k - 0.2);
-  return "<div class=\"plots\">" + a.render() + b.render() + "</div>";
+  return {a.render(), b.render()};
+}
+
+std::string as_div(const std::vector<std::string>& charts) {
+  std::string s = "<div class=\"plots\">";
+  for (const auto& c : charts) s += c;
+  return s + "</div>";
 }
 
 std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
@@ -374,23 +381,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
 
   // Plots.
-  const std::string profiles = band_profile_svg(r, options.fraction);
-  const std::string diagnostics = diagnostics_svg(r);
+  const std::vector<std::string> profile_charts = band_profile_charts(r, options.fraction);
+  const std::vector<std::string> diagnostic_charts = diagnostics_charts(r);
+  const std::string profiles = as_div(profile_charts), diagnostics = as_div(diagnostic_charts);
   const std::string histogram = histogram_svg(r, options.classes);
-  auto standalone = [](const std::string& body) {
-    // A page of several SVG charts stacked as one SVG document is not valid; wrap them in one SVG.
-    return body;
-  };
-  write_text_atomically(
-      folder + "/band_profiles.svg",
-      "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"860\" height=\"540\">" +
-          standalone(profiles.substr(profiles.find('>') + 1, profiles.rfind("</div>") - profiles.find('>') - 1)) +
-          "</svg>\n");
-  write_text_atomically(
-      folder + "/family_diagnostics.svg",
-      "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"1200\" height=\"270\">" +
-          diagnostics.substr(diagnostics.find('>') + 1, diagnostics.rfind("</div>") - diagnostics.find('>') - 1) +
-          "</svg>\n");
+  write_text_atomically(folder + "/band_profiles.svg", svg_grid(profile_charts, 2, 430, 270));
+  write_text_atomically(folder + "/family_diagnostics.svg", svg_grid(diagnostic_charts, 1, 900, 270));
   write_text_atomically(folder + "/size_histogram.svg", histogram);
 
   // Report: one self-contained page.

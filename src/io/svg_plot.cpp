@@ -103,7 +103,11 @@ std::string SvgPlot::render() const {
           if (std::isfinite(y)) ay = std::min(ay, y), by = std::max(by, y);
       if (it.svg_kind == "bars") ay = std::min(ay, 0.0);
     }
-    if (!x_fixed_) x0 = std::isfinite(ax) ? ax : 0, x1 = std::isfinite(bx) && bx > ax ? bx : x0 + 1;
+    if (!x_fixed_) {
+      x0 = std::isfinite(ax) ? ax : 0, x1 = std::isfinite(bx) && bx > ax ? bx : x0 + 1;
+      const double pad = 0.04 * (x1 - x0);  // markers at the ends stay inside the frame
+      x0 -= pad, x1 += pad;
+    }
     if (!y_fixed_) {
       y0 = std::isfinite(ay) ? ay : 0, y1 = std::isfinite(by) && by > ay ? by : y0 + 1;
       const double pad = 0.06 * (y1 - y0);
@@ -185,6 +189,22 @@ std::string SvgPlot::render() const {
     s << "<rect x=\"" << L + pw - 150 << "\" y=\"" << y - 8 << "\" width=\"12\" height=\"8\" fill=\"" << it.colour
       << "\" fill-opacity=\"" << std::max(0.4, it.opacity) << "\"/><text x=\"" << L + pw - 134 << "\" y=\"" << y
       << "\">" << xml_escape(it.label) << "</text>\n";
+  }
+  s << "</svg>\n";
+  return s.str();
+}
+
+std::string svg_grid(const std::vector<std::string>& charts, int columns, int cell_width, int cell_height) {
+  const int rows = static_cast<int>((charts.size() + columns - 1) / columns);
+  std::ostringstream s;
+  s << "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" << columns * cell_width << "\" height=\""
+    << rows * cell_height << "\">\n";
+  for (size_t k = 0; k < charts.size(); ++k) {
+    const std::string& c = charts[k];
+    const size_t at = c.find("<svg ");
+    if (at == std::string::npos) continue;
+    s << c.substr(0, at + 5) << "x=\"" << (k % columns) * cell_width << "\" y=\"" << (k / columns) * cell_height
+      << "\" " << c.substr(at + 5);
   }
   s << "</svg>\n";
   return s.str();
