@@ -28,6 +28,10 @@ std::vector<PairEntry> read_pair_catalog(const std::string& toml_path);
 /// orderband::Error listing the known names if `name` is not among them.
 OrderingPair load_named_pair(const std::string& name);
 
+struct PhaseSelection;
+/// The pair a scan description or scenario selects: a named pair or two CIF files.
+OrderingPair load_phases(const PhaseSelection& selection);
+
 /// Loads a pair from two CIF files and checks that they share a cell setting.
 OrderingPair load_pair(const std::string& ordered_cif, const std::string& disordered_cif, const std::string& name = "");
 

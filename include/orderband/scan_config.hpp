@@ -40,6 +40,9 @@ struct ScanConfig {
   std::string output_folder;  ///< absolute
 };
 
+/// The scan's detector geometry for patterns of the given stored size.
+DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px);
+
 /// Reads and validates a scan description (TOML). Unknown tables or keys,
 /// wrong types and out-of-range values are errors naming the file, the key,
 /// the value and the expected form.

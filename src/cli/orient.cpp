@@ -36,9 +36,7 @@ std::function<int()> setup_orient(CLI::App& sub) {
     const OrientationResults r = orient_scan(config, spec, [&](size_t d, size_t t) { progress(d, t); });
     progress.finish();
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
-    const OrderingPair pair = config.phases.pair_name.empty()
-                                  ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
-                                  : load_named_pair(config.phases.pair_name);
+    const OrderingPair pair = load_phases(config.phases);
     write_orientation_outputs(folder, config, r, spec, pair.disordered.name, command_line());
     if (!o->quiet)
       std::fprintf(stderr, "orientations for %zu of %zu points (%zu usable), %d grains; written to %s\n",

@@ -10,9 +10,7 @@ namespace orderband {
 MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress,
                     RowStore* store) {
   MapResults r;
-  const OrderingPair pair = config.phases.pair_name.empty()
-                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
-                                : load_named_pair(config.phases.pair_name);
+  const OrderingPair pair = load_phases(config.phases);
   r.ordered_phase = pair.ordered.name;
   r.disordered_phase = pair.disordered.name;
   auto stage = [&](const std::string& name) {
@@ -35,10 +33,7 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
 
   if (options.master_spheres) {
     auto source = open_pattern_source(config.patterns, grid);
-    DetectorGeometrySpec gspec = config.geometry;
-    gspec.width_px = source->width();
-    gspec.height_px = source->height();
-    const DetectorGeometry geometry(gspec);
+    const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
     const DetectorRays rays(geometry);
     const Preprocessor pre = make_preprocessor(config.preprocess, *source);
     const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));

@@ -211,9 +211,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   const ScanGrid& grid = config.grid;
   const size_t n = grid.count();
   if (ori.orientation.size() != n) fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", n);
-  const OrderingPair pair = config.phases.pair_name.empty()
-                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
-                                : load_named_pair(config.phases.pair_name);
+  const OrderingPair pair = load_phases(config.phases);
   const std::vector<PairFamily> table = pair_family_table(pair, config.kv, spec.d_min_A);
 
   // Families: every superlattice-sensitive one, then the strongest fundamental ones.
@@ -248,10 +246,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   const size_t nf = chosen.size();
 
   auto source = open_pattern_source(config.patterns, grid);
-  DetectorGeometrySpec gspec = config.geometry;
-  gspec.width_px = source->width();
-  gspec.height_px = source->height();
-  const DetectorGeometry geometry(gspec);
+  const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
   const DetectorRays rays(geometry);
   const Preprocessor pre = make_preprocessor(config.preprocess, *source);
 

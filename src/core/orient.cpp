@@ -44,13 +44,8 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
                                RowStore* store) {
   const ScanGrid& grid = config.grid;
   auto source = open_pattern_source(config.patterns, grid);
-  DetectorGeometrySpec gspec = config.geometry;
-  gspec.width_px = source->width();
-  gspec.height_px = source->height();
-  const DetectorGeometry geometry(gspec);
-  const OrderingPair pair = config.phases.pair_name.empty()
-                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
-                                : load_named_pair(config.phases.pair_name);
+  const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
+  const OrderingPair pair = load_phases(config.phases);
   // γ and γ′ share the lattice (cube-on-cube): index and refine as the disordered parent.
   const Phase& parent = pair.disordered;
   const CrystalSymmetry symmetry(laue_rotations(parent));

@@ -31,9 +31,7 @@ ScanCheck check_scan(const ScanConfig& config, size_t sample_points, double d_mi
   c.max_angle_from_pc_deg = rad_to_deg(geometry.max_angle_from_pc_rad());
   c.pc_direction_sample = geometry.direction_sample({config.geometry.pc_px.x(), config.geometry.pc_px.y()}).vec();
 
-  const OrderingPair pair = config.phases.pair_name.empty()
-                                ? load_pair(config.phases.ordered_cif, config.phases.disordered_cif)
-                                : load_named_pair(config.phases.pair_name);
+  const OrderingPair pair = load_phases(config.phases);
   c.pair_name = pair.name;
   for (const PairFamily& f : pair_family_table(pair, config.kv, d_min_A)) {
     FamilyVisibility v{f, 2 * f.bragg_ordered_rad / geometry.angular_pixel_size_rad()};

@@ -6,6 +6,7 @@
 #include <filesystem>
 
 #include "orderband/error.hpp"
+#include "orderband/scan_config.hpp"
 
 namespace fs = std::filesystem;
 
@@ -59,6 +60,10 @@ OrderingPair load_pair(const std::string& ordered_cif, const std::string& disord
   pair.name = name.empty() ? pair.ordered.name + "/" + pair.disordered.name : name;
   check_pair_compatible(pair);
   return pair;
+}
+
+OrderingPair load_phases(const PhaseSelection& s) {
+  return s.pair_name.empty() ? load_pair(s.ordered_cif, s.disordered_cif) : load_named_pair(s.pair_name);
 }
 
 OrderingPair load_named_pair(const std::string& name) {

@@ -12,6 +12,13 @@
 namespace fs = std::filesystem;
 
 namespace orderband {
+DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px) {
+  DetectorGeometrySpec g = config.geometry;
+  g.width_px = width_px;
+  g.height_px = height_px;
+  return g;
+}
+
 ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);

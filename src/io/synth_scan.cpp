@@ -219,8 +219,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
   const std::string dir = fs::absolute(folder).lexically_normal().string();
 
-  const OrderingPair pair = s.phases.pair_name.empty() ? load_pair(s.phases.ordered_cif, s.phases.disordered_cif)
-                                                       : load_named_pair(s.phases.pair_name);
+  const OrderingPair pair = load_phases(s.phases);
   const KinematicBandModel ordered(pair.ordered, s.kv, s.band), disordered(pair.disordered, s.kv, s.band);
   const Microstructure micro(s.micro);
   const DetectorGeometry geometry(s.geometry);
