@@ -80,6 +80,35 @@ TEST(ScanConfig, WriteThenReadGivesTheSameValues) {
   EXPECT_NE(os.str().find("# written by a test"), std::string::npos);
 }
 
+TEST(ScanConfig, ReferenceRegionsForTheEndMembers) {
+  const ScanConfig c =
+      parse_scan_config(kMinimal +
+                            "[fraction]\nend_members = \"regions\"\n"
+                            "ordered_regions = [[0, 0, 1, 1]]\ndisordered_regions = [[2, 2, 2, 3], [0, 3, 0, 3]]\n",
+                        "/tmp/scans/s.toml");
+  EXPECT_EQ(c.end_members.mode, "regions");
+  ASSERT_EQ(c.end_members.disordered_regions.size(), 2u);
+  EXPECT_EQ(c.end_members.disordered_regions[0], (std::array<int, 4>{2, 2, 2, 3}));
+  std::ostringstream os;
+  write_scan_config(os, c, "/tmp/scans");
+  EXPECT_EQ(parse_scan_config(os.str(), "/tmp/scans/s.toml").end_members.ordered_regions,
+            c.end_members.ordered_regions);
+  auto error_of = [](const std::string& extra) {
+    try {
+      parse_scan_config(kMinimal + extra, "/tmp/scans/s.toml");
+    } catch (const Error& e) {
+      return std::string(e.what());
+    }
+    return std::string("no error");
+  };
+  EXPECT_NE(error_of("[fraction]\nend_members = \"regions\"\nordered_regions = [[0, 0, 1, 1]]\n")
+                .find("needs ordered_regions and disordered_regions"),
+            std::string::npos);
+  EXPECT_NE(error_of("[fraction]\nordered_regions = [[0, 0, 9, 1]]\n").find("is not inside the 3 x 4 grid"),
+            std::string::npos);
+  EXPECT_NE(error_of("[fraction]\nend_members = \"guess\"\n").find("is not \"model\""), std::string::npos);
+}
+
 TEST(ScanConfig, OneClearLinePerProblem) {
   auto with = [](const std::string& from, const std::string& to) {
     std::string t = kMinimal;

@@ -1,9 +1,11 @@
 // The scan description: grid, patterns, geometry, voltage, phases, orientations, preprocessing, output.
 #pragma once
 
+#include <array>
 #include <optional>
 #include <ostream>
 #include <string>
+#include <vector>
 
 #include "orderband/detector_geometry.hpp"
 #include "orderband/pattern_source.hpp"
@@ -27,6 +29,13 @@ struct OrientationSelection {
   bool refine = true;
 };
 
+/// How the fraction's end members are fixed ([fraction] in the description).
+struct EndMemberSelection {
+  std::string mode = "model";  ///< "model", "mixture" or "regions"
+  /// Rectangles of points [row0, col0, row1, col1] (inclusive) known to be ordered / disordered.
+  std::vector<std::array<int, 4>> ordered_regions, disordered_regions;
+};
+
 struct ScanConfig {
   std::string path;    ///< the description file
   std::string folder;  ///< its folder: relative paths resolve against it
@@ -37,6 +46,7 @@ struct ScanConfig {
   PhaseSelection phases;
   OrientationSelection orientations;
   PreprocessSpec preprocess;
+  EndMemberSelection end_members;
   std::string output_folder;  ///< absolute
 };
 

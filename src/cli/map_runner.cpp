@@ -42,7 +42,19 @@ std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
 }
 
 MapResults run_map(const ScanConfig& config, const std::string& folder, const MapRunOptions& o, bool quiet) {
-  const MapOptions options = to_map_options(o);
+  MapOptions options = to_map_options(o);
+  // The scan description's [fraction] end members, unless the command line asks for the mixture.
+  if (o.end_members == "model" && config.end_members.mode != "model") {
+    options.fraction.end_members =
+        config.end_members.mode == "mixture" ? EndMemberMode::mixture : EndMemberMode::regions;
+    auto rects = [](const std::vector<std::array<int, 4>>& in) {
+      std::vector<PointRect> out;
+      for (const auto& v : in) out.push_back({v[0], v[1], v[2], v[3]});
+      return out;
+    };
+    options.fraction.ordered_regions = rects(config.end_members.ordered_regions);
+    options.fraction.disordered_regions = rects(config.end_members.disordered_regions);
+  }
   std::error_code ec;
   fs::create_directories(folder, ec);
   if (ec) fail("cannot create output folder '", folder, "': ", ec.message());

@@ -342,6 +342,18 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"window_flank_min", options.fraction.windows.flank_min},
         {"window_flank_max", options.fraction.windows.flank_max},
         {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
+        {"ordered_regions",
+         [&] {
+           nlohmann::json a = nlohmann::json::array();
+           for (const PointRect& q : options.fraction.ordered_regions) a.push_back({q.row0, q.col0, q.row1, q.col1});
+           return a;
+         }()},
+        {"disordered_regions",
+         [&] {
+           nlohmann::json a = nlohmann::json::array();
+           for (const PointRect& q : options.fraction.disordered_regions) a.push_back({q.row0, q.col0, q.row1, q.col1});
+           return a;
+         }()},
         {"end_members", options.fraction.end_members == EndMemberMode::model     ? "model"
                         : options.fraction.end_members == EndMemberMode::mixture ? "mixture"
                                                                                  : "regions"}}},

@@ -23,11 +23,11 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
   for (const auto& [k, v] : root) {
-    static const std::set<std::string> tables{"scan",   "patterns",     "geometry",   "microscope",
-                                              "phases", "orientations", "preprocess", "output"};
+    static const std::set<std::string> tables{"scan",         "patterns",   "geometry", "microscope", "phases",
+                                              "orientations", "preprocess", "fraction", "output"};
     if (!tables.count(std::string(k.str())))
       fail(path, ": unknown table [", k.str(),
-           "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, output)");
+           "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, fraction, output)");
   }
   ScanConfig c;
   c.path = fs::absolute(path).lexically_normal().string();
@@ -181,6 +181,37 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   if (p.neighbour_sigma_steps < 0) fail(path, ": [preprocess] neighbour_sigma_steps must be >= 0");
 
   // [output]
+  // [fraction]
+  const toml::table* fr = r.table("fraction", false);
+  r.check_keys(fr, "fraction", {"end_members", "ordered_regions", "disordered_regions"});
+  c.end_members.mode = r.get<std::string>(fr, "fraction", "end_members").value_or("model");
+  if (c.end_members.mode != "model" && c.end_members.mode != "mixture" && c.end_members.mode != "regions")
+    fail(path, ": [fraction] end_members = \"", c.end_members.mode, "\" is not \"model\", \"mixture\" or \"regions\"");
+  for (const char* key : {"ordered_regions", "disordered_regions"}) {
+    auto& list =
+        std::string(key) == "ordered_regions" ? c.end_members.ordered_regions : c.end_members.disordered_regions;
+    if (!fr || !fr->get(key)) continue;
+    const toml::array* a = fr->get(key)->as_array();
+    if (!a) fail(path, ": [fraction] ", key, " must be a list of [row0, col0, row1, col1] rectangles");
+    for (const toml::node& n : *a) {
+      const toml::array* rect = n.as_array();
+      std::array<int, 4> v{};
+      if (!rect || rect->size() != 4) fail(path, ": [fraction] ", key, " entries must be [row0, col0, row1, col1]");
+      for (int i = 0; i < 4; ++i) {
+        const auto x = (*rect)[i].value<int64_t>();
+        if (!x) fail(path, ": [fraction] ", key, " entries must be integers");
+        v[i] = static_cast<int>(*x);
+      }
+      if (v[0] < 0 || v[1] < 0 || v[2] < v[0] || v[3] < v[1] || v[2] >= c.grid.rows || v[3] >= c.grid.cols)
+        fail(path, ": [fraction] ", key, " rectangle [", v[0], ", ", v[1], ", ", v[2], ", ", v[3],
+             "] is not inside the ", c.grid.rows, " x ", c.grid.cols, " grid");
+      list.push_back(v);
+    }
+  }
+  if (c.end_members.mode == "regions" &&
+      (c.end_members.ordered_regions.empty() || c.end_members.disordered_regions.empty()))
+    fail(path, ": [fraction] end_members = \"regions\" needs ordered_regions and disordered_regions");
+
   const toml::table* out = r.table("output", false);
   r.check_keys(out, "output", {"folder"});
   c.output_folder = r.resolve(r.get<std::string>(out, "output", "folder").value_or("orderband-out"));
@@ -252,7 +283,18 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
                                      : rel(p.mask_file))
      << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
      << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
-     << "\n\n[output]\nfolder = " << q(rel(c.output_folder)) << "\n";
+     << "\n\n[fraction]\nend_members = " << q(c.end_members.mode) << "\n";
+  auto rects = [&](const char* key, const std::vector<std::array<int, 4>>& list) {
+    if (list.empty()) return;
+    os << key << " = [";
+    for (size_t i = 0; i < list.size(); ++i)
+      os << (i ? ", " : "") << "[" << list[i][0] << ", " << list[i][1] << ", " << list[i][2] << ", " << list[i][3]
+         << "]";
+    os << "]\n";
+  };
+  rects("ordered_regions", c.end_members.ordered_regions);
+  rects("disordered_regions", c.end_members.disordered_regions);
+  os << "\n[output]\nfolder = " << q(rel(c.output_folder)) << "\n";
 }
 
 }  // namespace orderband
