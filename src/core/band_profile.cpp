@@ -118,21 +118,37 @@ void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mas
   };
   thread_local std::vector<Acc> acc;
   acc.assign(families_.size() * bins_, Acc{0, 0, 0, 0, 0});
-  const Eigen::Matrix3d m = g.matrix();
-  const double scale = 1.0 / spec_.bin_u, offset = spec_.u_max * scale;
+  // Single precision for the geometry (errors ~1e-7 rad against bins of ~1e-3 rad), double sums.
+  const Eigen::Matrix3f m = g.matrix().cast<float>();
+  const float scale = static_cast<float>(1.0 / spec_.bin_u), offset = static_cast<float>(spec_.u_max / spec_.bin_u);
+  const float half_cells = 0.5f * cells_;
+  const int last = cells_ - 1;
   for (size_t q = 0; q < rays.direction.size(); ++q) {
     if (!mask.empty() && !mask[q]) continue;
-    const Eigen::Vector3d c = m * rays.direction[q];
-    const int cell = cell_of(c);
+    const Eigen::Vector3f c = m * rays.direction[q].cast<float>();
+    // Cube-map cell (as cell_of, with one division).
+    const float ax = std::abs(c.x()), ay = std::abs(c.y()), az = std::abs(c.z());
+    int face;
+    float a, b, mx;
+    if (ax >= ay && ax >= az)
+      face = c.x() > 0 ? 0 : 1, mx = ax, a = c.y(), b = c.z();
+    else if (ay >= az)
+      face = c.y() > 0 ? 2 : 3, mx = ay, a = c.z(), b = c.x();
+    else
+      face = c.z() > 0 ? 4 : 5, mx = az, a = c.x(), b = c.y();
+    const float inv = half_cells / mx;
+    const int ci = std::min(last, static_cast<int>(a * inv + half_cells));
+    const int cj = std::min(last, static_cast<int>(b * inv + half_cells));
+    const int cell = (face * cells_ + ci) * cells_ + cj;
     const double v = pattern[q], w = rays.solid_angle[q], wv = w * v, wvv = wv * v, ww = w * w;
     for (uint32_t e = offsets_[cell]; e < offsets_[cell + 1]; ++e) {
       const uint16_t k = candidates_[e];
-      const double x = nx_[k] * c.x() + ny_[k] * c.y() + nz_[k] * c.z();
+      const float x = nx_[k] * c.x() + ny_[k] * c.y() + nz_[k] * c.z();
       // |x| ≤ sin(u_max θ_B) ≲ 0.1 here: asin x = x + x³/6 + O(x⁵) (error < 1e-6 rad).
-      const double b = (x + x * x * x * (1.0 / 6)) * inv_theta_[k] * scale + offset;
-      if (!(b >= 0 && b < bins_)) continue;
-      Acc& a = acc[static_cast<size_t>(plane_family_[k]) * bins_ + static_cast<int>(b)];
-      a.sum += wv, a.sum_sq += wvv, a.weight += w, a.weight_sq += ww, a.count += 1;
+      const float bf = (x + x * x * x * (1.0f / 6)) * inv_theta_[k] * scale + offset;
+      if (!(bf >= 0 && bf < bins_)) continue;
+      Acc& acc_bin = acc[static_cast<size_t>(plane_family_[k]) * bins_ + static_cast<int>(bf)];
+      acc_bin.sum += wv, acc_bin.sum_sq += wvv, acc_bin.weight += w, acc_bin.weight_sq += ww, acc_bin.count += 1;
     }
   }
   out.resize(families_.size());
