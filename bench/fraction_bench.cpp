@@ -82,7 +82,7 @@ int main(int argc, char** argv) {
   if (std::getenv("ORDERBAND_BENCH_DETAIL")) {
     std::map<int, std::array<double, 4>> by_grain;  // sum γ, n γ, sum γ′, n γ′
     for (size_t k = 0; k < grid.count(); ++k) {
-      if (fr.reason[k] || truth.values[k] > 0.02 && truth.values[k] < 0.98) continue;
+      if (fr.reason[k] || (truth.values[k] > 0.02 && truth.values[k] < 0.98)) continue;
       auto& a = by_grain[ori.grains.id[k]];
       if (truth.values[k] <= 0.02)
         a[0] += fr.raw[k], a[1] += 1;

@@ -89,7 +89,9 @@ TEST(BandProfile, UniformSphereGivesFlatProfiles) {
   for (const Rotation& g : random_rotations(400, 2)) {
     profiler.profile(uniform.data(), {}, rays, g, prof);
     for (int k = 0; k < profiler.bins(); ++k) {
-      if (prof[0].weight[k] > 0) EXPECT_NEAR(prof[0].mean(k), 3.0, 1e-6);
+      if (prof[0].weight[k] > 0) {
+        EXPECT_NEAR(prof[0].mean(k), 3.0, 1e-6);
+      }
       total[k] += prof[0].weight[k];
     }
   }

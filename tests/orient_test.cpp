@@ -107,8 +107,9 @@ TEST_F(OrientScan, CsvRoundTripsExactlyAndReadOrientationsAreRefined) {
   write_orientation_csv(b, grid, back);
   EXPECT_TRUE(a.str() == b.str());  // written, read and written again: the same text
   for (size_t k = 0; k < grid.count(); ++k)
-    if (t.orientations[k])
+    if (t.orientations[k]) {
       EXPECT_LT((back.orientations[k]->quaternion() - t.orientations[k]->quaternion()).norm(), 1e-11);
+    }
 
   // Orientations read from a CSV, each off by 1° about a random axis, come back refined.
   const auto axes = random_rotations(grid.count(), 5);

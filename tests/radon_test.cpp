@@ -47,7 +47,9 @@ TEST(FunkRadon, SphericalHarmonicsAreEigenfunctions) {
       max_err = std::max(max_err, std::abs(out[p] - expected_factor * maps[k][p]));
     }
     EXPECT_LT(max_err / max_y, 1e-3) << "l = " << kModes[k].l << ", m = " << kModes[k].m;
-    if (kModes[k].l % 2) EXPECT_NEAR(expected_factor, 0.0, 1e-15);
+    if (kModes[k].l % 2) {
+      EXPECT_NEAR(expected_factor, 0.0, 1e-15);
+    }
   }
 }
 

@@ -109,8 +109,8 @@ double DetectorGeometry::angular_height_rad() const {
 double DetectorGeometry::max_angle_from_pc_rad() const {
   const DetectorDirection pc(Eigen::Vector3d(0, 0, -1));
   double best = 0;
-  for (const PixelPoint corner : {PixelPoint{0, 0}, PixelPoint{double(width()), 0}, PixelPoint{0, double(height())},
-                                  PixelPoint{double(width()), double(height())}})
+  for (const PixelPoint& corner : {PixelPoint{0, 0}, PixelPoint{double(width()), 0}, PixelPoint{0, double(height())},
+                                   PixelPoint{double(width()), double(height())}})
     best = std::max(best, std::acos(std::clamp(direction_detector(corner).dot(pc), -1.0, 1.0)));
   return best;
 }

@@ -57,8 +57,8 @@ PatternRenderer::PatternRenderer(const DetectorGeometry& geometry, const Kinemat
   // Smooth background: brightest a little above the pattern centre, quadratic falloff.
   const Eigen::Vector2d centre(geometry.spec().pc_px.x(), geometry.spec().pc_px.y() - 0.1 * height_);
   double r_max = 0;
-  for (const Eigen::Vector2d corner : {Eigen::Vector2d(0, 0), Eigen::Vector2d(width_, 0), Eigen::Vector2d(0, height_),
-                                       Eigen::Vector2d(width_, height_)})
+  for (const Eigen::Vector2d& corner : {Eigen::Vector2d(0, 0), Eigen::Vector2d(width_, 0), Eigen::Vector2d(0, height_),
+                                        Eigen::Vector2d(width_, height_)})
     r_max = std::max(r_max, (corner - centre).norm());
   background_.resize(static_cast<size_t>(width_) * height_);
   double sum = 0;
