@@ -22,7 +22,9 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
       ->expected(2);
   sub.add_option("--grain-threshold", o.grain_threshold, "misorientation that separates grains (deg)")
       ->capture_default_str();
-  sub.add_option("--end-members", o.end_members, "model, mixture (rescale to the scan's two modes) or regions")
+  sub.add_option("--end-members", o.end_members,
+                 "model, or mixture (rescale to the scan's two modes); reference regions come from the scan's "
+                 "[fraction] table")
       ->check(CLI::IsMember({"model", "mixture"}))
       ->capture_default_str();
   sub.add_flag("--no-master-spheres", o.no_master_spheres, "skip the master-sphere pass and images");
