@@ -16,6 +16,7 @@
 #include "orderband/kinetics.hpp"
 #include "orderband/svg_plot.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/text_file.hpp"
 #include "orderband/trials.hpp"
 #include "orderband/version.hpp"
 #include "progress.hpp"
@@ -25,13 +26,6 @@ namespace fs = std::filesystem;
 
 namespace orderband::cli {
 namespace {
-
-std::string slurp(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
 
 std::string fmt(const char* f, double v) {
   char b[64];
@@ -48,7 +42,7 @@ std::string cache_root() {
 
 /// A scenario's synthetic scan in the cache, made if absent (keyed by the scenario text and the version).
 std::string cached_scan(const std::string& scenario, bool quiet) {
-  const std::string key = text_hash_fnv1a64(std::string(kVersion) + "|" + slurp(scenario));
+  const std::string key = text_hash_fnv1a64(std::string(kVersion) + "|" + read_text_file(scenario, "scenario"));
   const std::string dir = cache_root() + "/scans/" + fs::path(scenario).stem().string() + "-" + key;
   if (fs::exists(dir + "/scan.toml") && fs::exists(dir + "/truth.json")) return dir + "/scan.toml";
   const SynthScenario s = read_synth_scenario(scenario);
@@ -74,7 +68,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     const std::string folder = out + "/" + t.label;
     const std::string key = map_key(config, run);
     const std::string key_file = folder + "/run_key.txt";
-    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") && slurp(key_file) == key + "\n";
+    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
+                       read_text_file(key_file, "run key") == key + "\n";
     if (reuse) {
       log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
       if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
@@ -85,7 +80,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       log << "trial " << t.label << ": computed (key " << key << ")\n";
       outcome.computed.push_back(t.label);
     }
-    summaries.push_back(nlohmann::json::parse(slurp(folder + "/summary.json")));
+    summaries.push_back(nlohmann::json::parse(read_text_file(folder + "/summary.json", "trial summary")));
   }
   write_text_atomically(out + "/screen_log.txt", log.str());
 

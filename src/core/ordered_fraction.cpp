@@ -12,6 +12,7 @@
 #include "orderband/pair_catalog.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/units.hpp"
+#include "row_loop.hpp"
 
 namespace orderband {
 
@@ -416,152 +417,144 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   r.reason.assign(n, static_cast<uint8_t>(FractionReason::ok));
   std::vector<double> sep_num(nf, 0.0), sep_den(nf, 0.0);
 
-  PreprocessedRows rows(*source, grid, pre);
-  std::vector<float> patterns;
-  std::vector<uint8_t> usable;
   const size_t px = source->pixels();
-  int row = 0;
-  std::vector<uint8_t> saved;
-  while (rows.next(patterns, usable)) {
-    if (store && store->load("fraction", row, saved)) {
-      ByteReader in(saved);
-      for (int col = 0; col < grid.cols; ++col) {
-        const size_t k = grid.index({row, col});
-        r.reason[k] = in.get<uint8_t>();
-        r.raw[k] = in.get<float>();
-        r.uncertainty[k] = in.get<float>();
-        r.band_contrast[k] = in.get<float>();
-      }
-      for (size_t f = 0; f < nf; ++f) sep_num[f] += in.get<double>(), sep_den[f] += in.get<double>();
-      ++row;
-      if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
-      continue;
-    }
-    std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);
-    // Per-point contributions, summed afterwards in column order: the same sums for any thread count.
-    std::vector<double> point_num(static_cast<size_t>(grid.cols) * nf, 0.0), point_den(point_num.size(), 0.0);
+  PreprocessedRows rows(*source, grid, pre);
+  std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);  // this row's family separations
+  for_each_scan_row(
+      rows, grid, store, "fraction", progress,
+      [&](int row, ByteReader& in) {
+        for (int col = 0; col < grid.cols; ++col) {
+          const size_t k = grid.index({row, col});
+          r.reason[k] = in.get<uint8_t>();
+          r.raw[k] = in.get<float>();
+          r.uncertainty[k] = in.get<float>();
+          r.band_contrast[k] = in.get<float>();
+        }
+        for (size_t f = 0; f < nf; ++f) sep_num[f] += in.get<double>(), sep_den[f] += in.get<double>();
+      },
+      [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
+        std::fill(row_num.begin(), row_num.end(), 0.0), std::fill(row_den.begin(), row_den.end(), 0.0);
+        // Per-point contributions, summed afterwards in column order: the same sums for any thread count.
+        std::vector<double> point_num(static_cast<size_t>(grid.cols) * nf, 0.0), point_den(point_num.size(), 0.0);
 #pragma omp parallel
-    {
-      std::vector<FamilyProfile> prof;
+        {
+          std::vector<FamilyProfile> prof;
 #pragma omp for schedule(dynamic)
-      for (int col = 0; col < grid.cols; ++col) {
-        double* local_num = point_num.data() + static_cast<size_t>(col) * nf;
-        double* local_den = point_den.data() + static_cast<size_t>(col) * nf;
-        const size_t k = grid.index({row, col});
-        if (!usable[col]) {
-          r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
-          continue;
-        }
-        const int g = ori.grains.id[k];
-        if (!ori.orientation[k] || g <= 0) {
-          r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
-          continue;
-        }
-        const Reference& ref = refs[g];
-        const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
-        profiler.profile(pattern, pre.mask(), rays, correction[g] * *ori.orientation[k], prof);
-        // Pixel noise of this pattern from differences of horizontal neighbours inside the mask
-        // (bands vary little from one pixel to the next): σ = 1.4826 · MAD / √2.
-        std::vector<float> diffs;
-        diffs.reserve(px);
-        for (size_t q = 0; q + 1 < px; ++q)
-          if ((q + 1) % source->width() && pre.mask()[q] && pre.mask()[q + 1])
-            diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
-        std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
-        const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
-        const WindowSignals w = window_signals(profiler, prof, spec.windows);
-        const double c = contrast(w, fundamental_weight, first_fundamental);
-        r.band_contrast[k] = static_cast<float>(c);
-        if (spec.estimator == FractionEstimator::windows && (!(c > 0) || !(ref.denominator > 0))) {
-          r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
-          continue;
-        }
-        double num = 0, var = 0;
-        if (spec.estimator == FractionEstimator::windows) {
-          for (size_t f = 0; f < first_fundamental; ++f) {
-            if (ref.a[f] == 0) continue;
-            const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
-            num += ref.a[f] * (rf - ref.r0[f]);
-            var += ref.a[f] * ref.a[f] * vf;
-            local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
-            local_den[f] += std::sqrt(vf);
-          }
-          r.raw[k] = static_cast<float>(num / ref.denominator);
-          r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
-        } else {
-          // Pattern quality q: the point's fundamental profiles regressed on the disordered model's
-          // (all bins of the strongest fundamental families: many pixels, so q is precise and the
-          // ratio below carries no noticeable bias).
-          double sxy = 0, sxx = 0;
-          for (size_t f = first_fundamental; f < nf; ++f)
-            for (int b = 0; b < profiler.bins(); ++b) {
-              const int pixels = ref.profile0[f].count[b];
-              if (!pixels || prof[f].weight[b] <= 0) continue;
-              sxy += pixels * prof[f].mean(b) * ref.profile0[f].mean(b);
-              sxx += pixels * ref.profile0[f].mean(b) * ref.profile0[f].mean(b);
+          for (int col = 0; col < grid.cols; ++col) {
+            double* local_num = point_num.data() + static_cast<size_t>(col) * nf;
+            double* local_den = point_den.data() + static_cast<size_t>(col) * nf;
+            const size_t k = grid.index({row, col});
+            if (!usable[col]) {
+              r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
+              continue;
             }
-          const double q = sxx > 0 ? sxy / sxx : 0.0;
-          r.band_contrast[k] = static_cast<float>(q);
-          if (!(q > 0.05)) {
-            r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
-            continue;
-          }
-          // Matched weights per bin: W = Δ / (noise variance + systematic variance), the latter
-          // from the reference's slope times the orientation uncertainty in units of θ_B.
-          double D = 0, wy = 0;
-          for (size_t f = 0; f < first_fundamental; ++f) {
-            const FamilyProfile& p = prof[f];
-            const double du = spec.orientation_uncertainty_rad / pf[f].theta_b;
-            double fam_num = 0, fam_var = 0, fam_sig = 0;
-            for (int b = 0; b < profiler.bins(); ++b) {
-              if (ref.w[f][b] == 0 || p.weight[b] <= 0) continue;
-              const double x = p.mean(b) / q;
-              const double n_eff = p.weight[b] * p.weight[b] / std::max(p.weight_sq[b], 1e-300);
-              const double vb = pixel_sd * pixel_sd / n_eff / (q * q);
-              const double vs = std::pow(ref.slope[f][b] * du, 2);
-              const double delta = ref.m1[f][b] - ref.m0[f][b];
-              const double wb = delta / (vb + vs);
-              fam_num += wb * (x - ref.m0[f][b]);
-              fam_var += wb * wb * vb;
-              fam_sig += wb * delta;
-              wy += wb * x;
+            const int g = ori.grains.id[k];
+            if (!ori.orientation[k] || g <= 0) {
+              r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
+              continue;
             }
-            num += fam_num, var += fam_var, D += fam_sig;
-            if (fam_var > 0) local_num[f] += fam_sig / std::sqrt(fam_var), local_den[f] += 1;
+            const Reference& ref = refs[g];
+            const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
+            profiler.profile(pattern, pre.mask(), rays, correction[g] * *ori.orientation[k], prof);
+            double num = 0, var = 0;
+            if (spec.estimator == FractionEstimator::windows) {
+              // Off-peak windows only: interior minus flanks per family, over the fundamental contrast.
+              const WindowSignals w = window_signals(profiler, prof, spec.windows);
+              const double c = contrast(w, fundamental_weight, first_fundamental);
+              r.band_contrast[k] = static_cast<float>(c);
+              if (!(c > 0) || !(ref.denominator > 0)) {
+                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+                continue;
+              }
+              for (size_t f = 0; f < first_fundamental; ++f) {
+                if (ref.a[f] == 0) continue;
+                const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
+                num += ref.a[f] * (rf - ref.r0[f]);
+                var += ref.a[f] * ref.a[f] * vf;
+                local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
+                local_den[f] += std::sqrt(vf);
+              }
+              r.raw[k] = static_cast<float>(num / ref.denominator);
+              r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
+            } else {
+              // Pixel noise of this pattern from differences of horizontal neighbours inside the mask
+              // (bands vary little from one pixel to the next): σ = 1.4826 · MAD / √2.
+              std::vector<float> diffs;
+              diffs.reserve(px);
+              for (size_t q = 0; q + 1 < px; ++q)
+                if ((q + 1) % source->width() && pre.mask()[q] && pre.mask()[q + 1])
+                  diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
+              std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
+              const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
+              // Pattern quality q: the point's fundamental profiles regressed on the disordered model's
+              // (all bins of the strongest fundamental families: many pixels, so q is precise and the
+              // ratio below carries no noticeable bias).
+              double sxy = 0, sxx = 0;
+              for (size_t f = first_fundamental; f < nf; ++f)
+                for (int b = 0; b < profiler.bins(); ++b) {
+                  const int pixels = ref.profile0[f].count[b];
+                  if (!pixels || prof[f].weight[b] <= 0) continue;
+                  sxy += pixels * prof[f].mean(b) * ref.profile0[f].mean(b);
+                  sxx += pixels * ref.profile0[f].mean(b) * ref.profile0[f].mean(b);
+                }
+              const double q = sxx > 0 ? sxy / sxx : 0.0;
+              r.band_contrast[k] = static_cast<float>(q);
+              if (!(q > 0.05)) {
+                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+                continue;
+              }
+              // Matched weights per bin: W = Δ / (noise variance + systematic variance), the latter
+              // from the reference's slope times the orientation uncertainty in units of θ_B.
+              double D = 0, wy = 0;
+              for (size_t f = 0; f < first_fundamental; ++f) {
+                const FamilyProfile& p = prof[f];
+                const double du = spec.orientation_uncertainty_rad / pf[f].theta_b;
+                double fam_num = 0, fam_var = 0, fam_sig = 0;
+                for (int b = 0; b < profiler.bins(); ++b) {
+                  if (ref.w[f][b] == 0 || p.weight[b] <= 0) continue;
+                  const double x = p.mean(b) / q;
+                  const double n_eff = p.weight[b] * p.weight[b] / std::max(p.weight_sq[b], 1e-300);
+                  const double vb = pixel_sd * pixel_sd / n_eff / (q * q);
+                  const double vs = std::pow(ref.slope[f][b] * du, 2);
+                  const double delta = ref.m1[f][b] - ref.m0[f][b];
+                  const double wb = delta / (vb + vs);
+                  fam_num += wb * (x - ref.m0[f][b]);
+                  fam_var += wb * wb * vb;
+                  fam_sig += wb * delta;
+                  wy += wb * x;
+                }
+                num += fam_num, var += fam_var, D += fam_sig;
+                if (fam_var > 0) local_num[f] += fam_sig / std::sqrt(fam_var), local_den[f] += 1;
+              }
+              if (!(D > 0)) {
+                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+                continue;
+              }
+              // A mixture's fundamental bands are (1 − f + f q1) times the disordered model's, so
+              // y (1 − f + f q1) = (1 − f) m0 + f m1 in every bin; summed with the weights:
+              // f = Σ W (y − m0) / Σ W [(m1 − m0) − (q1 − 1) y]  (= Σ W (y − m0) / Σ W Δ for q1 = 1).
+              const double denom = D - (ref.q1 - 1) * wy;
+              r.raw[k] = static_cast<float>(num / denom);
+              r.uncertainty[k] = static_cast<float>(std::sqrt(var) / std::abs(denom));
+            }
           }
-          if (!(D > 0)) {
-            r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
-            continue;
-          }
-          // A mixture's fundamental bands are (1 − f + f q1) times the disordered model's, so
-          // y (1 − f + f q1) = (1 − f) m0 + f m1 in every bin; summed with the weights:
-          // f = Σ W (y − m0) / Σ W [(m1 − m0) − (q1 − 1) y]  (= Σ W (y − m0) / Σ W Δ for q1 = 1).
-          const double denom = D - (ref.q1 - 1) * wy;
-          r.raw[k] = static_cast<float>(num / denom);
-          r.uncertainty[k] = static_cast<float>(std::sqrt(var) / std::abs(denom));
         }
-      }
-    }
-    for (int col = 0; col < grid.cols; ++col)
-      for (size_t f = 0; f < nf; ++f)
-        row_num[f] += point_num[static_cast<size_t>(col) * nf + f],
-            row_den[f] += point_den[static_cast<size_t>(col) * nf + f];
-    for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
-    if (store) {
-      ByteWriter out;
-      for (int col = 0; col < grid.cols; ++col) {
-        const size_t k = grid.index({row, col});
-        out.put<uint8_t>(r.reason[k]);
-        out.put<float>(r.raw[k]);
-        out.put<float>(r.uncertainty[k]);
-        out.put<float>(r.band_contrast[k]);
-      }
-      for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
-      store->save("fraction", row, out.bytes);
-    }
-    ++row;
-    if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
-  }
+        for (int col = 0; col < grid.cols; ++col)
+          for (size_t f = 0; f < nf; ++f)
+            row_num[f] += point_num[static_cast<size_t>(col) * nf + f],
+                row_den[f] += point_den[static_cast<size_t>(col) * nf + f];
+        for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
+      },
+      [&](int row, ByteWriter& out) {
+        for (int col = 0; col < grid.cols; ++col) {
+          const size_t k = grid.index({row, col});
+          out.put<uint8_t>(r.reason[k]);
+          out.put<float>(r.raw[k]);
+          out.put<float>(r.uncertainty[k]);
+          out.put<float>(r.band_contrast[k]);
+        }
+        for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
+      });
 
   // End members from the scan: a two-component mixture of the raw estimates.
   std::vector<double> values;

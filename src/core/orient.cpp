@@ -10,6 +10,7 @@
 #include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/units.hpp"
+#include "row_loop.hpp"
 
 namespace orderband {
 
@@ -74,93 +75,83 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
   r.fit_residual_deg.assign(n, std::nanf(""));
   r.correlation.assign(n, std::nanf(""));
 
-  PreprocessedRows rows(*source, grid, pre);
-  std::vector<float> patterns;
-  std::vector<uint8_t> usable;
   const size_t px = source->pixels();
-  int row = 0;
-  std::vector<uint8_t> saved;
-  while (rows.next(patterns, usable)) {
-    if (store && store->load("orient", row, saved)) {
-      ByteReader in(saved);
-      for (int col = 0; col < grid.cols; ++col) {
-        const size_t k = grid.index({row, col});
-        r.status[k] = in.get<uint8_t>();
-        if (in.get<uint8_t>()) {
-          double q[4];
-          for (double& v : q) v = in.get<double>();
-          r.orientation[k] = Rotation::from_quaternion(q[0], q[1], q[2], q[3]);
+  PreprocessedRows rows(*source, grid, pre);
+  for_each_scan_row(
+      rows, grid, store, "orient", progress,
+      [&](int row, ByteReader& in) {
+        for (int col = 0; col < grid.cols; ++col) {
+          const size_t k = grid.index({row, col});
+          r.status[k] = in.get<uint8_t>();
+          if (in.get<uint8_t>()) {
+            double q[4];
+            for (double& v : q) v = in.get<double>();
+            r.orientation[k] = Rotation::from_quaternion(q[0], q[1], q[2], q[3]);
+          }
+          r.bands_matched[k] = in.get<int16_t>();
+          r.fit_residual_deg[k] = in.get<float>();
+          r.correlation[k] = in.get<float>();
         }
-        r.bands_matched[k] = in.get<int16_t>();
-        r.fit_residual_deg[k] = in.get<float>();
-        r.correlation[k] = in.get<float>();
-      }
-      ++row;
-      if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
-      continue;
-    }
+      },
+      [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
 #pragma omp parallel for schedule(dynamic)
-    for (int col = 0; col < grid.cols; ++col) {
-      const size_t k = grid.index({row, col});
-      const float* p = patterns.data() + static_cast<size_t>(col) * px;
-      if (!usable[col]) {
-        r.status[k] = static_cast<uint8_t>(PointStatus::unusable_pattern);
-        continue;
-      }
-      std::optional<Rotation> start;
-      if (given) {
-        start = given->orientations[k];
-        if (!start) {
-          r.status[k] = static_cast<uint8_t>(PointStatus::missing_in_file);
-          continue;
+        for (int col = 0; col < grid.cols; ++col) {
+          const size_t k = grid.index({row, col});
+          const float* p = patterns.data() + static_cast<size_t>(col) * px;
+          if (!usable[col]) {
+            r.status[k] = static_cast<uint8_t>(PointStatus::unusable_pattern);
+            continue;
+          }
+          std::optional<Rotation> start;
+          if (given) {
+            start = given->orientations[k];
+            if (!start) {
+              r.status[k] = static_cast<uint8_t>(PointStatus::missing_in_file);
+              continue;
+            }
+          } else {
+            // The best-voted distinct solutions compete by how well the model matches the pattern.
+            const auto found = indexer.candidates(detector.detect(p), spec.candidates);
+            if (found.empty()) {
+              r.status[k] = static_cast<uint8_t>(PointStatus::too_few_bands);
+              continue;
+            }
+            size_t best = 0;
+            double best_r = -2;
+            for (size_t c = 0; c < found.size(); ++c) {
+              const double corr = refiner.correlation(p, found[c].orientation, true);
+              if (corr > best_r) best_r = corr, best = c;
+            }
+            start = found[best].orientation;
+            r.bands_matched[k] = static_cast<int16_t>(found[best].bands_matched);
+            r.fit_residual_deg[k] = static_cast<float>(found[best].fit_residual_deg);
+          }
+          if (config.orientations.refine) {
+            const RefineResult fit = refiner.refine(p, *start);
+            r.correlation[k] = static_cast<float>(fit.correlation);
+            if (fit.correlation < spec.min_correlation) {
+              r.status[k] = static_cast<uint8_t>(PointStatus::fit_failed);
+              continue;
+            }
+            start = symmetry.reduce(fit.orientation);
+          } else {
+            r.correlation[k] = static_cast<float>(refiner.correlation(p, *start));
+          }
+          r.orientation[k] = *start;
         }
-      } else {
-        // The best-voted distinct solutions compete by how well the model matches the pattern.
-        const auto found = indexer.candidates(detector.detect(p), spec.candidates);
-        if (found.empty()) {
-          r.status[k] = static_cast<uint8_t>(PointStatus::too_few_bands);
-          continue;
+      },
+      [&](int row, ByteWriter& out) {
+        for (int col = 0; col < grid.cols; ++col) {
+          const size_t k = grid.index({row, col});
+          out.put<uint8_t>(r.status[k]);
+          out.put<uint8_t>(r.orientation[k] ? 1 : 0);
+          if (r.orientation[k])
+            for (int i = 0; i < 4; ++i) out.put<double>(r.orientation[k]->quaternion()[i]);
+          out.put<int16_t>(r.bands_matched[k]);
+          out.put<float>(r.fit_residual_deg[k]);
+          out.put<float>(r.correlation[k]);
         }
-        size_t best = 0;
-        double best_r = -2;
-        for (size_t c = 0; c < found.size(); ++c) {
-          const double corr = refiner.correlation(p, found[c].orientation, true);
-          if (corr > best_r) best_r = corr, best = c;
-        }
-        start = found[best].orientation;
-        r.bands_matched[k] = static_cast<int16_t>(found[best].bands_matched);
-        r.fit_residual_deg[k] = static_cast<float>(found[best].fit_residual_deg);
-      }
-      if (config.orientations.refine) {
-        const RefineResult fit = refiner.refine(p, *start);
-        r.correlation[k] = static_cast<float>(fit.correlation);
-        if (fit.correlation < spec.min_correlation) {
-          r.status[k] = static_cast<uint8_t>(PointStatus::fit_failed);
-          continue;
-        }
-        start = symmetry.reduce(fit.orientation);
-      } else {
-        r.correlation[k] = static_cast<float>(refiner.correlation(p, *start));
-      }
-      r.orientation[k] = *start;
-    }
-    if (store) {
-      ByteWriter out;
-      for (int col = 0; col < grid.cols; ++col) {
-        const size_t k = grid.index({row, col});
-        out.put<uint8_t>(r.status[k]);
-        out.put<uint8_t>(r.orientation[k] ? 1 : 0);
-        if (r.orientation[k])
-          for (int i = 0; i < 4; ++i) out.put<double>(r.orientation[k]->quaternion()[i]);
-        out.put<int16_t>(r.bands_matched[k]);
-        out.put<float>(r.fit_residual_deg[k]);
-        out.put<float>(r.correlation[k]);
-      }
-      store->save("orient", row, out.bytes);
-    }
-    ++row;
-    if (progress) progress(static_cast<size_t>(row) * grid.cols, n);
-  }
+      });
   // Neighbour check: a point that disagrees with most of its neighbours while they agree with
   // each other is refined again from their orientation, and takes it if the model then fits
   // its pattern better (an isolated wrong solution of the indexing).

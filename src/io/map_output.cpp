@@ -16,6 +16,7 @@
 #include "orderband/orientation_csv.hpp"
 #include "orderband/row_store.hpp"
 #include "orderband/svg_plot.hpp"
+#include "orderband/text_file.hpp"
 #include "orderband/units.hpp"
 #include "orderband/version.hpp"
 
@@ -44,13 +45,6 @@ std::string base64(const std::string& bytes) {
     out += t[v >> 18], out += t[(v >> 12) & 63], out += t[(v >> 6) & 63], out += '=';
   }
   return out;
-}
-
-std::string slurp(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
 }
 
 std::string fmt(const char* f, double v) {
@@ -403,8 +397,8 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
 
   // Report: one self-contained page.
   auto img = [&](const std::string& file, const std::string& alt) {
-    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," + base64(slurp(folder + "/" + file)) +
-           "\">";
+    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," +
+           base64(read_text_file(folder + "/" + file, "image")) + "\">";
   };
   std::ostringstream h;
   h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>orderband report: "

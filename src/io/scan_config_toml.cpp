@@ -218,14 +218,6 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   return c;
 }
 
-std::string read_text_file(const std::string& path, const std::string& what) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) fail("cannot read ", what, " '", path, "' (missing or unreadable)");
-  std::ostringstream text;
-  text << in.rdbuf();
-  return text.str();
-}
-
 ScanConfig read_scan_config(const std::string& path) {
   return parse_scan_config(read_text_file(path, "scan description"), path);
 }

@@ -8,6 +8,7 @@
 #include <string>
 
 #include "orderband/error.hpp"
+#include "orderband/text_file.hpp"
 
 namespace orderband {
 
@@ -87,8 +88,5 @@ inline toml::table parse_toml_or_fail(const std::string& text, const std::string
     fail(path, ":", e.source().begin.line, ": ", e.description());
   }
 }
-
-/// Reads a whole text file or fails naming it and what it is.
-std::string read_text_file(const std::string& path, const std::string& what);
 
 }  // namespace orderband

@@ -1,0 +1,19 @@
+// Whole-file reading.
+#include "orderband/text_file.hpp"
+
+#include <fstream>
+#include <sstream>
+
+#include "orderband/error.hpp"
+
+namespace orderband {
+
+std::string read_text_file(const std::string& path, const std::string& what) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) fail("cannot read ", what, " '", path, "' (missing or unreadable)");
+  std::ostringstream text;
+  text << in.rdbuf();
+  return text.str();
+}
+
+}  // namespace orderband
