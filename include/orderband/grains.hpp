@@ -34,4 +34,14 @@ std::vector<float> kernel_average_misorientation(const ScanGrid& grid,
                                                  const std::vector<std::optional<Rotation>>& orientations,
                                                  const GrainMap& grains, const CrystalSymmetry& symmetry);
 
+/// Kernel-mean orientations: per point, the mean of the orientations of the points of its own
+/// grain within `radius` steps (a (2r + 1)² window of rows and columns, the point included), each
+/// taken as its symmetric equivalent nearest the point's own. Averaging n points divides random
+/// orientation errors by about √n while following orientation gradients longer than the window.
+/// Points without a grain keep what they have.
+std::vector<std::optional<Rotation>> kernel_mean_orientations(const ScanGrid& grid,
+                                                              const std::vector<std::optional<Rotation>>& orientations,
+                                                              const GrainMap& grains, const CrystalSymmetry& symmetry,
+                                                              int radius);
+
 }  // namespace orderband

@@ -51,6 +51,12 @@ struct FractionSpec {
   /// Orientation uncertainty (radians) whose effect on the profiles down-weights the bins where
   /// the reference changes steeply (beside strong fundamental band edges).
   double orientation_uncertainty_rad = 0.1 * M_PI / 180;
+  /// Points whose kernel-mean orientation (over this many steps, grains.hpp) lies within
+  /// grain_reference_max_rad of their grain's orientation are measured against the grain's
+  /// reference and binned with the grain's orientation; the others get a reference of their own at
+  /// their kernel-mean orientation (slower: two model patterns per point).
+  int orientation_kernel_radius = 2;
+  double grain_reference_max_rad = 0.25 * M_PI / 180;
   int min_points_for_grain_fit = 10;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
 };

@@ -92,4 +92,30 @@ std::vector<float> kernel_average_misorientation(const ScanGrid& grid, const std
   return kam;
 }
 
+std::vector<std::optional<Rotation>> kernel_mean_orientations(const ScanGrid& grid,
+                                                              const std::vector<std::optional<Rotation>>& ori,
+                                                              const GrainMap& grains, const CrystalSymmetry& sym,
+                                                              int radius) {
+  std::vector<std::optional<Rotation>> out = ori;
+  if (radius <= 0) return out;
+#pragma omp parallel for schedule(static)
+  for (long k = 0; k < static_cast<long>(grid.count()); ++k) {
+    const int id = grains.id[k];
+    if (!id || !ori[k]) continue;
+    const GridPoint p = grid.point(k);
+    const Eigen::Vector4d own = ori[k]->hamilton().coeffs();
+    Eigen::Vector4d sum = Eigen::Vector4d::Zero();
+    for (int row = std::max(0, p.row - radius); row <= std::min(grid.rows - 1, p.row + radius); ++row)
+      for (int col = std::max(0, p.col - radius); col <= std::min(grid.cols - 1, p.col + radius); ++col) {
+        const size_t j = grid.index({row, col});
+        if (grains.id[j] != id || !ori[j]) continue;
+        Eigen::Vector4d c = sym.nearest_equivalent(*ori[j], *ori[k]).hamilton().coeffs();
+        if (c.dot(own) < 0) c = -c;
+        sum += c;
+      }
+    out[k] = Rotation::from_quaternion(sum[3], sum[0], sum[1], sum[2]);  // Eigen order (x, y, z, w)
+  }
+  return out;
+}
+
 }  // namespace orderband

@@ -9,6 +9,8 @@
 #include <Eigen/Dense>
 
 #include "orderband/error.hpp"
+#include "orderband/grains.hpp"
+#include "orderband/laue_group.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/units.hpp"
@@ -256,49 +258,50 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   const KinematicBandModel model_ordered(pair.ordered, config.kv, band_params),
       model_disordered(pair.disordered, config.kv, band_params);
   const PatternRenderer renderer(geometry, model_ordered, model_disordered, 1000.0, 0.0);
-  const int grains_n = ori.grains.count();
   // The model patterns meet the data's processing: they carry an estimate of the detector
-  // background B and are divided by the same kind of static background. With the scan mean as
-  // static background, the data are divided by smooth(B·Ī), Ī the scan's mean band pattern; the
-  // model's Ī is the grains' model patterns weighted by their share of the scan, and
-  // B ≈ S_data / smooth(Ī_model).
-  std::vector<std::vector<float>> grain_model(grains_n + 1);
+  // background B and are divided by the data's own static background S_data. The data are
+  // c·B·I / S_data, the model B̂·I_model / S_data, so where B̂ ≈ B both go through the same
+  // division, including the faint band structure that survives the smoothing of the scan mean
+  // (superlattice bands of the ordered share among them: a model-made static background would
+  // lack those and shift every point's estimate). With the scan mean as static background,
+  // S_data = smooth(B·Ī) with Ī the scan's mean band pattern, approximated by the grains' model
+  // patterns weighted by their share of the scan, and B̂ is fitted to that.
   std::vector<float> model_mean(source->pixels(), 0.0f);
-  double total = 0;
-  for (int g = 1; g <= grains_n; ++g) total += ori.grains.size[g - 1];
-#pragma omp parallel for schedule(dynamic)
-  for (int g = 1; g <= grains_n; ++g) {
-    grain_model[g].resize(source->pixels());
-    renderer.expected({{ori.grains.mean[g - 1], false, 1.0, 0}}, geometry, grain_model[g].data());
-  }
-  for (int g = 1; g <= grains_n; ++g)
-    for (size_t q = 0; q < model_mean.size(); ++q)
-      model_mean[q] += static_cast<float>(grain_model[g][q] * ori.grains.size[g - 1] / std::max(total, 1.0));
   const std::vector<float> data_static = pre.static_background();
-  std::vector<float> detector_background(source->pixels(), 1.0f), model_static;
+  std::vector<float> detector_background(source->pixels(), 1.0f);
   PreprocessSpec model_spec = config.preprocess;
   model_spec.hot_pixel_filter = false;
   if (!data_static.empty()) {
-    double sigma = 0;
     if (config.preprocess.static_background == StaticBackgroundKind::scan_mean) {
-      sigma = config.preprocess.static_background_sigma_px < 0 ? 0.1 * source->width()
-                                                               : config.preprocess.static_background_sigma_px;
+      const int grains_n = ori.grains.count();
+      std::vector<std::vector<float>> grain_model(grains_n + 1);
+      double total = 0;
+      for (int g = 1; g <= grains_n; ++g) total += ori.grains.size[g - 1];
+#pragma omp parallel for schedule(dynamic)
+      for (int g = 1; g <= grains_n; ++g) {
+        grain_model[g].resize(source->pixels());
+        renderer.expected({{ori.grains.mean[g - 1], false, 1.0, 0}}, geometry, grain_model[g].data());
+      }
+      for (int g = 1; g <= grains_n; ++g)
+        for (size_t q = 0; q < model_mean.size(); ++q)
+          model_mean[q] += static_cast<float>(grain_model[g][q] * ori.grains.size[g - 1] / std::max(total, 1.0));
+      const double sigma = config.preprocess.static_background_sigma_px < 0
+                               ? 0.1 * source->width()
+                               : config.preprocess.static_background_sigma_px;
       detector_background =
           fit_detector_background(data_static, model_mean, pre.mask(), source->width(), source->height(), sigma);
     } else {
       detector_background = data_static;  // a user's flat field is the detector background itself
     }
-    model_static.resize(model_mean.size());
-    for (size_t q = 0; q < model_static.size(); ++q) model_static[q] = model_mean[q] * detector_background[q];
-    if (sigma > 0)
-      GaussianBlur(source->width(), source->height(), sigma).apply(model_static.data(), model_static.data());
-    if (config.preprocess.static_background != StaticBackgroundKind::scan_mean) model_static = data_static;
     model_spec.static_background = StaticBackgroundKind::file;  // given directly below
   } else {
     model_spec.static_background = StaticBackgroundKind::none;
   }
-  const Preprocessor model_pre(model_spec, source->width(), source->height(), model_static);
+  const Preprocessor model_pre(model_spec, source->width(), source->height(), data_static);
   const int grains = ori.grains.count();
+  const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
+  const std::vector<std::optional<Rotation>> point_orientation =
+      kernel_mean_orientations(grid, ori.orientation, ori.grains, symmetry, spec.orientation_kernel_radius);
 
   // Grain orientations refined against the model processed exactly like the data: the mean
   // preprocessed pattern of each grain is matched (Nelder–Mead on a rotation vector, correlation
@@ -342,25 +345,26 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
           if (pre.mask()[q]) sxy += img[q] * mean[q], sxx += img[q] * img[q], syy += mean[q] * mean[q];
         return -sxy / std::sqrt(std::max(sxx * syy, 1e-300));
       };
-      const Eigen::Vector3d best = nelder_mead_3(cost, deg_to_rad(0.1), deg_to_rad(0.001), 150);
+      const Eigen::Vector3d best = nelder_mead_3(cost, deg_to_rad(0.1), deg_to_rad(0.0005), 600);
       if (best.norm() > 0) {
         correction[g] = Rotation::from_axis_angle(best, best.norm());
         grain_orientation[g] = correction[g] * start;
       }
     }
   }
-  std::vector<Reference> refs(grains + 1);
-#pragma omp parallel for schedule(dynamic)
-  for (int g = 1; g <= grains; ++g) {
-    Reference& ref = refs[g];
+  // The reference of both phases at an orientation, profiled with the same orientation: data and
+  // reference must share their binning (bins are much finer than a pixel, so a change of binning
+  // by a few thousandths of a degree moves pixels between bins and shifts the bin means).
+  auto build_reference = [&](const Rotation& orientation) {
+    Reference ref;
     std::vector<float> img(source->pixels());
     WindowSignals w[2];
     for (int phase = 0; phase < 2; ++phase) {
-      renderer.expected({{grain_orientation[g], phase == 1, 1.0, 0}}, geometry, img.data());
+      renderer.expected({{orientation, phase == 1, 1.0, 0}}, geometry, img.data());
       for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
       model_pre.apply(img.data());
       std::vector<FamilyProfile>& prof = phase ? ref.profile1 : ref.profile0;
-      profiler.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
+      profiler.profile(img.data(), pre.mask(), rays, orientation, prof);
       w[phase] = window_signals(profiler, prof, spec.windows);
     }
     const double c0 = contrast(w[0], fundamental_weight, first_fundamental);
@@ -407,7 +411,123 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         }
       ref.q1 = sxx > 0 ? sxy / sxx : 1.0;
     }
+    return ref;
+  };
+  std::vector<Reference> refs(grains + 1);
+#pragma omp parallel for schedule(dynamic)
+  for (int g = 1; g <= grains; ++g) refs[g] = build_reference(grain_orientation[g]);
+
+  // Grain boundaries: the pattern of each grain profiled in the frame of each grain it touches
+  // (8-neighbours), for the points whose beam sees both lattices.
+  auto neighbour_grain = [&](size_t k) {
+    std::map<int, int> votes;
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+      const int id = ori.grains.id[grid.index(nb)];
+      if (id > 0 && id != ori.grains.id[k]) votes[id] += 1;
+    }
+    int best = 0, best_votes = 0;
+    for (const auto& [id, v] : votes)
+      if (v > best_votes) best = id, best_votes = v;
+    return best;
+  };
+  std::map<std::pair<int, int>, std::vector<std::vector<double>>> cross_profiles;  // (frame grain, seen grain)
+  {
+    std::vector<std::vector<int>> touching(grains + 1);
+    for (size_t k = 0; k < n; ++k) {
+      const int g = ori.grains.id[k];
+      if (g <= 0) continue;
+      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+        const int other = ori.grains.id[grid.index(nb)];
+        if (other > 0 && other != g) touching[other].push_back(g);
+      }
+    }
+    std::vector<std::vector<std::pair<int, std::vector<std::vector<double>>>>> seen(grains + 1);
+#pragma omp parallel for schedule(dynamic)
+    for (int g2 = 1; g2 <= grains; ++g2) {
+      std::sort(touching[g2].begin(), touching[g2].end());
+      touching[g2].erase(std::unique(touching[g2].begin(), touching[g2].end()), touching[g2].end());
+      if (touching[g2].empty()) continue;
+      std::vector<float> img(source->pixels());
+      renderer.expected({{grain_orientation[g2], false, 1.0, 0}}, geometry, img.data());
+      for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
+      model_pre.apply(img.data());
+      std::vector<FamilyProfile> prof;
+      for (int g : touching[g2]) {
+        profiler.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
+        std::vector<std::vector<double>> means(nf, std::vector<double>(profiler.bins(), 0.0));
+        for (size_t f = 0; f < nf; ++f)
+          for (int b = 0; b < profiler.bins(); ++b) means[f][b] = prof[f].mean(b);
+        seen[g2].emplace_back(g, std::move(means));
+      }
+    }
+    for (int g2 = 1; g2 <= grains; ++g2)
+      for (auto& [g, means] : seen[g2]) cross_profiles[{g, g2}] = std::move(means);
   }
+
+  // The profile estimator at one point in one frame. The pattern quality q regresses the point's
+  // fundamental profiles on the disordered model's (with a second lattice's pattern `cross` beside
+  // it at a grain boundary, fitted jointly and taken out of every bin); then the matched filter over
+  // the superlattice bins with weights W = Δ / (noise variance + systematic variance), the latter
+  // from the reference's slope times the orientation uncertainty in units of θ_B.
+  struct PointFit {
+    bool ok = false;
+    double q = 0, f = 0, var = 0;
+  };
+  auto fit_point = [&](const std::vector<FamilyProfile>& prof, const Reference& ref,
+                       const std::vector<std::vector<double>>* cross, double pixel_sd, double* fam_num = nullptr,
+                       double* fam_den = nullptr) {
+    PointFit out;
+    // Fundamental bins: y = q m0 (+ c n2), least squares with the pixel counts as weights.
+    double smm = 0, smn = 0, snn = 0, sym = 0, syn = 0;
+    for (size_t f = first_fundamental; f < nf; ++f)
+      for (int b = 0; b < profiler.bins(); ++b) {
+        const int pixels = ref.profile0[f].count[b];
+        if (!pixels || prof[f].weight[b] <= 0) continue;
+        const double y = prof[f].mean(b), m0 = ref.profile0[f].mean(b), n2 = cross ? (*cross)[f][b] : 0.0;
+        smm += pixels * m0 * m0, smn += pixels * m0 * n2, snn += pixels * n2 * n2;
+        sym += pixels * y * m0, syn += pixels * y * n2;
+      }
+    double q = 0, c = 0;
+    const double det = smm * snn - smn * smn;
+    if (cross && det > 1e-9 * smm * snn) {
+      q = (sym * snn - syn * smn) / det;
+      c = (smm * syn - smn * sym) / det;
+    } else if (smm > 0) {
+      q = sym / smm;
+    }
+    out.q = q;
+    if (!(q > 0.05)) return out;
+    double num = 0, var = 0, D = 0, wy = 0;
+    for (size_t f = 0; f < first_fundamental; ++f) {
+      const FamilyProfile& p = prof[f];
+      const double du = spec.orientation_uncertainty_rad / pf[f].theta_b;
+      double f_num = 0, f_var = 0, f_sig = 0;
+      for (int b = 0; b < profiler.bins(); ++b) {
+        if (ref.w[f][b] == 0 || p.weight[b] <= 0) continue;
+        const double x = (p.mean(b) - (cross ? c * (*cross)[f][b] : 0.0)) / q;
+        const double n_eff = p.weight[b] * p.weight[b] / std::max(p.weight_sq[b], 1e-300);
+        const double vb = pixel_sd * pixel_sd / n_eff / (q * q);
+        const double vs = std::pow(ref.slope[f][b] * du, 2);
+        const double delta = ref.m1[f][b] - ref.m0[f][b];
+        const double wb = delta / (vb + vs);
+        f_num += wb * (x - ref.m0[f][b]);
+        f_var += wb * wb * vb;
+        f_sig += wb * delta;
+        wy += wb * x;
+      }
+      num += f_num, var += f_var, D += f_sig;
+      if (fam_num && f_var > 0) fam_num[f] += f_sig / std::sqrt(f_var), fam_den[f] += 1;
+    }
+    if (!(D > 0)) return out;
+    // A mixture's fundamental bands are (1 − f + f q1) times the disordered model's, so
+    // y (1 − f + f q1) = (1 − f) m0 + f m1 in every bin; summed with the weights:
+    // f = Σ W (y − m0) / Σ W [(m1 − m0) − (q1 − 1) y]  (= Σ W (y − m0) / Σ W Δ for q1 = 1).
+    const double denom = D - (ref.q1 - 1) * wy;
+    out.ok = true;
+    out.f = num / denom;
+    out.var = var / (denom * denom);
+    return out;
+  };
 
   FractionResults r;
   r.fraction.assign(n, std::nanf(""));
@@ -453,9 +573,15 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
               r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
               continue;
             }
-            const Reference& ref = refs[g];
+            // The grain's reference and binning, unless this point's orientation (kernel mean, corrected
+            // like its grain) is too far from the grain's for one reference to serve: then its own.
+            const Rotation point = correction[g] * *point_orientation[k];
+            const bool own = symmetry.misorientation_angle(point, grain_orientation[g]) > spec.grain_reference_max_rad;
+            Reference own_ref;
+            if (own) own_ref = build_reference(point);
+            const Reference& ref = own ? own_ref : refs[g];
             const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
-            profiler.profile(pattern, pre.mask(), rays, correction[g] * *ori.orientation[k], prof);
+            profiler.profile(pattern, pre.mask(), rays, own ? point : grain_orientation[g], prof);
             double num = 0, var = 0;
             if (spec.estimator == FractionEstimator::windows) {
               // Off-peak windows only: interior minus flanks per family, over the fundamental contrast.
@@ -486,56 +612,30 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
                   diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
               std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
               const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
-              // Pattern quality q: the point's fundamental profiles regressed on the disordered model's
-              // (all bins of the strongest fundamental families: many pixels, so q is precise and the
-              // ratio below carries no noticeable bias).
-              double sxy = 0, sxx = 0;
-              for (size_t f = first_fundamental; f < nf; ++f)
-                for (int b = 0; b < profiler.bins(); ++b) {
-                  const int pixels = ref.profile0[f].count[b];
-                  if (!pixels || prof[f].weight[b] <= 0) continue;
-                  sxy += pixels * prof[f].mean(b) * ref.profile0[f].mean(b);
-                  sxx += pixels * ref.profile0[f].mean(b) * ref.profile0[f].mean(b);
-                }
-              const double q = sxx > 0 ? sxy / sxx : 0.0;
-              r.band_contrast[k] = static_cast<float>(q);
-              if (!(q > 0.05)) {
+              // At a grain boundary the beam sees a second lattice: its pattern, profiled in this
+              // grain's frame, is fitted away, and the same is done in the other grain's frame.
+              const int other = own ? 0 : neighbour_grain(k);
+              const auto cross = other ? cross_profiles.find({g, other}) : cross_profiles.end();
+              const PointFit fit = fit_point(prof, ref, cross != cross_profiles.end() ? &cross->second : nullptr,
+                                             pixel_sd, local_num, local_den);
+              r.band_contrast[k] = static_cast<float>(fit.q);
+              if (!fit.ok) {
                 r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
                 continue;
               }
-              // Matched weights per bin: W = Δ / (noise variance + systematic variance), the latter
-              // from the reference's slope times the orientation uncertainty in units of θ_B.
-              double D = 0, wy = 0;
-              for (size_t f = 0; f < first_fundamental; ++f) {
-                const FamilyProfile& p = prof[f];
-                const double du = spec.orientation_uncertainty_rad / pf[f].theta_b;
-                double fam_num = 0, fam_var = 0, fam_sig = 0;
-                for (int b = 0; b < profiler.bins(); ++b) {
-                  if (ref.w[f][b] == 0 || p.weight[b] <= 0) continue;
-                  const double x = p.mean(b) / q;
-                  const double n_eff = p.weight[b] * p.weight[b] / std::max(p.weight_sq[b], 1e-300);
-                  const double vb = pixel_sd * pixel_sd / n_eff / (q * q);
-                  const double vs = std::pow(ref.slope[f][b] * du, 2);
-                  const double delta = ref.m1[f][b] - ref.m0[f][b];
-                  const double wb = delta / (vb + vs);
-                  fam_num += wb * (x - ref.m0[f][b]);
-                  fam_var += wb * wb * vb;
-                  fam_sig += wb * delta;
-                  wy += wb * x;
+              double f = fit.f, v = fit.var;
+              if (cross != cross_profiles.end()) {
+                profiler.profile(pattern, pre.mask(), rays, grain_orientation[other], prof);
+                const PointFit second = fit_point(prof, refs[other], &cross_profiles.at({other, g}), pixel_sd);
+                // Both patterns are standardised, so the two scale factors share the beam's volume.
+                const double a = std::max(fit.q, 0.0), b = second.ok ? std::max(second.q, 0.0) : 0.0;
+                if (a + b > 0) {
+                  f = (a * fit.f + b * (second.ok ? second.f : 0.0)) / (a + b);
+                  v = (a * a * fit.var + b * b * (second.ok ? second.var : 0.0)) / ((a + b) * (a + b));
                 }
-                num += fam_num, var += fam_var, D += fam_sig;
-                if (fam_var > 0) local_num[f] += fam_sig / std::sqrt(fam_var), local_den[f] += 1;
               }
-              if (!(D > 0)) {
-                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
-                continue;
-              }
-              // A mixture's fundamental bands are (1 − f + f q1) times the disordered model's, so
-              // y (1 − f + f q1) = (1 − f) m0 + f m1 in every bin; summed with the weights:
-              // f = Σ W (y − m0) / Σ W [(m1 − m0) − (q1 − 1) y]  (= Σ W (y − m0) / Σ W Δ for q1 = 1).
-              const double denom = D - (ref.q1 - 1) * wy;
-              r.raw[k] = static_cast<float>(num / denom);
-              r.uncertainty[k] = static_cast<float>(std::sqrt(var) / std::abs(denom));
+              r.raw[k] = static_cast<float>(f);
+              r.uncertainty[k] = static_cast<float>(std::sqrt(v));
             }
           }
         }
