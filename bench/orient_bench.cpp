@@ -64,9 +64,13 @@ int main(int argc, char** argv) {
     for (size_t k = 0; k < config.grid.count(); ++k) {
       if (!r.orientation[k]) continue;
       const double e = rad_to_deg(cubic.misorientation_angle(*r.orientation[k], *truth.orientations[k]));
-      if (e > 2)
-        std::printf("  point %zu: error %.1f deg, bands %d, residual %.2f, r %.3f\n", k, e, r.bands_matched[k],
-                    r.fit_residual_deg[k], r.correlation[k]);
+      if (e > 2) {
+        const Rotation m = cubic.misorientation(*truth.orientations[k], *r.orientation[k]);
+        Eigen::Vector3d a = m.axis().cwiseAbs();
+        std::sort(a.data(), a.data() + 3, std::greater<double>());
+        std::printf("  point %zu: error %.1f deg about <%.2f %.2f %.2f>, bands %d, residual %.2f, r %.3f\n", k, e, a[0],
+                    a[1], a[2], r.bands_matched[k], r.fit_residual_deg[k], r.correlation[k]);
+      }
     }
   }
   if (!std::getenv("ORDERBAND_BENCH_KEEP")) std::filesystem::remove_all(dir);

@@ -40,8 +40,8 @@ int main(int argc, char** argv) {
   std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
                                  << "\nstep_um = 0.025\n[detector]\nwidth_px = " << px << "\nheight_px = " << px
                                  << "\npc_px = [" << px / 2.0 << ", " << 0.3 * px << "]\ndistance_px = " << 0.75 * px
-                                 << "\n[phases]\npair = \"" << pair << "\"\n[patterns]\nbackground_falloff = "
-                                 << env_or("ORDERBAND_BENCH_FALLOFF", "0.5")
+                                 << "\n[phases]\npair = \"" << pair
+                                 << "\"\n[patterns]\nbackground_falloff = " << env_or("ORDERBAND_BENCH_FALLOFF", "0.5")
                                  << "\nbeam_sigma_nm = " << env_or("ORDERBAND_BENCH_BEAM", "10")
                                  << "\ncounts_per_px = " << counts << "\n[grains]\ncount = " << grains << "\n"
                                  << (primary > 0 ? "[primary]\narea_fraction = " + std::to_string(primary) +
@@ -103,9 +103,10 @@ int main(int argc, char** argv) {
                 a[3]);
     if (g < grains) worst = std::max(worst, std::abs(a[0] / a[1]));
   }
-  std::printf("%s pair, %d grains, %.0f counts/px: largest |mean f| of a pure-gamma grain %.4f; fraction stage %.0f "
-              "points/s\n",
-              pair.c_str(), grains, counts, worst, grid.count() / sec);
+  std::printf(
+      "%s pair, %d grains, %.0f counts/px: largest |mean f| of a pure-gamma grain %.4f; fraction stage %.0f "
+      "points/s\n",
+      pair.c_str(), grains, counts, worst, grid.count() / sec);
   std::filesystem::remove_all(dir);
   return 0;
 }

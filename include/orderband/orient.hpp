@@ -33,6 +33,11 @@ struct OrientSpec {
   GrainSpec grains;
   double min_correlation = 0.15;  ///< refined model–pattern correlation below this: fit failed
   int candidates = 12;            ///< best-voted solutions compared by model correlation
+  /// Grain-level check for pseudo-symmetric solutions: points sampled per grain, candidates
+  /// refined per sample, and the gain in model correlation that counts as a better fit.
+  int pseudo_symmetry_samples = 8;
+  int pseudo_symmetry_candidates = 4;
+  double pseudo_symmetry_gain = 0.05;
 };
 
 struct OrientationResults {

@@ -194,6 +194,80 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
     }
   }
   r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
+  // Pseudo-symmetric grains: a whole grain can take a solution that fits its patterns well but
+  // not best (e.g. 60° about <111> for a body-centred cubic parent), when the true solution came
+  // out of the indexing a degree or two off and trailed before refinement. A few points per grain
+  // refine their best candidates; if most of them find a clearly better fit elsewhere, the grain is
+  // mapped by that crystal-frame operator S and every point is refined from S·g.
+  if (!given && config.orientations.refine && spec.pseudo_symmetry_samples > 0) {
+    bool changed = false;
+    std::vector<std::vector<size_t>> members(r.grains.count() + 1);
+    for (size_t k = 0; k < n; ++k)
+      if (r.grains.id[k] > 0) members[r.grains.id[k]].push_back(k);
+    std::vector<float> pat(px);
+    for (int g = 1; g <= r.grains.count(); ++g) {
+      const std::vector<size_t>& pts = members[g];
+      const size_t samples = std::min<size_t>(pts.size(), spec.pseudo_symmetry_samples);
+      if (samples == 0) continue;
+      int better = 0;
+      std::optional<Rotation> op;  // S = g_better · g_current⁻¹, from the sample that gains most
+      double best_gain = 0;
+      for (size_t i = 0; i < samples; ++i) {
+        const size_t k = pts[i * pts.size() / samples];
+        source->read(k, 1, pat.data());
+        if (!pre.apply(pat.data())) continue;
+        const auto found = indexer.candidates(detector.detect(pat.data()), spec.candidates);
+        std::vector<std::pair<double, size_t>> ranked;
+        for (size_t c = 0; c < found.size(); ++c)
+          ranked.emplace_back(refiner.correlation(pat.data(), found[c].orientation, true), c);
+        std::sort(ranked.begin(), ranked.end(), std::greater<>());
+        for (size_t j = 0; j < ranked.size() && j < static_cast<size_t>(spec.pseudo_symmetry_candidates); ++j) {
+          const RefineResult fit = refiner.refine(pat.data(), found[ranked[j].second].orientation);
+          const double gain = fit.correlation - r.correlation[k];
+          if (gain < spec.pseudo_symmetry_gain ||
+              symmetry.misorientation_angle(fit.orientation, *r.orientation[k]) < threshold)
+            continue;
+          ++better;
+          if (gain > best_gain) best_gain = gain, op = fit.orientation * r.orientation[k]->inverse();
+          break;
+        }
+      }
+      if (!op || better * 2 <= static_cast<int>(samples)) continue;
+      const Rotation reference = *r.orientation[pts[0]];
+      for (size_t k : pts) {
+        source->read(k, 1, pat.data());
+        if (!pre.apply(pat.data())) continue;
+        // S was found for one sample's symmetric variant; bring each point to that variant first.
+        const Rotation start = *op * symmetry.nearest_equivalent(*r.orientation[k], reference);
+        const RefineResult fit = refiner.refine(pat.data(), start);
+        if (fit.correlation > r.correlation[k]) {
+          r.orientation[k] = symmetry.reduce(fit.orientation);
+          r.correlation[k] = static_cast<float>(fit.correlation);
+          changed = true;
+        }
+      }
+    }
+    if (changed) r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
+  }
+  // Small clusters merged into a grain keep their own orientation: each point far from its grain's
+  // mean is refined from the mean and takes it if the model then fits its pattern better.
+  {
+    bool changed = false;
+    std::vector<float> pat(px);
+    for (size_t k = 0; k < n; ++k) {
+      const int g = r.grains.id[k];
+      if (g <= 0 || symmetry.misorientation_angle(*r.orientation[k], r.grains.mean[g - 1]) < threshold) continue;
+      source->read(k, 1, pat.data());
+      if (!pre.apply(pat.data())) continue;
+      const RefineResult fit = refiner.refine(pat.data(), r.grains.mean[g - 1]);
+      if (fit.correlation > r.correlation[k] + 0.02) {
+        r.orientation[k] = symmetry.reduce(fit.orientation);
+        r.correlation[k] = static_cast<float>(fit.correlation);
+        changed = true;
+      }
+    }
+    if (changed) r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
+  }
   r.kam_deg = kernel_average_misorientation(grid, r.orientation, r.grains, symmetry);
   return r;
 }
