@@ -5,10 +5,12 @@
 
 #include <filesystem>
 #include <fstream>
+#include <random>
 #include <set>
 #include <sstream>
 
 #include "orderband/error.hpp"
+#include "orderband/grains.hpp"
 #include "orderband/npy_io.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/synth.hpp"
@@ -131,6 +133,55 @@ TEST_F(OrientScan, CsvRoundTripsExactlyAndReadOrientationsAreRefined) {
   std::sort(err.begin(), err.end());
   EXPECT_GT(err.size(), grid.count() * 99 / 100);
   EXPECT_LT(err[err.size() / 2], 0.1);
+}
+
+TEST(KernelMeanOrientation, AveragesNoiseWithinTheGrainOnly) {
+  // Two grains (left and right halves of a 20 × 20 grid, 40° apart), each point's orientation
+  // off its grain's by a random rotation of σ = 0.05° per axis and given as a random symmetric
+  // variant. The 5 × 5 kernel mean divides the error by about √25 = 5 inside a grain and never
+  // mixes the two grains at their boundary.
+  ScanGrid grid;
+  grid.rows = grid.cols = 20;
+  grid.step_um = 0.1;
+  const CrystalSymmetry cubic = CrystalSymmetry::cubic();
+  const Rotation a = Rotation::from_bunge(0.3, 0.7, 1.1);
+  const Rotation b = Rotation::from_axis_angle(Eigen::Vector3d(1, 2, 5).normalized(), deg_to_rad(40)) * a;
+  std::mt19937_64 rng(3);
+  std::normal_distribution<double> noise(0, deg_to_rad(0.05));
+  std::uniform_int_distribution<int> variant(0, 23);
+  std::vector<Rotation> ops;  // the 24 proper signed permutation matrices
+  const int perms[6][3] = {{0, 1, 2}, {1, 2, 0}, {2, 0, 1}, {0, 2, 1}, {2, 1, 0}, {1, 0, 2}};
+  for (const auto& p : perms)
+    for (int signs = 0; signs < 8; ++signs) {
+      Eigen::Matrix3d m = Eigen::Matrix3d::Zero();
+      for (int i = 0; i < 3; ++i) m(i, p[i]) = (signs >> i & 1) ? -1.0 : 1.0;
+      if (m.determinant() > 0) ops.push_back(Rotation::from_matrix(m));
+    }
+  ASSERT_EQ(ops.size(), 24u);
+  std::vector<std::optional<Rotation>> ori(grid.count());
+  std::vector<Rotation> truth(grid.count());
+  for (size_t k = 0; k < grid.count(); ++k) {
+    truth[k] = grid.point(k).col < 10 ? a : b;
+    const Eigen::Vector3d v(noise(rng), noise(rng), noise(rng));
+    ori[k] = ops[variant(rng)] * Rotation::from_axis_angle(v, v.norm()) * truth[k];
+  }
+  const GrainMap grains = segment_grains(grid, ori, cubic);
+  ASSERT_EQ(grains.count(), 2);
+  const auto smooth = kernel_mean_orientations(grid, ori, grains, cubic, 2);
+  double before = 0, after = 0, worst_edge = 0;
+  int inner = 0;
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const GridPoint p = grid.point(k);
+    const double e0 = rad_to_deg(cubic.misorientation_angle(*ori[k], truth[k]));
+    const double e1 = rad_to_deg(cubic.misorientation_angle(*smooth[k], truth[k]));
+    worst_edge = std::max(worst_edge, e1);  // a kernel reaching across the boundary would be ~8° off
+    if (p.row < 2 || p.row > 17 || p.col < 2 || p.col > 17 || p.col == 8 || p.col == 9 || p.col == 10 || p.col == 11)
+      continue;
+    before += e0 * e0, after += e1 * e1, ++inner;
+  }
+  const double ratio = std::sqrt(after / before);
+  EXPECT_NEAR(ratio, 0.2, 0.05);  // 1/√25 for independent errors
+  EXPECT_LT(worst_edge, 0.1);
 }
 
 TEST(OrientationCsv, RejectsBadTables) {
