@@ -14,6 +14,7 @@
 #include <thread>
 
 #include "orderband/synth.hpp"
+#include "orderband/version.hpp"
 #include "test_support.hpp"
 
 namespace fs = std::filesystem;
@@ -76,7 +77,7 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
   EXPECT_EQ(s["points_measured"].get<size_t>(), 1600u);
   for (const char* key : {"area_fraction", "number_density_per_um2", "mean_ecd_um", "count"})
     EXPECT_TRUE(s["classes"]["secondary"].contains(key)) << key;
-  EXPECT_EQ(s["version"], "0.1.0");
+  EXPECT_EQ(s["version"], kVersion);
   EXPECT_NE(s["command_line"].get<std::string>().find("map " + *scan_), std::string::npos);
   EXPECT_EQ(s["input_hashes"]["patterns"]["fnv1a64"].get<std::string>().size(), 16u);
   for (const char* f :
