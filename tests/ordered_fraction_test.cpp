@@ -141,6 +141,17 @@ TEST(OrderedFraction, ReferenceRegionsSetTheEndMembers) {
     EXPECT_NEAR(in_ordered / n1, 1.0, 1e-5);
     EXPECT_NEAR(in_disordered / n0, 0.0, 1e-5);
     EXPECT_NEAR(f.mean_raw(), truth_mean(r), 0.03);
+    // The same regions given as point masks (as read from a mask file) set the same end members.
+    FractionSpec by_mask = spec;
+    by_mask.ordered_regions.clear(), by_mask.disordered_regions.clear();
+    by_mask.ordered_mask.assign(g.count(), 0), by_mask.disordered_mask.assign(g.count(), 0);
+    for (size_t k = 0; k < g.count(); ++k) {
+      by_mask.ordered_mask[k] = spec.ordered_regions[0].contains(g.point(k));
+      by_mask.disordered_mask[k] = spec.disordered_regions[0].contains(g.point(k));
+    }
+    const FractionResults m = ordered_fraction_scan(r.config, r.orientations, by_mask);
+    EXPECT_DOUBLE_EQ(m.calibration_offset, f.calibration_offset);
+    EXPECT_DOUBLE_EQ(m.calibration_scale, f.calibration_scale);
   });
 }
 

@@ -102,11 +102,34 @@ TEST(ScanConfig, ReferenceRegionsForTheEndMembers) {
     return std::string("no error");
   };
   EXPECT_NE(error_of("[fraction]\nend_members = \"regions\"\nordered_regions = [[0, 0, 1, 1]]\n")
-                .find("needs ordered_regions and disordered_regions"),
+                .find("needs ordered_regions or ordered_mask, and disordered_regions or disordered_mask"),
             std::string::npos);
   EXPECT_NE(error_of("[fraction]\nordered_regions = [[0, 0, 9, 1]]\n").find("is not inside the 3 x 4 grid"),
             std::string::npos);
   EXPECT_NE(error_of("[fraction]\nend_members = \"guess\"\n").find("is not \"model\""), std::string::npos);
+  EXPECT_NE(
+      error_of("[fraction]\nordered_mask = \"nowhere.npy\"\n").find("ordered_mask = \"nowhere.npy\": no such file"),
+      std::string::npos);
+}
+
+TEST(ScanConfig, ReferenceMasksResolveBesideTheDescription) {
+  const std::string dir = test::make_temp_dir("scanmask");
+  std::ofstream(dir + "/gamma_prime.png") << "x";  // existence is all the description checks
+  std::filesystem::create_directories(dir + "/refs");
+  std::ofstream(dir + "/refs/gamma.npy") << "x";
+  const ScanConfig c =
+      parse_scan_config(kMinimal +
+                            "[fraction]\nend_members = \"regions\"\nordered_mask = \"gamma_prime.png\"\n"
+                            "disordered_mask = \"refs/gamma.npy\"\n",
+                        dir + "/s.toml");
+  EXPECT_EQ(c.end_members.ordered_mask, dir + "/gamma_prime.png");
+  EXPECT_EQ(c.end_members.disordered_mask, dir + "/refs/gamma.npy");
+  std::ostringstream os;
+  write_scan_config(os, c, dir);
+  const ScanConfig again = parse_scan_config(os.str(), dir + "/s.toml");
+  EXPECT_EQ(again.end_members.ordered_mask, c.end_members.ordered_mask);
+  EXPECT_EQ(again.end_members.disordered_mask, c.end_members.disordered_mask);
+  std::filesystem::remove_all(dir);
 }
 
 TEST(ScanConfig, OneClearLinePerProblem) {

@@ -59,6 +59,7 @@ struct FractionSpec {
   double grain_reference_max_rad = 0.25 * M_PI / 180;
   int min_points_for_grain_fit = 10;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
+  std::vector<uint8_t> ordered_mask, disordered_mask;          ///< per point, non-zero: in the region (empty: none)
 };
 
 struct EndMember {

@@ -34,6 +34,9 @@ struct EndMemberSelection {
   std::string mode = "model";  ///< "model", "mixture" or "regions"
   /// Rectangles of points [row0, col0, row1, col1] (inclusive) known to be ordered / disordered.
   std::vector<std::array<int, 4>> ordered_regions, disordered_regions;
+  /// Mask files (absolute paths, empty: none) of the scan's rows × cols: .npy, or a greyscale PNG or
+  /// TIFF of cols × rows pixels; non-zero marks a reference point (point_mask.hpp).
+  std::string ordered_mask, disordered_mask;
 };
 
 struct ScanConfig {

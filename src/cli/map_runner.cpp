@@ -8,6 +8,7 @@
 
 #include "command.hpp"
 #include "orderband/error.hpp"
+#include "orderband/point_mask.hpp"
 #include "orderband/version.hpp"
 #include "progress.hpp"
 
@@ -36,7 +37,9 @@ std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
     << (fs::is_directory(config.patterns.path) ? config.patterns.path : file_hash_fnv1a64(config.patterns.path)) << '|'
     << (config.orientations.source == OrientationSourceKind::file ? file_hash_fnv1a64(config.orientations.file)
                                                                   : "find")
-    << '|' << o.threshold << o.otsu << o.connectivity << o.min_particle << o.class_bounds[0] << o.class_bounds[1]
+    << '|' << (config.end_members.ordered_mask.empty() ? "" : file_hash_fnv1a64(config.end_members.ordered_mask)) << '|'
+    << (config.end_members.disordered_mask.empty() ? "" : file_hash_fnv1a64(config.end_members.disordered_mask)) << '|'
+    << o.threshold << o.otsu << o.connectivity << o.min_particle << o.class_bounds[0] << o.class_bounds[1]
     << o.grain_threshold << o.end_members << o.no_master_spheres;
   return text_hash_fnv1a64(k.str());
 }
@@ -54,6 +57,10 @@ MapResults run_map(const ScanConfig& config, const std::string& folder, const Ma
     };
     options.fraction.ordered_regions = rects(config.end_members.ordered_regions);
     options.fraction.disordered_regions = rects(config.end_members.disordered_regions);
+    if (!config.end_members.ordered_mask.empty())
+      options.fraction.ordered_mask = read_point_mask(config.end_members.ordered_mask, config.grid);
+    if (!config.end_members.disordered_mask.empty())
+      options.fraction.disordered_mask = read_point_mask(config.end_members.disordered_mask, config.grid);
   }
   std::error_code ec;
   fs::create_directories(folder, ec);

@@ -670,13 +670,20 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     r.calibration_offset = mix[0].mean;
     r.calibration_scale = 1.0 / (mix[1].mean - mix[0].mean);
   } else if (spec.end_members == EndMemberMode::regions) {
+    for (const std::vector<uint8_t>* mask : {&spec.ordered_mask, &spec.disordered_mask})
+      if (!mask->empty() && mask->size() != n)
+        fail("fraction: a reference mask has ", mask->size(), " points, the scan ", n);
     double m[2] = {0, 0};
     int cnt[2] = {0, 0};
     for (size_t k = 0; k < n; ++k) {
       if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      for (int phase = 0; phase < 2; ++phase)
+      for (int phase = 0; phase < 2; ++phase) {
+        const std::vector<uint8_t>& mask = phase ? spec.ordered_mask : spec.disordered_mask;
+        bool in = !mask.empty() && mask[k];
         for (const PointRect& rect : phase ? spec.ordered_regions : spec.disordered_regions)
-          if (rect.contains(grid.point(k))) m[phase] += r.raw[k], cnt[phase] += 1;
+          in = in || rect.contains(grid.point(k));
+        if (in) m[phase] += r.raw[k], cnt[phase] += 1;
+      }
     }
     if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
     m[0] /= cnt[0], m[1] /= cnt[1];

@@ -262,6 +262,10 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   if (config.orientations.source == OrientationSourceKind::file)
     hashes["orientations"] = {{"file", config.orientations.file},
                               {"fnv1a64", file_hash_fnv1a64(config.orientations.file)}};
+  for (const auto& [key, file] :
+       {std::pair<const char*, const std::string&>{"ordered_mask", config.end_members.ordered_mask},
+        {"disordered_mask", config.end_members.disordered_mask}})
+    if (!file.empty()) hashes[key] = {{"file", file}, {"fnv1a64", file_hash_fnv1a64(file)}};
   j["input_hashes"] = hashes;
   const size_t n = grid.count();
   j["points"] = n;
@@ -325,7 +329,11 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
        {{"source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
         {"refine", config.orientations.refine},
         {"grain_threshold_deg", options.orient.grains.threshold_deg},
-        {"grain_min_points", options.orient.grains.min_points}}},
+        {"grain_min_points", options.orient.grains.min_points},
+        {"candidates", options.orient.candidates},
+        {"pseudo_symmetry_samples", options.orient.pseudo_symmetry_samples},
+        {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},
+        {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
       {"fraction",
        {{"estimator", options.fraction.estimator == FractionEstimator::profile ? "profile" : "windows"},
         {"sensitivity_threshold", options.fraction.sensitivity_threshold},
@@ -336,6 +344,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"window_flank_min", options.fraction.windows.flank_min},
         {"window_flank_max", options.fraction.windows.flank_max},
         {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
+        {"orientation_kernel_radius", options.fraction.orientation_kernel_radius},
+        {"grain_reference_max_deg", rad_to_deg(options.fraction.grain_reference_max_rad)},
+        {"ordered_mask_points",
+         std::count(options.fraction.ordered_mask.begin(), options.fraction.ordered_mask.end(), 1)},
+        {"disordered_mask_points",
+         std::count(options.fraction.disordered_mask.begin(), options.fraction.disordered_mask.end(), 1)},
         {"ordered_regions",
          [&] {
            nlohmann::json a = nlohmann::json::array();

@@ -88,6 +88,9 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
       {"max_bands", spec.detect.max_bands},
       {"candidates", spec.candidates},
       {"min_correlation", spec.min_correlation},
+      {"pseudo_symmetry_samples", spec.pseudo_symmetry_samples},
+      {"pseudo_symmetry_candidates", spec.pseudo_symmetry_candidates},
+      {"pseudo_symmetry_gain", spec.pseudo_symmetry_gain},
       {"refine_max_iterations", spec.refine.max_iterations}};
   j["status_codes"] = {
       {"0", "ok"}, {"1", "unusable_pattern"}, {"2", "too_few_bands"}, {"3", "fit_failed"}, {"4", "missing_in_file"}};

@@ -183,7 +183,8 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   // [output]
   // [fraction]
   const toml::table* fr = r.table("fraction", false);
-  r.check_keys(fr, "fraction", {"end_members", "ordered_regions", "disordered_regions"});
+  r.check_keys(fr, "fraction",
+               {"end_members", "ordered_regions", "disordered_regions", "ordered_mask", "disordered_mask"});
   c.end_members.mode = r.get<std::string>(fr, "fraction", "end_members").value_or("model");
   if (c.end_members.mode != "model" && c.end_members.mode != "mixture" && c.end_members.mode != "regions")
     fail(path, ": [fraction] end_members = \"", c.end_members.mode, "\" is not \"model\", \"mixture\" or \"regions\"");
@@ -208,9 +209,20 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
       list.push_back(v);
     }
   }
+  for (const char* key : {"ordered_mask", "disordered_mask"}) {
+    const auto file = r.get<std::string>(fr, "fraction", key);
+    if (!file) continue;
+    std::string& target =
+        std::string(key) == "ordered_mask" ? c.end_members.ordered_mask : c.end_members.disordered_mask;
+    target = r.resolve(*file);
+    if (!fs::exists(target)) fail(path, ": [fraction] ", key, " = \"", *file, "\": no such file");
+  }
   if (c.end_members.mode == "regions" &&
-      (c.end_members.ordered_regions.empty() || c.end_members.disordered_regions.empty()))
-    fail(path, ": [fraction] end_members = \"regions\" needs ordered_regions and disordered_regions");
+      ((c.end_members.ordered_regions.empty() && c.end_members.ordered_mask.empty()) ||
+       (c.end_members.disordered_regions.empty() && c.end_members.disordered_mask.empty())))
+    fail(path,
+         ": [fraction] end_members = \"regions\" needs ordered_regions or ordered_mask, and disordered_regions or "
+         "disordered_mask");
 
   const toml::table* out = r.table("output", false);
   r.check_keys(out, "output", {"folder"});
@@ -286,6 +298,9 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
   };
   rects("ordered_regions", c.end_members.ordered_regions);
   rects("disordered_regions", c.end_members.disordered_regions);
+  if (!c.end_members.ordered_mask.empty()) os << "ordered_mask = " << q(rel(c.end_members.ordered_mask)) << "\n";
+  if (!c.end_members.disordered_mask.empty())
+    os << "disordered_mask = " << q(rel(c.end_members.disordered_mask)) << "\n";
   os << "\n[output]\nfolder = " << q(rel(c.output_folder)) << "\n";
 }
 
