@@ -97,21 +97,26 @@ struct FractionResults {
   double mean_raw() const;  ///< mean over measured points of the unclipped estimate
 };
 
-/// The estimator, per point with orientation g in grain G:
-///  1. band profiles of the superlattice-sensitive families and of the
-///     strongest fundamental families; window signal s_f = interior − flanks;
-///  2. normalised by the fundamental band contrast c = Σ_fund m_f s_f
-///     (m_f: the families' kinematic intensities), r_f = s_f / c, so that
-///     pattern quality, surface condition and tilt cancel;
-///  3. reference: the same quantities computed from noise-free model patterns
-///     of pure disordered and pure ordered phase at G's mean orientation,
-///     processed exactly like the data: r̂⁰_f, r̂¹_f. Crossing bands of other
-///     families (the orientation confound) enter data and reference alike;
-///  4. matched combination: a_f = (r̂¹_f − r̂⁰_f) / var_f (var_f ∝ 1/n_int + 1/n_flank),
-///     f = Σ a_f (r_f − r̂⁰_f) / Σ a_f (r̂¹_f − r̂⁰_f).
-/// Every step is linear in the mixture of the two phases under the beam, so the
-/// estimate is unbiased where the model holds; `end_members` can rescale it
-/// by the data.
+/// The estimator (default: profile), per point in grain G:
+///  1. reference: noise-free model patterns of pure disordered and pure ordered phase at G's
+///     orientation (first refined against G's mean processed pattern), carrying a fitted detector
+///     background and divided by the data's own static background, then processed like the data;
+///     crossing bands of other families (the orientation confound) enter data and reference alike;
+///  2. band profiles of the superlattice-sensitive families and of the strongest fundamental
+///     families, data and reference binned with the same orientation (G's; a point whose
+///     kernel-mean orientation is far from G's gets its own reference);
+///  3. pattern quality q: the point's fundamental profiles regressed on the disordered
+///     reference's, so that pattern quality, surface condition and tilt cancel (at a grain
+///     boundary jointly with the neighbour grain's pattern seen in G's frame, which is then
+///     taken out of every bin);
+///  4. matched filter over the superlattice bins: W = Δ / (noise variance + (slope · δu)²),
+///     f = Σ W (y/q − m0) / Σ W [Δ − (q1 − 1) y/q], Δ = m1 − m0, q1 the ordered phase's
+///     fundamental contrast relative to the disordered phase's;
+///  5. at a grain boundary the same in the neighbour grain's frame, and the two estimates
+///     combined by their scale factors (the shares of the two lattices in the pattern).
+/// Every step is linear in the mixture of the two phases under the beam, so the estimate is
+/// unbiased where the model holds; `end_members` can rescale it by the data. The windows
+/// estimator replaces 4 by interior-minus-flank window signals over the fundamental contrast.
 FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& orientations,
                                       const FractionSpec& spec = {}, const ProgressFn& progress = {},
                                       RowStore* store = nullptr);
