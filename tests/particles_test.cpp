@@ -73,6 +73,34 @@ TEST(Particles, HexagonalGridComponentsByHand) {
   EXPECT_EQ(segment_particles(grid, f, {}).particles[0].points, 2);
 }
 
+TEST(Particles, ParticleCutByTheBorderIsClassedByItsFittedCircle) {
+  // A disc of diameter 1.2 µm (24 steps of 0.05 µm) whose centre lies on the left border, so the
+  // map shows half of it (section ECD ≈ 0.85 µm, secondary by ECD), and one whole disc of the
+  // same size inside the map. Both must be classed primary (≥ 1 µm); the fitted diameter of the
+  // cut one comes within a step of 1.2 µm, and the whole one keeps its ECD.
+  ScanGrid grid;
+  grid.rows = 40, grid.cols = 70, grid.step_um = 0.05;
+  std::vector<float> f(grid.count(), 0.0f);
+  const double r = 0.6;
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const Eigen::Vector2d p = grid.position_um(grid.point(k));
+    const Eigen::Vector2d cut(0.0, 1.0), whole(2.5, 1.0);
+    if ((p - cut).norm() <= r || (p - whole).norm() <= r) f[k] = 1.0f;
+  }
+  Segmentation seg = segment_particles(grid, f, {});
+  ASSERT_EQ(seg.particles.size(), 2u);
+  const std::vector<ClassStats> stats = class_statistics(grid, seg, SizeClasses{});
+  const Particle2D& a = seg.particles[0].touches_border ? seg.particles[0] : seg.particles[1];
+  const Particle2D& b = seg.particles[0].touches_border ? seg.particles[1] : seg.particles[0];
+  EXPECT_NEAR(a.ecd_um, 1.2 / std::sqrt(2.0), 0.05);  // a half disc's ECD: D/√2
+  EXPECT_NEAR(a.class_diameter_um, 1.2, 0.05);
+  EXPECT_EQ(a.size_class, "primary");
+  EXPECT_DOUBLE_EQ(b.class_diameter_um, b.ecd_um);
+  EXPECT_EQ(b.size_class, "primary");
+  EXPECT_EQ(stats[2].count, 1);  // the cut one stays out of counts (guard frame) but not out of the class area
+  EXPECT_NEAR(stats[2].area_fraction, (a.area_um2 + b.area_um2) / (grid.count() * 0.05 * 0.05), 1e-12);
+}
+
 TEST(Particles, AstmE562WorkedExample) {
   // ASTM E562 (2019): mean P_P, s = sqrt(Σ (P_P(i) − mean)² / (n − 1)), 95 % CI = t · s / √n with
   // t for n − 1 degrees of freedom (t_{0.975, 9} = 2.262, t_{0.975, 29} = 2.045; standard t-table).

@@ -33,6 +33,10 @@ struct Particle2D {
   int host_grain = 0;              ///< the grain most of its points belong to (0: unknown)
   bool on_grain_boundary = false;  ///< its neighbours outside it belong to two or more grains
   bool touches_border = false;
+  /// The diameter that decides the size class: the ECD, or for a particle cut by the map border
+  /// the larger of its ECD and the diameter of the circle fitted to its free boundary (the cut
+  /// section's ECD understates the particle: a half disc's is 0.71 of the disc's).
+  double class_diameter_um = 0;
   std::string size_class;
 };
 

@@ -1,6 +1,8 @@
 // Particle segmentation and statistics.
 #include "orderband/particles.hpp"
 
+#include <Eigen/Dense>
+
 #include <algorithm>
 #include <cmath>
 #include <deque>
@@ -50,6 +52,40 @@ std::string SizeClasses::classify(double ecd) const {
     if (ecd >= lower_um[k]) name = names[k];
   return name;
 }
+
+namespace {
+
+/// Diameter of the circle fitted (Kåsa's algebraic fit, least squares in x² + y² + Dx + Ey + F)
+/// to the free boundary of a particle: the midpoints between its points and their outside
+/// nearest neighbours inside the map. 0 when the boundary is too short or too straight to define
+/// a circle (fewer than 8 samples, or a radius beyond the diagonal of the samples' bounding box).
+template <class Outside>
+double free_boundary_circle_diameter(const ScanGrid& grid, const std::vector<size_t>& members, Outside&& outside) {
+  std::vector<Eigen::Vector2d> samples;
+  const int nearest = grid.kind == GridKind::hexagonal ? 6 : 4;
+  for (size_t k : members)
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), nearest)) {
+      const size_t j = grid.index(nb);
+      if (outside(j)) samples.push_back(0.5 * (grid.position_um(grid.point(k)) + grid.position_um(nb)));
+    }
+  if (samples.size() < 8) return 0;
+  Eigen::Matrix3d ata = Eigen::Matrix3d::Zero();
+  Eigen::Vector3d atb = Eigen::Vector3d::Zero();
+  Eigen::Vector2d lo = samples[0], hi = samples[0];
+  for (const Eigen::Vector2d& s : samples) {
+    const Eigen::Vector3d row(s.x(), s.y(), 1.0);
+    ata += row * row.transpose();
+    atb -= row * s.squaredNorm();
+    lo = lo.cwiseMin(s), hi = hi.cwiseMax(s);
+  }
+  const Eigen::Vector3d c = ata.ldlt().solve(atb);
+  const double r2 = 0.25 * (c[0] * c[0] + c[1] * c[1]) - c[2];
+  if (!(r2 > 0)) return 0;
+  const double r = std::sqrt(r2);
+  return r <= (hi - lo).norm() ? 2 * r : 0.0;
+}
+
+}  // namespace
 
 Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& fraction,
                                const std::vector<int32_t>& grain, const SegmentSpec& spec) {
@@ -115,6 +151,12 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
       if (q.row == 0 || q.col == 0 || q.row == grid.rows - 1 || q.col == grid.cols - 1) p.touches_border = true;
     }
     p.centroid_x_um = sx / p.points, p.centroid_y_um = sy / p.points, p.mean_fraction = sf / p.points;
+    p.class_diameter_um = p.ecd_um;
+    if (p.touches_border) {
+      const double fitted =
+          free_boundary_circle_diameter(grid, members, [&](size_t j) { return provisional[j] != next; });
+      if (fitted > p.class_diameter_um) p.class_diameter_um = fitted;
+    }
     // Second moments about the centroid (each point a cell: add the cell's own moment step²/12).
     double mxx = 0, myy = 0, mxy = 0;
     for (size_t k : members) {
@@ -165,7 +207,7 @@ std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg
   }
   std::vector<std::vector<double>> ecds(out.size());
   for (Particle2D& p : seg.particles) {
-    p.size_class = classes.classify(p.ecd_um);
+    p.size_class = classes.classify(p.class_diameter_um > 0 ? p.class_diameter_um : p.ecd_um);
     const size_t c = std::find(classes.names.begin(), classes.names.end(), p.size_class) - classes.names.begin();
     out[c].area_fraction += p.area_um2 / analysed;
     if (!p.touches_border) ecds[c].push_back(p.ecd_um);

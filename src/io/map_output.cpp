@@ -223,12 +223,13 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     std::ostringstream os;
     os << "# " << provenance << "\n"
        << "id,class,points,area_um2,ecd_um,centroid_x_um,centroid_y_um,aspect_ratio,major_axis_deg,mean_fraction,"
-          "host_grain,on_grain_boundary,touches_border\n";
+          "host_grain,on_grain_boundary,touches_border,class_diameter_um\n";
     for (const Particle2D& p : r.segmentation.particles) {
       char b[400];
-      std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d\n", p.id, p.size_class.c_str(),
-                    p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um, p.aspect_ratio, p.major_axis_deg,
-                    p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0, p.touches_border ? 1 : 0);
+      std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d,%.6f\n", p.id,
+                    p.size_class.c_str(), p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um,
+                    p.aspect_ratio, p.major_axis_deg, p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0,
+                    p.touches_border ? 1 : 0, p.class_diameter_um);
       os << b;
     }
     write_text_atomically(folder + "/particles.csv", os.str());

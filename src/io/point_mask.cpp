@@ -22,8 +22,8 @@ std::vector<uint8_t> read_point_mask(const std::string& path, const ScanGrid& gr
   }
   const GrayImage img = read_gray_image(path);
   if (img.width != grid.cols || img.height != grid.rows)
-    fail("mask '", path, "' is ", img.width, " x ", img.height, " pixels; the scan needs ", grid.cols, " x ",
-         grid.rows, " (cols x rows)");
+    fail("mask '", path, "' is ", img.width, " x ", img.height, " pixels; the scan needs ", grid.cols, " x ", grid.rows,
+         " (cols x rows)");
   for (size_t k = 0; k < mask.size(); ++k) mask[k] = img.pixels[k] != 0;
   return mask;
 }
