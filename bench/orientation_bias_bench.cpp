@@ -1,7 +1,9 @@
 // Orientation bias of the fraction stage: pure-γ grains of many orientations should all give f ≈ 0.
 // usage: orientation_bias_bench [GRAINS=12] [SIDE=48] [COUNTS=5000] [PAIR=ni] [PX=60] [SEED=3]
-// env: ORDERBAND_BENCH_TRUTHORI (orientations from the truth CSV), ORDERBAND_BENCH_FALLOFF (background falloff),
-//      ORDERBAND_BENCH_BEAM (beam σ in nm), ORDERBAND_BENCH_PRIMARY (primary γ′ area fraction, own orientation).
+// env: ORDERBAND_BENCH_TRUTHORI (orientations from the truth CSV), _JITTER (per-point orientation noise, deg),
+//      _OFFSET (one common orientation error, deg), _KERNEL (kernel radius, steps), _PCERR (px added to PC x, y and
+//      distance), _FALLOFF (background falloff), _BEAM (beam sigma, nm), _PRIMARY (primary area fraction, own
+//      orientation); every name with the ORDERBAND_BENCH prefix.
 #include <algorithm>
 #include <array>
 #include <chrono>
@@ -50,6 +52,11 @@ int main(int argc, char** argv) {
                                                  : std::string());
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "orientation_bias_bench");
   ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
+  if (const char* pc = std::getenv("ORDERBAND_BENCH_PCERR")) {  // a pattern-centre error (px in x, y and distance)
+    const double e = std::atof(pc);
+    config.geometry.pc_px += Eigen::Vector2d(e, e);
+    config.geometry.distance_px += e;
+  }
   if (std::getenv("ORDERBAND_BENCH_TRUTHORI")) {
     config.orientations.source = OrientationSourceKind::file;
     config.orientations.file = dir + "/scan/truth_orientations.csv";
@@ -95,6 +102,12 @@ int main(int argc, char** argv) {
     a[0] += fr.raw[k], a[1] += 1;
     if (interior) a[2] += fr.raw[k], a[3] += 1;
   }
+  std::printf(
+      "pattern centre: %s from %d grains, (%.3f, %.3f) px, distance %.3f px (scenario: (%.3f, %.3f), %.3f); "
+      "mean correlation %.4f -> %.4f\n",
+      fr.pattern_centre_refined ? "refined" : "kept", fr.pattern_centre_grains, fr.geometry.pc_px.x(),
+      fr.geometry.pc_px.y(), fr.geometry.distance_px, px / 2.0, 0.3 * px, 0.75 * px,
+      fr.pattern_centre_correlation_before, fr.pattern_centre_correlation_after);
   double worst = 0;
   for (const auto& [g, a] : by_grain) {
     if (a[1] < 30) continue;

@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "orderband/band_profile.hpp"
+#include "orderband/detector_geometry.hpp"
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
 #include "orderband/row_store.hpp"
@@ -57,7 +58,12 @@ struct FractionSpec {
   /// their kernel-mean orientation (slower: two model patterns per point).
   int orientation_kernel_radius = 2;
   double grain_reference_max_rad = 0.25 * M_PI / 180;
-  int min_points_for_grain_fit = 10;  ///< grains with fewer points keep the orientation stage's orientation
+  int min_points_for_grain_fit = 10;
+  /// Refine the pattern centre and distance on the mean patterns of up to pattern_centre_grains
+  /// grains with at least pattern_centre_min_points points (pattern_centre_fit.hpp).
+  bool refine_pattern_centre = true;
+  int pattern_centre_grains = 6;
+  int pattern_centre_min_points = 30;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
   std::vector<uint8_t> ordered_mask, disordered_mask;          ///< per point, non-zero: in the region (empty: none)
 };
@@ -87,6 +93,10 @@ struct FractionResults {
   EndMember disordered, ordered;                         ///< found from the scan (mixture of the raw estimates)
   double calibration_offset = 0, calibration_scale = 1;  ///< applied after the model reference
   std::vector<FamilyDiagnostic> families;
+  DetectorGeometrySpec geometry;  ///< the geometry the references were made with (refined PC if accepted)
+  bool pattern_centre_refined = false;
+  int pattern_centre_grains = 0;  ///< grains the pattern-centre fit used (0: not run)
+  double pattern_centre_correlation_before = 0, pattern_centre_correlation_after = 0;
   /// Sub-resolution ordered fraction: the mean unclipped estimate over matrix points
   /// (fraction < 0.5) none of whose neighbours is a resolved particle point (fraction ≥ 0.5),
   /// i.e. ordering too fine to resolve (tertiary-size), with its standard error from

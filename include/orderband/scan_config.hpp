@@ -50,7 +50,8 @@ struct ScanConfig {
   OrientationSelection orientations;
   PreprocessSpec preprocess;
   EndMemberSelection end_members;
-  std::string output_folder;  ///< absolute
+  bool refine_pattern_centre = true;  ///< [fraction]: refine PC and distance on the grains' mean patterns
+  std::string output_folder;          ///< absolute
 };
 
 /// The scan's detector geometry for patterns of the given stored size.

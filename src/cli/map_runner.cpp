@@ -46,6 +46,7 @@ std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
 
 MapResults run_map(const ScanConfig& config, const std::string& folder, const MapRunOptions& o, bool quiet) {
   MapOptions options = to_map_options(o);
+  options.fraction.refine_pattern_centre = config.refine_pattern_centre;
   // The scan description's [fraction] end members, unless the command line asks for the mixture.
   if (o.end_members == "model" && config.end_members.mode != "model") {
     options.fraction.end_members =

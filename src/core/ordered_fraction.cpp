@@ -12,6 +12,7 @@
 #include "orderband/grains.hpp"
 #include "orderband/laue_group.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/pattern_centre_fit.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/units.hpp"
 #include "row_loop.hpp"
@@ -249,8 +250,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   const size_t nf = chosen.size();
 
   auto source = open_pattern_source(config.patterns, grid);
-  const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
-  const DetectorRays rays(geometry);
+  DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
+  DetectorRays rays(geometry);
   const Preprocessor pre = make_preprocessor(config.preprocess, *source);
 
   // Model references per grain, at the grain's mean orientation.
@@ -310,6 +311,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   // bias that fitting the unprocessed model leaves in the orientation stage.
   std::vector<Rotation> grain_orientation(grains + 1), correction(grains + 1);
   for (int g = 1; g <= grains; ++g) grain_orientation[g] = ori.grains.mean[g - 1];
+  FractionResults r;
+  r.geometry = geometry.spec();
   {
     std::vector<std::vector<double>> sums(grains + 1);
     std::vector<int> counts(grains + 1, 0);
@@ -329,6 +332,43 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       }
       ++row0;
     }
+    // The pattern centre and distance, refined on the largest grains' mean patterns (jointly with
+    // their orientations) against the processed model: a calibration error of a few tenths of a
+    // pixel distorts the model against the data and shifts f by a few hundredths.
+    auto processed_model = [&](const DetectorGeometry& geo, const Rotation& g, float* out) {
+      renderer.expected({{g, false, 1.0, 0}}, geo, out);
+      for (size_t q = 0; q < source->pixels(); ++q) out[q] *= detector_background[q];
+      model_pre.apply(out);
+    };
+    if (spec.refine_pattern_centre) {
+      std::vector<int> order;
+      for (int g = 1; g <= grains; ++g)
+        if (counts[g] >= spec.pattern_centre_min_points) order.push_back(g);
+      std::sort(order.begin(), order.end(),
+                [&](int a, int b) { return counts[a] > counts[b] || (counts[a] == counts[b] && a < b); });
+      if (order.size() > static_cast<size_t>(spec.pattern_centre_grains)) order.resize(spec.pattern_centre_grains);
+      if (!order.empty()) {
+        std::vector<GrainPattern> evidence;
+        for (int g : order) {
+          GrainPattern e;
+          e.mean.resize(source->pixels());
+          for (size_t q = 0; q < e.mean.size(); ++q) e.mean[q] = static_cast<float>(sums[g][q] / counts[g]);
+          e.orientation = grain_orientation[g];
+          evidence.push_back(std::move(e));
+        }
+        const PatternCentreFit fit = fit_pattern_centre(geometry.spec(), evidence, pre.mask(), processed_model);
+        r.pattern_centre_grains = static_cast<int>(order.size());
+        r.pattern_centre_correlation_before = fit.correlation_before;
+        r.pattern_centre_correlation_after = fit.correlation_after;
+        r.pattern_centre_refined = fit.accepted;
+        if (fit.accepted) {
+          geometry = DetectorGeometry(fit.geometry);
+          rays = DetectorRays(geometry);
+          r.geometry = fit.geometry;
+          for (size_t i = 0; i < order.size(); ++i) grain_orientation[order[i]] = fit.orientation[i];
+        }
+      }
+    }
 #pragma omp parallel for schedule(dynamic)
     for (int g = 1; g <= grains; ++g) {
       if (counts[g] < spec.min_points_for_grain_fit) continue;
@@ -337,20 +377,18 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       const Rotation start = grain_orientation[g];
       auto cost = [&](const Eigen::Vector3d& v) {
         const Rotation trial = v.norm() > 0 ? Rotation::from_axis_angle(v, v.norm()) * start : start;
-        renderer.expected({{trial, false, 1.0, 0}}, geometry, img.data());
-        for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
-        model_pre.apply(img.data());
+        processed_model(geometry, trial, img.data());
         double sxy = 0, sxx = 0, syy = 0;
         for (size_t q = 0; q < img.size(); ++q)
           if (pre.mask()[q]) sxy += img[q] * mean[q], sxx += img[q] * img[q], syy += mean[q] * mean[q];
         return -sxy / std::sqrt(std::max(sxx * syy, 1e-300));
       };
       const Eigen::Vector3d best = nelder_mead_3(cost, deg_to_rad(0.1), deg_to_rad(0.0005), 600);
-      if (best.norm() > 0) {
-        correction[g] = Rotation::from_axis_angle(best, best.norm());
-        grain_orientation[g] = correction[g] * start;
-      }
+      if (best.norm() > 0) grain_orientation[g] = Rotation::from_axis_angle(best, best.norm()) * start;
     }
+    // Each grain's correction in the sample frame (g_new = g_old · C), the same for every
+    // symmetric variant a point's orientation may be written in.
+    for (int g = 1; g <= grains; ++g) correction[g] = ori.grains.mean[g - 1].inverse() * grain_orientation[g];
   }
   // The reference of both phases at an orientation, profiled with the same orientation: data and
   // reference must share their binning (bins are much finer than a pixel, so a change of binning
@@ -529,7 +567,6 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     return out;
   };
 
-  FractionResults r;
   r.fraction.assign(n, std::nanf(""));
   r.raw.assign(n, std::nanf(""));
   r.uncertainty.assign(n, std::nanf(""));
@@ -575,7 +612,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
             }
             // The grain's reference and binning, unless this point's orientation (kernel mean, corrected
             // like its grain) is too far from the grain's for one reference to serve: then its own.
-            const Rotation point = correction[g] * *point_orientation[k];
+            const Rotation point = *point_orientation[k] * correction[g];
             const bool own = symmetry.misorientation_angle(point, grain_orientation[g]) > spec.grain_reference_max_rad;
             Reference own_ref;
             if (own) own_ref = build_reference(point);

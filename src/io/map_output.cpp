@@ -280,6 +280,14 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["subresolution_ordered_fraction"] = r.fraction.subresolution_fraction;
   j["subresolution_ordered_fraction_se"] = r.fraction.subresolution_se;
   j["subresolution_points"] = r.fraction.subresolution_points;
+  j["pattern_centre"] = {{"refined", r.fraction.pattern_centre_refined},
+                         {"grains_used", r.fraction.pattern_centre_grains},
+                         {"pc_px", {r.fraction.geometry.pc_px.x(), r.fraction.geometry.pc_px.y()}},
+                         {"distance_px", r.fraction.geometry.distance_px},
+                         {"given_pc_px", {config.geometry.pc_px.x(), config.geometry.pc_px.y()}},
+                         {"given_distance_px", config.geometry.distance_px},
+                         {"mean_correlation_before", r.fraction.pattern_centre_correlation_before},
+                         {"mean_correlation_after", r.fraction.pattern_centre_correlation_after}};
   j["end_members"] = {
       {"disordered",
        {{"mean", r.fraction.disordered.mean},
@@ -346,6 +354,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"window_flank_max", options.fraction.windows.flank_max},
         {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
         {"orientation_kernel_radius", options.fraction.orientation_kernel_radius},
+        {"refine_pattern_centre", options.fraction.refine_pattern_centre},
         {"grain_reference_max_deg", rad_to_deg(options.fraction.grain_reference_max_rad)},
         {"ordered_mask_points",
          std::count(options.fraction.ordered_mask.begin(), options.fraction.ordered_mask.end(), 1)},

@@ -184,8 +184,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   // [fraction]
   const toml::table* fr = r.table("fraction", false);
   r.check_keys(fr, "fraction",
-               {"end_members", "ordered_regions", "disordered_regions", "ordered_mask", "disordered_mask"});
+               {"end_members", "ordered_regions", "disordered_regions", "ordered_mask", "disordered_mask",
+                "refine_pattern_centre"});
   c.end_members.mode = r.get<std::string>(fr, "fraction", "end_members").value_or("model");
+  c.refine_pattern_centre = r.get<bool>(fr, "fraction", "refine_pattern_centre").value_or(true);
   if (c.end_members.mode != "model" && c.end_members.mode != "mixture" && c.end_members.mode != "regions")
     fail(path, ": [fraction] end_members = \"", c.end_members.mode, "\" is not \"model\", \"mixture\" or \"regions\"");
   for (const char* key : {"ordered_regions", "disordered_regions"}) {
@@ -287,7 +289,8 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
                                      : rel(p.mask_file))
      << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
      << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
-     << "\n\n[fraction]\nend_members = " << q(c.end_members.mode) << "\n";
+     << "\n\n[fraction]\nend_members = " << q(c.end_members.mode)
+     << "\nrefine_pattern_centre = " << (c.refine_pattern_centre ? "true" : "false") << "\n";
   auto rects = [&](const char* key, const std::vector<std::array<int, 4>>& list) {
     if (list.empty()) return;
     os << key << " = [";
