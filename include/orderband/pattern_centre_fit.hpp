@@ -11,10 +11,10 @@ namespace orderband {
 
 struct PatternCentreFitSpec {
   int max_iterations = 20;
-  double step_px = 0.05;         ///< finite-difference step of PC x, y and distance (px)
-  double step_rad = 3.5e-4;      ///< finite-difference step of the rotations (0.02°)
-  double tolerance_px = 0.002;   ///< stop when an accepted step moves PC and distance less than this
-  double max_change_px = 0;      ///< refuse results that move PC or distance further than this (0: 5 % of the width)
+  double step_px = 0.05;        ///< finite-difference step of PC x, y and distance (px)
+  double step_rad = 3.5e-4;     ///< finite-difference step of the rotations (0.02°)
+  double tolerance_px = 0.002;  ///< stop when an accepted step moves PC and distance less than this
+  double max_change_px = 0;     ///< refuse results that move PC or distance further than this (0: 5 % of the width)
 };
 
 /// One grain's evidence: the mean of its processed patterns (standardised inside the mask) and
@@ -25,8 +25,8 @@ struct GrainPattern {
 };
 
 struct PatternCentreFit {
-  DetectorGeometrySpec geometry;      ///< refined (or the start if refused)
-  std::vector<Rotation> orientation;  ///< per grain, refined jointly
+  DetectorGeometrySpec geometry;                         ///< refined (or the start if refused)
+  std::vector<Rotation> orientation;                     ///< per grain, refined jointly
   double correlation_before = 0, correlation_after = 0;  ///< mean over the grains
   int iterations = 0;
   bool accepted = false;  ///< false: the start is kept (no improvement, or a change beyond max_change_px)

@@ -103,7 +103,8 @@ PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std
       }
     }
     for (size_t g = 0; g < n_grains; ++g) {
-      const int idx[6] = {0, 1, 2, static_cast<int>(3 + 3 * g), static_cast<int>(4 + 3 * g), static_cast<int>(5 + 3 * g)};
+      const int idx[6] = {
+          0, 1, 2, static_cast<int>(3 + 3 * g), static_cast<int>(4 + 3 * g), static_cast<int>(5 + 3 * g)};
       const double steps[6] = {spec.step_px, spec.step_px, spec.step_px, spec.step_rad, spec.step_rad, spec.step_rad};
       std::vector<std::vector<double>> d(6, std::vector<double>(m));
       for (int a = 0; a < 6; ++a)
