@@ -486,6 +486,20 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
          "as disordered (f &lt; 0.2) and ordered (f &gt; 0.8), and their difference (red: brighter in the ordered "
          "phase).</figcaption></figure>\n";
   }
+  {
+    const FractionResults& f = r.fraction;
+    h << "<p>Detector geometry of the references: pattern centre (" << fmt("%.2f", f.geometry.pc_px.x()) << ", "
+      << fmt("%.2f", f.geometry.pc_px.y()) << ") px, distance " << fmt("%.2f", f.geometry.distance_px) << " px ";
+    if (f.pattern_centre_refined)
+      h << "(refined from the given (" << fmt("%.2f", config.geometry.pc_px.x()) << ", "
+        << fmt("%.2f", config.geometry.pc_px.y()) << ") px, " << fmt("%.2f", config.geometry.distance_px)
+        << " px on the mean patterns of " << f.pattern_centre_grains << " grains; model–pattern correlation "
+        << fmt("%.4f", f.pattern_centre_correlation_before) << " → " << fmt("%.4f", f.pattern_centre_correlation_after)
+        << ").</p>\n";
+    else
+      h << (f.pattern_centre_grains > 0 ? "(as given: refining did not improve the match).</p>\n"
+                                        : "(as given).</p>\n");
+  }
   h << "<h2>Provenance</h2><p><code>" << xml_escape(provenance)
     << "</code></p><p>Every parameter and the input hashes "
        "are in <code>summary.json</code>.</p>\n";
