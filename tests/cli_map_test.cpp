@@ -72,6 +72,19 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
   // Step 6 tolerances: area fraction and sub-resolution fraction within ±0.02.
   EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), t["ordered_area_fraction"].get<double>(), 0.02);
   EXPECT_NEAR(s["subresolution_ordered_fraction"].get<double>(), 0.05, 0.02);
+  // Each grain's matrix (tertiary γ′ 5 % everywhere) agrees with the scenario, and the pattern
+  // centre, given right, stays within a few hundredths of a pixel.
+  ASSERT_GE(s["grain_fractions"].size(), 1u);
+  int checked = 0;
+  for (const auto& g : s["grain_fractions"]) {
+    if (g["matrix_points"].get<int>() < 100) continue;
+    EXPECT_NEAR(g["matrix_mean_fraction"].get<double>(), 0.05, 0.02) << "grain " << g["id"];
+    ++checked;
+  }
+  EXPECT_GE(checked, 1);
+  EXPECT_NEAR(s["pattern_centre"]["pc_px"][0].get<double>(), 30.0, 0.05);
+  EXPECT_NEAR(s["pattern_centre"]["pc_px"][1].get<double>(), 18.0, 0.05);
+  EXPECT_NEAR(s["pattern_centre"]["distance_px"].get<double>(), 45.0, 0.05);
   EXPECT_LE(s["ci95"]["low"].get<double>(), s["ordered_area_fraction"].get<double>());
   EXPECT_GE(s["ci95"]["high"].get<double>(), s["ordered_area_fraction"].get<double>());
   EXPECT_EQ(s["points_measured"].get<size_t>(), 1600u);

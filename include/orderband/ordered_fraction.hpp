@@ -84,6 +84,15 @@ struct FamilyDiagnostic {
   std::vector<double> profile_ordered, profile_disordered;  ///< model reference profiles (first grain)
 };
 
+/// One grain's estimates: a check on orientation bias (in a grain without resolved particles, or
+/// in its matrix away from them, f should match the other grains').
+struct GrainFraction {
+  size_t points = 0;         ///< measured points
+  double mean = 0;           ///< mean unclipped f over them
+  size_t matrix_points = 0;  ///< matrix points away from particles (as for the sub-resolution fraction)
+  double matrix_mean = 0, matrix_sd = 0;
+};
+
 struct FractionResults {
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
@@ -93,7 +102,8 @@ struct FractionResults {
   EndMember disordered, ordered;                         ///< found from the scan (mixture of the raw estimates)
   double calibration_offset = 0, calibration_scale = 1;  ///< applied after the model reference
   std::vector<FamilyDiagnostic> families;
-  DetectorGeometrySpec geometry;  ///< the geometry the references were made with (refined PC if accepted)
+  std::vector<GrainFraction> grains;  ///< per grain (index id − 1)
+  DetectorGeometrySpec geometry;      ///< the geometry the references were made with (refined PC if accepted)
   bool pattern_centre_refined = false;
   int pattern_centre_grains = 0;  ///< grains the pattern-centre fit used (0: not run)
   double pattern_centre_correlation_before = 0, pattern_centre_correlation_after = 0;

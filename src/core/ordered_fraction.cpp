@@ -735,6 +735,14 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     r.fraction[k] = std::clamp(r.raw[k], 0.0f, 1.0f);
   }
 
+  // Per grain: every measured point, and the matrix points away from particles (below).
+  r.grains.assign(grains, GrainFraction{});
+  std::vector<double> grain_sum(grains + 1, 0.0), matrix_sum(grains + 1, 0.0), matrix_sq(grains + 1, 0.0);
+  for (size_t k = 0; k < n; ++k) {
+    const int g = ori.grains.id[k];
+    if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    r.grains[g - 1].points += 1, grain_sum[g] += r.raw[k];
+  }
   // Sub-resolution ordering in the matrix away from resolved particles.
   {
     std::map<std::pair<int, int>, std::pair<double, int>> blocks;
@@ -750,6 +758,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       }
       if (near_particle) continue;
       sum += r.raw[k], ++count;
+      if (const int g = ori.grains.id[k]; g > 0)
+        r.grains[g - 1].matrix_points += 1, matrix_sum[g] += r.raw[k], matrix_sq[g] += double(r.raw[k]) * r.raw[k];
       const GridPoint p = grid.point(k);
       auto& b = blocks[{p.row / 4, p.col / 4}];
       b.first += r.raw[k], b.second += 1;
@@ -766,6 +776,15 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       }
       const double nb = static_cast<double>(blocks.size());
       r.subresolution_se = nb > 1 ? std::sqrt(ss / (count * double(count)) * nb / (nb - 1)) : std::nan("");
+    }
+  }
+
+  for (int g = 1; g <= grains; ++g) {
+    GrainFraction& s = r.grains[g - 1];
+    if (s.points) s.mean = grain_sum[g] / s.points;
+    if (s.matrix_points) {
+      s.matrix_mean = matrix_sum[g] / s.matrix_points;
+      s.matrix_sd = std::sqrt(std::max(0.0, matrix_sq[g] / s.matrix_points - s.matrix_mean * s.matrix_mean));
     }
   }
 
