@@ -236,6 +236,9 @@ TEST(OrderedFraction, CobaltAndB2PairsFromTheirCifFilesAlone) {
   for (const std::string pair : {"co", "feal"}) {
     const ScenarioRun r = run_scenario(scenario(kSecondary, 48, 5000, pair));
     EXPECT_EQ(r.orientations.grains.count(), 3) << pair;
+    // In this scan one B2 grain is first indexed 60° about <111> off (a pseudo-symmetric solution
+    // of the body-centred cubic parent) and mapped back by the grain-level check.
+    if (pair == "feal") EXPECT_GE(r.orientations.pseudo_symmetric_grains, 1);
     EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << pair;  // issue Step 6: within ±0.03
   }
 }

@@ -48,6 +48,9 @@ struct OrientationResults {
   std::vector<float> correlation;       ///< model–pattern correlation after refinement (pattern quality)
   GrainMap grains;
   std::vector<float> kam_deg;
+  int pseudo_symmetric_grains = 0;     ///< grains found on a pseudo-symmetric solution and mapped
+  size_t pseudo_symmetric_points = 0;  ///< points of those grains that took the mapped orientation
+  size_t points_joined_to_grain = 0;   ///< points far from their grain's mean that took it
   size_t usable() const;
   size_t with_orientation() const;
 };

@@ -234,6 +234,7 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       }
       if (!op || better * 2 <= static_cast<int>(samples)) continue;
       const Rotation reference = *r.orientation[pts[0]];
+      r.pseudo_symmetric_grains += 1;
       for (size_t k : pts) {
         source->read(k, 1, pat.data());
         if (!pre.apply(pat.data())) continue;
@@ -243,6 +244,7 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
         if (fit.correlation > r.correlation[k]) {
           r.orientation[k] = symmetry.reduce(fit.orientation);
           r.correlation[k] = static_cast<float>(fit.correlation);
+          r.pseudo_symmetric_points += 1;
           changed = true;
         }
       }
@@ -263,6 +265,7 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       if (fit.correlation > r.correlation[k] + 0.02) {
         r.orientation[k] = symmetry.reduce(fit.orientation);
         r.correlation[k] = static_cast<float>(fit.correlation);
+        r.points_joined_to_grain += 1;
         changed = true;
       }
     }

@@ -335,6 +335,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                     {"separation_dprime", f.separation}});
   j["families"] = fams;
   j["grains"] = r.orientations.grains.count();
+  j["grain_checks"] = {{"pseudo_symmetric_grains", r.orientations.pseudo_symmetric_grains},
+                       {"pseudo_symmetric_points", r.orientations.pseudo_symmetric_points},
+                       {"points_joined_to_grain", r.orientations.points_joined_to_grain}};
   j["parameters"] = {
       {"kv", config.kv},
       {"phases", {{"ordered", r.ordered_phase}, {"disordered", r.disordered_phase}}},

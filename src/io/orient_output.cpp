@@ -79,6 +79,9 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
     grains.push_back({{"id", g + 1}, {"points", r.grains.size[g]}, {"mean_euler_deg", {e[0], e[1], e[2]}}});
   }
   j["grains"] = grains;
+  j["grain_checks"] = {{"pseudo_symmetric_grains", r.pseudo_symmetric_grains},
+                       {"pseudo_symmetric_points", r.pseudo_symmetric_points},
+                       {"points_joined_to_grain", r.points_joined_to_grain}};
   j["parameters"] = {
       {"orientation_source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
       {"refine", config.orientations.refine},
