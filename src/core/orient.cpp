@@ -210,7 +210,8 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       const size_t samples = std::min<size_t>(pts.size(), spec.pseudo_symmetry_samples);
       if (samples == 0) continue;
       int better = 0;
-      std::optional<Rotation> op;  // S = g_better · g_current⁻¹, from the sample that gains most
+      std::optional<Rotation> op;         // S = g_better · g_current⁻¹, from the sample that gains most
+      std::optional<Rotation> reference;  // that sample's orientation (S holds for its symmetric variant)
       double best_gain = 0;
       for (size_t i = 0; i < samples; ++i) {
         const size_t k = pts[i * pts.size() / samples];
@@ -228,18 +229,18 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
               symmetry.misorientation_angle(fit.orientation, *r.orientation[k]) < threshold)
             continue;
           ++better;
-          if (gain > best_gain) best_gain = gain, op = fit.orientation * r.orientation[k]->inverse();
+          if (gain > best_gain)
+            best_gain = gain, op = fit.orientation * r.orientation[k]->inverse(), reference = r.orientation[k];
           break;
         }
       }
       if (!op || better * 2 <= static_cast<int>(samples)) continue;
-      const Rotation reference = *r.orientation[pts[0]];
       r.pseudo_symmetric_grains += 1;
       for (size_t k : pts) {
         source->read(k, 1, pat.data());
         if (!pre.apply(pat.data())) continue;
         // S was found for one sample's symmetric variant; bring each point to that variant first.
-        const Rotation start = *op * symmetry.nearest_equivalent(*r.orientation[k], reference);
+        const Rotation start = *op * symmetry.nearest_equivalent(*r.orientation[k], *reference);
         const RefineResult fit = refiner.refine(pat.data(), start);
         if (fit.correlation > r.correlation[k]) {
           r.orientation[k] = symmetry.reduce(fit.orientation);
