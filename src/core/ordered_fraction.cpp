@@ -309,6 +309,13 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   // with the processed model pattern). Every point of the grain then takes the same correction,
   // which keeps its own deviation from the grain mean (intragranular gradients) but removes a
   // bias that fitting the unprocessed model leaves in the orientation stage.
+  // A pure phase's model pattern as the data would show it: detector background, then the
+  // data's processing.
+  auto processed_phase = [&](const DetectorGeometry& geo, const Rotation& g, bool ordered, float* out) {
+    renderer.expected({{g, ordered, 1.0, 0}}, geo, out);
+    for (size_t q = 0; q < source->pixels(); ++q) out[q] *= detector_background[q];
+    model_pre.apply(out);
+  };
   std::vector<Rotation> grain_orientation(grains + 1), correction(grains + 1);
   for (int g = 1; g <= grains; ++g) grain_orientation[g] = ori.grains.mean[g - 1];
   FractionResults r;
@@ -336,9 +343,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     // their orientations) against the processed model: a calibration error of a few tenths of a
     // pixel distorts the model against the data and shifts f by a few hundredths.
     auto processed_model = [&](const DetectorGeometry& geo, const Rotation& g, float* out) {
-      renderer.expected({{g, false, 1.0, 0}}, geo, out);
-      for (size_t q = 0; q < source->pixels(); ++q) out[q] *= detector_background[q];
-      model_pre.apply(out);
+      processed_phase(geo, g, false, out);
     };
     if (spec.refine_pattern_centre) {
       std::vector<int> order;
@@ -398,9 +403,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     std::vector<float> img(source->pixels());
     WindowSignals w[2];
     for (int phase = 0; phase < 2; ++phase) {
-      renderer.expected({{orientation, phase == 1, 1.0, 0}}, geometry, img.data());
-      for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
-      model_pre.apply(img.data());
+      processed_phase(geometry, orientation, phase == 1, img.data());
       std::vector<FamilyProfile>& prof = phase ? ref.profile1 : ref.profile0;
       profiler.profile(img.data(), pre.mask(), rays, orientation, prof);
       w[phase] = window_signals(profiler, prof, spec.windows);
@@ -486,9 +489,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       touching[g2].erase(std::unique(touching[g2].begin(), touching[g2].end()), touching[g2].end());
       if (touching[g2].empty()) continue;
       std::vector<float> img(source->pixels());
-      renderer.expected({{grain_orientation[g2], false, 1.0, 0}}, geometry, img.data());
-      for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
-      model_pre.apply(img.data());
+      processed_phase(geometry, grain_orientation[g2], false, img.data());
       std::vector<FamilyProfile> prof;
       for (int g : touching[g2]) {
         profiler.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);

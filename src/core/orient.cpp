@@ -169,7 +169,18 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
     }
     if (with >= 3 && disagree * 4 >= with * 3) suspects.push_back(k);
   }
+  // The second looks below share one step: point k's pattern refined again from `start`, the
+  // result taken if the model then fits the pattern better by more than `margin`.
   std::vector<float> pattern(px);
+  auto retry_from = [&](size_t k, const Rotation& start, double margin) {
+    source->read(k, 1, pattern.data());
+    if (!pre.apply(pattern.data())) return false;
+    const RefineResult fit = refiner.refine(pattern.data(), start);
+    if (!(fit.correlation > r.correlation[k] + margin)) return false;
+    r.orientation[k] = symmetry.reduce(fit.orientation);
+    r.correlation[k] = static_cast<float>(fit.correlation);
+    return true;
+  };
   for (size_t k : suspects) {
     std::optional<Rotation> consensus;
     int best_votes = 0;
@@ -184,14 +195,7 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       }
       if (votes > best_votes) best_votes = votes, consensus = r.orientation[ja];
     }
-    if (!consensus || best_votes < 3) continue;
-    source->read(k, 1, pattern.data());
-    if (!pre.apply(pattern.data())) continue;
-    const RefineResult fit = refiner.refine(pattern.data(), *consensus);
-    if (fit.correlation > r.correlation[k] + 0.02) {
-      r.orientation[k] = symmetry.reduce(fit.orientation);
-      r.correlation[k] = static_cast<float>(fit.correlation);
-    }
+    if (consensus && best_votes >= 3) retry_from(k, *consensus, 0.02);
   }
   r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
   // Pseudo-symmetric grains: a whole grain can take a solution that fits its patterns well but
@@ -204,7 +208,6 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
     std::vector<std::vector<size_t>> members(r.grains.count() + 1);
     for (size_t k = 0; k < n; ++k)
       if (r.grains.id[k] > 0) members[r.grains.id[k]].push_back(k);
-    std::vector<float> pat(px);
     for (int g = 1; g <= r.grains.count(); ++g) {
       const std::vector<size_t>& pts = members[g];
       const size_t samples = std::min<size_t>(pts.size(), spec.pseudo_symmetry_samples);
@@ -215,15 +218,15 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       double best_gain = 0;
       for (size_t i = 0; i < samples; ++i) {
         const size_t k = pts[i * pts.size() / samples];
-        source->read(k, 1, pat.data());
-        if (!pre.apply(pat.data())) continue;
-        const auto found = indexer.candidates(detector.detect(pat.data()), spec.candidates);
+        source->read(k, 1, pattern.data());
+        if (!pre.apply(pattern.data())) continue;
+        const auto found = indexer.candidates(detector.detect(pattern.data()), spec.candidates);
         std::vector<std::pair<double, size_t>> ranked;
         for (size_t c = 0; c < found.size(); ++c)
-          ranked.emplace_back(refiner.correlation(pat.data(), found[c].orientation, true), c);
+          ranked.emplace_back(refiner.correlation(pattern.data(), found[c].orientation, true), c);
         std::sort(ranked.begin(), ranked.end(), std::greater<>());
         for (size_t j = 0; j < ranked.size() && j < static_cast<size_t>(spec.pseudo_symmetry_candidates); ++j) {
-          const RefineResult fit = refiner.refine(pat.data(), found[ranked[j].second].orientation);
+          const RefineResult fit = refiner.refine(pattern.data(), found[ranked[j].second].orientation);
           const double gain = fit.correlation - r.correlation[k];
           if (gain < spec.pseudo_symmetry_gain ||
               symmetry.misorientation_angle(fit.orientation, *r.orientation[k]) < threshold)
@@ -237,17 +240,9 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
       if (!op || better * 2 <= static_cast<int>(samples)) continue;
       r.pseudo_symmetric_grains += 1;
       for (size_t k : pts) {
-        source->read(k, 1, pat.data());
-        if (!pre.apply(pat.data())) continue;
         // S was found for one sample's symmetric variant; bring each point to that variant first.
-        const Rotation start = *op * symmetry.nearest_equivalent(*r.orientation[k], *reference);
-        const RefineResult fit = refiner.refine(pat.data(), start);
-        if (fit.correlation > r.correlation[k]) {
-          r.orientation[k] = symmetry.reduce(fit.orientation);
-          r.correlation[k] = static_cast<float>(fit.correlation);
-          r.pseudo_symmetric_points += 1;
-          changed = true;
-        }
+        if (retry_from(k, *op * symmetry.nearest_equivalent(*r.orientation[k], *reference), 0.0))
+          r.pseudo_symmetric_points += 1, changed = true;
       }
     }
     if (changed) r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
@@ -256,19 +251,10 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
   // mean is refined from the mean and takes it if the model then fits its pattern better.
   {
     bool changed = false;
-    std::vector<float> pat(px);
     for (size_t k = 0; k < n; ++k) {
       const int g = r.grains.id[k];
       if (g <= 0 || symmetry.misorientation_angle(*r.orientation[k], r.grains.mean[g - 1]) < threshold) continue;
-      source->read(k, 1, pat.data());
-      if (!pre.apply(pat.data())) continue;
-      const RefineResult fit = refiner.refine(pat.data(), r.grains.mean[g - 1]);
-      if (fit.correlation > r.correlation[k] + 0.02) {
-        r.orientation[k] = symmetry.reduce(fit.orientation);
-        r.correlation[k] = static_cast<float>(fit.correlation);
-        r.points_joined_to_grain += 1;
-        changed = true;
-      }
+      if (retry_from(k, r.grains.mean[g - 1], 0.02)) r.points_joined_to_grain += 1, changed = true;
     }
     if (changed) r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
   }
