@@ -59,7 +59,9 @@ int main(int argc, char** argv) {
                 e[e.size() * 95 / 100], e[e.size() * 99 / 100], ori.grains.count());
   }
   const auto t0 = std::chrono::steady_clock::now();
-  const FractionResults fr = ordered_fraction_scan(config, ori);
+  FractionSpec fspec;
+  if (std::getenv("ORDERBAND_BENCH_LEARNED")) fspec.estimator = FractionEstimator::learned;
+  const FractionResults fr = ordered_fraction_scan(config, ori, fspec);
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   const NpyArray truth = read_npy(dir + "/scan/truth_fraction.npy");
   const ScanGrid& grid = config.grid;

@@ -8,6 +8,7 @@
 
 #include "orderband/band_profile.hpp"
 #include "orderband/detector_geometry.hpp"
+#include "orderband/learned_fraction.hpp"
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
 #include "orderband/row_store.hpp"
@@ -37,7 +38,8 @@ struct PointRect {
 
 /// How the superlattice profiles are combined into one number per point.
 enum class FractionEstimator {
-  profile,  ///< matched filter over every profile bin of the superlattice families (default)
+  profile,  ///< model-led matched filter over every profile bin of the superlattice families (default)
+  learned,  ///< data-led: the response to ordering learned from the scan (learned_fraction.hpp)
   windows,  ///< off-peak windows only: band interior minus flanks per family
 };
 
@@ -47,6 +49,8 @@ struct FractionSpec {
   double d_min_A = 0.8;
   int fundamental_families = 4;  ///< strongest fundamental families used for the contrast normalisation
   ProfileSpec profile;
+  ProfileSpec learned_profile{2.5, 0.25};  ///< the learned estimator's features: coarser bins, fewer unknowns
+  LearnedSpec learned;
   WindowSpec windows;
   EndMemberMode end_members = EndMemberMode::model;
   /// Orientation uncertainty (radians) whose effect on the profiles down-weights the bins where
@@ -82,6 +86,9 @@ struct FamilyDiagnostic {
   double ordered_level = 0, disordered_level = 0;           ///< model window signal, scan mean over grains
   std::vector<double> profile_u;                            ///< bin centres (θ_B units)
   std::vector<double> profile_ordered, profile_disordered;  ///< model reference profiles (first grain)
+  /// Learned estimator: the ordered − disordered profile difference learned from the scan (bin
+  /// centres in learned_u, θ_B units; linear preprocessing, relative intensity units).
+  std::vector<double> learned_u, learned_difference;
 };
 
 /// One grain's estimates: a check on orientation bias (in a grain without resolved particles, or
@@ -94,6 +101,11 @@ struct GrainFraction {
 };
 
 struct FractionResults {
+  std::string estimator = "profile";  ///< "learned", "profile" or "windows"
+  bool two_phases = true;             ///< learned: a second component was found (false: one phase)
+  bool single_phase_ordered = false;  ///< learned, one phase: it is the ordered one
+  double learned_separation = 0;      ///< learned: d′ of the two components (cross-fitted scores)
+  int learned_iterations = 0;
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
   std::vector<float> uncertainty;    ///< per point, standard error of the estimate

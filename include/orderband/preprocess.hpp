@@ -36,13 +36,17 @@ struct PreprocessSpec {
   /// steps, over the point and its neighbours (8 on square grids, 6 on
   /// hexagonal ones). 0: off.
   double neighbour_sigma_steps = 0;
+  /// Step 4 divides by the standard deviation (true) or only subtracts the mean (false). Without
+  /// the division a pattern stays linear in the mixture of phases under the beam (the standard
+  /// deviation depends on the band contrast, which depends on the phase): the fraction stage.
+  bool unit_variance = true;
 };
 
 /// Per-pattern preprocessing, in this order:
 /// 1. hot-pixel filter (optional);
 /// 2. static background: divide by the background normalised to mean 1;
 /// 3. dynamic background: divide by the pattern's own Gaussian blur;
-/// 4. normalise inside the mask to zero mean and unit variance (0 outside).
+/// 4. normalise inside the mask to zero mean and unit variance (0 outside; see unit_variance).
 /// Division (not subtraction) because the smooth background multiplies the
 /// band contrast. A pattern with no variation inside the mask is unusable.
 class Preprocessor {
@@ -92,7 +96,7 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
 /// renormalised inside the mask. Writes row r into `out`.
 void neighbour_average_row(const ScanGrid& grid, double sigma_steps, int row, const float* const rows[3],
                            const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
-                           uint8_t* out_usable);
+                           uint8_t* out_usable, bool unit_variance = true);
 
 /// Streams preprocessed scan rows with bounded memory (three rows of
 /// patterns plus one output row), neighbour-averaged if the spec asks.

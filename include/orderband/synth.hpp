@@ -1,6 +1,7 @@
 // Synthetic scans: scenario, per-point phase mixtures, kinematic pattern rendering and truth.
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <functional>
 #include <string>
@@ -13,6 +14,30 @@
 #include "orderband/scan_config.hpp"
 
 namespace orderband {
+
+/// Background shapes of the renderer (the smooth detector background the bands sit on).
+enum class BackgroundShape {
+  quadratic,  ///< brightest a little above the pattern centre, 1 − falloff · r² (r = 1 at the far corner)
+  gaussian,   ///< 1 − falloff · (1 − exp(−r²/(2 · 0.35²))) / (1 − exp(−1/(2 · 0.35²))): a flatter top, steeper sides
+  linear,     ///< a tilted plane: 1 − falloff · (0.8 · y + 0.2 · x), x, y from 0 to 1 across the screen
+};
+
+/// Renderer variants of the model-mismatch suite: how the synthetic patterns differ from the
+/// estimator's band model. The fraction stage is never told any of these; scans made with them
+/// test that its accuracy does not rest on the model's intensities.
+struct RendererVariant {
+  BackgroundShape background = BackgroundShape::quadratic;
+  double detector_gamma = 1;             ///< detector response: counts ∝ (B · I)^gamma
+  double family_contrast_spread = 0;     ///< each family's weight × (1 + spread · U(−1, 1)), the same in both phases
+  std::uint64_t family_contrast_seed = 1;
+  double ordered_fundamental_ratio = 1;  ///< the ordered phase's fundamental band weights relative to the disordered's
+  /// Edge contrast of the ordered phase's fundamental bands (NaN: the band model's): an
+  /// ordering-dependent change of fundamental-band profiles, as dynamical patterns show.
+  double ordered_fundamental_edge_contrast = std::nan("");
+  double lattice_misfit = 0;   ///< relative change of the ordered phase's lattice parameters
+  double beam_elongation = 1;  ///< beam footprint σ along y_S over σ along x_S (1/cos tilt ≈ 2.9 at 70°)
+  Eigen::Vector3d pc_error_px = Eigen::Vector3d::Zero();  ///< rendering PC x, y and distance minus the recorded ones
+};
 
 /// Everything a synthetic scan is made from (read from a scenario TOML file).
 struct SynthScenario {
@@ -30,6 +55,7 @@ struct SynthScenario {
   double beam_sigma_nm = 10;        ///< Gaussian beam-interaction blur in the scan plane; 0: none
   double background_falloff = 0.5;  ///< background: 1 − falloff at the far corners relative to the bright centre
   bool pc_drift = false;            ///< render with the PC drifting across the scan (needs screen_pixel_um)
+  RendererVariant variant;
   MicrostructureSpec micro;
   bool scan_uses_truth_orientations = false;  ///< the written scan.toml reads truth_orientations.csv
 };
@@ -52,7 +78,13 @@ struct MixtureComponent {
 /// grid of offsets spaced σ apart (weights exp(−r²/2σ²)), each offset taking
 /// the microstructure there (matrix: 1 − f_t disordered + f_t ordered with the
 /// host grain's orientation; particle: ordered with its own orientation).
-std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um, double beam_sigma_um);
+/// With two σ the footprint is elliptical: σ_x along the scan columns (the tilt axis), σ_y along the rows.
+std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um, double beam_sigma_x_um,
+                                            double beam_sigma_y_um);
+inline std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um,
+                                                   double beam_sigma_um) {
+  return point_mixture(m, p_um, beam_sigma_um, beam_sigma_um);
+}
 
 /// Renders patterns from the kinematic band model (see band_model.hpp):
 /// expected counts = counts_per_px · B(pixel) · Σ_c w_c I_c(g_c v), with B a
@@ -61,7 +93,8 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
 class PatternRenderer {
  public:
   PatternRenderer(const DetectorGeometry& geometry, const KinematicBandModel& ordered,
-                  const KinematicBandModel& disordered, double counts_per_px, double background_falloff);
+                  const KinematicBandModel& disordered, double counts_per_px, double background_falloff,
+                  BackgroundShape background_shape = BackgroundShape::quadratic, double detector_gamma = 1);
   /// Expected counts (no noise) for a mixture, with the geometry given (PC drift).
   void expected(const std::vector<MixtureComponent>& mix, const DetectorGeometry& geometry, float* out) const;
   /// Expected counts then Poisson noise from `seed`, clipped to the sample type's range.
@@ -72,7 +105,7 @@ class PatternRenderer {
  private:
   const KinematicBandModel& ordered_;
   const KinematicBandModel& disordered_;
-  double counts_;
+  double counts_, gamma_ = 1;
   int width_, height_, sub_;
   std::vector<float> background_;  ///< mean 1 over the stored pattern
 };
@@ -92,7 +125,20 @@ struct SynthTruth {
 };
 
 /// Truth maps and statistics (fine raster: 4 × 4 samples per point).
-SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_um);
+SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_x_um, double beam_sigma_y_um);
+inline SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_um) {
+  return compute_truth(m, grid, beam_sigma_um, beam_sigma_um);
+}
+
+/// Band models of both phases as a scenario renders them: the scenario's band parameters with
+/// every renderer variant applied (misfit, per-family contrasts, ordered fundamental bands).
+struct RenderModels {
+  KinematicBandModel ordered, disordered;
+};
+RenderModels render_models(const SynthScenario& scenario, const OrderingPair& pair);
+
+/// The geometry the patterns are rendered with (the recorded one plus the variant's PC error).
+DetectorGeometrySpec render_geometry(const SynthScenario& scenario);
 
 using SynthProgress = std::function<void(size_t done, size_t total)>;
 

@@ -1,6 +1,7 @@
 // The kinematic band model.
 #include "orderband/band_model.hpp"
 
+#include <algorithm>
 #include <cmath>
 
 #include "orderband/electron.hpp"
@@ -14,6 +15,7 @@ KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const Band
   if (!(params.band_contrast >= 0)) fail("band contrast must be >= 0, got ", params.band_contrast);
   if (!(params.band_exponent > 0)) fail("band exponent must be positive, got ", params.band_exponent);
   if (!(params.edge_width > 0)) fail("band edge width must be positive, got ", params.edge_width);
+  if (!(std::abs(params.edge_asymmetry) <= 1)) fail("edge asymmetry must be within [-1, 1], got ", params.edge_asymmetry);
   const double lambda = electron_wavelength_A(kv);
   double f_max = 0;
   for (const PlaneFamily& fam : enumerate_plane_families(phase, params.d_min_A)) {
@@ -25,27 +27,65 @@ KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const Band
       bands_.push_back({n.vec(), m.theta_b, 0.0, static_cast<int>(families_.size() - 1)});
   }
   if (!(f_max > 0)) fail(phase.source, ": no diffracting plane family with d >= ", params.d_min_A, " A");
-  for (ModelFamily& m : families_)
+  for (ModelFamily& m : families_) {
     m.weight = m.f_abs_A > 1e-6 * f_max ? params.band_contrast * std::pow(m.f_abs_A / f_max, params.band_exponent) : 0;
+    m.edge_contrast = params.edge_contrast;
+  }
   std::vector<ModelBand> kept;
   for (ModelBand& b : bands_) {
     b.weight = families_[b.family].weight;
     if (b.weight > 0) kept.push_back(b);
   }
   bands_ = std::move(kept);
-  // Beyond |u| = 1 + 6e both the step and the edge line are below 1e-5 of the weight.
+  // Beyond the reach both the band and its edge lines are below 1e-5 of the weight.
+  reach_ = 1 + 6 * params_.edge_width;
+  if (params_.shape == BandShape::gaussian) reach_ = std::max(reach_, 5 * 0.8);
   for (const ModelBand& b : bands_) sin_reach_.push_back(std::sin(b.theta_b * profile_reach()));
-  const int entries = 4096;
-  table_scale_ = entries / profile_reach();
-  table_.resize(entries + 1);
-  for (int k = 0; k <= entries; ++k) table_[k] = profile(k / table_scale_);
+  build_tables();
 }
 
-double KinematicBandModel::profile(double u) const {
+void KinematicBandModel::build_tables() {
+  // One table per distinct edge contrast (table 0: the params' own).
+  const int entries = 8192;
+  table_scale_ = entries / (2 * reach_);
+  std::vector<double> contrasts{params_.edge_contrast};
+  for (ModelFamily& m : families_) {
+    const auto it = std::find(contrasts.begin(), contrasts.end(), m.edge_contrast);
+    m.table = static_cast<int>(it - contrasts.begin());
+    if (it == contrasts.end()) contrasts.push_back(m.edge_contrast);
+  }
+  tables_.assign(contrasts.size(), std::vector<double>(entries + 1));
+  for (size_t t = 0; t < contrasts.size(); ++t)
+    for (int k = 0; k <= entries; ++k) tables_[t][k] = profile(-reach_ + k / table_scale_, contrasts[t]);
+}
+
+void KinematicBandModel::adjust_family(size_t family, double weight_factor, double edge_contrast) {
+  if (family >= families_.size()) fail("band model: no family ", family);
+  if (!(weight_factor >= 0)) fail("band model: family weight factor must be >= 0, got ", weight_factor);
+  families_[family].weight *= weight_factor;
+  families_[family].edge_contrast = edge_contrast;
+  for (ModelBand& b : bands_)
+    if (b.family == static_cast<int>(family)) b.weight = families_[family].weight;
+  build_tables();
+}
+
+double KinematicBandModel::profile(double u, double edge_contrast) const {
   const double e = params_.edge_width;
   const double a = std::abs(u);
-  const double step = 0.5 * (1 + std::tanh((1 - a) / e));
-  const double edge = params_.edge_contrast * std::exp(-(a - 1) * (a - 1) / (2 * e * e));
+  double step = 0;
+  switch (params_.shape) {
+    case BandShape::soft:
+      step = 0.5 * (1 + std::tanh((1 - a) / e));
+      break;
+    case BandShape::flat:
+      step = a < 1 ? 1.0 : (a == 1 ? 0.5 : 0.0);
+      break;
+    case BandShape::gaussian:
+      step = std::exp(-a * a / (2 * 0.8 * 0.8));
+      break;
+  }
+  const double side = 1 + params_.edge_asymmetry * (u > 0 ? 1 : (u < 0 ? -1 : 0));
+  const double edge = edge_contrast * side * std::exp(-(a - 1) * (a - 1) / (2 * e * e));
   return step + edge;
 }
 
@@ -54,7 +94,7 @@ double KinematicBandModel::intensity(const Eigen::Vector3d& x) const {
   for (size_t k = 0; k < bands_.size(); ++k) {
     const double s = bands_[k].normal.dot(x);
     if (std::abs(s) >= sin_reach_[k]) continue;
-    sum += bands_[k].weight * profile(std::asin(s) / bands_[k].theta_b);
+    sum += bands_[k].weight * profile(std::asin(s) / bands_[k].theta_b, families_[bands_[k].family].edge_contrast);
   }
   return sum;
 }

@@ -9,6 +9,7 @@
 #include <Eigen/Dense>
 
 #include "orderband/error.hpp"
+#include "orderband/learned_fraction.hpp"
 #include "orderband/grains.hpp"
 #include "orderband/laue_group.hpp"
 #include "orderband/pair_catalog.hpp"
@@ -568,6 +569,162 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     return out;
   };
 
+  struct {
+    std::vector<std::string> label;
+    std::vector<std::vector<double>> difference;
+    std::vector<double> u;
+  } learned_families;
+  // The data-led estimator (learned_fraction.hpp): features are the crystal-frame profiles of
+  // every chosen family binned with the grain's orientation, the zero comes from the clean
+  // superlattice windows, the model gives only geometry and a first guess of the scale.
+  auto learned_estimate = [&](FractionResults& res) {
+    const BandProfiler features(pf, spec.learned_profile);
+    const size_t bins = static_cast<size_t>(features.bins()), p = nf * bins;
+    PreprocessSpec linear_spec = config.preprocess;
+    linear_spec.unit_variance = false;
+    const Preprocessor pre_linear(linear_spec, source->width(), source->height(), data_static);
+    PreprocessSpec linear_model_spec = model_spec;
+    linear_model_spec.unit_variance = false;
+    const Preprocessor model_linear(linear_model_spec, source->width(), source->height(), data_static);
+
+    // The model's first guess per grain: both phases' features, processed like the data; a point's
+    // guess is its superlattice profile shapes (each family's mean over bins removed) projected on
+    // the model's difference.
+    std::vector<std::array<std::vector<double>, 2>> model_features(grains + 1);
+#pragma omp parallel for schedule(dynamic)
+    for (int g = 1; g <= grains; ++g) {
+      std::vector<float> img(source->pixels());
+      std::vector<FamilyProfile> prof;
+      for (int phase = 0; phase < 2; ++phase) {
+        renderer.expected({{grain_orientation[g], phase == 1, 1.0, 0}}, geometry, img.data());
+        for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
+        model_linear.apply(img.data());
+        features.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
+        model_features[g][phase].assign(p, std::nan(""));
+        for (size_t f = 0; f < nf; ++f)
+          for (size_t b = 0; b < bins; ++b)
+            if (prof[f].weight[b] > 0) model_features[g][phase][f * bins + b] = prof[f].mean(b);
+      }
+    }
+    auto first_guess = [&](int g, const float* x) {
+      double num = 0, den = 0;
+      for (size_t f = 0; f < first_fundamental; ++f) {
+        double mx = 0, m0 = 0, m1 = 0, c = 0;
+        for (size_t b = 0; b < bins; ++b) {
+          const size_t i = f * bins + b;
+          if (std::isnan(x[i]) || std::isnan(model_features[g][0][i])) continue;
+          mx += x[i], m0 += model_features[g][0][i], m1 += model_features[g][1][i], c += 1;
+        }
+        if (c < 2) continue;
+        mx /= c, m0 /= c, m1 /= c;
+        for (size_t b = 0; b < bins; ++b) {
+          const size_t i = f * bins + b;
+          if (std::isnan(x[i]) || std::isnan(model_features[g][0][i])) continue;
+          const double d = (model_features[g][1][i] - m1) - (model_features[g][0][i] - m0);
+          num += d * ((x[i] - mx) - (model_features[g][0][i] - m0)), den += d * d;
+        }
+      }
+      return den > 0 ? num / den : std::nan("");
+    };
+
+    LearnedInputs in;
+    in.points = n, in.features = p, in.grains = grains;
+    in.grain.assign(n, 0);
+    in.fold.assign(n, 0);
+    in.x.assign(n * p, std::nanf(""));
+    in.first_guess.assign(n, std::nan(""));
+    for (size_t k = 0; k < n; ++k) {
+      const GridPoint pt = grid.point(k);
+      in.fold[k] = static_cast<uint8_t>((pt.row / 4 + pt.col / 4) % 2);
+    }
+    PreprocessedRows linear_rows(*source, grid, pre_linear);
+    for_each_scan_row(
+        linear_rows, grid, store, "fraction-learned", progress,
+        [&](int row, ByteReader& bytes) {
+          for (int col = 0; col < grid.cols; ++col) {
+            const size_t k = grid.index({row, col});
+            res.reason[k] = bytes.get<uint8_t>();
+            res.band_contrast[k] = bytes.get<float>();
+            for (size_t b = 0; b < p; ++b) in.x[k * p + b] = bytes.get<float>();
+          }
+        },
+        [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
+#pragma omp parallel
+          {
+            std::vector<FamilyProfile> prof;
+#pragma omp for schedule(dynamic)
+            for (int col = 0; col < grid.cols; ++col) {
+              const size_t k = grid.index({row, col});
+              const int g = ori.grains.id[k];
+              if (!usable[col]) {
+                res.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
+                continue;
+              }
+              if (!ori.orientation[k] || g <= 0) {
+                res.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
+                continue;
+              }
+              const float* pattern = patterns.data() + static_cast<size_t>(col) * source->pixels();
+              features.profile(pattern, pre.mask(), rays, grain_orientation[g], prof);
+              for (size_t f = 0; f < nf; ++f)
+                for (size_t b = 0; b < bins; ++b)
+                  if (prof[f].weight[b] > 0) in.x[k * p + f * bins + b] = static_cast<float>(prof[f].mean(b));
+              // Pattern quality: the strongest fundamental band's interior over its flanks.
+              const FamilyWindows fw = features.windows(prof[first_fundamental], spec.windows);
+              res.band_contrast[k] = static_cast<float>(fw.interior.mean - fw.flanks.mean);
+            }
+          }
+        },
+        [&](int row, ByteWriter& bytes) {
+          for (int col = 0; col < grid.cols; ++col) {
+            const size_t k = grid.index({row, col});
+            bytes.put<uint8_t>(res.reason[k]);
+            bytes.put<float>(res.band_contrast[k]);
+            for (size_t b = 0; b < p; ++b) bytes.put<float>(in.x[k * p + b]);
+          }
+        });
+    for (size_t k = 0; k < n; ++k)
+      if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
+        in.grain[k] = ori.grains.id[k];
+        in.first_guess[k] = first_guess(in.grain[k], in.x.data() + k * p);
+      }
+    const LearnedFraction lf = learn_fraction(in, spec.learned);
+    for (size_t k = 0; k < n; ++k) {
+      if (res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      if (std::isnan(lf.f[k])) {
+        res.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+        continue;
+      }
+      res.raw[k] = lf.f[k];
+      res.uncertainty[k] = lf.uncertainty[k];
+    }
+    res.estimator = "learned";
+    res.two_phases = lf.two_phases;
+    res.single_phase_ordered = lf.single_phase_ordered;
+    res.learned_separation = lf.separation;
+    res.learned_iterations = lf.iterations_run;
+    // End members as found: the points on either side of one half.
+    double sum[2] = {0, 0}, sq[2] = {0, 0}, cnt[2] = {0, 0};
+    for (size_t k = 0; k < n; ++k) {
+      if (res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      const int c = res.raw[k] >= 0.5;
+      sum[c] += res.raw[k], sq[c] += double(res.raw[k]) * res.raw[k], cnt[c] += 1;
+    }
+    const double total = cnt[0] + cnt[1];
+    for (int c = 0; c < 2; ++c) {
+      EndMember& e = c ? res.ordered : res.disordered;
+      if (cnt[c] > 0)
+        e.mean = sum[c] / cnt[c], e.sd = std::sqrt(std::max(0.0, sq[c] / cnt[c] - e.mean * e.mean)),
+        e.weight = cnt[c] / total;
+    }
+    learned_families.label.clear();
+    if (lf.difference.size() == nf * bins)
+      for (size_t f = 0; f < nf; ++f)
+        learned_families.difference.emplace_back(lf.difference.begin() + f * bins,
+                                                  lf.difference.begin() + (f + 1) * bins);
+    for (size_t b = 0; b < bins; ++b) learned_families.u.push_back(features.bin_centre_u(static_cast<int>(b)));
+  };
+
   r.fraction.assign(n, std::nanf(""));
   r.raw.assign(n, std::nanf(""));
   r.uncertainty.assign(n, std::nanf(""));
@@ -576,8 +733,12 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   std::vector<double> sep_num(nf, 0.0), sep_den(nf, 0.0);
 
   const size_t px = source->pixels();
-  PreprocessedRows rows(*source, grid, pre);
+  const bool learned = spec.estimator == FractionEstimator::learned;
   std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);  // this row's family separations
+  if (learned) {
+    learned_estimate(r);
+  } else {
+  PreprocessedRows rows(*source, grid, pre);
   for_each_scan_row(
       rows, grid, store, "fraction", progress,
       [&](int row, ByteReader& in) {
@@ -693,15 +854,15 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         }
         for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
       });
+  }
 
   // End members from the scan: a two-component mixture of the raw estimates.
   std::vector<double> values;
   for (size_t k = 0; k < n; ++k)
     if (r.reason[k] == static_cast<uint8_t>(FractionReason::ok)) values.push_back(r.raw[k]);
   const auto mix = two_component_mixture(values);
-  r.disordered = mix[0];
-  r.ordered = mix[1];
-  if (spec.end_members == EndMemberMode::mixture) {
+  if (!learned) r.disordered = mix[0], r.ordered = mix[1];
+  if (spec.end_members == EndMemberMode::mixture && !learned) {
     if (mix[1].mean - mix[0].mean < 0.3 || mix[0].weight < 0.02 || mix[1].weight < 0.02)
       fail("fraction: the scan does not show two separated phases (mixture means ", mix[0].mean, " and ", mix[1].mean,
            "); use the model end members or reference regions");
@@ -819,6 +980,10 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         d.profile_disordered.push_back(refs[largest].profile0[f].mean(b));
         d.profile_ordered.push_back(refs[largest].profile1[f].mean(b));
       }
+    }
+    if (learned && f < learned_families.difference.size()) {
+      d.learned_u = learned_families.u;
+      d.learned_difference = learned_families.difference[f];
     }
     r.families.push_back(std::move(d));
   }

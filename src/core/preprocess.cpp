@@ -112,7 +112,7 @@ bool Preprocessor::apply(float* p) const {
     std::fill(p, p + n, 0.0f);
     return false;
   }
-  const double inv_sd = 1.0 / std::sqrt(var);
+  const double inv_sd = spec_.unit_variance ? 1.0 / std::sqrt(var) : 1.0;
   for (size_t q = 0; q < n; ++q) p[q] = mask_[q] ? static_cast<float>((p[q] - mean) * inv_sd) : 0.0f;
   return true;
 }
@@ -152,7 +152,7 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
 
 void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const float* const rows[3],
                            const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
-                           uint8_t* out_usable) {
+                           uint8_t* out_usable, bool unit_variance) {
 #pragma omp parallel for schedule(static)
   for (int col = 0; col < grid.cols; ++col) {
     float* dst = out + static_cast<size_t>(col) * pixels;
@@ -181,7 +181,7 @@ void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const fl
       if (mask[q]) sum += v, sum2 += v * v, ++count;
     }
     const double mean = sum / count, var = sum2 / count - mean * mean;
-    const double inv_sd = var > 0 ? 1.0 / std::sqrt(var) : 0.0;
+    const double inv_sd = !unit_variance ? 1.0 : (var > 0 ? 1.0 / std::sqrt(var) : 0.0);
     for (size_t q = 0; q < pixels; ++q) dst[q] = mask[q] ? static_cast<float>((dst[q] - mean) * inv_sd) : 0.0f;
   }
 }
@@ -234,7 +234,7 @@ bool PreprocessedRows::next(std::vector<float>& patterns, std::vector<uint8_t>& 
   patterns.resize(static_cast<size_t>(grid_.cols) * source_.pixels());
   usable.resize(grid_.cols);
   neighbour_average_row(grid_, pre_.spec().neighbour_sigma_steps, r, rows, flags, pre_.mask(), source_.pixels(),
-                        patterns.data(), usable.data());
+                        patterns.data(), usable.data(), pre_.spec().unit_variance);
   return true;
 }
 

@@ -10,7 +10,8 @@
 
 namespace orderband {
 
-std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p, double sigma_um) {
+std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p, double sigma_x_um,
+                                            double sigma_y_um) {
   std::map<std::pair<int, bool>, MixtureComponent> acc;
   auto add = [&](const Eigen::Vector2d& x, double w) {
     const MicrostructureSample s = m.at(x);
@@ -32,14 +33,14 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
       c.orientation = g, c.ordered = true, c.key = s.grain, c.weight += w * ft;
     }
   };
-  if (sigma_um <= 0) {
+  if (sigma_x_um <= 0 && sigma_y_um <= 0) {
     add(p, 1.0);
   } else {
     double total = 0;
     for (int a = -2; a <= 2; ++a)
       for (int b = -2; b <= 2; ++b) total += std::exp(-0.5 * (a * a + b * b));
     for (int a = -2; a <= 2; ++a)
-      for (int b = -2; b <= 2; ++b) add(p + sigma_um * Eigen::Vector2d(a, b), std::exp(-0.5 * (a * a + b * b)) / total);
+      for (int b = -2; b <= 2; ++b) add(p + Eigen::Vector2d(sigma_x_um * a, sigma_y_um * b), std::exp(-0.5 * (a * a + b * b)) / total);
   }
   std::vector<MixtureComponent> out;
   for (auto& [k, c] : acc) out.push_back(c);
@@ -47,9 +48,11 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
 }
 
 PatternRenderer::PatternRenderer(const DetectorGeometry& geometry, const KinematicBandModel& ordered,
-                                 const KinematicBandModel& disordered, double counts_per_px, double falloff)
-    : ordered_(ordered), disordered_(disordered), counts_(counts_per_px) {
+                                 const KinematicBandModel& disordered, double counts_per_px, double falloff,
+                                 BackgroundShape shape, double gamma)
+    : ordered_(ordered), disordered_(disordered), counts_(counts_per_px), gamma_(gamma) {
   if (!(counts_per_px > 0)) fail("counts per pixel must be positive, got ", counts_per_px);
+  if (!(gamma > 0.2 && gamma < 5)) fail("detector gamma must be within (0.2, 5), got ", gamma);
   if (!(falloff >= 0 && falloff < 1)) fail("background falloff must be within [0, 1), got ", falloff);
   width_ = geometry.width();
   height_ = geometry.height();
@@ -65,7 +68,14 @@ PatternRenderer::PatternRenderer(const DetectorGeometry& geometry, const Kinemat
   for (int i = 0; i < height_; ++i)
     for (int j = 0; j < width_; ++j) {
       const double r = (Eigen::Vector2d(j + 0.5, i + 0.5) - centre).norm() / r_max;
-      sum += background_[static_cast<size_t>(i) * width_ + j] = static_cast<float>(1 - falloff * r * r);
+      double b = 1 - falloff * r * r;
+      if (shape == BackgroundShape::gaussian) {
+        const double s2 = 2 * 0.35 * 0.35;
+        b = 1 - falloff * (1 - std::exp(-r * r / s2)) / (1 - std::exp(-1 / s2));
+      } else if (shape == BackgroundShape::linear) {
+        b = 1 - falloff * (0.8 * (i + 0.5) / height_ + 0.2 * (j + 0.5) / width_);
+      }
+      sum += background_[static_cast<size_t>(i) * width_ + j] = static_cast<float>(b);
     }
   for (float& b : background_) b = static_cast<float>(b * background_.size() / sum);
 }
@@ -96,10 +106,11 @@ void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const D
       const float reach = static_cast<float>(std::sin(band.theta_b * model.profile_reach()));
       for (size_t k = 0; k < m; ++k) dot[k] = nx * dx[k] + ny * dy[k] + nz * dz[k];
       const double w = c.weight * band.weight, inv_theta = 1.0 / band.theta_b;
+      const int table = model.families()[band.family].table;
       for (size_t k = 0; k < m; ++k)
         if (std::abs(dot[k]) < reach) {
-          const double x = dot[k];  // |x| < 0.06: asin x = x + x³/6 to better than 1e-8
-          acc[k] += w * model.profile_table((x + x * x * x / 6) * inv_theta);
+          const double x = dot[k];  // |x| < 0.07: asin x = x + x³/6 to better than 1e-8
+          acc[k] += w * model.profile_table((x + x * x * x / 6) * inv_theta, table);
         }
     }
   }
@@ -108,7 +119,8 @@ void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const D
   for (size_t p = 0; p < n; ++p) {
     double v = 0;
     for (int s = 0; s < ss; ++s) v += acc[p * ss + s];
-    out[p] = static_cast<float>(counts_ * background_[p] * (total_weight + v / ss));
+    const double signal = background_[p] * (total_weight + v / ss);
+    out[p] = static_cast<float>(counts_ * (gamma_ == 1 ? signal : std::pow(std::max(signal, 0.0), gamma_)));
   }
 }
 
@@ -126,7 +138,7 @@ void PatternRenderer::render(const std::vector<MixtureComponent>& mix, const Det
   }
 }
 
-SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_um) {
+SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_x_um, double beam_sigma_y_um) {
   SynthTruth t;
   const size_t n = grid.count();
   t.ordered_fraction.resize(n);
@@ -137,7 +149,7 @@ SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double b
   for (size_t k = 0; k < n; ++k) {
     const Eigen::Vector2d p = grid.position_um(grid.point(k));
     double f = 0;
-    for (const MixtureComponent& c : point_mixture(m, p, beam_sigma_um)) f += c.ordered ? c.weight : 0.0;
+    for (const MixtureComponent& c : point_mixture(m, p, beam_sigma_x_um, beam_sigma_y_um)) f += c.ordered ? c.weight : 0.0;
     t.ordered_fraction[k] = static_cast<float>(f);
     const MicrostructureSample s = m.at(p);
     // The lattice the point carries: its grain's, a coherent particle's host grain's, or, for a
@@ -185,6 +197,52 @@ SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double b
   t.primary_mean_ecd_um = count[0] ? ecd[0] / count[0] : 0;
   t.secondary_mean_ecd_um = count[1] ? ecd[1] / count[1] : 0;
   return t;
+}
+
+RenderModels render_models(const SynthScenario& s, const OrderingPair& pair) {
+  const RendererVariant& v = s.variant;
+  Phase ordered_phase = pair.ordered;
+  if (v.lattice_misfit != 0) {
+    const UnitCell& c = ordered_phase.cell;
+    const double k = 1 + v.lattice_misfit;
+    ordered_phase.cell = UnitCell(c.a_A * k, c.b_A * k, c.c_A * k, c.alpha_deg, c.beta_deg, c.gamma_deg);
+  }
+  RenderModels models{KinematicBandModel(ordered_phase, s.kv, s.band),
+                      KinematicBandModel(pair.disordered, s.kv, s.band)};
+  // Which families are superlattice families (by the pair's sensitivity, as the estimator
+  // decides it): the ordered phase's other families are its fundamental ones.
+  std::vector<Eigen::Vector3i> superlattice;
+  for (const PairFamily& f : pair_family_table(pair, s.kv, s.band.d_min_A))
+    if (f.sensitivity >= 0.5) superlattice.push_back(f.family.hkl);
+  auto factor_of = [&](const Eigen::Vector3i& hkl) {
+    if (v.family_contrast_spread == 0) return 1.0;
+    // A per-family factor that depends only on the family and the seed: the same in both phases.
+    std::uint64_t h = v.family_contrast_seed * 0x9E3779B97F4A7C15ULL;
+    for (int i = 0; i < 3; ++i) h = (h ^ static_cast<std::uint64_t>(hkl[i] + 1000)) * 0x100000001B3ULL;
+    std::mt19937_64 rng(h);
+    return 1 + v.family_contrast_spread * std::uniform_real_distribution<double>(-1, 1)(rng);
+  };
+  for (int phase = 0; phase < 2; ++phase) {
+    KinematicBandModel& model = phase ? models.ordered : models.disordered;
+    for (size_t f = 0; f < model.families().size(); ++f) {
+      const ModelFamily& fam = model.families()[f];
+      double factor = factor_of(fam.hkl), edge = fam.edge_contrast;
+      const bool fundamental = std::find(superlattice.begin(), superlattice.end(), fam.hkl) == superlattice.end();
+      if (phase == 1 && fundamental) {
+        factor *= v.ordered_fundamental_ratio;
+        if (!std::isnan(v.ordered_fundamental_edge_contrast)) edge = v.ordered_fundamental_edge_contrast;
+      }
+      if (factor != 1 || edge != fam.edge_contrast) model.adjust_family(f, factor, edge);
+    }
+  }
+  return models;
+}
+
+DetectorGeometrySpec render_geometry(const SynthScenario& s) {
+  DetectorGeometrySpec g = s.geometry;
+  g.pc_px += s.variant.pc_error_px.head<2>();
+  g.distance_px += s.variant.pc_error_px.z();
+  return g;
 }
 
 }  // namespace orderband

@@ -359,7 +359,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},
         {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
       {"fraction",
-       {{"estimator", options.fraction.estimator == FractionEstimator::profile ? "profile" : "windows"},
+       {{"estimator", options.fraction.estimator == FractionEstimator::learned   ? "learned"
+                       : options.fraction.estimator == FractionEstimator::profile ? "profile"
+                                                                                    : "windows"},
         {"sensitivity_threshold", options.fraction.sensitivity_threshold},
         {"d_min_A", options.fraction.d_min_A},
         {"profile_u_max", options.fraction.profile.u_max},

@@ -69,6 +69,66 @@ std::uint64_t point_seed(std::uint64_t seed, size_t index) {
 
 }  // namespace
 
+namespace {
+
+/// [renderer]: the model-mismatch variants (synth.hpp), never told to the estimator.
+void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams& band, RendererVariant& v) {
+  r.check_keys(t, "renderer",
+               {"band_shape", "edge_asymmetry", "family_contrast_spread", "family_contrast_seed",
+                "ordered_fundamental_ratio", "ordered_fundamental_edge_contrast", "detector_gamma", "background_shape",
+                "lattice_misfit", "beam_elongation", "pc_error_px"});
+  const std::string path = r.path();
+  const std::string shape = r.get<std::string>(t, "renderer", "band_shape").value_or("soft");
+  if (shape == "soft")
+    band.shape = BandShape::soft;
+  else if (shape == "flat")
+    band.shape = BandShape::flat;
+  else if (shape == "gaussian")
+    band.shape = BandShape::gaussian;
+  else
+    fail(path, ": [renderer] band_shape = \"", shape, "\" is not \"soft\", \"flat\" or \"gaussian\"");
+  band.edge_asymmetry = r.get<double>(t, "renderer", "edge_asymmetry").value_or(0.0);
+  if (!(std::abs(band.edge_asymmetry) <= 1)) fail(path, ": [renderer] edge_asymmetry must be within [-1, 1]");
+  v.family_contrast_spread = r.get<double>(t, "renderer", "family_contrast_spread").value_or(0.0);
+  if (!(v.family_contrast_spread >= 0 && v.family_contrast_spread < 1))
+    fail(path, ": [renderer] family_contrast_spread must be within [0, 1)");
+  const int64_t seed = r.get<int64_t>(t, "renderer", "family_contrast_seed").value_or(1);
+  if (seed < 0) fail(path, ": [renderer] family_contrast_seed must be >= 0");
+  v.family_contrast_seed = static_cast<std::uint64_t>(seed);
+  v.ordered_fundamental_ratio = r.get<double>(t, "renderer", "ordered_fundamental_ratio").value_or(1.0);
+  if (!(v.ordered_fundamental_ratio > 0 && v.ordered_fundamental_ratio <= 3))
+    fail(path, ": [renderer] ordered_fundamental_ratio must be within (0, 3]");
+  v.ordered_fundamental_edge_contrast =
+      r.get<double>(t, "renderer", "ordered_fundamental_edge_contrast").value_or(std::nan(""));
+  if (!std::isnan(v.ordered_fundamental_edge_contrast) && !(std::abs(v.ordered_fundamental_edge_contrast) <= 1))
+    fail(path, ": [renderer] ordered_fundamental_edge_contrast must be within [-1, 1]");
+  v.detector_gamma = r.get<double>(t, "renderer", "detector_gamma").value_or(1.0);
+  if (!(v.detector_gamma >= 0.5 && v.detector_gamma <= 2)) fail(path, ": [renderer] detector_gamma must be within [0.5, 2]");
+  const std::string bg = r.get<std::string>(t, "renderer", "background_shape").value_or("quadratic");
+  if (bg == "quadratic")
+    v.background = BackgroundShape::quadratic;
+  else if (bg == "gaussian")
+    v.background = BackgroundShape::gaussian;
+  else if (bg == "linear")
+    v.background = BackgroundShape::linear;
+  else
+    fail(path, ": [renderer] background_shape = \"", bg, "\" is not \"quadratic\", \"gaussian\" or \"linear\"");
+  v.lattice_misfit = r.get<double>(t, "renderer", "lattice_misfit").value_or(0.0);
+  if (!(std::abs(v.lattice_misfit) <= 0.02)) fail(path, ": [renderer] lattice_misfit must be within [-0.02, 0.02]");
+  v.beam_elongation = r.get<double>(t, "renderer", "beam_elongation").value_or(1.0);
+  if (!(v.beam_elongation >= 1 && v.beam_elongation <= 10))
+    fail(path, ": [renderer] beam_elongation must be within [1, 10]");
+  if (const toml::node* e = t ? t->get("pc_error_px") : nullptr) {
+    const toml::array* a = e->as_array();
+    if (!a || a->size() != 3 || !(*a)[0].value<double>() || !(*a)[1].value<double>() || !(*a)[2].value<double>())
+      fail(path, ": [renderer] pc_error_px must be [x, y, distance] in pixels");
+    v.pc_error_px = {*(*a)[0].value<double>(), *(*a)[1].value<double>(), *(*a)[2].value<double>()};
+  }
+  if (!(v.pc_error_px.cwiseAbs().maxCoeff() <= 10)) fail(path, ": [renderer] pc_error_px components must be within 10 px");
+}
+
+}  // namespace
+
 SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
@@ -171,6 +231,8 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   if (!(s.background_falloff >= 0 && s.background_falloff < 1))
     fail(path, ": [patterns] background_falloff must be within [0, 1)");
 
+  read_renderer_variant(r, r.table("renderer", false), s.band, s.variant);
+
   MicrostructureSpec& m = s.micro;
   m.width_um = s.grid.field_width_um();
   m.height_um = s.grid.field_height_um();
@@ -212,6 +274,31 @@ SynthScenario read_synth_scenario(const std::string& path) {
   return parse_synth_scenario(read_text_file(path, "scenario"), path);
 }
 
+namespace {
+
+/// The renderer variant as recorded in truth.json.
+nlohmann::json variant_json(const SynthScenario& s) {
+  const RendererVariant& v = s.variant;
+  const char* shapes[] = {"soft", "flat", "gaussian"};
+  const char* backgrounds[] = {"quadratic", "gaussian", "linear"};
+  nlohmann::json j = {{"band_shape", shapes[static_cast<int>(s.band.shape)]},
+                      {"edge_asymmetry", s.band.edge_asymmetry},
+                      {"family_contrast_spread", v.family_contrast_spread},
+                      {"family_contrast_seed", v.family_contrast_seed},
+                      {"ordered_fundamental_ratio", v.ordered_fundamental_ratio},
+                      {"detector_gamma", v.detector_gamma},
+                      {"background_shape", backgrounds[static_cast<int>(v.background)]},
+                      {"lattice_misfit", v.lattice_misfit},
+                      {"beam_elongation", v.beam_elongation},
+                      {"pc_error_px", {v.pc_error_px.x(), v.pc_error_px.y(), v.pc_error_px.z()}}};
+  j["ordered_fundamental_edge_contrast"] = std::isnan(v.ordered_fundamental_edge_contrast)
+                                               ? nlohmann::json(s.band.edge_contrast)
+                                               : nlohmann::json(v.ordered_fundamental_edge_contrast);
+  return j;
+}
+
+}  // namespace
+
 void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
                           const SynthProgress& progress) {
   std::error_code ec;
@@ -220,11 +307,12 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   const std::string dir = fs::absolute(folder).lexically_normal().string();
 
   const OrderingPair pair = load_phases(s.phases);
-  const KinematicBandModel ordered(pair.ordered, s.kv, s.band), disordered(pair.disordered, s.kv, s.band);
+  const RenderModels models = render_models(s, pair);
   const Microstructure micro(s.micro);
-  const DetectorGeometry geometry(s.geometry);
-  const PatternRenderer renderer(geometry, ordered, disordered, s.counts_per_px, s.background_falloff);
-  const double beam_um = s.beam_sigma_nm * 1e-3;
+  const DetectorGeometry geometry(render_geometry(s));
+  const PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
+                                 s.variant.background, s.variant.detector_gamma);
+  const double beam_um = s.beam_sigma_nm * 1e-3, beam_y_um = beam_um * s.variant.beam_elongation;
   const size_t px = static_cast<size_t>(geometry.width()) * geometry.height();
   const double scale_8bit =
       250.0 / (s.counts_per_px * 1.6 * *std::max_element(renderer.background().begin(), renderer.background().end()));
@@ -242,7 +330,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
         const GridPoint p{r, c};
         const Eigen::Vector2d pos = s.grid.position_um(p);
         const DetectorGeometry g = s.pc_drift ? geometry.at_beam_offset(pos.x(), pos.y()) : geometry;
-        renderer.render(point_mixture(micro, pos, beam_um), g, point_seed(s.seed, s.grid.index(p)), s.sample_type,
+        renderer.render(point_mixture(micro, pos, beam_um, beam_y_um), g, point_seed(s.seed, s.grid.index(p)), s.sample_type,
                         scale_8bit, row.data() + static_cast<size_t>(c) * px);
       }
       if (s.sample_type == SampleType::uint8) {
@@ -256,7 +344,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
     if (!out) fail("error while writing '", patterns_path, "' (disk full?)");
   });
 
-  const SynthTruth truth = compute_truth(micro, s.grid, beam_um);
+  const SynthTruth truth = compute_truth(micro, s.grid, beam_um, beam_y_um);
   write_npy_float32(dir + "/truth_fraction.npy", s.grid.rows, s.grid.cols, truth.ordered_fraction);
   write_npy_int32(dir + "/truth_grains.npy", s.grid.rows, s.grid.cols, truth.grain);
   const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
@@ -339,6 +427,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
       {"d_min_A", s.band.d_min_A},
       {"beam_sigma_nm", s.beam_sigma_nm},
       {"background_falloff", s.background_falloff},
+      {"renderer_variant", variant_json(s)},
       {"kv", s.kv},
       {"pair", pair.name},
       {"grain_count", s.micro.grain_count},
