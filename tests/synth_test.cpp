@@ -4,6 +4,8 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <nlohmann/json.hpp>
@@ -185,6 +187,160 @@ TEST(SynthScenario, OneClearLinePerProblem) {
   EXPECT_NE(error_of("[patterns]\ncounts = 5\n").find("unknown key 'counts' in [patterns]"), std::string::npos);
   EXPECT_NE(error_of("[primary]\narea_fraction = 0.1\nmedian_diameter_um = 0.5\n").find("count must be at least 2"),
             std::string::npos);
+  // Renderer variants.
+  EXPECT_NE(error_of("[renderer]\nband_shape = \"square\"\n").find("[renderer] band_shape = \"square\" is not"),
+            std::string::npos);
+  EXPECT_NE(error_of("[renderer]\ndetector_gamma = 3\n").find("detector_gamma must be within [0.5, 2]"),
+            std::string::npos);
+  EXPECT_NE(error_of("[renderer]\nedge_asymmetry = nan\n").find("edge_asymmetry must be within [-1, 1]"),
+            std::string::npos);
+  EXPECT_NE(error_of("[renderer]\npc_error_px = [1, 2]\n").find("pc_error_px must be [x, y, distance]"),
+            std::string::npos);
+  EXPECT_NE(error_of("[renderer]\nbeam_elongation = 0.5\n").find("beam_elongation must be within [1, 10]"),
+            std::string::npos);
+  EXPECT_NE(error_of("[renderer]\nmisfit = 0.01\n").find("unknown key 'misfit' in [renderer]"), std::string::npos);
+}
+
+TEST(SynthVariants, BandShapesAndEdgeLines) {
+  const Phase ni = load_phase_cif(test::crystal_data("ni-fcc.cif"));
+  BandModelParams params;
+  params.edge_contrast = 0;
+  params.shape = BandShape::flat;
+  const KinematicBandModel flat(ni, 20, params);
+  EXPECT_DOUBLE_EQ(flat.profile(0.99), 1.0);
+  EXPECT_DOUBLE_EQ(flat.profile(-1.01), 0.0);
+  params.shape = BandShape::gaussian;
+  const KinematicBandModel gauss(ni, 20, params);
+  // The Gaussian band carries the flat band's integral, 2 (σ √(2π) = 0.8 · 2.5066 = 2.005), computed.
+  double integral = 0;
+  for (double u = -gauss.profile_reach(); u < gauss.profile_reach(); u += 1e-3) integral += 1e-3 * gauss.profile(u);
+  EXPECT_NEAR(integral, 0.8 * std::sqrt(2 * M_PI), 1e-3);
+  // The table the renderer uses agrees with the exact profile on both sides.
+  for (double u : {-3.1, -1.0, -0.3, 0.0, 0.7, 2.2})
+    EXPECT_NEAR(gauss.profile_table(u), gauss.profile(u), 1e-5) << u;
+  // Asymmetric edge lines: the side n·x > 0 carries (1 + a), the other (1 − a).
+  params.shape = BandShape::soft;
+  params.edge_contrast = 0.3;
+  params.edge_asymmetry = 0.5;
+  const KinematicBandModel asym(ni, 20, params);
+  const double step = 0.5;  // tanh(0) at |u| = 1
+  EXPECT_NEAR(asym.profile(1.0), step + 0.3 * 1.5, 1e-12);
+  EXPECT_NEAR(asym.profile(-1.0), step + 0.3 * 0.5, 1e-12);
+  EXPECT_NEAR(asym.profile_table(-1.0), asym.profile(-1.0), 1e-5);
+}
+
+TEST(SynthVariants, RenderModelsApplyTheVariantToTheRightFamilies) {
+  SynthScenario s;
+  s.phases.pair_name = "ni";
+  const OrderingPair pair = load_phases(s.phases);
+  const RenderModels plain = render_models(s, pair);
+  s.variant.ordered_fundamental_ratio = 0.8;
+  s.variant.ordered_fundamental_edge_contrast = -0.2;
+  s.variant.family_contrast_spread = 0.3;
+  s.variant.family_contrast_seed = 3;
+  const RenderModels varied = render_models(s, pair);
+  {
+    SynthScenario m;
+    m.phases = s.phases;
+    m.variant.lattice_misfit = 0.003;
+    const RenderModels misfit = render_models(m, pair);
+    // Lattice misfit: every d of the ordered phase grows by 0.3 % (a family near d_min may enter).
+    for (size_t f = 0; f < plain.ordered.families().size(); ++f) {
+      ASSERT_EQ(plain.ordered.families()[f].hkl, misfit.ordered.families()[f].hkl);
+      EXPECT_NEAR(misfit.ordered.families()[f].d_A / plain.ordered.families()[f].d_A, 1.003, 1e-9);
+    }
+    EXPECT_NEAR(misfit.disordered.families()[0].d_A, plain.disordered.families()[0].d_A, 1e-12);
+  }
+  std::vector<Eigen::Vector3i> superlattice;
+  for (const PairFamily& f : pair_family_table(pair, s.kv, s.band.d_min_A))
+    if (f.sensitivity >= 0.5) superlattice.push_back(f.family.hkl);
+  int fundamentals = 0, supers = 0;
+  for (size_t f = 0; f < varied.ordered.families().size(); ++f) {
+    const ModelFamily& a = plain.ordered.families()[f];
+    const ModelFamily& b = varied.ordered.families()[f];
+    ASSERT_EQ(a.hkl, b.hkl);
+    if (a.weight == 0) continue;
+    // The same per-family factor in both phases (the disordered model's family of the same hkl).
+    double factor = 0;
+    for (size_t j = 0; j < varied.disordered.families().size(); ++j)
+      if (varied.disordered.families()[j].hkl == a.hkl && plain.disordered.families()[j].weight > 0)
+        factor = varied.disordered.families()[j].weight / plain.disordered.families()[j].weight;
+    const bool super = std::find(superlattice.begin(), superlattice.end(), a.hkl) != superlattice.end();
+    if (super) {
+      ++supers;
+      EXPECT_NEAR(b.edge_contrast, a.edge_contrast, 0);
+      const double own = b.weight / a.weight;
+      EXPECT_GE(own, 0.7 - 1e-9);
+      EXPECT_LE(own, 1.3 + 1e-9);
+    } else {
+      ++fundamentals;
+      ASSERT_GT(factor, 0) << a.hkl.transpose();
+      EXPECT_NEAR(b.weight / a.weight, 0.8 * factor, 1e-9) << a.hkl.transpose();
+      EXPECT_EQ(b.edge_contrast, -0.2);
+    }
+  }
+  EXPECT_GE(fundamentals, 5);
+  EXPECT_GE(supers, 5);
+  s.variant.pc_error_px = {0.5, -0.4, 0.6};
+  s.geometry = geometry_spec();
+  const DetectorGeometrySpec g = render_geometry(s);
+  EXPECT_DOUBLE_EQ(g.pc_px.x(), 30.5);
+  EXPECT_DOUBLE_EQ(g.pc_px.y(), 17.6);
+  EXPECT_DOUBLE_EQ(g.distance_px, 45.6);
+}
+
+TEST(SynthVariants, DetectorGammaAndBackgroundShapes) {
+  // Without bands the expected counts are counts · B^gamma, B the background of mean 1.
+  const Phase ni = load_phase_cif(test::crystal_data("ni-fcc.cif"));
+  BandModelParams params;
+  params.band_contrast = 0;
+  params.edge_contrast = 0;
+  params.d_min_A = 2.0;
+  const KinematicBandModel none(ni, 20, params);
+  const DetectorGeometry geo(geometry_spec());
+  const Rotation g = Rotation::from_bunge(0.1, 0.2, 0.3);
+  for (BackgroundShape shape : {BackgroundShape::quadratic, BackgroundShape::gaussian, BackgroundShape::linear}) {
+    const PatternRenderer linear(geo, none, none, 1000, 0.5, shape, 1.0), curved(geo, none, none, 1000, 0.5, shape, 1.2);
+    std::vector<float> a(3600), b(3600);
+    linear.expected({{g, false, 1.0, 0}}, geo, a.data());
+    curved.expected({{g, false, 1.0, 0}}, geo, b.data());
+    double mean = 0;
+    for (size_t q = 0; q < a.size(); ++q) {
+      mean += a[q] / 3600.0;
+      EXPECT_NEAR(b[q], 1000 * std::pow(a[q] / 1000, 1.2), 1e-2);
+    }
+    EXPECT_NEAR(mean, 1000, 1e-2);
+    // The falloff: the darkest pixel is about 1 − 0.5 of the brightest.
+    const auto [lo, hi] = std::minmax_element(a.begin(), a.end());
+    EXPECT_NEAR(*lo / *hi, 0.5, 0.06) << static_cast<int>(shape);
+  }
+  // Linear: a tilted plane, darker toward the bottom of the screen.
+  const PatternRenderer tilted(geo, none, none, 1000, 0.5, BackgroundShape::linear, 1.0);
+  EXPECT_GT(tilted.background()[30], tilted.background()[59 * 60 + 30]);
+}
+
+TEST(SynthVariants, ElongatedBeamFootprint) {
+  // A beam 2.9 × longer along y_S samples the microstructure 2.9 × farther along the rows: at a
+  // point 3σ_x from a particle along x it sees none of it, at 3σ_x along y it sees part of it.
+  MicrostructureSpec m;
+  m.width_um = m.height_um = 1;
+  m.grain_count = 1;
+  m.secondary.area_fraction = 0.02;
+  m.secondary.size = SizeDistribution::fixed(0.2);
+  m.seed = 5;
+  const Microstructure micro(m);
+  ASSERT_FALSE(micro.particles().empty());
+  const Particle& q = micro.particles()[0];
+  const double r = 0.5 * q.section_ecd_um(), sx = 0.01, sy = 0.029;
+  ASSERT_GT(r, 0.02);
+  auto ordered_share = [&](const Eigen::Vector2d& p) {
+    double f = 0;
+    for (const MixtureComponent& c : point_mixture(micro, p, sx, sy)) f += c.ordered ? c.weight : 0.0;
+    return f;
+  };
+  const Eigen::Vector2d c = q.centre_um.head<2>();
+  EXPECT_DOUBLE_EQ(ordered_share(c + Eigen::Vector2d(r + 0.035, 0)), 0.0);
+  EXPECT_GT(ordered_share(c + Eigen::Vector2d(0, r + 0.035)), 0.05);
 }
 
 }  // namespace

@@ -133,12 +133,12 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
   static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases", "patterns",
-                                            "grains",   "primary", "secondary", "tertiary",   "output"};
+                                            "grains",   "primary", "secondary", "tertiary",   "renderer", "output"};
   for (const auto& [k, v] : root)
     if (!tables.count(std::string(k.str())))
       fail(path, ": unknown table [", k.str(),
            "] (known: scenario, scan, detector, microscope, phases, patterns, grains, primary, secondary, tertiary, "
-           "output)");
+           "renderer, output)");
   SynthScenario s;
   s.path = fs::absolute(path).lexically_normal().string();
 

@@ -1,0 +1,170 @@
+// The model-mismatch suite: synthetic scans rendered with variants the fraction stage is never told
+// (synth.hpp RendererVariant), each analysed with the model-led and the learned estimator side by side.
+// usage: mismatch_bench [SIDE=40] [COUNTS=5000] [FIRST=0] [LAST=all]
+// Prints one table per estimator: area fraction error, classification away from phase boundaries,
+// d′ between pure particle and pure matrix points, the variant's information limit (Fisher d′ of the
+// renderer's noise-free pure patterns at the grains' orientations), their ratio, and points/s.
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <map>
+
+#include "orderband/npy_io.hpp"
+#include "orderband/ordered_fraction.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "orderband/synth.hpp"
+
+using namespace orderband;
+
+namespace {
+
+struct Variant {
+  const char* name;
+  const char* patterns;  // extra [patterns] keys
+  const char* renderer;  // [renderer] keys
+  double tertiary;
+};
+
+// Twelve variants besides the default model (common practice, no source: ranges from the issue).
+const Variant kSuite[] = {
+    {"default model", "", "", 0.0},
+    {"weights |F|^1", "band_exponent = 1.0\n", "", 0.0},
+    {"flat sharp bands", "edge_contrast = 0.0\n", "band_shape = \"flat\"\n", 0.05},
+    {"gaussian bands", "edge_contrast = 0.0\n", "band_shape = \"gaussian\"\n", 0.0},
+    {"dark edges, steep bg", "edge_contrast = -0.3\nbackground_falloff = 0.8\n", "", 0.0},
+    {"asymmetric edges", "edge_contrast = 0.3\n", "edge_asymmetry = 0.8\n", 0.05},
+    {"family contrast +-30%", "band_exponent = 1.5\n", "family_contrast_spread = 0.3\nfamily_contrast_seed = 7\n",
+     0.0},
+    {"gamma' fund. 0.8", "", "ordered_fundamental_ratio = 0.8\n", 0.0},
+    {"gamma' fund. 1.1, dark", "", "ordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n", 0.05},
+    {"detector gamma 0.8", "", "detector_gamma = 0.8\nbackground_shape = \"gaussian\"\n", 0.0},
+    {"detector gamma 1.2", "", "detector_gamma = 1.2\nbackground_shape = \"linear\"\n", 0.0},
+    {"misfit +0.3%, contrast .25", "band_contrast = 0.25\n", "lattice_misfit = 0.003\n", 0.0},
+    {"beam 2.9x along tilt", "", "beam_elongation = 2.9\n", 0.0},
+    {"PC error 0.5 px", "", "pc_error_px = [0.5, -0.4, 0.6]\n", 0.0},
+};
+
+struct Row {
+  double area_error = 0, classification = 0, d_prime = 0, limit = 0, rate = 0, matrix = 0, particle = 0;
+  bool two_phases = true;
+};
+
+double information_limit(const SynthScenario& s, const std::vector<Rotation>& grain_orientations) {
+  // Fisher d′ of one pattern between pure disordered and pure ordered phase (Poisson noise),
+  // averaged over the grains' orientations, inside the inscribed circle the estimator uses.
+  const OrderingPair pair = load_phases(s.phases);
+  const RenderModels models = render_models(s, pair);
+  const DetectorGeometry geometry(render_geometry(s));
+  const PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
+                                 s.variant.background, s.variant.detector_gamma);
+  const int w = geometry.width(), h = geometry.height();
+  std::vector<float> a(static_cast<size_t>(w) * h), b(a.size());
+  double sum = 0;
+  for (const Rotation& g : grain_orientations) {
+    renderer.expected({{g, false, 1.0, 0}}, geometry, a.data());
+    renderer.expected({{g, true, 1.0, 0}}, geometry, b.data());
+    double d2 = 0;
+    for (int i = 0; i < h; ++i)
+      for (int j = 0; j < w; ++j) {
+        const double x = j + 0.5 - 0.5 * w, y = i + 0.5 - 0.5 * h;
+        if (x * x + y * y > 0.25 * std::min(w, h) * std::min(w, h)) continue;
+        const size_t q = static_cast<size_t>(i) * w + j;
+        d2 += std::pow(b[q] - a[q], 2) / (0.5 * (a[q] + b[q]));
+      }
+    sum += std::sqrt(d2);
+  }
+  return sum / grain_orientations.size();
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  const int side = argc > 1 ? std::atoi(argv[1]) : 40;
+  const double counts = argc > 2 ? std::atof(argv[2]) : 5000;
+  const int first = argc > 3 ? std::atoi(argv[3]) : 0;
+  const int count = static_cast<int>(sizeof kSuite / sizeof kSuite[0]);
+  const int last = argc > 4 ? std::atoi(argv[4]) : count - 1;
+  const std::string dir = (std::filesystem::temp_directory_path() / "orderband-mismatch-bench").string();
+  std::map<int, std::array<Row, 2>> rows;
+  for (int v = first; v <= last && v < count; ++v) {
+    const Variant& var = kSuite[v];
+    std::filesystem::remove_all(dir);
+    std::filesystem::create_directories(dir);
+    std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 31 + v << "\n[scan]\nrows = " << side
+                                   << "\ncols = " << side
+                                   << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+                                      "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[phases]\npair = \"ni\"\n"
+                                      "[patterns]\ncounts_per_px = "
+                                   << counts << "\n"
+                                   << var.patterns << "[renderer]\n"
+                                   << var.renderer
+                                   << "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = "
+                                      "\"fixed\"\ndiameter_um = 0.4\nown_orientation = true\n"
+                                      "[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
+                                      "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = "
+                                   << var.tertiary << "\n";
+    const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
+    write_synthetic_scan(scenario, dir + "/scan", "mismatch_bench");
+    const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
+    const OrientationResults ori = orient_scan(config);
+    const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+    const ScanGrid& grid = config.grid;
+    double truth_mean = 0;
+    for (float t : truth) truth_mean += t / truth.size();
+    std::vector<Rotation> grain_orientations;
+    for (int g = 0; g < ori.grains.count(); ++g) grain_orientations.push_back(ori.grains.mean[g]);
+    const double limit = information_limit(scenario, grain_orientations);
+    for (int e = 0; e < 2; ++e) {
+      FractionSpec spec;
+      spec.estimator = e ? FractionEstimator::learned : FractionEstimator::profile;
+      const auto t0 = std::chrono::steady_clock::now();
+      const FractionResults fr = ordered_fraction_scan(config, ori, spec);
+      const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+      Row& row = rows[v][e];
+      row.rate = grid.count() / sec;
+      row.limit = limit;
+      row.two_phases = fr.two_phases;
+      // Pure points (truth 0 or 1, all neighbours of the same phase) and classification.
+      size_t inner = 0, correct = 0;
+      double s[2] = {0, 0}, ss[2] = {0, 0}, c[2] = {0, 0}, sum = 0, measured = 0;
+      for (size_t k = 0; k < grid.count(); ++k) {
+        if (fr.reason[k]) continue;
+        sum += fr.raw[k], measured += 1;
+        const bool t = truth[k] >= 0.5;
+        bool boundary = false;
+        for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
+          boundary = boundary || ((truth[grid.index(nb)] >= 0.5) != t);
+        if (boundary) continue;
+        ++inner;
+        correct += (fr.fraction[k] >= 0.5) == t;
+        if (truth[k] > 0.02 && truth[k] < 0.98 && var.tertiary == 0) continue;
+        s[t] += fr.raw[k], ss[t] += fr.raw[k] * fr.raw[k], c[t] += 1;
+      }
+      row.area_error = sum / measured - truth_mean;
+      row.classification = 100.0 * correct / inner;
+      const double m0 = s[0] / c[0], m1 = s[1] / c[1];
+      const double v0 = ss[0] / c[0] - m0 * m0, v1 = ss[1] / c[1] - m1 * m1;
+      row.d_prime = (m1 - m0) / std::sqrt(0.5 * (v0 + v1));
+      row.matrix = m0, row.particle = m1;
+    }
+    std::fprintf(stderr, "variant %d (%s) done\n", v, var.name);
+  }
+  for (int e = 0; e < 2; ++e) {
+    std::printf("\n%s estimator, %d x %d points, %.0f counts/px, 60 x 60 px, found orientations\n",
+                e ? "learned (data-led)" : "model-led (profile)", side, side, counts);
+    std::printf("%-28s %9s %8s %7s %7s %6s %6s %6s %7s %s\n", "variant", "area err", "class %", "matrix", "partic.",
+                "d'", "limit", "ratio", "pts/s", "phases");
+    for (const auto& [v, pair] : rows) {
+      const Row& r = pair[e];
+      std::printf("%-28s %+9.3f %8.1f %7.3f %7.3f %6.1f %6.1f %5.0f%% %7.0f %s\n", kSuite[v].name, r.area_error,
+                  r.classification, r.matrix, r.particle, r.d_prime, r.limit, 100 * r.d_prime / r.limit, r.rate,
+                  r.two_phases ? "two" : "one");
+    }
+  }
+  std::filesystem::remove_all(dir);
+  return 0;
+}
