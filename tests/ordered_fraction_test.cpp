@@ -28,7 +28,7 @@ struct ScenarioRun {
 /// Synthesises a scan from scenario text, then runs the orientation and fraction stages.
 /// `also` runs on the result while the scan's files still exist.
 ScenarioRun run_scenario(const std::string& scenario, double neighbour_sigma = 0, bool truth_orientations = false,
-                         const std::function<void(ScenarioRun&)>& also = {}) {
+                         const std::function<void(ScenarioRun&)>& also = {}, const FractionSpec& spec = {}) {
   const std::string dir = test::make_temp_dir("fraction");
   std::ofstream(dir + "/s.toml") << scenario;
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
@@ -41,7 +41,7 @@ ScenarioRun run_scenario(const std::string& scenario, double neighbour_sigma = 0
     r.config.orientations.refine = false;
   }
   r.orientations = orient_scan(r.config);
-  r.fraction = ordered_fraction_scan(r.config, r.orientations);
+  r.fraction = ordered_fraction_scan(r.config, r.orientations, spec);
   r.truth = read_npy(dir + "/scan/truth_fraction.npy").values;
   for (float g : read_npy(dir + "/scan/truth_grains.npy").values) r.truth_grain.push_back(static_cast<int>(g));
   std::ifstream in(dir + "/scan/truth.json");
@@ -241,6 +241,51 @@ TEST(OrderedFraction, CobaltAndB2PairsFromTheirCifFilesAlone) {
     if (pair == "feal") EXPECT_GE(r.orientations.pseudo_symmetric_grains, 1);
     EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << pair;  // issue Step 6: within ±0.03
   }
+}
+
+FractionSpec learned_spec() {
+  FractionSpec spec;
+  spec.estimator = FractionEstimator::learned;
+  return spec;
+}
+
+TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
+  // Band weights ∝ |F| instead of the model's |F|²: the superlattice bands are about 6× stronger
+  // than the model says, and the model-led estimator puts the matrix near −1 (issue Wave 2 · A).
+  // The learned estimator is not told; it finds two phases and classifies ≥ 95 % of the points away
+  // from phase boundaries (the issue's figure). Its area fraction is not yet within the issue's
+  // ±0.03 on this scan (measured −0.09: the ordered end member's scale; see DEVELOPERS.md), so it
+  // stays an option and this test guards only what it does reach.
+  const ScenarioRun r = run_scenario(scenario("band_exponent = 1.0\n" + kSecondary, 40), 0, false, {}, learned_spec());
+  EXPECT_TRUE(r.fraction.two_phases);
+  EXPECT_EQ(r.fraction.estimator, "learned");
+  EXPECT_GE(classification(r), 0.95);
+  // The learned difference of the {100} family carries a band: larger inside (|u| < 0.5) than
+  // outside (|u| > 1.5).
+  int checked = 0;
+  for (const auto& f : r.fraction.families) {
+    if (f.label != "{100}") continue;
+    double in = 0, out = 0;
+    int ni = 0, no = 0;
+    for (size_t b = 0; b < f.learned_u.size(); ++b)
+      if (std::abs(f.learned_u[b]) < 0.5)
+        in += f.learned_difference[b], ++ni;
+      else if (std::abs(f.learned_u[b]) > 1.5)
+        out += f.learned_difference[b], ++no;
+    ASSERT_GT(ni, 0);
+    ASSERT_GT(no, 0);
+    EXPECT_GT(in / ni, out / no);
+    ++checked;
+  }
+  EXPECT_EQ(checked, 1);
+}
+
+TEST(LearnedFraction, OnePhaseIsReportedAsOnePhase) {
+  // Three grains of pure γ: the learner must not split noise into two halves.
+  const ScenarioRun r = run_scenario(scenario("[grains]\ncount = 3\n", 32), 0, false, {}, learned_spec());
+  EXPECT_FALSE(r.fraction.two_phases) << "separation " << r.fraction.learned_separation;
+  EXPECT_FALSE(r.fraction.single_phase_ordered);
+  EXPECT_NEAR(r.fraction.mean_raw(), 0.0, 0.05);
 }
 
 }  // namespace

@@ -216,8 +216,7 @@ TEST(SynthVariants, BandShapesAndEdgeLines) {
   for (double u = -gauss.profile_reach(); u < gauss.profile_reach(); u += 1e-3) integral += 1e-3 * gauss.profile(u);
   EXPECT_NEAR(integral, 0.8 * std::sqrt(2 * M_PI), 1e-3);
   // The table the renderer uses agrees with the exact profile on both sides.
-  for (double u : {-3.1, -1.0, -0.3, 0.0, 0.7, 2.2})
-    EXPECT_NEAR(gauss.profile_table(u), gauss.profile(u), 1e-5) << u;
+  for (double u : {-3.1, -1.0, -0.3, 0.0, 0.7, 2.2}) EXPECT_NEAR(gauss.profile_table(u), gauss.profile(u), 1e-5) << u;
   // Asymmetric edge lines: the side n·x > 0 carries (1 + a), the other (1 − a).
   params.shape = BandShape::soft;
   params.edge_contrast = 0.3;
@@ -300,7 +299,8 @@ TEST(SynthVariants, DetectorGammaAndBackgroundShapes) {
   const DetectorGeometry geo(geometry_spec());
   const Rotation g = Rotation::from_bunge(0.1, 0.2, 0.3);
   for (BackgroundShape shape : {BackgroundShape::quadratic, BackgroundShape::gaussian, BackgroundShape::linear}) {
-    const PatternRenderer linear(geo, none, none, 1000, 0.5, shape, 1.0), curved(geo, none, none, 1000, 0.5, shape, 1.2);
+    const PatternRenderer linear(geo, none, none, 1000, 0.5, shape, 1.0),
+        curved(geo, none, none, 1000, 0.5, shape, 1.2);
     std::vector<float> a(3600), b(3600);
     linear.expected({{g, false, 1.0, 0}}, geo, a.data());
     curved.expected({{g, false, 1.0, 0}}, geo, b.data());

@@ -91,7 +91,7 @@ class KinematicBandModel {
   BandModelParams params_;
   std::vector<ModelFamily> families_;
   std::vector<ModelBand> bands_;
-  std::vector<double> sin_reach_;  ///< per band: sin of the largest |α| with a non-negligible profile
+  std::vector<double> sin_reach_;            ///< per band: sin of the largest |α| with a non-negligible profile
   std::vector<std::vector<double>> tables_;  ///< profiles at u = −reach + k / table_scale_
   double table_scale_ = 1, reach_ = 1;
   void build_tables();

@@ -23,10 +23,10 @@ struct LearnedInputs {
 
 struct LearnedSpec {
   int iterations = 6;
-  double shrinkage = 0.3;           ///< covariance shrunk toward its diagonal by this share
-  double min_separation = 4.0;      ///< d′ between the two components below which one phase is reported
-  double min_second_weight = 0.003; ///< share of points the second component must hold
-  int min_class_points = 8;         ///< per grain and class, to enter the learned difference
+  double shrinkage = 0.3;            ///< covariance shrunk toward its diagonal by this share
+  double min_separation = 4.0;       ///< d′ between the two components below which one phase is reported
+  double min_second_weight = 0.003;  ///< share of points the second component must hold
+  int min_class_points = 8;          ///< per grain and class, to enter the learned difference
 };
 
 struct LearnedFraction {
@@ -34,8 +34,8 @@ struct LearnedFraction {
   std::vector<float> uncertainty;  ///< per point, standard error
   bool two_phases = false;         ///< a second component was found
   bool single_phase_ordered = false;
-  double separation = 0;  ///< d′ of the two components (cross-fitted scores)
-  double scale = 0;       ///< score units per unit fraction
+  double separation = 0;           ///< d′ of the two components (cross-fitted scores)
+  double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
   int iterations_run = 0;
 };

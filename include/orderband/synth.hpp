@@ -18,8 +18,8 @@ namespace orderband {
 /// Background shapes of the renderer (the smooth detector background the bands sit on).
 enum class BackgroundShape {
   quadratic,  ///< brightest a little above the pattern centre, 1 − falloff · r² (r = 1 at the far corner)
-  gaussian,   ///< 1 − falloff · (1 − exp(−r²/(2 · 0.35²))) / (1 − exp(−1/(2 · 0.35²))): a flatter top, steeper sides
-  linear,     ///< a tilted plane: 1 − falloff · (0.8 · y + 0.2 · x), x, y from 0 to 1 across the screen
+  gaussian,  ///< 1 − falloff · (1 − exp(−r²/(2 · 0.35²))) / (1 − exp(−1/(2 · 0.35²))): a flatter top, steeper sides
+  linear,  ///< a tilted plane: 1 − falloff · (0.8 · y + 0.2 · x), x, y from 0 to 1 across the screen
 };
 
 /// Renderer variants of the model-mismatch suite: how the synthetic patterns differ from the
@@ -27,8 +27,8 @@ enum class BackgroundShape {
 /// test that its accuracy does not rest on the model's intensities.
 struct RendererVariant {
   BackgroundShape background = BackgroundShape::quadratic;
-  double detector_gamma = 1;             ///< detector response: counts ∝ (B · I)^gamma
-  double family_contrast_spread = 0;     ///< each family's weight × (1 + spread · U(−1, 1)), the same in both phases
+  double detector_gamma = 1;          ///< detector response: counts ∝ (B · I)^gamma
+  double family_contrast_spread = 0;  ///< each family's weight × (1 + spread · U(−1, 1)), the same in both phases
   std::uint64_t family_contrast_seed = 1;
   double ordered_fundamental_ratio = 1;  ///< the ordered phase's fundamental band weights relative to the disordered's
   /// Edge contrast of the ordered phase's fundamental bands (NaN: the band model's): an
@@ -79,8 +79,8 @@ struct MixtureComponent {
 /// the microstructure there (matrix: 1 − f_t disordered + f_t ordered with the
 /// host grain's orientation; particle: ordered with its own orientation).
 /// With two σ the footprint is elliptical: σ_x along the scan columns (the tilt axis), σ_y along the rows.
-std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um, double beam_sigma_x_um,
-                                            double beam_sigma_y_um);
+std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um,
+                                            double beam_sigma_x_um, double beam_sigma_y_um);
 inline std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen::Vector2d& p_um,
                                                    double beam_sigma_um) {
   return point_mixture(m, p_um, beam_sigma_um, beam_sigma_um);

@@ -27,6 +27,11 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
                  "[fraction] table")
       ->check(CLI::IsMember({"model", "mixture"}))
       ->capture_default_str();
+  sub.add_option("--estimator", o.estimator,
+                 "model (kinematic references of both phases) or learned (the response to ordering learned from "
+                 "the scan; experimental)")
+      ->check(CLI::IsMember({"model", "learned"}))
+      ->capture_default_str();
   sub.add_flag("--no-master-spheres", o.no_master_spheres, "skip the master-sphere pass and images");
 }
 

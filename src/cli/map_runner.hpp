@@ -18,6 +18,7 @@ struct MapRunOptions {
   std::vector<double> class_bounds{0.1, 1.0};
   double grain_threshold = 5.0;
   std::string end_members = "model";
+  std::string estimator = "model";  ///< "model" (kinematic references) or "learned" (data-led)
   bool no_master_spheres = false;
 };
 

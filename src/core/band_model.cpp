@@ -15,7 +15,8 @@ KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const Band
   if (!(params.band_contrast >= 0)) fail("band contrast must be >= 0, got ", params.band_contrast);
   if (!(params.band_exponent > 0)) fail("band exponent must be positive, got ", params.band_exponent);
   if (!(params.edge_width > 0)) fail("band edge width must be positive, got ", params.edge_width);
-  if (!(std::abs(params.edge_asymmetry) <= 1)) fail("edge asymmetry must be within [-1, 1], got ", params.edge_asymmetry);
+  if (!(std::abs(params.edge_asymmetry) <= 1))
+    fail("edge asymmetry must be within [-1, 1], got ", params.edge_asymmetry);
   const double lambda = electron_wavelength_A(kv);
   double f_max = 0;
   for (const PlaneFamily& fam : enumerate_plane_families(phase, params.d_min_A)) {

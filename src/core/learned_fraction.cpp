@@ -37,7 +37,7 @@ struct LearnedDirection {
 /// means, the pooled class difference and the pooled within-class covariance (shrunk toward its
 /// diagonal), w = Σ⁻¹ Δ.
 LearnedDirection learn_direction(const LearnedInputs& in, const std::vector<uint8_t>& label, int train_fold,
-                          const std::vector<std::vector<double>>& feature_mean, const LearnedSpec& spec) {
+                                 const std::vector<std::vector<double>>& feature_mean, const LearnedSpec& spec) {
   const size_t p = in.features;
   const int G = in.grains;
   std::vector<Eigen::VectorXd> sum[2];
@@ -68,8 +68,7 @@ LearnedDirection learn_direction(const LearnedInputs& in, const std::vector<uint
   for (int c = 0; c < 2; ++c) mean[c].assign(G + 1, Eigen::VectorXd::Zero(p));
   for (int g = 1; g <= G; ++g)
     for (size_t b = 0; b < p; ++b) {
-      for (int c = 0; c < 2; ++c)
-        mean[c][g][b] = cnt[c][g][b] > 0 ? sum[c][g][b] / cnt[c][g][b] : feature_mean[g][b];
+      for (int c = 0; c < 2; ++c) mean[c][g][b] = cnt[c][g][b] > 0 ? sum[c][g][b] / cnt[c][g][b] : feature_mean[g][b];
       const double n0 = cnt[0][g][b], n1 = cnt[1][g][b];
       if (n0 < spec.min_class_points || n1 < spec.min_class_points) continue;
       const double hg = n0 * n1 / (n0 + n1);
@@ -196,7 +195,8 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
                    mix[0].weight >= spec.min_second_weight;
   if (out.two_phases) {
     for (size_t k = 0; k < n; ++k)
-      if (!std::isnan(f[k])) out.f[k] = static_cast<float>(f[k]), out.uncertainty[k] = static_cast<float>(mix[0].sd / beta);
+      if (!std::isnan(f[k]))
+        out.f[k] = static_cast<float>(f[k]), out.uncertainty[k] = static_cast<float>(mix[0].sd / beta);
   } else {
     // One phase: which one from the model's first guess (its sign survives a mismatch of scale).
     double sum = 0, count = 0;

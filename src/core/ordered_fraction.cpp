@@ -9,9 +9,9 @@
 #include <Eigen/Dense>
 
 #include "orderband/error.hpp"
-#include "orderband/learned_fraction.hpp"
 #include "orderband/grains.hpp"
 #include "orderband/laue_group.hpp"
+#include "orderband/learned_fraction.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/pattern_centre_fit.hpp"
 #include "orderband/synth.hpp"
@@ -721,7 +721,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     if (lf.difference.size() == nf * bins)
       for (size_t f = 0; f < nf; ++f)
         learned_families.difference.emplace_back(lf.difference.begin() + f * bins,
-                                                  lf.difference.begin() + (f + 1) * bins);
+                                                 lf.difference.begin() + (f + 1) * bins);
     for (size_t b = 0; b < bins; ++b) learned_families.u.push_back(features.bin_centre_u(static_cast<int>(b)));
   };
 
@@ -738,122 +738,123 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   if (learned) {
     learned_estimate(r);
   } else {
-  PreprocessedRows rows(*source, grid, pre);
-  for_each_scan_row(
-      rows, grid, store, "fraction", progress,
-      [&](int row, ByteReader& in) {
-        for (int col = 0; col < grid.cols; ++col) {
-          const size_t k = grid.index({row, col});
-          r.reason[k] = in.get<uint8_t>();
-          r.raw[k] = in.get<float>();
-          r.uncertainty[k] = in.get<float>();
-          r.band_contrast[k] = in.get<float>();
-        }
-        for (size_t f = 0; f < nf; ++f) sep_num[f] += in.get<double>(), sep_den[f] += in.get<double>();
-      },
-      [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
-        std::fill(row_num.begin(), row_num.end(), 0.0), std::fill(row_den.begin(), row_den.end(), 0.0);
-        // Per-point contributions, summed afterwards in column order: the same sums for any thread count.
-        std::vector<double> point_num(static_cast<size_t>(grid.cols) * nf, 0.0), point_den(point_num.size(), 0.0);
-#pragma omp parallel
-        {
-          std::vector<FamilyProfile> prof;
-#pragma omp for schedule(dynamic)
+    PreprocessedRows rows(*source, grid, pre);
+    for_each_scan_row(
+        rows, grid, store, "fraction", progress,
+        [&](int row, ByteReader& in) {
           for (int col = 0; col < grid.cols; ++col) {
-            double* local_num = point_num.data() + static_cast<size_t>(col) * nf;
-            double* local_den = point_den.data() + static_cast<size_t>(col) * nf;
             const size_t k = grid.index({row, col});
-            if (!usable[col]) {
-              r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
-              continue;
-            }
-            const int g = ori.grains.id[k];
-            if (!ori.orientation[k] || g <= 0) {
-              r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
-              continue;
-            }
-            // The grain's reference and binning, unless this point's orientation (kernel mean, corrected
-            // like its grain) is too far from the grain's for one reference to serve: then its own.
-            const Rotation point = *point_orientation[k] * correction[g];
-            const bool own = symmetry.misorientation_angle(point, grain_orientation[g]) > spec.grain_reference_max_rad;
-            Reference own_ref;
-            if (own) own_ref = build_reference(point);
-            const Reference& ref = own ? own_ref : refs[g];
-            const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
-            profiler.profile(pattern, pre.mask(), rays, own ? point : grain_orientation[g], prof);
-            double num = 0, var = 0;
-            if (spec.estimator == FractionEstimator::windows) {
-              // Off-peak windows only: interior minus flanks per family, over the fundamental contrast.
-              const WindowSignals w = window_signals(profiler, prof, spec.windows);
-              const double c = contrast(w, fundamental_weight, first_fundamental);
-              r.band_contrast[k] = static_cast<float>(c);
-              if (!(c > 0) || !(ref.denominator > 0)) {
-                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+            r.reason[k] = in.get<uint8_t>();
+            r.raw[k] = in.get<float>();
+            r.uncertainty[k] = in.get<float>();
+            r.band_contrast[k] = in.get<float>();
+          }
+          for (size_t f = 0; f < nf; ++f) sep_num[f] += in.get<double>(), sep_den[f] += in.get<double>();
+        },
+        [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
+          std::fill(row_num.begin(), row_num.end(), 0.0), std::fill(row_den.begin(), row_den.end(), 0.0);
+          // Per-point contributions, summed afterwards in column order: the same sums for any thread count.
+          std::vector<double> point_num(static_cast<size_t>(grid.cols) * nf, 0.0), point_den(point_num.size(), 0.0);
+#pragma omp parallel
+          {
+            std::vector<FamilyProfile> prof;
+#pragma omp for schedule(dynamic)
+            for (int col = 0; col < grid.cols; ++col) {
+              double* local_num = point_num.data() + static_cast<size_t>(col) * nf;
+              double* local_den = point_den.data() + static_cast<size_t>(col) * nf;
+              const size_t k = grid.index({row, col});
+              if (!usable[col]) {
+                r.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
                 continue;
               }
-              for (size_t f = 0; f < first_fundamental; ++f) {
-                if (ref.a[f] == 0) continue;
-                const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
-                num += ref.a[f] * (rf - ref.r0[f]);
-                var += ref.a[f] * ref.a[f] * vf;
-                local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
-                local_den[f] += std::sqrt(vf);
-              }
-              r.raw[k] = static_cast<float>(num / ref.denominator);
-              r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
-            } else {
-              // Pixel noise of this pattern from differences of horizontal neighbours inside the mask
-              // (bands vary little from one pixel to the next): σ = 1.4826 · MAD / √2.
-              std::vector<float> diffs;
-              diffs.reserve(px);
-              for (size_t q = 0; q + 1 < px; ++q)
-                if ((q + 1) % source->width() && pre.mask()[q] && pre.mask()[q + 1])
-                  diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
-              std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
-              const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
-              // At a grain boundary the beam sees a second lattice: its pattern, profiled in this
-              // grain's frame, is fitted away, and the same is done in the other grain's frame.
-              const int other = own ? 0 : neighbour_grain(k);
-              const auto cross = other ? cross_profiles.find({g, other}) : cross_profiles.end();
-              const PointFit fit = fit_point(prof, ref, cross != cross_profiles.end() ? &cross->second : nullptr,
-                                             pixel_sd, local_num, local_den);
-              r.band_contrast[k] = static_cast<float>(fit.q);
-              if (!fit.ok) {
-                r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+              const int g = ori.grains.id[k];
+              if (!ori.orientation[k] || g <= 0) {
+                r.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
                 continue;
               }
-              double f = fit.f, v = fit.var;
-              if (cross != cross_profiles.end()) {
-                profiler.profile(pattern, pre.mask(), rays, grain_orientation[other], prof);
-                const PointFit second = fit_point(prof, refs[other], &cross_profiles.at({other, g}), pixel_sd);
-                // Both patterns are standardised, so the two scale factors share the beam's volume.
-                const double a = std::max(fit.q, 0.0), b = second.ok ? std::max(second.q, 0.0) : 0.0;
-                if (a + b > 0) {
-                  f = (a * fit.f + b * (second.ok ? second.f : 0.0)) / (a + b);
-                  v = (a * a * fit.var + b * b * (second.ok ? second.var : 0.0)) / ((a + b) * (a + b));
+              // The grain's reference and binning, unless this point's orientation (kernel mean, corrected
+              // like its grain) is too far from the grain's for one reference to serve: then its own.
+              const Rotation point = *point_orientation[k] * correction[g];
+              const bool own =
+                  symmetry.misorientation_angle(point, grain_orientation[g]) > spec.grain_reference_max_rad;
+              Reference own_ref;
+              if (own) own_ref = build_reference(point);
+              const Reference& ref = own ? own_ref : refs[g];
+              const float* pattern = patterns.data() + static_cast<size_t>(col) * px;
+              profiler.profile(pattern, pre.mask(), rays, own ? point : grain_orientation[g], prof);
+              double num = 0, var = 0;
+              if (spec.estimator == FractionEstimator::windows) {
+                // Off-peak windows only: interior minus flanks per family, over the fundamental contrast.
+                const WindowSignals w = window_signals(profiler, prof, spec.windows);
+                const double c = contrast(w, fundamental_weight, first_fundamental);
+                r.band_contrast[k] = static_cast<float>(c);
+                if (!(c > 0) || !(ref.denominator > 0)) {
+                  r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+                  continue;
                 }
+                for (size_t f = 0; f < first_fundamental; ++f) {
+                  if (ref.a[f] == 0) continue;
+                  const double rf = w.s[f] / c, vf = w.var[f] / (c * c);
+                  num += ref.a[f] * (rf - ref.r0[f]);
+                  var += ref.a[f] * ref.a[f] * vf;
+                  local_num[f] += std::abs(ref.r1[f] - ref.r0[f]);
+                  local_den[f] += std::sqrt(vf);
+                }
+                r.raw[k] = static_cast<float>(num / ref.denominator);
+                r.uncertainty[k] = static_cast<float>(std::sqrt(var) / ref.denominator);
+              } else {
+                // Pixel noise of this pattern from differences of horizontal neighbours inside the mask
+                // (bands vary little from one pixel to the next): σ = 1.4826 · MAD / √2.
+                std::vector<float> diffs;
+                diffs.reserve(px);
+                for (size_t q = 0; q + 1 < px; ++q)
+                  if ((q + 1) % source->width() && pre.mask()[q] && pre.mask()[q + 1])
+                    diffs.push_back(std::abs(pattern[q + 1] - pattern[q]));
+                std::nth_element(diffs.begin(), diffs.begin() + diffs.size() / 2, diffs.end());
+                const double pixel_sd = diffs.empty() ? 0.0 : 1.4826 * diffs[diffs.size() / 2] / std::sqrt(2.0);
+                // At a grain boundary the beam sees a second lattice: its pattern, profiled in this
+                // grain's frame, is fitted away, and the same is done in the other grain's frame.
+                const int other = own ? 0 : neighbour_grain(k);
+                const auto cross = other ? cross_profiles.find({g, other}) : cross_profiles.end();
+                const PointFit fit = fit_point(prof, ref, cross != cross_profiles.end() ? &cross->second : nullptr,
+                                               pixel_sd, local_num, local_den);
+                r.band_contrast[k] = static_cast<float>(fit.q);
+                if (!fit.ok) {
+                  r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+                  continue;
+                }
+                double f = fit.f, v = fit.var;
+                if (cross != cross_profiles.end()) {
+                  profiler.profile(pattern, pre.mask(), rays, grain_orientation[other], prof);
+                  const PointFit second = fit_point(prof, refs[other], &cross_profiles.at({other, g}), pixel_sd);
+                  // Both patterns are standardised, so the two scale factors share the beam's volume.
+                  const double a = std::max(fit.q, 0.0), b = second.ok ? std::max(second.q, 0.0) : 0.0;
+                  if (a + b > 0) {
+                    f = (a * fit.f + b * (second.ok ? second.f : 0.0)) / (a + b);
+                    v = (a * a * fit.var + b * b * (second.ok ? second.var : 0.0)) / ((a + b) * (a + b));
+                  }
+                }
+                r.raw[k] = static_cast<float>(f);
+                r.uncertainty[k] = static_cast<float>(std::sqrt(v));
               }
-              r.raw[k] = static_cast<float>(f);
-              r.uncertainty[k] = static_cast<float>(std::sqrt(v));
             }
           }
-        }
-        for (int col = 0; col < grid.cols; ++col)
-          for (size_t f = 0; f < nf; ++f)
-            row_num[f] += point_num[static_cast<size_t>(col) * nf + f],
-                row_den[f] += point_den[static_cast<size_t>(col) * nf + f];
-        for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
-      },
-      [&](int row, ByteWriter& out) {
-        for (int col = 0; col < grid.cols; ++col) {
-          const size_t k = grid.index({row, col});
-          out.put<uint8_t>(r.reason[k]);
-          out.put<float>(r.raw[k]);
-          out.put<float>(r.uncertainty[k]);
-          out.put<float>(r.band_contrast[k]);
-        }
-        for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
-      });
+          for (int col = 0; col < grid.cols; ++col)
+            for (size_t f = 0; f < nf; ++f)
+              row_num[f] += point_num[static_cast<size_t>(col) * nf + f],
+                  row_den[f] += point_den[static_cast<size_t>(col) * nf + f];
+          for (size_t f = 0; f < nf; ++f) sep_num[f] += row_num[f], sep_den[f] += row_den[f];
+        },
+        [&](int row, ByteWriter& out) {
+          for (int col = 0; col < grid.cols; ++col) {
+            const size_t k = grid.index({row, col});
+            out.put<uint8_t>(r.reason[k]);
+            out.put<float>(r.raw[k]);
+            out.put<float>(r.uncertainty[k]);
+            out.put<float>(r.band_contrast[k]);
+          }
+          for (size_t f = 0; f < nf; ++f) out.put<double>(row_num[f]), out.put<double>(row_den[f]);
+        });
   }
 
   // End members from the scan: a two-component mixture of the raw estimates.

@@ -40,7 +40,8 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
     for (int a = -2; a <= 2; ++a)
       for (int b = -2; b <= 2; ++b) total += std::exp(-0.5 * (a * a + b * b));
     for (int a = -2; a <= 2; ++a)
-      for (int b = -2; b <= 2; ++b) add(p + Eigen::Vector2d(sigma_x_um * a, sigma_y_um * b), std::exp(-0.5 * (a * a + b * b)) / total);
+      for (int b = -2; b <= 2; ++b)
+        add(p + Eigen::Vector2d(sigma_x_um * a, sigma_y_um * b), std::exp(-0.5 * (a * a + b * b)) / total);
   }
   std::vector<MixtureComponent> out;
   for (auto& [k, c] : acc) out.push_back(c);
@@ -138,7 +139,8 @@ void PatternRenderer::render(const std::vector<MixtureComponent>& mix, const Det
   }
 }
 
-SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_x_um, double beam_sigma_y_um) {
+SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double beam_sigma_x_um,
+                         double beam_sigma_y_um) {
   SynthTruth t;
   const size_t n = grid.count();
   t.ordered_fraction.resize(n);
@@ -149,7 +151,8 @@ SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double b
   for (size_t k = 0; k < n; ++k) {
     const Eigen::Vector2d p = grid.position_um(grid.point(k));
     double f = 0;
-    for (const MixtureComponent& c : point_mixture(m, p, beam_sigma_x_um, beam_sigma_y_um)) f += c.ordered ? c.weight : 0.0;
+    for (const MixtureComponent& c : point_mixture(m, p, beam_sigma_x_um, beam_sigma_y_um))
+      f += c.ordered ? c.weight : 0.0;
     t.ordered_fraction[k] = static_cast<float>(f);
     const MicrostructureSample s = m.at(p);
     // The lattice the point carries: its grain's, a coherent particle's host grain's, or, for a

@@ -296,6 +296,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"share", r.fraction.disordered.weight}}},
       {"ordered",
        {{"mean", r.fraction.ordered.mean}, {"sd", r.fraction.ordered.sd}, {"share", r.fraction.ordered.weight}}}};
+  if (r.fraction.estimator == "learned")
+    j["learned_estimator"] = {
+        {"phases_found", r.fraction.two_phases ? 2 : 1},
+        {"single_phase", r.fraction.two_phases ? "" : (r.fraction.single_phase_ordered ? "ordered" : "disordered")},
+        {"component_separation_dprime", r.fraction.learned_separation},
+        {"iterations", r.fraction.learned_iterations}};
   nlohmann::json grain_rows = nlohmann::json::array();
   for (size_t g = 0; g < r.fraction.grains.size(); ++g) {
     const GrainFraction& s = r.fraction.grains[g];
@@ -327,12 +333,19 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"sphere_count_per_um3", r.unfolding.sphere_count},       {"negative_classes", r.unfolding.negative_classes},
         {"mean_sphere_diameter_um", r.unfolding.mean_diameter_um}};
   nlohmann::json fams = nlohmann::json::array();
-  for (const auto& f : r.fraction.families)
-    fams.push_back({{"family", f.label},
-                    {"superlattice", f.superlattice},
-                    {"sensitivity", f.sensitivity},
-                    {"weight", f.weight},
-                    {"separation_dprime", f.separation}});
+  for (const auto& f : r.fraction.families) {
+    nlohmann::json row = {{"family", f.label},
+                          {"superlattice", f.superlattice},
+                          {"sensitivity", f.sensitivity},
+                          {"weight", f.weight},
+                          {"separation_dprime", f.separation}};
+    if (!f.learned_difference.empty()) {
+      // The learned response beside the model's: ordered − disordered profile difference per bin.
+      row["learned_profile_u"] = f.learned_u;
+      row["learned_difference"] = f.learned_difference;
+    }
+    fams.push_back(row);
+  }
   j["families"] = fams;
   j["grains"] = r.orientations.grains.count();
   j["grain_checks"] = {{"pseudo_symmetric_grains", r.orientations.pseudo_symmetric_grains},
@@ -360,8 +373,8 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
       {"fraction",
        {{"estimator", options.fraction.estimator == FractionEstimator::learned   ? "learned"
-                       : options.fraction.estimator == FractionEstimator::profile ? "profile"
-                                                                                    : "windows"},
+                      : options.fraction.estimator == FractionEstimator::profile ? "profile"
+                                                                                 : "windows"},
         {"sensitivity_threshold", options.fraction.sensitivity_threshold},
         {"d_min_A", options.fraction.d_min_A},
         {"profile_u_max", options.fraction.profile.u_max},

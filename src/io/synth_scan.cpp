@@ -103,7 +103,8 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
   if (!std::isnan(v.ordered_fundamental_edge_contrast) && !(std::abs(v.ordered_fundamental_edge_contrast) <= 1))
     fail(path, ": [renderer] ordered_fundamental_edge_contrast must be within [-1, 1]");
   v.detector_gamma = r.get<double>(t, "renderer", "detector_gamma").value_or(1.0);
-  if (!(v.detector_gamma >= 0.5 && v.detector_gamma <= 2)) fail(path, ": [renderer] detector_gamma must be within [0.5, 2]");
+  if (!(v.detector_gamma >= 0.5 && v.detector_gamma <= 2))
+    fail(path, ": [renderer] detector_gamma must be within [0.5, 2]");
   const std::string bg = r.get<std::string>(t, "renderer", "background_shape").value_or("quadratic");
   if (bg == "quadratic")
     v.background = BackgroundShape::quadratic;
@@ -124,7 +125,8 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
       fail(path, ": [renderer] pc_error_px must be [x, y, distance] in pixels");
     v.pc_error_px = {*(*a)[0].value<double>(), *(*a)[1].value<double>(), *(*a)[2].value<double>()};
   }
-  if (!(v.pc_error_px.cwiseAbs().maxCoeff() <= 10)) fail(path, ": [renderer] pc_error_px components must be within 10 px");
+  if (!(v.pc_error_px.cwiseAbs().maxCoeff() <= 10))
+    fail(path, ": [renderer] pc_error_px components must be within 10 px");
 }
 
 }  // namespace
@@ -132,7 +134,7 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
 SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
-  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases", "patterns",
+  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases",   "patterns",
                                             "grains",   "primary", "secondary", "tertiary",   "renderer", "output"};
   for (const auto& [k, v] : root)
     if (!tables.count(std::string(k.str())))
@@ -330,8 +332,8 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
         const GridPoint p{r, c};
         const Eigen::Vector2d pos = s.grid.position_um(p);
         const DetectorGeometry g = s.pc_drift ? geometry.at_beam_offset(pos.x(), pos.y()) : geometry;
-        renderer.render(point_mixture(micro, pos, beam_um, beam_y_um), g, point_seed(s.seed, s.grid.index(p)), s.sample_type,
-                        scale_8bit, row.data() + static_cast<size_t>(c) * px);
+        renderer.render(point_mixture(micro, pos, beam_um, beam_y_um), g, point_seed(s.seed, s.grid.index(p)),
+                        s.sample_type, scale_8bit, row.data() + static_cast<size_t>(c) * px);
       }
       if (s.sample_type == SampleType::uint8) {
         row8.assign(row.begin(), row.end());
