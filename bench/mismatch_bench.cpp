@@ -16,6 +16,7 @@
 #include "orderband/ordered_fraction.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/preprocess.hpp"
 #include "orderband/synth.hpp"
 
 using namespace orderband;
@@ -60,20 +61,17 @@ double information_limit(const SynthScenario& s, const std::vector<Rotation>& gr
   const DetectorGeometry geometry(render_geometry(s));
   const PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
                                  s.variant.background, s.variant.detector_gamma);
-  const int w = geometry.width(), h = geometry.height();
-  std::vector<float> a(static_cast<size_t>(w) * h), b(a.size());
+  PreprocessSpec mask_spec;  // the estimator's default mask: the inscribed circle
+  mask_spec.static_background = StaticBackgroundKind::none;
+  const Preprocessor masked(mask_spec, geometry.width(), geometry.height());
+  std::vector<float> a(masked.mask().size()), b(a.size());
   double sum = 0;
   for (const Rotation& g : grain_orientations) {
     renderer.expected({{g, false, 1.0, 0}}, geometry, a.data());
     renderer.expected({{g, true, 1.0, 0}}, geometry, b.data());
     double d2 = 0;
-    for (int i = 0; i < h; ++i)
-      for (int j = 0; j < w; ++j) {
-        const double x = j + 0.5 - 0.5 * w, y = i + 0.5 - 0.5 * h;
-        if (x * x + y * y > 0.25 * std::min(w, h) * std::min(w, h)) continue;
-        const size_t q = static_cast<size_t>(i) * w + j;
-        d2 += std::pow(b[q] - a[q], 2) / (0.5 * (a[q] + b[q]));
-      }
+    for (size_t q = 0; q < a.size(); ++q)
+      if (masked.mask()[q]) d2 += std::pow(b[q] - a[q], 2) / (0.5 * (a[q] + b[q]));
     sum += std::sqrt(d2);
   }
   return sum / grain_orientations.size();

@@ -209,6 +209,47 @@ Eigen::Vector3d nelder_mead_3(F&& f, double step, double tolerance, int max_eval
   return x[best];
 }
 
+/// The model's first guess of a point's fraction for the learned estimator: the point's
+/// superlattice profile shapes (each family's mean over its bins removed, so that offsets and
+/// fundamental contrast do not enter) projected on the model's ordered − disordered difference.
+/// `model[phase]` and `x` hold families × bins features (NaN: bin not covered).
+double model_first_guess(const std::array<std::vector<double>, 2>& model, const float* x, size_t bins,
+                         size_t superlattice_families) {
+  double num = 0, den = 0;
+  auto covered = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(model[0][i]); };
+  for (size_t f = 0; f < superlattice_families; ++f) {
+    double mx = 0, m0 = 0, m1 = 0, c = 0;
+    for (size_t i = f * bins; i < (f + 1) * bins; ++i)
+      if (covered(i)) mx += x[i], m0 += model[0][i], m1 += model[1][i], c += 1;
+    if (c < 2) continue;
+    mx /= c, m0 /= c, m1 /= c;
+    for (size_t i = f * bins; i < (f + 1) * bins; ++i) {
+      if (!covered(i)) continue;
+      const double d = (model[1][i] - m1) - (model[0][i] - m0);
+      num += d * ((x[i] - mx) - (model[0][i] - m0)), den += d * d;
+    }
+  }
+  return den > 0 ? num / den : std::nan("");
+}
+
+/// End members as the learned estimator found them: mean, spread and share of the measured points
+/// on either side of one half.
+void end_members_either_side_of_half(FractionResults& r) {
+  double sum[2] = {0, 0}, sq[2] = {0, 0}, cnt[2] = {0, 0};
+  for (size_t k = 0; k < r.raw.size(); ++k) {
+    if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    const int c = r.raw[k] >= 0.5;
+    sum[c] += r.raw[k], sq[c] += double(r.raw[k]) * r.raw[k], cnt[c] += 1;
+  }
+  const double total = cnt[0] + cnt[1];
+  for (int c = 0; c < 2; ++c) {
+    EndMember& e = c ? r.ordered : r.disordered;
+    if (cnt[c] > 0)
+      e.mean = sum[c] / cnt[c], e.sd = std::sqrt(std::max(0.0, sq[c] / cnt[c] - e.mean * e.mean)),
+      e.weight = cnt[c] / total;
+  }
+}
+
 }  // namespace
 
 FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& ori, const FractionSpec& spec,
@@ -312,10 +353,14 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   // bias that fitting the unprocessed model leaves in the orientation stage.
   // A pure phase's model pattern as the data would show it: detector background, then the
   // data's processing.
-  auto processed_phase = [&](const DetectorGeometry& geo, const Rotation& g, bool ordered, float* out) {
+  auto processed_phase_with = [&](const Preprocessor& processing, const DetectorGeometry& geo, const Rotation& g,
+                                  bool ordered, float* out) {
     renderer.expected({{g, ordered, 1.0, 0}}, geo, out);
     for (size_t q = 0; q < source->pixels(); ++q) out[q] *= detector_background[q];
-    model_pre.apply(out);
+    processing.apply(out);
+  };
+  auto processed_phase = [&](const DetectorGeometry& geo, const Rotation& g, bool ordered, float* out) {
+    processed_phase_with(model_pre, geo, g, ordered, out);
   };
   std::vector<Rotation> grain_orientation(grains + 1), correction(grains + 1);
   for (int g = 1; g <= grains; ++g) grain_orientation[g] = ori.grains.mean[g - 1];
@@ -473,7 +518,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     return best;
   };
   std::map<std::pair<int, int>, std::vector<std::vector<double>>> cross_profiles;  // (frame grain, seen grain)
-  {
+  if (spec.estimator != FractionEstimator::learned) {  // the learned estimator does not fit a second lattice
     std::vector<std::vector<int>> touching(grains + 1);
     for (size_t k = 0; k < n; ++k) {
       const int g = ori.grains.id[k];
@@ -570,13 +615,12 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   };
 
   struct {
-    std::vector<std::string> label;
-    std::vector<std::vector<double>> difference;
-    std::vector<double> u;
+    std::vector<std::vector<double>> difference;  // per family and bin
+    std::vector<double> u;                        // bin centres, θ_B units
   } learned_families;
   // The data-led estimator (learned_fraction.hpp): features are the crystal-frame profiles of
-  // every chosen family binned with the grain's orientation, the zero comes from the clean
-  // superlattice windows, the model gives only geometry and a first guess of the scale.
+  // every chosen family binned with the grain's orientation; the model gives only geometry and the
+  // first split of the points.
   auto learned_estimate = [&](FractionResults& res) {
     const BandProfiler features(pf, spec.learned_profile);
     const size_t bins = static_cast<size_t>(features.bins()), p = nf * bins;
@@ -596,9 +640,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       std::vector<float> img(source->pixels());
       std::vector<FamilyProfile> prof;
       for (int phase = 0; phase < 2; ++phase) {
-        renderer.expected({{grain_orientation[g], phase == 1, 1.0, 0}}, geometry, img.data());
-        for (size_t q = 0; q < img.size(); ++q) img[q] *= detector_background[q];
-        model_linear.apply(img.data());
+        processed_phase_with(model_linear, geometry, grain_orientation[g], phase == 1, img.data());
         features.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
         model_features[g][phase].assign(p, std::nan(""));
         for (size_t f = 0; f < nf; ++f)
@@ -606,27 +648,6 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
             if (prof[f].weight[b] > 0) model_features[g][phase][f * bins + b] = prof[f].mean(b);
       }
     }
-    auto first_guess = [&](int g, const float* x) {
-      double num = 0, den = 0;
-      for (size_t f = 0; f < first_fundamental; ++f) {
-        double mx = 0, m0 = 0, m1 = 0, c = 0;
-        for (size_t b = 0; b < bins; ++b) {
-          const size_t i = f * bins + b;
-          if (std::isnan(x[i]) || std::isnan(model_features[g][0][i])) continue;
-          mx += x[i], m0 += model_features[g][0][i], m1 += model_features[g][1][i], c += 1;
-        }
-        if (c < 2) continue;
-        mx /= c, m0 /= c, m1 /= c;
-        for (size_t b = 0; b < bins; ++b) {
-          const size_t i = f * bins + b;
-          if (std::isnan(x[i]) || std::isnan(model_features[g][0][i])) continue;
-          const double d = (model_features[g][1][i] - m1) - (model_features[g][0][i] - m0);
-          num += d * ((x[i] - mx) - (model_features[g][0][i] - m0)), den += d * d;
-        }
-      }
-      return den > 0 ? num / den : std::nan("");
-    };
-
     LearnedInputs in;
     in.points = n, in.features = p, in.grains = grains;
     in.grain.assign(n, 0);
@@ -686,7 +707,8 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     for (size_t k = 0; k < n; ++k)
       if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
         in.grain[k] = ori.grains.id[k];
-        in.first_guess[k] = first_guess(in.grain[k], in.x.data() + k * p);
+        in.first_guess[k] =
+            model_first_guess(model_features[in.grain[k]], in.x.data() + k * p, bins, first_fundamental);
       }
     const LearnedFraction lf = learn_fraction(in, spec.learned);
     for (size_t k = 0; k < n; ++k) {
@@ -703,21 +725,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     res.single_phase_ordered = lf.single_phase_ordered;
     res.learned_separation = lf.separation;
     res.learned_iterations = lf.iterations_run;
-    // End members as found: the points on either side of one half.
-    double sum[2] = {0, 0}, sq[2] = {0, 0}, cnt[2] = {0, 0};
-    for (size_t k = 0; k < n; ++k) {
-      if (res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      const int c = res.raw[k] >= 0.5;
-      sum[c] += res.raw[k], sq[c] += double(res.raw[k]) * res.raw[k], cnt[c] += 1;
-    }
-    const double total = cnt[0] + cnt[1];
-    for (int c = 0; c < 2; ++c) {
-      EndMember& e = c ? res.ordered : res.disordered;
-      if (cnt[c] > 0)
-        e.mean = sum[c] / cnt[c], e.sd = std::sqrt(std::max(0.0, sq[c] / cnt[c] - e.mean * e.mean)),
-        e.weight = cnt[c] / total;
-    }
-    learned_families.label.clear();
+    end_members_either_side_of_half(res);
     if (lf.difference.size() == nf * bins)
       for (size_t f = 0; f < nf; ++f)
         learned_families.difference.emplace_back(lf.difference.begin() + f * bins,

@@ -67,9 +67,9 @@ std::uint64_t point_seed(std::uint64_t seed, size_t index) {
   return z ^ (z >> 31);
 }
 
-}  // namespace
-
-namespace {
+// Names in the order of the enums (BandShape, BackgroundShape).
+const std::vector<std::string> kBandShapeNames{"soft", "flat", "gaussian"};
+const std::vector<std::string> kBackgroundNames{"quadratic", "gaussian", "linear"};
 
 /// [renderer]: the model-mismatch variants (synth.hpp), never told to the estimator.
 void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams& band, RendererVariant& v) {
@@ -78,15 +78,7 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
                 "ordered_fundamental_ratio", "ordered_fundamental_edge_contrast", "detector_gamma", "background_shape",
                 "lattice_misfit", "beam_elongation", "pc_error_px"});
   const std::string path = r.path();
-  const std::string shape = r.get<std::string>(t, "renderer", "band_shape").value_or("soft");
-  if (shape == "soft")
-    band.shape = BandShape::soft;
-  else if (shape == "flat")
-    band.shape = BandShape::flat;
-  else if (shape == "gaussian")
-    band.shape = BandShape::gaussian;
-  else
-    fail(path, ": [renderer] band_shape = \"", shape, "\" is not \"soft\", \"flat\" or \"gaussian\"");
+  band.shape = static_cast<BandShape>(r.choice(t, "renderer", "band_shape", kBandShapeNames, 0));
   band.edge_asymmetry = r.get<double>(t, "renderer", "edge_asymmetry").value_or(0.0);
   if (!(std::abs(band.edge_asymmetry) <= 1)) fail(path, ": [renderer] edge_asymmetry must be within [-1, 1]");
   v.family_contrast_spread = r.get<double>(t, "renderer", "family_contrast_spread").value_or(0.0);
@@ -105,15 +97,7 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
   v.detector_gamma = r.get<double>(t, "renderer", "detector_gamma").value_or(1.0);
   if (!(v.detector_gamma >= 0.5 && v.detector_gamma <= 2))
     fail(path, ": [renderer] detector_gamma must be within [0.5, 2]");
-  const std::string bg = r.get<std::string>(t, "renderer", "background_shape").value_or("quadratic");
-  if (bg == "quadratic")
-    v.background = BackgroundShape::quadratic;
-  else if (bg == "gaussian")
-    v.background = BackgroundShape::gaussian;
-  else if (bg == "linear")
-    v.background = BackgroundShape::linear;
-  else
-    fail(path, ": [renderer] background_shape = \"", bg, "\" is not \"quadratic\", \"gaussian\" or \"linear\"");
+  v.background = static_cast<BackgroundShape>(r.choice(t, "renderer", "background_shape", kBackgroundNames, 0));
   v.lattice_misfit = r.get<double>(t, "renderer", "lattice_misfit").value_or(0.0);
   if (!(std::abs(v.lattice_misfit) <= 0.02)) fail(path, ": [renderer] lattice_misfit must be within [-0.02, 0.02]");
   v.beam_elongation = r.get<double>(t, "renderer", "beam_elongation").value_or(1.0);
@@ -281,15 +265,13 @@ namespace {
 /// The renderer variant as recorded in truth.json.
 nlohmann::json variant_json(const SynthScenario& s) {
   const RendererVariant& v = s.variant;
-  const char* shapes[] = {"soft", "flat", "gaussian"};
-  const char* backgrounds[] = {"quadratic", "gaussian", "linear"};
-  nlohmann::json j = {{"band_shape", shapes[static_cast<int>(s.band.shape)]},
+  nlohmann::json j = {{"band_shape", kBandShapeNames[static_cast<size_t>(s.band.shape)]},
                       {"edge_asymmetry", s.band.edge_asymmetry},
                       {"family_contrast_spread", v.family_contrast_spread},
                       {"family_contrast_seed", v.family_contrast_seed},
                       {"ordered_fundamental_ratio", v.ordered_fundamental_ratio},
                       {"detector_gamma", v.detector_gamma},
-                      {"background_shape", backgrounds[static_cast<int>(v.background)]},
+                      {"background_shape", kBackgroundNames[static_cast<size_t>(v.background)]},
                       {"lattice_misfit", v.lattice_misfit},
                       {"beam_elongation", v.beam_elongation},
                       {"pc_error_px", {v.pc_error_px.x(), v.pc_error_px.y(), v.pc_error_px.z()}}};

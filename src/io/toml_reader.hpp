@@ -6,6 +6,7 @@
 #include <optional>
 #include <set>
 #include <string>
+#include <vector>
 
 #include "orderband/error.hpp"
 #include "orderband/text_file.hpp"
@@ -57,6 +58,20 @@ class TomlReader {
       if (n->is_string()) return n->value<std::string>();
       fail(path_, ": [", table_name, "] ", key, " must be a string");
     }
+  }
+
+  /// A string key that names one of `names`: its index (`fallback` when absent); otherwise one line
+  /// `path: [table] key = "x" is not "a", "b" or "c"`.
+  size_t choice(const toml::table* t, const std::string& table_name, const std::string& key,
+                const std::vector<std::string>& names, size_t fallback) {
+    const auto v = get<std::string>(t, table_name, key);
+    if (!v) return fallback;
+    for (size_t i = 0; i < names.size(); ++i)
+      if (*v == names[i]) return i;
+    std::string list;
+    for (size_t i = 0; i < names.size(); ++i)
+      list += (i == 0 ? "" : i + 1 == names.size() ? " or " : ", ") + ("\"" + names[i] + "\"");
+    fail(path_, ": [", table_name, "] ", key, " = \"", *v, "\" is not ", list);
   }
 
   template <class T>
