@@ -232,6 +232,15 @@ double model_first_guess(const std::array<std::vector<double>, 2>& model, const 
   return den > 0 ? num / den : std::nan("");
 }
 
+/// Writes the bin means of every family (families × bins values) where a bin holds pixels; other
+/// entries are left as they are (NaN: not covered).
+template <class T>
+void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* out) {
+  for (size_t f = 0; f < prof.size(); ++f)
+    for (size_t b = 0; b < bins; ++b)
+      if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
+}
+
 /// End members as the learned estimator found them: mean, spread and share of the measured points
 /// on either side of one half.
 void end_members_either_side_of_half(FractionResults& r) {
@@ -621,46 +630,31 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   // The data-led estimator (learned_fraction.hpp): features are the crystal-frame profiles of
   // every chosen family binned with the grain's orientation; the model gives only geometry and the
   // first split of the points.
-  auto learned_estimate = [&](FractionResults& res) {
-    const BandProfiler features(pf, spec.learned_profile);
-    const size_t bins = static_cast<size_t>(features.bins()), p = nf * bins;
-    PreprocessSpec linear_spec = config.preprocess;
-    linear_spec.unit_variance = false;
-    const Preprocessor pre_linear(linear_spec, source->width(), source->height(), data_static);
-    PreprocessSpec linear_model_spec = model_spec;
-    linear_model_spec.unit_variance = false;
-    const Preprocessor model_linear(linear_model_spec, source->width(), source->height(), data_static);
-
-    // The model's first guess per grain: both phases' features, processed like the data; a point's
-    // guess is its superlattice profile shapes (each family's mean over bins removed) projected on
-    // the model's difference.
-    std::vector<std::array<std::vector<double>, 2>> model_features(grains + 1);
+  // Both phases' model features at each grain's orientation, processed like the data (the
+  // learned estimator's first guess).
+  auto learned_model_features = [&](const BandProfiler& features, const Preprocessor& processing) {
+    const size_t p = nf * static_cast<size_t>(features.bins());
+    std::vector<std::array<std::vector<double>, 2>> model(grains + 1);
 #pragma omp parallel for schedule(dynamic)
     for (int g = 1; g <= grains; ++g) {
       std::vector<float> img(source->pixels());
       std::vector<FamilyProfile> prof;
       for (int phase = 0; phase < 2; ++phase) {
-        processed_phase_with(model_linear, geometry, grain_orientation[g], phase == 1, img.data());
+        processed_phase_with(processing, geometry, grain_orientation[g], phase == 1, img.data());
         features.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
-        model_features[g][phase].assign(p, std::nan(""));
-        for (size_t f = 0; f < nf; ++f)
-          for (size_t b = 0; b < bins; ++b)
-            if (prof[f].weight[b] > 0) model_features[g][phase][f * bins + b] = prof[f].mean(b);
+        model[g][phase].assign(p, std::nan(""));
+        profile_features(prof, static_cast<size_t>(features.bins()), model[g][phase].data());
       }
     }
-    LearnedInputs in;
-    in.points = n, in.features = p, in.grains = grains;
-    in.grain.assign(n, 0);
-    in.fold.assign(n, 0);
-    in.x.assign(n * p, std::nanf(""));
-    in.first_guess.assign(n, std::nan(""));
-    for (size_t k = 0; k < n; ++k) {
-      const GridPoint pt = grid.point(k);
-      in.fold[k] = static_cast<uint8_t>((pt.row / 4 + pt.col / 4) % 2);
-    }
-    PreprocessedRows linear_rows(*source, grid, pre_linear);
+    return model;
+  };
+  // Every point's features (resumable, row by row) and its pattern quality.
+  auto collect_learned_features = [&](FractionResults& res, const BandProfiler& features,
+                                      const Preprocessor& processing, LearnedInputs& in) {
+    const size_t p = in.features, bins = static_cast<size_t>(features.bins());
+    PreprocessedRows rows(*source, grid, processing);
     for_each_scan_row(
-        linear_rows, grid, store, "fraction-learned", progress,
+        rows, grid, store, "fraction-learned", progress,
         [&](int row, ByteReader& bytes) {
           for (int col = 0; col < grid.cols; ++col) {
             const size_t k = grid.index({row, col});
@@ -687,9 +681,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
               }
               const float* pattern = patterns.data() + static_cast<size_t>(col) * source->pixels();
               features.profile(pattern, pre.mask(), rays, grain_orientation[g], prof);
-              for (size_t f = 0; f < nf; ++f)
-                for (size_t b = 0; b < bins; ++b)
-                  if (prof[f].weight[b] > 0) in.x[k * p + f * bins + b] = static_cast<float>(prof[f].mean(b));
+              profile_features(prof, bins, in.x.data() + k * p);
               // Pattern quality: the strongest fundamental band's interior over its flanks.
               const FamilyWindows fw = features.windows(prof[first_fundamental], spec.windows);
               res.band_contrast[k] = static_cast<float>(fw.interior.mean - fw.flanks.mean);
@@ -704,6 +696,30 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
             for (size_t b = 0; b < p; ++b) bytes.put<float>(in.x[k * p + b]);
           }
         });
+  };
+  // The data-led estimator (learned_fraction.hpp): features are the crystal-frame profiles of
+  // every chosen family binned with the grain's orientation, from patterns kept linear in the phase
+  // mixture; the model gives only geometry and the first split of the points.
+  auto learned_estimate = [&](FractionResults& res) {
+    const BandProfiler features(pf, spec.learned_profile);
+    const size_t bins = static_cast<size_t>(features.bins()), p = nf * bins;
+    PreprocessSpec linear_spec = config.preprocess, linear_model_spec = model_spec;
+    linear_spec.unit_variance = linear_model_spec.unit_variance = false;
+    const Preprocessor pre_linear(linear_spec, source->width(), source->height(), data_static);
+    const Preprocessor model_linear(linear_model_spec, source->width(), source->height(), data_static);
+    const auto model_features = learned_model_features(features, model_linear);
+
+    LearnedInputs in;
+    in.points = n, in.features = p, in.grains = grains;
+    in.grain.assign(n, 0);
+    in.fold.assign(n, 0);
+    in.x.assign(n * p, std::nanf(""));
+    in.first_guess.assign(n, std::nan(""));
+    for (size_t k = 0; k < n; ++k) {
+      const GridPoint pt = grid.point(k);
+      in.fold[k] = static_cast<uint8_t>((pt.row / 4 + pt.col / 4) % 2);  // alternate 4 × 4 blocks
+    }
+    collect_learned_features(res, features, pre_linear, in);
     for (size_t k = 0; k < n; ++k)
       if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
         in.grain[k] = ori.grains.id[k];
