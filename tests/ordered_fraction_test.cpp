@@ -238,7 +238,9 @@ TEST(OrderedFraction, CobaltAndB2PairsFromTheirCifFilesAlone) {
     EXPECT_EQ(r.orientations.grains.count(), 3) << pair;
     // In this scan one B2 grain is first indexed 60° about <111> off (a pseudo-symmetric solution
     // of the body-centred cubic parent) and mapped back by the grain-level check.
-    if (pair == "feal") EXPECT_GE(r.orientations.pseudo_symmetric_grains, 1);
+    if (pair == "feal") {
+      EXPECT_GE(r.orientations.pseudo_symmetric_grains, 1);
+    }
     EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << pair;  // issue Step 6: within ±0.03
   }
 }
@@ -254,8 +256,8 @@ TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
   // than the model says, and the model-led estimator puts the matrix near −1 (issue Wave 2 · A).
   // The learned estimator is not told; it finds two phases and classifies ≥ 95 % of the points away
   // from phase boundaries (the issue's figure). Its area fraction is not yet within the issue's
-  // ±0.03 on this scan (measured −0.09: the ordered end member's scale; see DEVELOPERS.md), so it
-  // stays an option and this test guards only what it does reach.
+  // ±0.03 on every |F|^1 scan (the mismatch bench's: −0.21, where one grain's response differs from
+  // the pooled one; see DEVELOPERS.md), so this test guards only what it does reach.
   const ScenarioRun r = run_scenario(scenario("band_exponent = 1.0\n" + kSecondary, 40), 0, false, {}, learned_spec());
   EXPECT_TRUE(r.fraction.two_phases);
   EXPECT_EQ(r.fraction.estimator, "learned");
@@ -278,6 +280,22 @@ TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
     ++checked;
   }
   EXPECT_EQ(checked, 1);
+}
+
+TEST(LearnedFraction, AreaFractionWhereTheModelsContrastsAreWrong) {
+  // Two renderer variants the estimators are not told (issue Wave 2 · A, "Must show"): per-family
+  // contrast factors within ±30 % with |F|^1.5 weights, and dark band edges over a steep
+  // background. In the mismatch bench the model-led estimator is off by −0.11 and +0.06 on them;
+  // the learned one must hold the issue's ±0.03 and classify ≥ 95 % away from phase boundaries.
+  const std::string variants[] = {
+      "band_exponent = 1.5\n[renderer]\nfamily_contrast_spread = 0.3\nfamily_contrast_seed = 7\n",
+      "edge_contrast = -0.3\nbackground_falloff = 0.8\n"};
+  for (const std::string& v : variants) {
+    const ScenarioRun r = run_scenario(scenario(v + kSecondary, 40), 0, false, {}, learned_spec());
+    EXPECT_TRUE(r.fraction.two_phases) << v;
+    EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << v;
+    EXPECT_GE(classification(r), 0.95) << v;
+  }
 }
 
 TEST(LearnedFraction, OnePhaseIsReportedAsOnePhase) {

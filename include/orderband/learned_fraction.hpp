@@ -11,7 +11,8 @@ namespace orderband {
 /// cross-fitting fold, a feature vector of `features` floats (the crystal-frame band profiles of
 /// every chosen family, binned with the grain's orientation; NaN where a bin holds no pixel) and
 /// `first_guess[k]`, the model's projection of the point between its two phases (only its split
-/// into "nearer ordered" and "nearer disordered" is used, to start the learning).
+/// into "nearer ordered" and "nearer disordered" is used, to start the learning). Points next to
+/// another grain, whose patterns may mix two orientations, are scored but not learned from.
 struct LearnedInputs {
   size_t points = 0, features = 0;
   int grains = 0;
@@ -19,12 +20,14 @@ struct LearnedInputs {
   std::vector<uint8_t> fold;        ///< per point, 0 or 1: the two halves for cross-fitting
   std::vector<float> x;             ///< points × features
   std::vector<double> first_guess;  ///< per point
+  std::vector<uint8_t> boundary;    ///< per point, 1: next to another grain (scored, not learned from); may be empty
 };
 
 struct LearnedSpec {
   int iterations = 6;
-  double shrinkage = 0.3;            ///< covariance shrunk toward its diagonal by this share
-  double min_separation = 4.0;       ///< d′ between the two components below which one phase is reported
+  double shrinkage = 0.3;  ///< covariance shrunk toward its diagonal by this share
+  double min_separation =
+      4.0;  ///< component distance over the majority component's spread below which one phase is reported
   double min_second_weight = 0.003;  ///< share of points the second component must hold
   int min_class_points = 8;          ///< per grain and class, to enter the learned difference
 };
@@ -34,25 +37,29 @@ struct LearnedFraction {
   std::vector<float> uncertainty;  ///< per point, standard error
   bool two_phases = false;         ///< a second component was found
   bool single_phase_ordered = false;
-  double separation = 0;           ///< d′ of the two components (cross-fitted scores)
+  double separation = 0;           ///< component distance over the majority component's spread (cross-fitted scores)
   double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
-  int iterations_run = 0;
+  int iterations_run = 0;          ///< the round whose result is kept (1-based)
 };
 
 /// Learns the direction in profile space that separates the phases (a shrunk linear discriminant
 /// iterated with the split it implies, cross-fitted over the two folds so that no point's own noise
 /// shapes the direction it is scored with), places every point between the two end members, and
 /// decides whether the scan holds one phase or two. Steps:
-///  1. first split from the model's first guess (f ≥ 0.5);
+///  1. first split from the model's first guess, per grain: a grain whose guesses hold two
+///     components is split midway between them; a grain of one component is all matrix or all
+///     ordered as its mean guess lies either side of the median of those cuts (the model's level
+///     and scale are not trusted, only its direction and sign);
 ///  2. per fold: pooled class difference and within-class covariance of the features (grain and
 ///     class means removed), direction w = Σ⁻¹ Δ, scores of the other fold's points;
-///  3. end members: per grain, the mean score of its matrix points is 0 (grains that are mostly
-///     ordered, such as a primary particle with its own orientation, anchor their mean at 1); the
+///  3. end members: per grain, the mean score of its matrix points is 0 (a grain of the ordered
+///     phase alone, such as a primary particle with its own orientation, anchors its mean at 1); the
 ///     scale is the score of pure ordered points, the upper component of a Gaussian + uniform
-///     mixture of the anchored scores pooled over grains; split again at 0.5 and repeat;
-///  4. one phase when the two components are not separated by min_separation (d′); which one from
-///     the model's first guess.
+///     mixture of the anchored scores pooled over grains; split again at 0.5 and repeat, keeping
+///     the round whose components are best separated;
+///  4. one phase when the components' distance over the majority one's spread is below
+///     min_separation; which phase from the model's first guess.
 /// The disordered end member is the matrix: ordering finer than the beam inside the matrix
 /// (tertiary) is not separable from it by the data alone and is counted as disordered.
 LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec = {});

@@ -15,12 +15,16 @@ namespace {
 
 bool measured(const LearnedInputs& in, size_t k) { return in.grain[k] > 0; }
 
+/// A measured point the learning uses: not next to another grain, where the pattern may mix two
+/// orientations (such points are scored, never learned from).
+bool learns(const LearnedInputs& in, size_t k) { return measured(in, k) && (in.boundary.empty() || !in.boundary[k]); }
+
 /// Per grain (index g) the mean of `v` over the grain's measured points where `use` holds.
 std::vector<double> grain_means(const LearnedInputs& in, const std::vector<double>& v,
                                 const std::vector<uint8_t>& use) {
   std::vector<double> sum(in.grains + 1, 0.0), cnt(in.grains + 1, 0.0);
   for (size_t k = 0; k < in.points; ++k)
-    if (measured(in, k) && use[k] && !std::isnan(v[k])) sum[in.grain[k]] += v[k], cnt[in.grain[k]] += 1;
+    if (learns(in, k) && use[k] && !std::isnan(v[k])) sum[in.grain[k]] += v[k], cnt[in.grain[k]] += 1;
   for (int g = 0; g <= in.grains; ++g) sum[g] = cnt[g] > 0 ? sum[g] / cnt[g] : std::nan("");
   return sum;
 }
@@ -49,7 +53,7 @@ LearnedDirection learn_direction(const LearnedInputs& in, const std::vector<uint
   };
   std::vector<size_t> train;
   for (size_t k = 0; k < in.points; ++k)
-    if (measured(in, k) && in.fold[k] == train_fold) train.push_back(k);
+    if (learns(in, k) && in.fold[k] == train_fold) train.push_back(k);
   for (size_t k : train) {
     const int g = in.grain[k], c = label[k];
     for (size_t b = 0; b < p; ++b) {
@@ -108,7 +112,7 @@ GrainFeatures grain_features(const LearnedInputs& in) {
   GrainFeatures gf{std::vector<std::vector<double>>(in.grains + 1, std::vector<double>(p, 0.0)),
                    std::vector<std::vector<double>>(in.grains + 1, std::vector<double>(p, 0.0))};
   for (size_t k = 0; k < in.points; ++k) {
-    if (!measured(in, k)) continue;
+    if (!learns(in, k)) continue;
     for (size_t b = 0; b < p; ++b)
       if (const float v = in.x[k * p + b]; !std::isnan(v)) gf.mean[in.grain[k]][b] += v, gf.count[in.grain[k]][b] += 1;
   }
@@ -147,27 +151,23 @@ struct Placement {
   double beta = 0;                 ///< score units per unit fraction
 };
 
-/// Places the scores between the end members: each grain's matrix points' mean score is its zero
-/// (a grain that is mostly ordered, such as a primary particle with its own orientation, anchors its
-/// mean at 1); the pure matrix and pure ordered levels are the two Gaussian components of a
-/// mixture of the anchored scores pooled over grains (the matrix mean carries the mixed points at
-/// particle edges). Writes f per point.
-Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& label, const std::vector<double>& score,
+/// Places the scores between the end members: each grain's matrix points' mean score is its zero (a
+/// grain that holds the ordered phase alone, such as a primary particle with its own orientation,
+/// anchors its mean at 1); the pure matrix and pure ordered levels are the two Gaussian components
+/// of a mixture of the anchored scores pooled over grains (the matrix mean carries the mixed points
+/// at particle edges). Writes f per point.
+Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& label,
+                       const std::vector<uint8_t>& ordered_grain, const std::vector<double>& score,
                        std::vector<double>& f) {
   const size_t n = in.points;
-  const int G = in.grains;
   std::vector<uint8_t> matrix(n, 0), all(n, 1);
   for (size_t k = 0; k < n; ++k) matrix[k] = measured(in, k) && !label[k];
   const std::vector<double> matrix_t = grain_means(in, score, matrix), grain_t = grain_means(in, score, all);
-  std::vector<double> share(G + 1, 0.0), size(G + 1, 0.0);
-  for (size_t k = 0; k < n; ++k)
-    if (measured(in, k)) share[in.grain[k]] += label[k], size[in.grain[k]] += 1;
-  std::vector<uint8_t> mostly_ordered(G + 1, 0);
-  for (int g = 1; g <= G; ++g) mostly_ordered[g] = size[g] > 0 && share[g] / size[g] > 0.5;
+  const std::vector<uint8_t>& mostly_ordered = ordered_grain;
   std::vector<double> y;
   for (size_t k = 0; k < n; ++k) {
     const int g = in.grain[k];
-    if (!measured(in, k) || std::isnan(score[k]) || mostly_ordered[g] || std::isnan(matrix_t[g])) continue;
+    if (!learns(in, k) || std::isnan(score[k]) || mostly_ordered[g] || std::isnan(matrix_t[g])) continue;
     y.push_back(score[k] - matrix_t[g]);
   }
   Placement pl;
@@ -183,6 +183,76 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
       f[k] = (score[k] - matrix_t[g] - zero) / pl.beta;
   }
   return pl;
+}
+
+/// The distance of the two components over the spread of the one that holds more points: the
+/// minority component can be broadened by the points that mix both phases under the beam (wide
+/// where the footprint is long) or be a few points of almost no spread, the majority one is set by
+/// the noise; a split of one phase's noise gives two halves about 2.5 apart.
+double component_separation(const std::array<EndMember, 2>& mix) {
+  const double spread = mix[0].weight >= mix[1].weight ? mix[0].sd : mix[1].sd;
+  return spread > 0 ? (mix[1].mean - mix[0].mean) / spread : 0.0;
+}
+
+/// The first split of the points and the grains' kinds. Only the direction and sign of the model's
+/// first guess are trusted, not its scale nor its level, which shift with a grain's orientation
+/// when the model's intensities are wrong: so each grain whose guesses hold two components
+/// (component_separation ≥ spec.min_separation, each ≥ 5 % of its points) is split midway between
+/// them, and a grain of one component is all matrix or all ordered as its mean guess lies below or
+/// above the median of those cuts.
+struct FirstSplit {
+  std::vector<uint8_t> label;          ///< per point: 1 ordered
+  std::vector<uint8_t> ordered_grain;  ///< per grain: the ordered phase alone
+};
+
+/// Two components of `v` (fitted in units where its 5th and 95th percentiles are 0 and 1), in the
+/// units of `v`.
+std::array<EndMember, 2> components(std::vector<double> v) {
+  std::array<EndMember, 2> mix{};
+  if (v.size() < 8) return mix;
+  std::vector<double> sorted = v;
+  std::sort(sorted.begin(), sorted.end());
+  const double lo = sorted[sorted.size() / 20], hi = sorted[sorted.size() - 1 - sorted.size() / 20];
+  const double range = hi > lo ? hi - lo : 1.0;
+  for (double& x : v) x = (x - lo) / range;
+  mix = two_component_mixture(v);
+  for (EndMember& m : mix) m.mean = lo + range * m.mean, m.sd *= range;
+  return mix;
+}
+
+FirstSplit first_split(const LearnedInputs& in, const LearnedSpec& spec) {
+  std::vector<std::vector<double>> per_grain(in.grains + 1);
+  std::vector<double> pooled;
+  for (size_t k = 0; k < in.points; ++k)
+    if (learns(in, k) && !std::isnan(in.first_guess[k]))
+      pooled.push_back(in.first_guess[k]), per_grain[in.grain[k]].push_back(in.first_guess[k]);
+  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(in.grains + 1, 0)};
+  // Grains of two components are cut midway between them; the median of those cuts (or, without
+  // such grains, the cut between the pooled components) decides the grains of one component.
+  std::vector<double> cut(in.grains + 1, std::nan("")), two_cuts;
+  for (int g = 1; g <= in.grains; ++g) {
+    const std::array<EndMember, 2> mix = components(per_grain[g]);
+    const bool two = component_separation(mix) >= spec.min_separation && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
+    if (two) cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]);
+  }
+  double one_cut = 0;
+  if (!two_cuts.empty()) {
+    std::nth_element(two_cuts.begin(), two_cuts.begin() + two_cuts.size() / 2, two_cuts.end());
+    one_cut = two_cuts[two_cuts.size() / 2];
+  } else {
+    const std::array<EndMember, 2> all = components(pooled);
+    one_cut = 0.5 * (all[0].mean + all[1].mean);
+  }
+  for (int g = 1; g <= in.grains; ++g) {
+    if (!std::isnan(cut[g]) || per_grain[g].empty()) continue;
+    double mean = 0;
+    for (double x : per_grain[g]) mean += x / per_grain[g].size();
+    split.ordered_grain[g] = mean >= one_cut;
+    cut[g] = split.ordered_grain[g] ? -HUGE_VAL : HUGE_VAL;
+  }
+  for (size_t k = 0; k < in.points; ++k)
+    split.label[k] = measured(in, k) && !std::isnan(cut[in.grain[k]]) && in.first_guess[k] >= cut[in.grain[k]];
+  return split;
 }
 
 /// One phase: which one from the model's first guess (its sign survives a mismatch of scale);
@@ -206,21 +276,27 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   out.f.assign(n, std::nanf(""));
   out.uncertainty.assign(n, std::nanf(""));
   const GrainFeatures gf = grain_features(in);
-  // 1. First split from the model's guess; then learn, score, place and split again.
-  std::vector<uint8_t> label(n, 0);
-  for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && in.first_guess[k] >= 0.5;
-  std::vector<double> score(n, std::nan("")), f(n, std::nan(""));
-  Placement pl;
+  // 1. First split from the model's guess; then learn, score, place and split again, keeping the
+  // round whose components are best separated (a round can drift when edge or grain-boundary points
+  // pull the direction toward their own signature).
+  const FirstSplit split = first_split(in, spec);
+  std::vector<uint8_t> label = split.label;
+  std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
+  std::vector<double> difference;
+  Placement pl, best;
+  out.separation = -HUGE_VAL;
   for (int it = 0; it < spec.iterations; ++it) {
-    out.iterations_run = it + 1;
-    if (!cross_fitted_scores(in, label, gf, spec, score, out.difference)) break;
-    pl = place_scores(in, label, score, f);
+    if (!cross_fitted_scores(in, label, gf, spec, score, difference)) break;
+    pl = place_scores(in, label, split.ordered_grain, score, f);
     for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && !std::isnan(f[k]) && f[k] >= 0.5;
+    const double separation = component_separation(pl.mix);
+    const bool both = pl.mix[0].weight >= spec.min_second_weight && pl.mix[1].weight >= spec.min_second_weight;
+    if (it == 0 || (both && separation > out.separation))
+      out.separation = separation, best = pl, best_f = f, out.difference = difference, out.iterations_run = it + 1;
   }
   // 4. Two phases only if the components are separated.
-  const std::array<EndMember, 2>& mix = pl.mix;
-  out.scale = pl.beta;
-  out.separation = (mix[1].mean - mix[0].mean) / std::sqrt(0.5 * (mix[0].sd * mix[0].sd + mix[1].sd * mix[1].sd));
+  const std::array<EndMember, 2>& mix = best.mix;
+  out.scale = best.beta;
   out.two_phases = out.separation >= spec.min_separation && mix[1].weight >= spec.min_second_weight &&
                    mix[0].weight >= spec.min_second_weight;
   if (!out.two_phases) {
@@ -228,8 +304,8 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
     return out;
   }
   for (size_t k = 0; k < n; ++k)
-    if (!std::isnan(f[k]))
-      out.f[k] = static_cast<float>(f[k]), out.uncertainty[k] = static_cast<float>(mix[0].sd / pl.beta);
+    if (!std::isnan(best_f[k]))
+      out.f[k] = static_cast<float>(best_f[k]), out.uncertainty[k] = static_cast<float>(mix[0].sd / best.beta);
   return out;
 }
 

@@ -720,6 +720,10 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       in.fold[k] = static_cast<uint8_t>((pt.row / 4 + pt.col / 4) % 2);  // alternate 4 × 4 blocks
     }
     collect_learned_features(res, features, pre_linear, in);
+    in.boundary.assign(n, 0);
+    for (size_t k = 0; k < n; ++k)
+      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
+        in.boundary[k] = in.boundary[k] || ori.grains.id[grid.index(nb)] != ori.grains.id[k];
     for (size_t k = 0; k < n; ++k)
       if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
         in.grain[k] = ori.grains.id[k];
