@@ -56,6 +56,14 @@ struct ModelFamily {
   int table = 0;             ///< which profile table the family's bands use
 };
 
+/// The parameters for `phase` when its bands must be the families of `reference` (the two phases
+/// of an ordering pair, whose cells differ by a misfit): d_min scaled by the cube root of the cells'
+/// volume ratio, so that a family whose d lies near the cut-off is kept or left out in both phases
+/// alike. With d_min 0.8 Å the Ni pair's {420} lies at 0.8016 Å in γ and 0.7987 Å in γ′: left to
+/// each phase's own cut-off, γ would carry a band γ′ lacks, a phase difference of the model's
+/// making that outweighs the superlattice bands.
+BandModelParams with_families_of(const BandModelParams& params, const Phase& phase, const Phase& reference);
+
 class KinematicBandModel {
  public:
   KinematicBandModel(const Phase& phase, double kilovolts, const BandModelParams& params);

@@ -25,9 +25,8 @@ struct LearnedInputs {
 
 struct LearnedSpec {
   int iterations = 6;
-  double shrinkage = 0.3;  ///< covariance shrunk toward its diagonal by this share
-  double min_separation =
-      4.0;  ///< component distance over the majority component's spread below which one phase is reported
+  double shrinkage = 0.3;            ///< covariance shrunk toward its diagonal by this share
+  double min_evidence = 10.0;        ///< ΔBIC for a second component below which one phase is reported
   double min_second_weight = 0.003;  ///< share of points the second component must hold
   int min_class_points = 8;          ///< per grain and class, to enter the learned difference
 };
@@ -38,6 +37,7 @@ struct LearnedFraction {
   bool two_phases = false;         ///< a second component was found
   bool single_phase_ordered = false;
   double separation = 0;           ///< component distance over the majority component's spread (cross-fitted scores)
+  double evidence = 0;             ///< ΔBIC of two components over one (cross-fitted scores)
   double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
   int iterations_run = 0;          ///< the round whose result is kept (1-based)
@@ -48,18 +48,19 @@ struct LearnedFraction {
 /// shapes the direction it is scored with), places every point between the two end members, and
 /// decides whether the scan holds one phase or two. Steps:
 ///  1. first split from the model's first guess, per grain: a grain whose guesses hold two
-///     components is split midway between them; a grain of one component is all matrix or all
-///     ordered as its mean guess lies either side of the median of those cuts (the model's level
-///     and scale are not trusted, only its direction and sign);
+///     components (ΔBIC ≥ min_evidence) is split midway between them; a grain of one component
+///     whose mean guess lies above the median of those cuts holds the ordered phase alone, the
+///     points of the others are split at that cut one by one (the model's level and scale are not
+///     trusted, only its direction and sign);
 ///  2. per fold: pooled class difference and within-class covariance of the features (grain and
 ///     class means removed), direction w = Σ⁻¹ Δ, scores of the other fold's points;
 ///  3. end members: per grain, the mean score of its matrix points is 0 (a grain of the ordered
 ///     phase alone, such as a primary particle with its own orientation, anchors its mean at 1); the
 ///     scale is the score of pure ordered points, the upper component of a Gaussian + uniform
 ///     mixture of the anchored scores pooled over grains; split again at 0.5 and repeat, keeping
-///     the round whose components are best separated;
-///  4. one phase when the components' distance over the majority one's spread is below
-///     min_separation; which phase from the model's first guess.
+///     the round with the strongest evidence for two components;
+///  4. one phase when the evidence for a second component (ΔBIC of two Gaussians + uniform over
+///     one) is below min_evidence; which phase from the model's first guess.
 /// The disordered end member is the matrix: ordering finer than the beam inside the matrix
 /// (tertiary) is not separable from it by the data alone and is counted as disordered.
 LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec = {});

@@ -104,7 +104,8 @@ struct FractionResults {
   std::string estimator = "profile";  ///< "learned", "profile" or "windows"
   bool two_phases = true;             ///< learned: a second component was found (false: one phase)
   bool single_phase_ordered = false;  ///< learned, one phase: it is the ordered one
-  double learned_separation = 0;      ///< learned: d′ of the two components (cross-fitted scores)
+  double learned_separation = 0;      ///< learned: component distance over the majority one's spread
+  double learned_evidence = 0;        ///< learned: ΔBIC of two components over one
   int learned_iterations = 0;
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)

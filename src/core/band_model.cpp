@@ -1,6 +1,8 @@
 // The kinematic band model.
 #include "orderband/band_model.hpp"
 
+#include <Eigen/LU>
+
 #include <algorithm>
 #include <cmath>
 
@@ -10,6 +12,14 @@
 #include "orderband/scattering.hpp"
 
 namespace orderband {
+
+BandModelParams with_families_of(const BandModelParams& params, const Phase& phase, const Phase& reference) {
+  const double v = std::abs(phase.cell.orth.determinant()), v_ref = std::abs(reference.cell.orth.determinant());
+  if (!(v > 0) || !(v_ref > 0)) fail("band model: a unit cell without volume");
+  BandModelParams matched = params;
+  matched.d_min_A = params.d_min_A * std::cbrt(v / v_ref);
+  return matched;
+}
 
 KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const BandModelParams& params) : params_(params) {
   if (!(params.band_contrast >= 0)) fail("band contrast must be >= 0, got ", params.band_contrast);

@@ -146,8 +146,56 @@ bool cross_fitted_scores(const LearnedInputs& in, const std::vector<uint8_t>& la
   return true;
 }
 
+/// The evidence for a second component in `v`: ΔBIC = 2 (ℓ₂ − ℓ₁) − 3 ln N between the fitted
+/// two Gaussians + uniform (`mix`, in the units of `v`) and one Gaussian + uniform fitted here by EM,
+/// both with the uniform over the central 99 % of the values as in two_component_mixture. Above 10
+/// is "very strong" evidence on the scale of Kass & Raftery, J. Am. Stat. Assoc. 90 (1995) 773
+/// (from memory). A distance measure cannot tell one phase from two at the separations real
+/// patterns give: at d′ ≈ 3.5 between pure points, the two halves of one phase's noise lie about
+/// as far apart, in their own spreads, as the two phases.
+double second_component_evidence(const std::vector<double>& v, const std::array<EndMember, 2>& mix) {
+  const size_t n = v.size();
+  if (n < 8) return 0;
+  std::vector<double> sorted = v;
+  std::sort(sorted.begin(), sorted.end());
+  const double lo = sorted[n / 200], hi = sorted[n - 1 - n / 200], range = std::max(hi - lo, 1e-12);
+  auto gauss = [](double x, const EndMember& c) {
+    return c.weight / (c.sd * std::sqrt(2 * M_PI)) * std::exp(-0.5 * std::pow((x - c.mean) / c.sd, 2));
+  };
+  auto uniform = [&](double x, double w) { return x >= lo && x <= hi ? w / range : 0.0; };
+  double l2 = 0;
+  const double u2 = std::max(1e-6, 1 - mix[0].weight - mix[1].weight);
+  for (double x : v) l2 += std::log(std::max(gauss(x, mix[0]) + gauss(x, mix[1]) + uniform(x, u2), 1e-300));
+  // One Gaussian + uniform, from the median and the scaled median absolute deviation.
+  EndMember one{sorted[n / 2], 0, 0.9};
+  std::vector<double> dev(n);
+  for (size_t k = 0; k < n; ++k) dev[k] = std::abs(v[k] - one.mean);
+  std::nth_element(dev.begin(), dev.begin() + n / 2, dev.end());
+  one.sd = std::max(1.4826 * dev[n / 2], 1e-4 * range);
+  std::vector<double> r(n);
+  for (int it = 0; it < 200; ++it) {
+    double w = 0, m = 0, ss = 0;
+    for (size_t k = 0; k < n; ++k) {
+      const double g = gauss(v[k], one);
+      r[k] = g / std::max(g + uniform(v[k], 1 - one.weight), 1e-300);
+      w += r[k], m += r[k] * v[k];
+    }
+    if (w < 1e-9) break;
+    m /= w;
+    for (size_t k = 0; k < n; ++k) ss += r[k] * (v[k] - m) * (v[k] - m);
+    const EndMember next{m, std::max(std::sqrt(ss / w), 1e-4 * range), std::min(w / n, 1 - 1e-6)};
+    const bool done = std::abs(next.mean - one.mean) < 1e-10 * range && std::abs(next.sd - one.sd) < 1e-10 * range;
+    one = next;
+    if (done) break;
+  }
+  double l1 = 0;
+  for (double x : v) l1 += std::log(std::max(gauss(x, one) + uniform(x, 1 - one.weight), 1e-300));
+  return 2 * (l2 - l1) - 3 * std::log(static_cast<double>(n));
+}
+
 struct Placement {
   std::array<EndMember, 2> mix{};  ///< of the anchored scores: pure matrix, pure ordered
+  double evidence = 0;             ///< for the second component (second_component_evidence)
   double beta = 0;                 ///< score units per unit fraction
 };
 
@@ -172,6 +220,7 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
   }
   Placement pl;
   pl.mix = two_component_mixture(y);
+  pl.evidence = second_component_evidence(y, pl.mix);
   const double zero = pl.mix[0].mean;
   pl.beta = pl.mix[1].mean - zero > 0 ? pl.mix[1].mean - zero : 1.0;
   for (size_t k = 0; k < n; ++k) {
@@ -197,18 +246,19 @@ double component_separation(const std::array<EndMember, 2>& mix) {
 /// The first split of the points and the grains' kinds. Only the direction and sign of the model's
 /// first guess are trusted, not its scale nor its level, which shift with a grain's orientation
 /// when the model's intensities are wrong: so each grain whose guesses hold two components
-/// (component_separation ≥ spec.min_separation, each ≥ 5 % of its points) is split midway between
-/// them, and a grain of one component is all matrix or all ordered as its mean guess lies below or
-/// above the median of those cuts.
+/// (second_component_evidence ≥ spec.min_evidence, each ≥ 5 % of its points) is split midway between
+/// them; a grain of one component whose mean guess lies above the median of those cuts holds the
+/// ordered phase alone, and the points of the others are split at that cut one by one.
 struct FirstSplit {
   std::vector<uint8_t> label;          ///< per point: 1 ordered
   std::vector<uint8_t> ordered_grain;  ///< per grain: the ordered phase alone
 };
 
 /// Two components of `v` (fitted in units where its 5th and 95th percentiles are 0 and 1), in the
-/// units of `v`.
-std::array<EndMember, 2> components(std::vector<double> v) {
+/// units of `v`, and the evidence for the second one (second_component_evidence).
+std::array<EndMember, 2> components(std::vector<double> v, double& evidence) {
   std::array<EndMember, 2> mix{};
+  evidence = 0;
   if (v.size() < 8) return mix;
   std::vector<double> sorted = v;
   std::sort(sorted.begin(), sorted.end());
@@ -216,6 +266,7 @@ std::array<EndMember, 2> components(std::vector<double> v) {
   const double range = hi > lo ? hi - lo : 1.0;
   for (double& x : v) x = (x - lo) / range;
   mix = two_component_mixture(v);
+  evidence = second_component_evidence(v, mix);
   for (EndMember& m : mix) m.mean = lo + range * m.mean, m.sd *= range;
   return mix;
 }
@@ -231,8 +282,9 @@ FirstSplit first_split(const LearnedInputs& in, const LearnedSpec& spec) {
   // such grains, the cut between the pooled components) decides the grains of one component.
   std::vector<double> cut(in.grains + 1, std::nan("")), two_cuts;
   for (int g = 1; g <= in.grains; ++g) {
-    const std::array<EndMember, 2> mix = components(per_grain[g]);
-    const bool two = component_separation(mix) >= spec.min_separation && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
+    double evidence = 0;
+    const std::array<EndMember, 2> mix = components(per_grain[g], evidence);
+    const bool two = evidence >= spec.min_evidence && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
     if (two) cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]);
   }
   double one_cut = 0;
@@ -240,7 +292,8 @@ FirstSplit first_split(const LearnedInputs& in, const LearnedSpec& spec) {
     std::nth_element(two_cuts.begin(), two_cuts.begin() + two_cuts.size() / 2, two_cuts.end());
     one_cut = two_cuts[two_cuts.size() / 2];
   } else {
-    const std::array<EndMember, 2> all = components(pooled);
+    double evidence = 0;
+    const std::array<EndMember, 2> all = components(pooled, evidence);
     one_cut = 0.5 * (all[0].mean + all[1].mean);
   }
   for (int g = 1; g <= in.grains; ++g) {
@@ -248,7 +301,10 @@ FirstSplit first_split(const LearnedInputs& in, const LearnedSpec& spec) {
     double mean = 0;
     for (double x : per_grain[g]) mean += x / per_grain[g].size();
     split.ordered_grain[g] = mean >= one_cut;
-    cut[g] = split.ordered_grain[g] ? -HUGE_VAL : HUGE_VAL;
+    // A grain of one component above the cut holds the ordered phase alone; below it, its points
+    // are split at the cut one by one (where one pattern's guess is too noisy to show two
+    // components in the grain, the learning still starts from the points' own guesses).
+    cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
   }
   for (size_t k = 0; k < in.points; ++k)
     split.label[k] = measured(in, k) && !std::isnan(cut[in.grain[k]]) && in.first_guess[k] >= cut[in.grain[k]];
@@ -277,27 +333,27 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   out.uncertainty.assign(n, std::nanf(""));
   const GrainFeatures gf = grain_features(in);
   // 1. First split from the model's guess; then learn, score, place and split again, keeping the
-  // round whose components are best separated (a round can drift when edge or grain-boundary points
+  // round with the strongest evidence for two components (a round can drift when edge or grain-boundary points
   // pull the direction toward their own signature).
   const FirstSplit split = first_split(in, spec);
   std::vector<uint8_t> label = split.label;
   std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
   std::vector<double> difference;
   Placement pl, best;
-  out.separation = -HUGE_VAL;
+  out.evidence = -HUGE_VAL;
   for (int it = 0; it < spec.iterations; ++it) {
     if (!cross_fitted_scores(in, label, gf, spec, score, difference)) break;
     pl = place_scores(in, label, split.ordered_grain, score, f);
     for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && !std::isnan(f[k]) && f[k] >= 0.5;
-    const double separation = component_separation(pl.mix);
     const bool both = pl.mix[0].weight >= spec.min_second_weight && pl.mix[1].weight >= spec.min_second_weight;
-    if (it == 0 || (both && separation > out.separation))
-      out.separation = separation, best = pl, best_f = f, out.difference = difference, out.iterations_run = it + 1;
+    if (it == 0 || (both && pl.evidence > out.evidence))
+      out.evidence = pl.evidence, best = pl, best_f = f, out.difference = difference, out.iterations_run = it + 1;
   }
-  // 4. Two phases only if the components are separated.
+  // 4. Two phases only if the second component is there.
   const std::array<EndMember, 2>& mix = best.mix;
   out.scale = best.beta;
-  out.two_phases = out.separation >= spec.min_separation && mix[1].weight >= spec.min_second_weight &&
+  out.separation = component_separation(mix);
+  out.two_phases = out.evidence >= spec.min_evidence && mix[1].weight >= spec.min_second_weight &&
                    mix[0].weight >= spec.min_second_weight;
   if (!out.two_phases) {
     report_one_phase(in, out);

@@ -308,7 +308,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
   // Model references per grain, at the grain's mean orientation.
   const BandModelParams band_params;
   const KinematicBandModel model_ordered(pair.ordered, config.kv, band_params),
-      model_disordered(pair.disordered, config.kv, band_params);
+      model_disordered(pair.disordered, config.kv, with_families_of(band_params, pair.disordered, pair.ordered));
   const PatternRenderer renderer(geometry, model_ordered, model_disordered, 1000.0, 0.0);
   // The model patterns meet the data's processing: they carry an estimate of the detector
   // background B and are divided by the data's own static background S_data. The data are
@@ -744,6 +744,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     res.two_phases = lf.two_phases;
     res.single_phase_ordered = lf.single_phase_ordered;
     res.learned_separation = lf.separation;
+    res.learned_evidence = lf.evidence;
     res.learned_iterations = lf.iterations_run;
     end_members_either_side_of_half(res);
     if (lf.difference.size() == nf * bins)
@@ -934,13 +935,16 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
     r.grains[g - 1].points += 1, grain_sum[g] += r.raw[k];
   }
-  // Sub-resolution ordering in the matrix away from resolved particles.
+  // Sub-resolution ordering in the matrix away from resolved particles. A point counts as matrix
+  // when its eight neighbours are all below one half; its own value does not take part in the
+  // choice, which would cut off its upper noise tail (with a per-point spread of 0.28, as at
+  // 5,000 counts on 60 × 60 px, that biases the mean by −0.035).
   {
     std::map<std::pair<int, int>, std::pair<double, int>> blocks;
     double sum = 0;
     size_t count = 0;
     for (size_t k = 0; k < n; ++k) {
-      if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[k] >= 0.5) continue;
+      if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
       bool near_particle = false;
       for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
         const size_t j = grid.index(nb);

@@ -210,8 +210,11 @@ RenderModels render_models(const SynthScenario& s, const OrderingPair& pair) {
     const double k = 1 + v.lattice_misfit;
     ordered_phase.cell = UnitCell(c.a_A * k, c.b_A * k, c.c_A * k, c.alpha_deg, c.beta_deg, c.gamma_deg);
   }
-  RenderModels models{KinematicBandModel(ordered_phase, s.kv, s.band),
-                      KinematicBandModel(pair.disordered, s.kv, s.band)};
+  // Both phases carry the pair's families (those of the ordered phase as the pair's table lists
+  // them), whatever the misfit.
+  RenderModels models{
+      KinematicBandModel(ordered_phase, s.kv, with_families_of(s.band, ordered_phase, pair.ordered)),
+      KinematicBandModel(pair.disordered, s.kv, with_families_of(s.band, pair.disordered, pair.ordered))};
   // Which families are superlattice families (by the pair's sensitivity, as the estimator
   // decides it): the ordered phase's other families are its fundamental ones.
   std::vector<Eigen::Vector3i> superlattice;

@@ -301,6 +301,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"phases_found", r.fraction.two_phases ? 2 : 1},
         {"single_phase", r.fraction.two_phases ? "" : (r.fraction.single_phase_ordered ? "ordered" : "disordered")},
         {"component_separation_dprime", r.fraction.learned_separation},
+        {"second_component_delta_bic", r.fraction.learned_evidence},
         {"iterations", r.fraction.learned_iterations}};
   nlohmann::json grain_rows = nlohmann::json::array();
   for (size_t g = 0; g < r.fraction.grains.size(); ++g) {
