@@ -297,6 +297,19 @@ TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
   EXPECT_EQ(checked, 1);
 }
 
+TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
+  // A renderer variant (issue Wave 2 · A, "Must show"): γ′'s fundamental bands 0.8 × γ's. In the
+  // mismatch bench the model-led estimator is off by +0.09 on it, the learned one by +0.007; here it
+  // must hold the issue's ±0.03 and classify ≥ 95 % away from phase boundaries. (Detector gamma 1.2
+  // passes in the bench, +0.020, but not on this test's scan: a matrix grain taken for one of the
+  // ordered phase alone, +0.41; see DEVELOPERS.md.)
+  const ScenarioRun r = run_scenario(scenario("[renderer]\nordered_fundamental_ratio = 0.8\n" + kSecondary, 40), 0,
+                                     false, {}, learned_spec());
+  EXPECT_TRUE(r.fraction.two_phases);
+  EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03);
+  EXPECT_GE(classification(r), 0.95);
+}
+
 TEST(LearnedFraction, OnePhaseIsReportedAsOnePhase) {
   // Three grains of pure γ: the learner must not split noise into two halves.
   const ScenarioRun r = run_scenario(scenario("[grains]\ncount = 3\n", 32), 0, false, {}, learned_spec());

@@ -193,6 +193,57 @@ double second_component_evidence(const std::vector<double>& v, const std::array<
   return 2 * (l2 - l1) - 3 * std::log(static_cast<double>(n));
 }
 
+/// The grains' zeros z_g and the common scale β refined together by EM on the learners' scores:
+/// s = z_g + β·φ + noise, φ = 0 (matrix), 1 (ordered) or spread evenly between them (points that
+/// mix both phases under the beam), the noise's spread shared, the three shares per grain. A grain
+/// of the ordered phase alone has no matrix component, so its zero follows from β. Labels are not
+/// used: at the separations one pattern gives (d′ ≈ 3) a labelled point's class is too often wrong
+/// for class means to place the end members.
+void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& score,
+                            const std::vector<uint8_t>& ordered_alone, std::vector<double>& z, double& beta) {
+  const int G = in.grains;
+  std::vector<std::array<double, 3>> share(G + 1, {0.6, 0.3, 0.1});
+  for (int g = 1; g <= G; ++g)
+    if (ordered_alone[g]) share[g] = {0.0, 0.9, 0.1};
+  double sd = 0.3 * beta;
+  for (int it = 0; it < 100; ++it) {
+    std::vector<double> zs(G + 1, 0.0), zn(G + 1, 0.0);
+    std::vector<std::array<double, 3>> sum(G + 1, {0, 0, 0});
+    double bs = 0, bn = 0, ss = 0, sn = 0;
+    std::vector<std::array<double, 3>> resp(in.points);
+    for (size_t k = 0; k < in.points; ++k) {
+      const int g = in.grain[k];
+      if (!learns(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
+      const double u = (score[k] - z[g]) / beta;  // in units of the scale
+      const double s = sd / beta;
+      const double p0 = share[g][0] * std::exp(-0.5 * u * u / (s * s)) / (s * std::sqrt(2 * M_PI));
+      const double p1 = share[g][1] * std::exp(-0.5 * (u - 1) * (u - 1) / (s * s)) / (s * std::sqrt(2 * M_PI));
+      const double pm = share[g][2] * (u >= 0 && u <= 1 ? 1.0 : 0.0);
+      const double total = std::max(p0 + p1 + pm, 1e-300);
+      resp[k] = {p0 / total, p1 / total, pm / total};
+      for (int c = 0; c < 3; ++c) sum[g][c] += resp[k][c];
+      zs[g] += resp[k][0] * score[k] + resp[k][1] * (score[k] - beta), zn[g] += resp[k][0] + resp[k][1];
+    }
+    for (int g = 1; g <= G; ++g) {
+      if (zn[g] > 0) z[g] = zs[g] / zn[g];
+      const double t = sum[g][0] + sum[g][1] + sum[g][2];
+      if (t > 0) share[g] = {sum[g][0] / t, sum[g][1] / t, sum[g][2] / t};
+    }
+    for (size_t k = 0; k < in.points; ++k) {
+      const int g = in.grain[k];
+      if (!learns(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
+      if (!ordered_alone[g]) bs += resp[k][1] * (score[k] - z[g]), bn += resp[k][1];
+      ss += resp[k][0] * std::pow(score[k] - z[g], 2) + resp[k][1] * std::pow(score[k] - z[g] - beta, 2);
+      sn += resp[k][0] + resp[k][1];
+    }
+    const double next_beta = bn > 0 && bs / bn > 0 ? bs / bn : beta;
+    const double next_sd = sn > 0 ? std::sqrt(ss / sn) : sd;
+    const bool done = std::abs(next_beta - beta) < 1e-9 * beta && std::abs(next_sd - sd) < 1e-9 * beta;
+    beta = next_beta, sd = std::max(next_sd, 1e-6 * beta);
+    if (done) break;
+  }
+}
+
 struct Placement {
   std::array<EndMember, 2> mix{};  ///< of the anchored scores: pure matrix, pure ordered
   double evidence = 0;             ///< for the second component (second_component_evidence)
@@ -223,13 +274,14 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
   pl.evidence = second_component_evidence(y, pl.mix);
   const double zero = pl.mix[0].mean;
   pl.beta = pl.mix[1].mean - zero > 0 ? pl.mix[1].mean - zero : 1.0;
+  // Start: each grain's zero from its matrix points and the pooled components; then refined jointly.
+  std::vector<double> z(in.grains + 1, std::nan(""));
+  for (int g = 1; g <= in.grains; ++g) z[g] = mostly_ordered[g] ? grain_t[g] - pl.beta : matrix_t[g] + zero;
+  refine_zeros_and_scale(in, score, mostly_ordered, z, pl.beta);
   for (size_t k = 0; k < n; ++k) {
     const int g = in.grain[k];
-    if (!measured(in, k) || std::isnan(score[k])) continue;
-    if (mostly_ordered[g])
-      f[k] = 1 + (score[k] - grain_t[g]) / pl.beta;
-    else if (!std::isnan(matrix_t[g]))
-      f[k] = (score[k] - matrix_t[g] - zero) / pl.beta;
+    if (!measured(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
+    f[k] = (score[k] - z[g]) / pl.beta;
   }
   return pl;
 }

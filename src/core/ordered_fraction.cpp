@@ -241,6 +241,24 @@ void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* ou
       if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
 }
 
+/// At a grain boundary the beam sees a second lattice. The other grain's model pattern profiled in
+/// this grain's frame (`seen`, families × bins), less this grain's own model profile (`own_model`),
+/// is the direction along which a point's features move with the other lattice's share; its
+/// component in the point's features `x` (least squares about the grain's mean features) is taken
+/// out. The model gives the other lattice's band positions; the share comes from the data.
+void take_out_second_lattice(float* x, const std::vector<double>& grain_mean, const std::vector<double>& own_model,
+                             const std::vector<std::vector<double>>& seen, size_t bins) {
+  auto direction = [&](size_t i) { return seen[i / bins][i % bins] - own_model[i]; };
+  auto usable = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(own_model[i]) && !std::isnan(grain_mean[i]); };
+  double rc = 0, cc = 0;
+  for (size_t i = 0; i < own_model.size(); ++i)
+    if (usable(i)) rc += (x[i] - grain_mean[i]) * direction(i), cc += direction(i) * direction(i);
+  if (!(cc > 0)) return;
+  const double share = rc / cc;
+  for (size_t i = 0; i < own_model.size(); ++i)
+    if (usable(i)) x[i] -= static_cast<float>(share * direction(i));
+}
+
 /// End members as the learned estimator found them: mean, spread and share of the measured points
 /// on either side of one half.
 void end_members_either_side_of_half(FractionResults& r) {
@@ -526,8 +544,10 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       if (v > best_votes) best = id, best_votes = v;
     return best;
   };
-  std::map<std::pair<int, int>, std::vector<std::vector<double>>> cross_profiles;  // (frame grain, seen grain)
-  if (spec.estimator != FractionEstimator::learned) {  // the learned estimator does not fit a second lattice
+  // Each grain's disordered model pattern (processed by `processing`) profiled by `by` in the frame
+  // of every grain it touches: per (frame grain, seen grain), families × bins means.
+  using CrossProfiles = std::map<std::pair<int, int>, std::vector<std::vector<double>>>;
+  auto cross_profiles_with = [&](const BandProfiler& by, const Preprocessor& processing) {
     std::vector<std::vector<int>> touching(grains + 1);
     for (size_t k = 0; k < n; ++k) {
       const int g = ori.grains.id[k];
@@ -544,19 +564,23 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
       touching[g2].erase(std::unique(touching[g2].begin(), touching[g2].end()), touching[g2].end());
       if (touching[g2].empty()) continue;
       std::vector<float> img(source->pixels());
-      processed_phase(geometry, grain_orientation[g2], false, img.data());
+      processed_phase_with(processing, geometry, grain_orientation[g2], false, img.data());
       std::vector<FamilyProfile> prof;
       for (int g : touching[g2]) {
-        profiler.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
-        std::vector<std::vector<double>> means(nf, std::vector<double>(profiler.bins(), 0.0));
+        by.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);
+        std::vector<std::vector<double>> means(nf, std::vector<double>(by.bins(), 0.0));
         for (size_t f = 0; f < nf; ++f)
-          for (int b = 0; b < profiler.bins(); ++b) means[f][b] = prof[f].mean(b);
+          for (int b = 0; b < by.bins(); ++b) means[f][b] = prof[f].mean(b);
         seen[g2].emplace_back(g, std::move(means));
       }
     }
+    CrossProfiles cross;
     for (int g2 = 1; g2 <= grains; ++g2)
-      for (auto& [g, means] : seen[g2]) cross_profiles[{g, g2}] = std::move(means);
-  }
+      for (auto& [g, means] : seen[g2]) cross[{g, g2}] = std::move(means);
+    return cross;
+  };
+  CrossProfiles cross_profiles;  // the model-led estimator's (the learned one makes its own)
+  if (spec.estimator != FractionEstimator::learned) cross_profiles = cross_profiles_with(profiler, model_pre);
 
   // The profile estimator at one point in one frame. The pattern quality q regresses the point's
   // fundamental profiles on the disordered model's (with a second lattice's pattern `cross` beside
@@ -724,6 +748,26 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     for (size_t k = 0; k < n; ++k)
       for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
         in.boundary[k] = in.boundary[k] || ori.grains.id[grid.index(nb)] != ori.grains.id[k];
+    // Grain boundaries: the second lattice's share taken out of the features, about each grain's
+    // mean over its points away from boundaries.
+    const CrossProfiles cross = cross_profiles_with(features, model_linear);
+    std::vector<std::vector<double>> grain_mean(grains + 1, std::vector<double>(p, 0.0)), grain_count = grain_mean;
+    for (size_t k = 0; k < n; ++k) {
+      const int g = ori.grains.id[k];
+      if (g <= 0 || in.boundary[k] || res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      for (size_t i = 0; i < p; ++i)
+        if (!std::isnan(in.x[k * p + i])) grain_mean[g][i] += in.x[k * p + i], grain_count[g][i] += 1;
+    }
+    for (int g = 1; g <= grains; ++g)
+      for (size_t i = 0; i < p; ++i)
+        grain_mean[g][i] = grain_count[g][i] > 0 ? grain_mean[g][i] / grain_count[g][i] : std::nan("");
+    for (size_t k = 0; k < n; ++k) {
+      const int g = ori.grains.id[k];
+      if (g <= 0 || !in.boundary[k] || res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      const int other = neighbour_grain(k);
+      if (const auto seen = cross.find({g, other}); other > 0 && seen != cross.end())
+        take_out_second_lattice(in.x.data() + k * p, grain_mean[g], model_features[g][0], seen->second, bins);
+    }
     for (size_t k = 0; k < n; ++k)
       if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
         in.grain[k] = ori.grains.id[k];
