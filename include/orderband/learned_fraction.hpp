@@ -23,6 +23,13 @@ struct LearnedInputs {
   std::vector<uint8_t> boundary;    ///< per point, 1: next to another grain (scored, not learned from); may be empty
 };
 
+/// Per grain (index 1..grains), the mean of every feature over the points the learning uses (0
+/// where no point covers the bin) and how many points cover each bin.
+struct GrainFeatures {
+  std::vector<std::vector<double>> mean, count;
+};
+GrainFeatures grain_features(const LearnedInputs& in);
+
 struct LearnedSpec {
   int iterations = 6;
   double shrinkage = 0.3;            ///< covariance shrunk toward its diagonal by this share

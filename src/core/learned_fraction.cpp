@@ -101,11 +101,7 @@ LearnedDirection learn_direction(const LearnedInputs& in, const std::vector<uint
   return d;
 }
 
-/// Per grain, the mean of every feature over its points (missing bins take it) and how many
-/// points cover each bin.
-struct GrainFeatures {
-  std::vector<std::vector<double>> mean, count;
-};
+}  // namespace
 
 GrainFeatures grain_features(const LearnedInputs& in) {
   const size_t p = in.features;
@@ -120,6 +116,8 @@ GrainFeatures grain_features(const LearnedInputs& in) {
     for (size_t b = 0; b < p; ++b) gf.mean[g][b] = gf.count[g][b] > 0 ? gf.mean[g][b] / gf.count[g][b] : 0.0;
   return gf;
 }
+
+namespace {
 
 /// Scores of every point with the direction learned on the other fold, in units of the learned
 /// difference over the bins the point's grain covers. False if no direction could be learned.
@@ -206,11 +204,11 @@ void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& 
   for (int g = 1; g <= G; ++g)
     if (ordered_alone[g]) share[g] = {0.0, 0.9, 0.1};
   double sd = 0.3 * beta;
+  std::vector<std::array<double, 3>> resp(in.points);  // per point: matrix, ordered, mixed
   for (int it = 0; it < 100; ++it) {
     std::vector<double> zs(G + 1, 0.0), zn(G + 1, 0.0);
     std::vector<std::array<double, 3>> sum(G + 1, {0, 0, 0});
     double bs = 0, bn = 0, ss = 0, sn = 0;
-    std::vector<std::array<double, 3>> resp(in.points);
     for (size_t k = 0; k < in.points; ++k) {
       const int g = in.grain[k];
       if (!learns(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
@@ -250,23 +248,23 @@ struct Placement {
   double beta = 0;                 ///< score units per unit fraction
 };
 
-/// Places the scores between the end members: each grain's matrix points' mean score is its zero (a
-/// grain that holds the ordered phase alone, such as a primary particle with its own orientation,
-/// anchors its mean at 1); the pure matrix and pure ordered levels are the two Gaussian components
-/// of a mixture of the anchored scores pooled over grains (the matrix mean carries the mixed points
-/// at particle edges). Writes f per point.
+/// Places the scores between the end members. Start: each grain's zero is the mean score of its
+/// matrix points shifted by the lower component of a mixture of these anchored scores pooled over
+/// grains, the scale the distance to the upper component (a grain of the ordered phase alone, such
+/// as a primary particle with its own orientation, has its mean at 1); then the zeros and the scale
+/// are refined jointly (refine_zeros_and_scale). The mixture also gives the evidence for a second
+/// phase. Writes f per point.
 Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& label,
-                       const std::vector<uint8_t>& ordered_grain, const std::vector<double>& score,
+                       const std::vector<uint8_t>& ordered_alone, const std::vector<double>& score,
                        std::vector<double>& f) {
   const size_t n = in.points;
   std::vector<uint8_t> matrix(n, 0), all(n, 1);
   for (size_t k = 0; k < n; ++k) matrix[k] = measured(in, k) && !label[k];
   const std::vector<double> matrix_t = grain_means(in, score, matrix), grain_t = grain_means(in, score, all);
-  const std::vector<uint8_t>& mostly_ordered = ordered_grain;
   std::vector<double> y;
   for (size_t k = 0; k < n; ++k) {
     const int g = in.grain[k];
-    if (!learns(in, k) || std::isnan(score[k]) || mostly_ordered[g] || std::isnan(matrix_t[g])) continue;
+    if (!learns(in, k) || std::isnan(score[k]) || ordered_alone[g] || std::isnan(matrix_t[g])) continue;
     y.push_back(score[k] - matrix_t[g]);
   }
   Placement pl;
@@ -276,8 +274,8 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
   pl.beta = pl.mix[1].mean - zero > 0 ? pl.mix[1].mean - zero : 1.0;
   // Start: each grain's zero from its matrix points and the pooled components; then refined jointly.
   std::vector<double> z(in.grains + 1, std::nan(""));
-  for (int g = 1; g <= in.grains; ++g) z[g] = mostly_ordered[g] ? grain_t[g] - pl.beta : matrix_t[g] + zero;
-  refine_zeros_and_scale(in, score, mostly_ordered, z, pl.beta);
+  for (int g = 1; g <= in.grains; ++g) z[g] = ordered_alone[g] ? grain_t[g] - pl.beta : matrix_t[g] + zero;
+  refine_zeros_and_scale(in, score, ordered_alone, z, pl.beta);
   for (size_t k = 0; k < n; ++k) {
     const int g = in.grain[k];
     if (!measured(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;

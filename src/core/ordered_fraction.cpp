@@ -244,12 +244,14 @@ void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* ou
 /// At a grain boundary the beam sees a second lattice. The other grain's model pattern profiled in
 /// this grain's frame (`seen`, families × bins), less this grain's own model profile (`own_model`),
 /// is the direction along which a point's features move with the other lattice's share; its
-/// component in the point's features `x` (least squares about the grain's mean features) is taken
-/// out. The model gives the other lattice's band positions; the share comes from the data.
-void take_out_second_lattice(float* x, const std::vector<double>& grain_mean, const std::vector<double>& own_model,
-                             const std::vector<std::vector<double>>& seen, size_t bins) {
+/// component in the point's features `x` (least squares about the grain's mean features, bins no
+/// point of the grain covers left out) is taken out. The model gives the other lattice's band
+/// positions; the share comes from the data.
+void take_out_second_lattice(float* x, const std::vector<double>& grain_mean, const std::vector<double>& grain_count,
+                             const std::vector<double>& own_model, const std::vector<std::vector<double>>& seen,
+                             size_t bins) {
   auto direction = [&](size_t i) { return seen[i / bins][i % bins] - own_model[i]; };
-  auto usable = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(own_model[i]) && !std::isnan(grain_mean[i]); };
+  auto usable = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(own_model[i]) && grain_count[i] > 0; };
   double rc = 0, cc = 0;
   for (size_t i = 0; i < own_model.size(); ++i)
     if (usable(i)) rc += (x[i] - grain_mean[i]) * direction(i), cc += direction(i) * direction(i);
@@ -748,32 +750,24 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     for (size_t k = 0; k < n; ++k)
       for (const GridPoint& nb : grid.neighbours(grid.point(k), 8))
         in.boundary[k] = in.boundary[k] || ori.grains.id[grid.index(nb)] != ori.grains.id[k];
+    for (size_t k = 0; k < n; ++k)
+      if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) in.grain[k] = ori.grains.id[k];
     // Grain boundaries: the second lattice's share taken out of the features, about each grain's
     // mean over its points away from boundaries.
     const CrossProfiles cross = cross_profiles_with(features, model_linear);
-    std::vector<std::vector<double>> grain_mean(grains + 1, std::vector<double>(p, 0.0)), grain_count = grain_mean;
+    const GrainFeatures interior = grain_features(in);
     for (size_t k = 0; k < n; ++k) {
-      const int g = ori.grains.id[k];
-      if (g <= 0 || in.boundary[k] || res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      for (size_t i = 0; i < p; ++i)
-        if (!std::isnan(in.x[k * p + i])) grain_mean[g][i] += in.x[k * p + i], grain_count[g][i] += 1;
-    }
-    for (int g = 1; g <= grains; ++g)
-      for (size_t i = 0; i < p; ++i)
-        grain_mean[g][i] = grain_count[g][i] > 0 ? grain_mean[g][i] / grain_count[g][i] : std::nan("");
-    for (size_t k = 0; k < n; ++k) {
-      const int g = ori.grains.id[k];
-      if (g <= 0 || !in.boundary[k] || res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+      const int g = in.grain[k];
+      if (g <= 0 || !in.boundary[k]) continue;
       const int other = neighbour_grain(k);
       if (const auto seen = cross.find({g, other}); other > 0 && seen != cross.end())
-        take_out_second_lattice(in.x.data() + k * p, grain_mean[g], model_features[g][0], seen->second, bins);
+        take_out_second_lattice(in.x.data() + k * p, interior.mean[g], interior.count[g], model_features[g][0],
+                                seen->second, bins);
     }
     for (size_t k = 0; k < n; ++k)
-      if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) {
-        in.grain[k] = ori.grains.id[k];
+      if (in.grain[k] > 0)
         in.first_guess[k] =
             model_first_guess(model_features[in.grain[k]], in.x.data() + k * p, bins, first_fundamental);
-      }
     const LearnedFraction lf = learn_fraction(in, spec.learned);
     for (size_t k = 0; k < n; ++k) {
       if (res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
