@@ -6,7 +6,7 @@ set -euo pipefail
 packages=(
   g++ cmake make pkg-config clang-format git
   libeigen3-dev libfftw3-dev libhealpix-cxx-dev libcli11-dev libgtest-dev
-  gemmi-dev tao-pegtl-dev libstb-dev
+  gemmi-dev tao-pegtl-dev libstb-dev libboost-dev
   libhdf5-dev libtomlplusplus-dev nlohmann-json3-dev libpng-dev libtiff-dev
   python3-numpy python3-scipy python3-healpy python3-skimage python3-h5py
   chromium
