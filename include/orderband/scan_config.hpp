@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "orderband/detection_limit.hpp"
 #include "orderband/detector_geometry.hpp"
 #include "orderband/pattern_source.hpp"
 #include "orderband/preprocess.hpp"
@@ -39,10 +40,19 @@ struct EndMemberSelection {
   std::string ordered_mask, disordered_mask;
 };
 
+/// The beam's footprint on the sample ([scan] beam_sigma_nm, beam_elongation): a Gaussian of σ
+/// across the tilt direction (x_S, along the rows of points), stretched along it (y_S) by the
+/// elongation, by default 1 / cos(sample tilt) (about 2.9 at 70°; common practice, no source).
+struct BeamSpec {
+  double sigma_nm = 10;              ///< common practice for 20 kV on nickel alloys, no source
+  std::optional<double> elongation;  ///< unset: 1 / cos(sample tilt)
+};
+
 struct ScanConfig {
   std::string path;    ///< the description file
   std::string folder;  ///< its folder: relative paths resolve against it
   ScanGrid grid;
+  BeamSpec beam;
   PatternSourceSpec patterns;
   DetectorGeometrySpec geometry;  ///< width/height filled from [patterns] or the data
   double kv = 20.0;
@@ -53,6 +63,9 @@ struct ScanConfig {
   bool refine_pattern_centre = true;  ///< [fraction]: refine PC and distance on the grains' mean patterns
   std::string output_folder;          ///< absolute
 };
+
+/// The beam footprint of the scan (µm).
+BeamFootprint beam_footprint(const ScanConfig& config);
 
 /// The scan's detector geometry for patterns of the given stored size.
 DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px);

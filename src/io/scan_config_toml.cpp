@@ -1,5 +1,7 @@
 // Reading and writing the scan description (TOML).
 #include <toml++/toml.h>
+#include <algorithm>
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <set>
@@ -12,6 +14,12 @@
 namespace fs = std::filesystem;
 
 namespace orderband {
+BeamFootprint beam_footprint(const ScanConfig& config) {
+  const double tilt = config.geometry.sample_tilt_deg * M_PI / 180;
+  const double elongation = config.beam.elongation ? *config.beam.elongation : 1 / std::max(std::cos(tilt), 0.05);
+  return {config.beam.sigma_nm * 1e-3, config.beam.sigma_nm * 1e-3 * elongation};
+}
+
 DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px) {
   DetectorGeometrySpec g = config.geometry;
   g.width_px = width_px;
@@ -35,7 +43,7 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
 
   // [scan]
   const toml::table* scan = r.table("scan", true);
-  r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um"});
+  r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um", "beam_sigma_nm", "beam_elongation"});
   const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
   if (grid == "square")
     c.grid.kind = GridKind::square;
@@ -50,6 +58,12 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   c.grid.cols = static_cast<int>(cols);
   c.grid.step_um = r.require<double>(scan, "scan", "step_um");
   if (!(c.grid.step_um > 0)) fail(path, ": [scan] step_um must be a positive step in µm, got ", c.grid.step_um);
+  c.beam.sigma_nm = r.get<double>(scan, "scan", "beam_sigma_nm").value_or(c.beam.sigma_nm);
+  if (!(c.beam.sigma_nm >= 0 && c.beam.sigma_nm <= 1e4))
+    fail(path, ": [scan] beam_sigma_nm must be within [0, 10000] nm, got ", c.beam.sigma_nm);
+  c.beam.elongation = r.get<double>(scan, "scan", "beam_elongation");
+  if (c.beam.elongation && !(*c.beam.elongation >= 1 && *c.beam.elongation <= 20))
+    fail(path, ": [scan] beam_elongation must be within [1, 20], got ", *c.beam.elongation);
 
   // [patterns]
   const toml::table* pat = r.table("patterns", true);
@@ -251,7 +265,10 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
     os << "\n";
   }
   os << "[scan]\ngrid = \"" << (c.grid.kind == GridKind::hexagonal ? "hexagonal" : "square")
-     << "\"\nrows = " << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um << "\n\n";
+     << "\"\nrows = " << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um
+     << "\nbeam_sigma_nm = " << c.beam.sigma_nm << "\n";
+  if (c.beam.elongation) os << "beam_elongation = " << *c.beam.elongation << "\n";
+  os << "\n";
   os << "[patterns]\nformat = \""
      << (c.patterns.format == PatternFormat::raw    ? "raw"
          : c.patterns.format == PatternFormat::hdf5 ? "hdf5"

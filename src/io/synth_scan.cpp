@@ -374,6 +374,8 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   if (!s.pc_drift) scan.geometry.screen_pixel_um.reset();
   scan.kv = s.kv;
   scan.phases = s.phases;
+  scan.beam.sigma_nm = s.beam_sigma_nm;  // the footprint the patterns were rendered with
+  scan.beam.elongation = s.variant.beam_elongation;
   if (s.scan_uses_truth_orientations) {
     scan.orientations.source = OrientationSourceKind::file;
     scan.orientations.file = dir + "/truth_orientations.csv";
