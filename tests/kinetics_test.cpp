@@ -70,21 +70,58 @@ TEST(Kinetics, ArrheniusRecoversActivationEnergy) {
   EXPECT_NEAR(f_quantile(0.95, 1, 5), 6.608, 2e-3);
 }
 
+TrialNumbers numbers(Measured fraction, Measured ecd, double primary, int primary_count = 20) {
+  TrialNumbers n;
+  n.ordered_fraction = fraction, n.secondary_mean_ecd_um = ecd, n.secondary_size_from_fit = true;
+  n.primary_fraction = primary, n.primary_count = primary_count, n.secondary_count = 50;
+  return n;
+}
+
 TEST(Ranking, DistanceToTheWindowWithReasons) {
   TargetWindow w;
   w.ordered_fraction = std::pair{0.35, 0.50};
   w.secondary_mean_ecd_um = std::pair{0.10, 0.16};
   w.max_primary_fraction = 0.15;
-  const std::vector<TrialNumbers> n{{0.40, 0.20, 0.05}, {0.42, 0.12, 0.05}, {0.30, 0.12, 0.30}};
+  const std::vector<TrialNumbers> n{numbers({0.40, 0.38, 0.42}, {0.20, 0.18, 0.22}, 0.05),
+                                    numbers({0.42, 0.40, 0.44}, {0.12, 0.11, 0.13}, 0.05),
+                                    numbers({0.30, 0.28, 0.32}, {0.12, 0.11, 0.13}, 0.30)};
   const auto r = rank_trials(n, w);
   EXPECT_EQ(r[0].trial, 1u);
+  EXPECT_EQ(r[0].verdict, Verdict::inside);
   EXPECT_TRUE(r[0].reasons.empty());
   EXPECT_EQ(r[1].trial, 0u);  // 0.04 µm over a 0.06 µm window: 0.667
+  EXPECT_EQ(r[1].verdict, Verdict::outside);
   EXPECT_NEAR(r[1].distance, 0.04 / 0.06, 1e-12);
-  EXPECT_NE(r[1].reasons[0].find("secondary mean ECD 0.2 um above the window"), std::string::npos);
+  EXPECT_NE(r[1].reasons[0].find("secondary mean ECD 0.2 um (95 % CI 0.18–0.22) above the window"), std::string::npos)
+      << r[1].reasons[0];
   EXPECT_EQ(r[2].trial, 2u);  // 0.05/0.15 + 0.15/0.15 = 1.333
   EXPECT_NEAR(r[2].distance, 0.05 / 0.15 + 1.0, 1e-12);
   EXPECT_EQ(r[2].reasons.size(), 2u);
+}
+
+TEST(Ranking, AnIntervalAcrossAWindowEdgeIsUndecidedAndNeverAboveADecidedTrial) {
+  // Trial 1 is surely inside; trial 0 misses the window but its interval reaches into it, and
+  // trial 3's primary excess rests on one particle: both undecided, after 1, before trial 2, which
+  // is surely outside although its value misses by less than trial 3's distance.
+  TargetWindow w;
+  w.secondary_mean_ecd_um = std::pair{0.10, 0.16};
+  w.max_primary_fraction = 0.15;
+  const std::vector<TrialNumbers> n{
+      numbers({0.4, 0.4, 0.4}, {0.095, 0.08, 0.11}, 0.05), numbers({0.4, 0.4, 0.4}, {0.13, 0.12, 0.14}, 0.05),
+      numbers({0.4, 0.4, 0.4}, {0.09, 0.085, 0.095}, 0.05), numbers({0.4, 0.4, 0.4}, {0.13, 0.12, 0.14}, 0.19, 1)};
+  const auto r = rank_trials(n, w);
+  ASSERT_EQ(r.size(), 4u);
+  EXPECT_EQ(r[0].trial, 1u);
+  EXPECT_EQ(r[1].trial, 0u);  // undecided, 0.005 µm from the window: distance 0.083
+  EXPECT_EQ(r[1].verdict, Verdict::undecided);
+  ASSERT_FALSE(r[1].reasons.empty());
+  EXPECT_NE(r[1].reasons[0].find("outside but its interval reaches"), std::string::npos) << r[1].reasons[0];
+  EXPECT_EQ(r[2].trial, 3u);  // undecided, primary 0.04 over 0.15: distance 0.267
+  EXPECT_EQ(r[2].verdict, Verdict::undecided);
+  ASSERT_FALSE(r[2].flags.empty());
+  EXPECT_NE(r[2].flags[0].find("primary: 1 counted particle, too few"), std::string::npos) << r[2].flags[0];
+  EXPECT_EQ(r[3].trial, 2u);
+  EXPECT_EQ(r[3].verdict, Verdict::outside);
 }
 
 }  // namespace

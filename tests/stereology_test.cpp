@@ -95,10 +95,11 @@ TEST(Stereology, ShareAboveTheLimitMatchesSampledSections) {
 TEST(Stereology, RecoversLognormalSpheresFromTruncatedSectionsWithHonestIntervals) {
   // 20 samples of ~200 resolved sections each from log-normal spheres (mean 0.1 µm), the smallest
   // sections (below 0.05 µm, 11 % of them) unseen: the fitted 3-D mean within 15 % and inside its
-  // own 95 % interval in at least 17 of 20; the number density likewise.
+  // own 95 % interval in at least 17 of 20; the number density and the mean diameter of all
+  // sections (resolved or not) likewise.
   const double median = 0.096, sigma = 0.25, limit = 0.05, nv = 400.0, area = 4.0;  // per µm³, µm²
   const SphereSizes truth = lognormal(median, sigma);
-  int mean_covered = 0, density_covered = 0, within = 0;
+  int mean_covered = 0, density_covered = 0, section_covered = 0, within = 0;
   for (int seed = 1; seed <= 20; ++seed) {
     std::mt19937_64 rng(seed);
     const int total = std::poisson_distribution<int>(nv * truth.mean_um() * area)(rng);
@@ -108,6 +109,8 @@ TEST(Stereology, RecoversLognormalSpheresFromTruncatedSectionsWithHonestInterval
       if (d >= limit) sample.diameter_um.push_back(d);
     const SphereSizeFit fit = fit_sphere_sizes(sample, SphereSizeModel::lognormal);
     ASSERT_TRUE(fit.determined) << fit.reason;
+    const double section_truth = M_PI / 4 * truth.mean_square_um2() / truth.mean_um();
+    section_covered += fit.mean_section_low_um <= section_truth && section_truth <= fit.mean_section_high_um;
     within += std::abs(fit.mean_diameter_um / truth.mean_um() - 1) < 0.15;
     mean_covered += fit.mean_low_um <= truth.mean_um() && truth.mean_um() <= fit.mean_high_um;
     density_covered += fit.density_low_per_um3 <= nv && nv <= fit.density_high_per_um3;
@@ -115,6 +118,7 @@ TEST(Stereology, RecoversLognormalSpheresFromTruncatedSectionsWithHonestInterval
   EXPECT_EQ(within, 20);
   EXPECT_GE(mean_covered, 17);
   EXPECT_GE(density_covered, 17);
+  EXPECT_GE(section_covered, 17);
 }
 
 TEST(Stereology, RecoversLswSpheresAndTellsWhenTooFewSectionsFixNothing) {

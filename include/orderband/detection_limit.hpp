@@ -31,7 +31,7 @@ struct DetectionLimit {
   double diameter_um = 0;
   int min_points = 1;
   double noise_sd = 0, matrix_level = 0;
-  double false_particles = 0;  ///< expected noise components of min_points or more per map
+  double false_particles = 0;    ///< expected noise components of min_points or more per map
   double noise_diameter_um = 0;  ///< the ECD of min_points cells
 };
 

@@ -4,16 +4,19 @@
 #include <functional>
 #include <string>
 
+#include "orderband/detection_limit.hpp"
 #include "orderband/ordered_fraction.hpp"
 #include "orderband/particles.hpp"
 #include "orderband/sphere.hpp"
+#include "orderband/stereology.hpp"
 
 namespace orderband {
 
 struct MapOptions {
   OrientSpec orient;
   FractionSpec fraction;
-  SegmentSpec segment;
+  SegmentSpec segment;  ///< min_points 0: from the detection limit
+  DetectionLimitSpec detection;
   SizeClasses classes;
   int e562_tiles = 4;       ///< fields per side for the ASTM E562 interval
   int bootstrap_block = 8;  ///< points per block side for the bootstrap interval
@@ -29,7 +32,10 @@ struct MapResults {
   Segmentation segmentation;
   std::vector<ClassStats> classes;
   FractionCI e562, bootstrap;
+  DetectionLimit detection;
   Unfolding unfolding;  ///< of the secondary class's section diameters
+  /// 3-D sizes of the secondary class from its resolved sections (truncated at the detection limit).
+  SphereSizeFit secondary_lognormal, secondary_lsw;
   /// Master spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
   std::optional<SphereMap> master_disordered, master_ordered;
   double ordered_area_fraction() const { return fraction.mean_raw(); }

@@ -15,7 +15,7 @@ struct SegmentSpec {
   ThresholdMethod method = ThresholdMethod::fixed;
   double threshold = 0.5;       ///< fixed threshold on f
   int square_connectivity = 8;  ///< 4 or 8 (hexagonal grids always use 6)
-  int min_points = 1;           ///< smaller components are dropped (matrix)
+  int min_points = 1;           ///< smaller components are dropped (matrix); map sets it from the detection limit
   bool smooth = false;          ///< 3 × 3 (hexagonal: 7-point) mean of f before thresholding
   bool exclude_border = true;   ///< particles touching the map border stay out of size statistics
 };
@@ -32,6 +32,7 @@ struct Particle2D {
   double mean_fraction = 0;
   int host_grain = 0;              ///< the grain most of its points belong to (0: unknown)
   bool on_grain_boundary = false;  ///< its neighbours outside it belong to two or more grains
+  bool own_orientation = false;    ///< it holds at least half of its host grain's points: a grain of its own
   bool touches_border = false;
   /// The diameter that decides the size class: the ECD, or for a particle cut by the map border
   /// the larger of its ECD and the diameter of the circle fitted to its free boundary (the cut
@@ -55,20 +56,33 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
 /// Otsu's threshold (Otsu, IEEE Trans. SMC 9 (1979) 62) of the finite values in [0, 1], 256 bins.
 double otsu_threshold(const std::vector<float>& values);
 
-/// Size classes by equivalent-circle diameter: names and lower bounds in µm, ascending
-/// (defaults, common practice for nickel-base superalloys: tertiary below 0.1 µm, secondary
-/// 0.1–1 µm, primary from 1 µm; tertiary particles are mostly below the scan step and are
-/// reported through the sub-resolution fraction instead).
+/// Size classes. Names and lower bounds in µm, ascending (defaults, common practice for
+/// nickel-base superalloys: tertiary below 0.1 µm, secondary 0.1–1 µm, primary from 1 µm). A
+/// section's class comes from its origin and the resolution, not from its size alone, because a
+/// plane cuts a particle anywhere:
+///  - below the detection limit: "unresolved", no class (its ordered area counts with the last-but-two
+///    class, tertiary, which is reported by area only);
+///  - the last class (primary): a grain of its own (own orientation), or on a grain boundary with a
+///    diameter of at least boundary_share × the last bound, or a diameter above the last bound;
+///  - every other resolved section: the class below it (secondary), whatever its size; the 3-D
+///    sizes of that population come from the truncated-section fit (stereology.hpp). Resolved
+///    tertiary particles (on maps with steps far below 0.1 µm) would be counted with it.
 struct SizeClasses {
   std::vector<std::string> names{"tertiary", "secondary", "primary"};
   std::vector<double> lower_um{0.0, 0.1, 1.0};
+  double detection_limit_um = 0;  ///< set by map from the detection limit
+  double boundary_share = 0.5;
+  std::string classify(const Particle2D& p) const;
+  /// By diameter alone (the bounds as given).
   std::string classify(double ecd_um) const;
 };
+inline constexpr const char* kUnresolvedClass = "unresolved";
 
 struct ClassStats {
   std::string name;
   double lower_um = 0, upper_um = 0;  ///< upper: infinity for the last class
   int count = 0;                      ///< particles in the statistics (not touching the border)
+  bool counted = true;                ///< false: reported by area only (ordering below the detection limit)
   double area_fraction = 0;           ///< all particles of the class (border ones included) / analysed area
   double number_density_per_um2 = 0;  ///< counted particles / analysed area (guard-frame counting)
   double mean_ecd_um = 0, median_ecd_um = 0;

@@ -19,6 +19,7 @@ struct SphereSizes {
   std::vector<double> params;  ///< lognormal: {median_um, sigma_ln}; lsw: {mean_um}
   double density(double d_um) const;
   double mean_um() const;
+  double mean_square_um2() const;  ///< ⟨D²⟩
   /// Diameters outside [lowest, highest] carry less than 1e-10 of the distribution.
   double lowest_um() const;
   double highest_um() const;
@@ -52,10 +53,15 @@ struct SphereSizeFit {
   double log_likelihood = 0;
   double mean_diameter_um = 0, mean_low_um = 0, mean_high_um = 0;
   double number_density_per_um3 = 0, density_low_per_um3 = 0, density_high_per_um3 = 0;
+  /// The mean diameter of all sections, resolved or not: (π/4) ⟨D²⟩ / ⟨D⟩, with its interval.
+  double mean_section_um = 0, mean_section_low_um = 0, mean_section_high_um = 0;
   double seen_share = 0;  ///< S(limit): the share of all sections the map resolves
 };
 
-/// Needs at least `min_sections` sections (fewer: not determined, nothing fitted).
+/// Needs at least `min_sections` sections (fewer: not determined, nothing fitted). Not determined
+/// either when the maximum lies at the edge of the parameters' range: a log-normal σ at 0.02 or 1.5,
+/// an LSW mean pinned by the largest section (the LSW shape ends at 1.5 × the mean, so a population
+/// it does not describe drives the mean onto that end).
 SphereSizeFit fit_sphere_sizes(const SectionSample& sample, SphereSizeModel model, int min_sections = 10);
 
 }  // namespace orderband

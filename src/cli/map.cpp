@@ -16,7 +16,11 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
   sub.add_option("--connectivity", o.connectivity, "square grids: 4 or 8 (hexagonal grids use 6)")
       ->check(CLI::IsMember({4, 8}))
       ->capture_default_str();
-  sub.add_option("--min-particle", o.min_particle, "smallest particle (points)")->capture_default_str();
+  sub.add_option(
+         "--min-particle", o.min_particle,
+         "smallest particle in points; 0: from the detection limit (the size the map's noise alone rarely makes)")
+      ->check(CLI::NonNegativeNumber)
+      ->capture_default_str();
   sub.add_option("--class-bounds", o.class_bounds,
                  "lower ECD bounds of the secondary and primary classes (µm), e.g. 0.1 1.0")
       ->expected(2);

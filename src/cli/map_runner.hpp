@@ -14,7 +14,7 @@ struct MapRunOptions {
   double threshold = 0.5;
   bool otsu = false;
   int connectivity = 8;
-  int min_particle = 1;
+  int min_particle = 0;  ///< 0: from the detection limit
   std::vector<double> class_bounds{0.1, 1.0};
   double grain_threshold = 5.0;
   std::string end_members = "model";

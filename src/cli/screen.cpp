@@ -52,6 +52,31 @@ std::string cached_scan(const std::string& scenario, bool quiet) {
   return dir + "/scan.toml";
 }
 
+/// A trial's numbers for the ranking from its summary.json: the ordered fraction with its ASTM
+/// E562 interval, the secondary size as the mean of all sections from the log-normal 3-D fit (with
+/// its interval) when determined, else the resolved sections' mean; `radius_3d` gets half the
+/// fitted 3-D mean diameter (0 when not determined).
+TrialNumbers trial_numbers(const nlohmann::json& s, std::vector<double>& radius_3d) {
+  TrialNumbers n;
+  n.ordered_fraction = {s["ordered_area_fraction"], s["ci95"]["low"], s["ci95"]["high"]};
+  const double section_mean = s["classes"]["secondary"]["mean_ecd_um"];
+  n.secondary_mean_ecd_um = {section_mean, section_mean, section_mean};
+  const nlohmann::json fit =
+      s.contains("secondary_3d") ? s["secondary_3d"].value("lognormal", nlohmann::json()) : nlohmann::json();
+  if (fit.is_object() && fit.value("determined", false)) {
+    n.secondary_mean_ecd_um = {fit["mean_section_diameter_um"], fit["mean_section_diameter_ci95_um"][0],
+                               fit["mean_section_diameter_ci95_um"][1]};
+    n.secondary_size_from_fit = true;
+    radius_3d.push_back(0.5 * fit["mean_diameter_um"].get<double>());
+  } else {
+    radius_3d.push_back(0.0);
+  }
+  n.primary_fraction = s["classes"]["primary"]["area_fraction"];
+  n.primary_count = s["classes"]["primary"]["count"];
+  n.secondary_count = s["classes"]["secondary"]["count"];
+  return n;
+}
+
 }  // namespace
 
 ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
@@ -86,29 +111,37 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
 
   // Numbers per trial.
   std::vector<TrialNumbers> numbers;
-  for (const auto& s : summaries) {
-    TrialNumbers n;
-    n.ordered_fraction = s["ordered_area_fraction"];
-    n.secondary_mean_ecd_um = s["classes"]["secondary"]["mean_ecd_um"];
-    n.primary_fraction = s["classes"]["primary"]["area_fraction"];
-    numbers.push_back(n);
-  }
-  // Kinetics per temperature, on the mean section radius of the secondary class.
+  std::vector<double> radius_3d;  // per trial: half the fitted 3-D mean diameter (0: not determined)
+  for (const auto& s : summaries) numbers.push_back(trial_numbers(s, radius_3d));
+  // Kinetics per temperature, on the 3-D mean radius of the secondary particles where every trial
+  // of the temperature has it (the LSW constant is for 3-D radii), else on the mean radius of the
+  // resolved sections, labelled as such.
   std::map<double, std::vector<size_t>> by_temperature;
   for (size_t i = 0; i < tc.trials.size(); ++i) by_temperature[tc.trials[i].temperature_c].push_back(i);
   nlohmann::json kinetics = nlohmann::json::array();
   std::vector<double> temps, ks;
   std::map<double, CoarseningFit> fits;
+  std::map<double, bool> fits_3d;
+  std::vector<double> kinetic_radius(tc.trials.size(), 0.0);
   for (const auto& [temp, idx] : by_temperature) {
     std::vector<double> t, r;
-    for (size_t i : idx)
-      if (numbers[i].secondary_mean_ecd_um > 0)
-        t.push_back(tc.trials[i].time_h), r.push_back(0.5 * numbers[i].secondary_mean_ecd_um);
-    nlohmann::json k = {{"temperature_c", temp}, {"trials", t.size()}};
+    const bool three_d = std::all_of(idx.begin(), idx.end(), [&](size_t i) { return radius_3d[i] > 0; });
+    for (size_t i : idx) {
+      const double radius =
+          three_d ? radius_3d[i] : 0.5 * summaries[i]["classes"]["secondary"]["mean_ecd_um"].get<double>();
+      if (radius > 0) t.push_back(tc.trials[i].time_h), r.push_back(radius);
+      kinetic_radius[i] = radius;
+    }
+    nlohmann::json k = {{"temperature_c", temp},
+                        {"trials", t.size()},
+                        {"radius", three_d ? "3-D mean radius (log-normal fit to the sections truncated at the "
+                                             "detection limit)"
+                                           : "mean radius of the resolved sections (not 3-D; biased by truncation)"}};
     try {
       if (t.size() < 2) fail("fewer than two trials with secondary particles");
       const CoarseningFit f = tc.exponent ? fit_coarsening(t, r, *tc.exponent) : fit_coarsening_free(t, r);
       fits[temp] = f;
+      fits_3d[temp] = three_d;
       k["exponent"] = f.exponent;
       k["exponent_ci95"] = {f.exponent_low, f.exponent_high};
       k["exponent_fitted"] = !tc.exponent.has_value();
@@ -139,14 +172,17 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   csv << "# orderband " << kVersion << ": " << command_line() << "\n"
       << "label,temperature_c,time_h,ordered_area_fraction,ci95_low,ci95_high,subresolution_ordered_fraction,"
          "primary_area_fraction,secondary_area_fraction,secondary_count,secondary_mean_ecd_um,"
-         "secondary_number_density_per_um2,rank,distance_to_target\n";
+         "secondary_number_density_per_um2,rank,distance_to_target,verdict\n";
   nlohmann::json table = nlohmann::json::array();
   for (size_t i = 0; i < tc.trials.size(); ++i) {
     const auto& s = summaries[i];
     size_t rank = 0;
     double dist = 0;
+    std::string verdict;
+    nlohmann::json flags = nlohmann::json::array();
     for (size_t k = 0; k < ranking.size(); ++k)
-      if (ranking[k].trial == i) rank = k + 1, dist = ranking[k].distance;
+      if (ranking[k].trial == i)
+        rank = k + 1, dist = ranking[k].distance, verdict = to_string(ranking[k].verdict), flags = ranking[k].flags;
     csv << tc.trials[i].label << ',' << tc.trials[i].temperature_c << ',' << tc.trials[i].time_h << ','
         << fmt("%.5f", s["ordered_area_fraction"]) << ',' << fmt("%.5f", s["ci95"]["low"]) << ','
         << fmt("%.5f", s["ci95"]["high"]) << ',' << fmt("%.5f", s["subresolution_ordered_fraction"]) << ','
@@ -154,7 +190,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
         << fmt("%.5f", s["classes"]["secondary"]["area_fraction"]) << ','
         << s["classes"]["secondary"]["count"].get<int>() << ',' << fmt("%.5f", s["classes"]["secondary"]["mean_ecd_um"])
         << ',' << fmt("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ','
-        << fmt("%.4f", dist) << '\n';
+        << fmt("%.4f", dist) << ',' << verdict << '\n';
     table.push_back({{"label", tc.trials[i].label},
                      {"temperature_c", tc.trials[i].temperature_c},
                      {"time_h", tc.trials[i].time_h},
@@ -166,6 +202,13 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
                      {"classes", s["classes"]},
                      {"rank", rank},
                      {"distance_to_target", dist},
+                     {"verdict", verdict},
+                     {"flags", flags},
+                     {"secondary_mean_section_ecd_um",
+                      {{"value", numbers[i].secondary_mean_ecd_um.value},
+                       {"ci95", {numbers[i].secondary_mean_ecd_um.low, numbers[i].secondary_mean_ecd_um.high}},
+                       {"from_3d_fit", numbers[i].secondary_size_from_fit}}},
+                     {"secondary_3d", s["secondary_3d"]},
                      {"report", tc.trials[i].label + "/report.html"}});
   }
   write_text_atomically(out + "/comparison.csv", csv.str());
@@ -174,7 +217,11 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
                       {"kinetics", kinetics},   {"arrhenius", arrhenius}};
   nlohmann::json rk = nlohmann::json::array();
   for (const Ranked& r : ranking)
-    rk.push_back({{"label", tc.trials[r.trial].label}, {"distance", r.distance}, {"reasons", r.reasons}});
+    rk.push_back({{"label", tc.trials[r.trial].label},
+                  {"verdict", to_string(r.verdict)},
+                  {"distance", r.distance},
+                  {"reasons", r.reasons},
+                  {"flags", r.flags}});
   j["ranking"] = rk;
   write_text_atomically(out + "/comparison.json", j.dump(2) + "\n");
 
@@ -231,7 +278,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     for (double v : d) y[std::min(bins - 1, static_cast<int>(v / w))] += 1.0 / d.size();
     sizes.line(x, y, colours[i % 6], tc.trials[i].label);
   }
-  SvgPlot power(560, 320, "coarsening: mean section radius^n vs time (fit lines)", "ageing time (h)", "<r>^n (um^n)");
+  SvgPlot power(560, 320, "coarsening: mean radius^n vs time (fit lines)", "ageing time (h)", "<r>^n (um^n)");
   ci = 0;
   for (const auto& [temp, idx] : by_temperature) {
     if (!fits.count(temp)) continue;
@@ -239,7 +286,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     std::vector<double> t, y;
     double tmax = 0;
     for (size_t i : idx) {
-      const double r = 0.5 * numbers[i].secondary_mean_ecd_um;
+      const double r = kinetic_radius[i];
+      if (!(r > 0)) continue;
       t.push_back(tc.trials[i].time_h), y.push_back(std::pow(r, f.exponent));
       tmax = std::max(tmax, tc.trials[i].time_h);
     }
@@ -260,29 +308,41 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
        "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
        ".caution{font-size:0.85em;color:#555}</style></head><body>\n<h1>"
     << xml_escape(tc.title) << "</h1>\n<h2>Ranking against the target</h2><table><tr><th>rank</th><th>trial</th>"
-    << "<th>ordered fraction (95 % CI)</th><th>secondary mean ECD (µm)</th><th>primary "
-       "fraction</th><th>verdict</th></tr>";
+    << "<th>ordered fraction (95 % CI)</th><th>secondary mean section ECD, all sections (µm, 95 % CI)</th>"
+       "<th>primary fraction</th><th>verdict</th></tr>";
   for (size_t k = 0; k < ranking.size(); ++k) {
     const size_t i = ranking[k].trial;
-    std::string verdict = ranking[k].reasons.empty() ? "inside the target window" : "";
-    for (const auto& reason : ranking[k].reasons) verdict += (verdict.empty() ? "" : "; ") + reason;
+    std::string verdict = ranking[k].verdict == Verdict::inside      ? "inside the target window"
+                          : ranking[k].verdict == Verdict::undecided ? "undecided: "
+                                                                     : "outside: ";
+    for (size_t m = 0; m < ranking[k].reasons.size(); ++m) verdict += (m ? "; " : "") + ranking[k].reasons[m];
+    for (const auto& flag : ranking[k].flags) verdict += " [" + flag + "]";
+    const Measured& ecd = numbers[i].secondary_mean_ecd_um;
     h << "<tr><td>" << k + 1 << "</td><td><a href=\"" << xml_escape(tc.trials[i].label) << "/report.html\">"
-      << xml_escape(tc.trials[i].label) << "</a></td><td>" << fmt("%.3f", numbers[i].ordered_fraction) << " ("
-      << fmt("%.3f", summaries[i]["ci95"]["low"]) << " – " << fmt("%.3f", summaries[i]["ci95"]["high"]) << ")</td><td>"
-      << fmt("%.3f", numbers[i].secondary_mean_ecd_um) << "</td><td>" << fmt("%.3f", numbers[i].primary_fraction)
-      << "</td><td>" << xml_escape(verdict) << "</td></tr>";
+      << xml_escape(tc.trials[i].label) << "</a></td><td>" << fmt("%.3f", numbers[i].ordered_fraction.value) << " ("
+      << fmt("%.3f", numbers[i].ordered_fraction.low) << " – " << fmt("%.3f", numbers[i].ordered_fraction.high)
+      << ")</td><td>" << fmt("%.3f", ecd.value)
+      << (numbers[i].secondary_size_from_fit ? " (" + fmt("%.3f", ecd.low) + " – " + fmt("%.3f", ecd.high) + ")"
+                                             : std::string(" (resolved sections only)"))
+      << "</td><td>" << fmt("%.3f", numbers[i].primary_fraction) << " (" << numbers[i].primary_count
+      << " counted)</td><td>" << xml_escape(verdict) << "</td></tr>";
   }
-  h << "</table>\n<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th><th>k (µmⁿ/h)</th>"
-       "<th>k 95 % CI</th></tr>";
+  h << "</table><p class=\"caution\">Undecided: a quantity's 95 % interval crosses an edge of the window; undecided "
+       "trials rank below the trials decided inside and above those decided outside. Classes with fewer than 10 "
+       "counted particles are flagged.</p>\n<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th>"
+       "<th>k (µmⁿ/h)</th><th>k 95 % CI</th><th>radius</th></tr>";
   for (const auto& [temp, f] : fits)
     h << "<tr><td>" << fmt("%g", temp) << "</td><td>" << fmt("%.3g", f.exponent)
       << (tc.exponent ? " (set)" : " (fitted " + fmt("%.3g", f.exponent_low) + "–" + fmt("%.3g", f.exponent_high) + ")")
       << "</td><td>" << fmt("%.4g", f.k) << "</td><td>"
       << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high)
                                  : std::string("needs 3 or more trials"))
+      << "</td><td>" << (fits_3d[temp] ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)")
       << "</td></tr>";
-  h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the mean section radius of the secondary class "
-       "(ECD/2); "
+  h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the 3-D mean radius of the secondary "
+       "particles (log-normal fit to the sections truncated at each map's detection limit) where every trial of the "
+       "temperature has it, else on the mean radius of the resolved sections, which is neither 3-D nor free of the "
+       "truncation; "
        "n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has been reported with n below 3, so set or fit "
        "n "
        "for your alloy. With two or more temperatures an Arrhenius fit gives an apparent activation energy (k also "

@@ -21,9 +21,9 @@ double normal_cdf(double z) { return 0.5 * std::erfc(-z / std::sqrt(2.0)); }
 double beam_share_inside(double r, double x, double y, const BeamFootprint& beam) {
   auto chord = [&](double v) {
     const double c = std::sqrt(std::max(0.0, r * r - v * v));
-    const double across = beam.sigma_x_um > 0 ? normal_cdf((c - x) / beam.sigma_x_um) -
-                                                    normal_cdf((-c - x) / beam.sigma_x_um)
-                                              : (std::abs(x) <= c ? 1.0 : 0.0);
+    const double across = beam.sigma_x_um > 0
+                              ? normal_cdf((c - x) / beam.sigma_x_um) - normal_cdf((-c - x) / beam.sigma_x_um)
+                              : (std::abs(x) <= c ? 1.0 : 0.0);
     return across;
   };
   if (!(beam.sigma_y_um > 0)) return std::abs(y) <= r ? chord(y) : 0.0;
@@ -38,8 +38,7 @@ double beam_share_inside(double r, double x, double y, const BeamFootprint& beam
 
 }  // namespace
 
-double expected_points_above(const ScanGrid& grid, const BeamFootprint& beam, double d, double m, double sd,
-                             double t) {
+double expected_points_above(const ScanGrid& grid, const BeamFootprint& beam, double d, double m, double sd, double t) {
   if (!(d > 0)) return 0.0;
   sd = std::max(sd, 1e-6);
   const double r = 0.5 * d, floor = normal_cdf((m - t) / sd);
@@ -59,7 +58,8 @@ double expected_points_above(const ScanGrid& grid, const BeamFootprint& beam, do
 DetectionLimit detection_limit(const ScanGrid& grid, const BeamFootprint& beam, double matrix_level, double noise_sd,
                                const DetectionLimitSpec& spec) {
   grid.validate();
-  if (!(noise_sd >= 0) || !std::isfinite(noise_sd)) fail("detection limit: the map's noise must be >= 0, got ", noise_sd);
+  if (!(noise_sd >= 0) || !std::isfinite(noise_sd))
+    fail("detection limit: the map's noise must be >= 0, got ", noise_sd);
   if (!std::isfinite(matrix_level)) fail("detection limit: the matrix level must be finite");
   if (!(spec.noise_maps >= 1)) fail("detection limit: at least one noise map is needed");
   if (!(matrix_level < spec.threshold))

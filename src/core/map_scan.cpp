@@ -1,11 +1,52 @@
 // The per-scan analysis chain.
 #include "orderband/map_scan.hpp"
 
+#include <algorithm>
+#include <cmath>
+
 #include "orderband/laue_group.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
+namespace {
+
+/// The detection limit of the fraction map: its per-point noise is the median standard error of
+/// the points, its matrix level the sub-resolution fraction (the matrix's mean).
+DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResults& fraction,
+                                   const MapOptions& options) {
+  std::vector<float> se;
+  for (float u : fraction.uncertainty)
+    if (std::isfinite(u)) se.push_back(u);
+  const double noise = se.empty() ? 0.0
+                                  : (std::nth_element(se.begin(), se.begin() + se.size() / 2, se.end()),
+                                     static_cast<double>(se[se.size() / 2]));
+  DetectionLimitSpec spec = options.detection;
+  spec.threshold =
+      options.segment.method == ThresholdMethod::otsu ? otsu_threshold(fraction.fraction) : options.segment.threshold;
+  spec.connectivity = options.segment.square_connectivity;
+  const double level = std::isfinite(fraction.subresolution_fraction)
+                           ? std::clamp(fraction.subresolution_fraction, 0.0, 0.9 * spec.threshold)
+                           : 0.0;
+  return detection_limit(config.grid, beam_footprint(config), level, noise, spec);
+}
+
+/// The secondary class's sections (not cut by the map border) unfolded into sphere sizes: the
+/// truncated maximum-likelihood fits and Schwartz–Saltykov as a non-parametric check.
+void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int unfold_classes, MapResults& r) {
+  if (classes.names.size() < 2) return;
+  const std::string& secondary = classes.names[classes.names.size() - 2];
+  SectionSample sample{
+      {}, r.detection.diameter_um, r.segmentation.usable_points * grid.step_um * grid.row_spacing_um()};
+  for (const Particle2D& p : r.segmentation.particles)
+    if (p.size_class == secondary && !p.touches_border) sample.diameter_um.push_back(p.ecd_um);
+  if (!(sample.area_um2 > 0)) return;
+  r.secondary_lognormal = fit_sphere_sizes(sample, SphereSizeModel::lognormal);
+  r.secondary_lsw = fit_sphere_sizes(sample, SphereSizeModel::lsw);
+  if (sample.diameter_um.size() >= 5) r.unfolding = saltykov_unfold(sample.diameter_um, unfold_classes, 1.0);
+}
+
+}  // namespace
 
 MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress,
                     RowStore* store) {
@@ -22,14 +63,16 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
   r.fraction = ordered_fraction_scan(config, r.orientations, options.fraction, stage("ordered fraction"), store);
 
   const ScanGrid& grid = config.grid;
-  r.segmentation = segment_particles(grid, r.fraction.fraction, r.orientations.grains.id, options.segment);
-  r.classes = class_statistics(grid, r.segmentation, options.classes);
+  r.detection = map_detection_limit(config, r.fraction, options);
+  SegmentSpec segment = options.segment;
+  if (segment.min_points <= 0) segment.min_points = r.detection.min_points;
+  SizeClasses classes = options.classes;
+  classes.detection_limit_um = r.detection.diameter_um;
+  r.segmentation = segment_particles(grid, r.fraction.fraction, r.orientations.grains.id, segment);
+  r.classes = class_statistics(grid, r.segmentation, classes);
   r.e562 = astm_e562_ci(grid, r.fraction.raw, options.e562_tiles);
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);
-  std::vector<double> secondary;
-  for (const Particle2D& p : r.segmentation.particles)
-    if (p.size_class == "secondary" && !p.touches_border) secondary.push_back(p.ecd_um);
-  if (secondary.size() >= 5) r.unfolding = saltykov_unfold(secondary, options.unfold_classes, 1.0);
+  fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
   if (options.master_spheres) {
     auto source = open_pattern_source(config.patterns, grid);

@@ -46,6 +46,15 @@ double otsu_threshold(const std::vector<float>& values) {
   return (0.5 * (first + last) + 1) / 256.0;
 }
 
+std::string SizeClasses::classify(const Particle2D& p) const {
+  const double d = p.class_diameter_um > 0 ? p.class_diameter_um : p.ecd_um;
+  if (d < detection_limit_um) return kUnresolvedClass;
+  if (names.size() < 3) return classify(d);
+  const double coarse = lower_um.back();
+  if (p.own_orientation || (p.on_grain_boundary && d >= boundary_share * coarse) || d >= coarse) return names.back();
+  return names[names.size() - 2];
+}
+
 std::string SizeClasses::classify(double ecd) const {
   std::string name = names.empty() ? "" : names.front();
   for (size_t k = 0; k < names.size(); ++k)
@@ -118,6 +127,8 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
       ++seg.usable_points;
   }
   const double cell = grid.step_um * grid.row_spacing_um();  // area of one point's cell (µm²)
+  std::map<int, int> grain_points;
+  for (int32_t g : grain) grain_points[g]++;
   int next = 0;
   std::vector<int32_t> provisional(n, 0);
   for (size_t start = 0; start < n; ++start) {
@@ -174,8 +185,10 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
     p.aspect_ratio = std::sqrt(l1 / l2);
     p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
     if (!grains.empty()) {
-      p.host_grain =
-          std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; })->first;
+      const auto host =
+          std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; });
+      p.host_grain = host->first;
+      p.own_orientation = p.host_grain > 0 && 2 * host->second >= grain_points[p.host_grain];
       std::set<int> outside;
       for (size_t k : members)
         for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
@@ -206,8 +219,14 @@ std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg
     out.push_back(s);
   }
   std::vector<std::vector<double>> ecds(out.size());
+  // The classes below the last two hold only ordering below the detection limit, by area.
+  for (size_t c = 0; c + 2 < out.size(); ++c) out[c].counted = false;
   for (Particle2D& p : seg.particles) {
-    p.size_class = classes.classify(p.class_diameter_um > 0 ? p.class_diameter_um : p.ecd_um);
+    p.size_class = classes.classify(p);
+    if (p.size_class == kUnresolvedClass) {
+      out.front().area_fraction += p.area_um2 / analysed;
+      continue;
+    }
     const size_t c = std::find(classes.names.begin(), classes.names.end(), p.size_class) - classes.names.begin();
     out[c].area_fraction += p.area_um2 / analysed;
     if (!p.touches_border) ecds[c].push_back(p.ecd_um);

@@ -5,9 +5,9 @@
 #include <cmath>
 #include <functional>
 
+#include <Eigen/Dense>
 #include <boost/math/quadrature/gauss_kronrod.hpp>
 #include <boost/math/tools/minima.hpp>
-#include <Eigen/Dense>
 
 #include "orderband/error.hpp"
 #include "orderband/size_distribution.hpp"
@@ -31,6 +31,14 @@ double SphereSizes::density(double d) const {
 
 double SphereSizes::mean_um() const {
   return model == SphereSizeModel::lognormal ? params[0] * std::exp(0.5 * params[1] * params[1]) : params[0];
+}
+
+double SphereSizes::mean_square_um2() const {
+  if (model == SphereSizeModel::lognormal) return params[0] * params[0] * std::exp(2 * params[1] * params[1]);
+  // ⟨u²⟩ of the LSW law, once (Gauss–Kronrod over its support).
+  static const double u2 = boost::math::quadrature::gauss_kronrod<double, 61>::integrate(
+      [](double u) { return u * u * lsw_density(u); }, 0.0, 1.5, 10, 1e-12);
+  return u2 * params[0] * params[0];
 }
 
 double SphereSizes::lowest_um() const {
@@ -118,16 +126,16 @@ Eigen::VectorXd maximise(SphereSizeModel model, const SectionSample& sample,
   if (model == SphereSizeModel::lsw) {
     // Every section is smaller than the largest sphere, 1.5 × the mean.
     auto neg = [&](double lm) { return -ell(Eigen::VectorXd::Constant(1, lm)); };
-    const auto best = boost::math::tools::brent_find_minima(neg, std::log(d_hi / 1.5) + 1e-9, std::log(d_hi) + 1.0, bits);
+    const auto best =
+        boost::math::tools::brent_find_minima(neg, std::log(d_hi / 1.5) + 1e-9, std::log(d_hi) + 1.0, bits);
     return Eigen::VectorXd::Constant(1, best.first);
   }
   auto best_median = [&](double ls) {
     auto neg = [&](double lm) { return -ell(Eigen::Vector2d(lm, ls)); };
     return boost::math::tools::brent_find_minima(neg, std::log(d_lo) - 2.0, std::log(d_hi) + 1.0, bits);
   };
-  const auto best_sigma =
-      boost::math::tools::brent_find_minima([&](double ls) { return best_median(ls).second; }, std::log(0.02),
-                                            std::log(1.5), bits);
+  const auto best_sigma = boost::math::tools::brent_find_minima([&](double ls) { return best_median(ls).second; },
+                                                                std::log(0.02), std::log(1.5), bits);
   return Eigen::Vector2d(best_median(best_sigma.first).first, best_sigma.first);
 }
 
@@ -173,20 +181,34 @@ SphereSizeFit fit_sphere_sizes(const SectionSample& sample, SphereSizeModel mode
     }
     return g;
   };
-  const Eigen::VectorXd g_mean = gradient([&](const Eigen::VectorXd& y) { return std::log(sizes_at(model, y).mean_um()); });
+  const Eigen::VectorXd g_mean =
+      gradient([&](const Eigen::VectorXd& y) { return std::log(sizes_at(model, y).mean_um()); });
   const Eigen::VectorXd g_seen = gradient([&](const Eigen::VectorXd& y) {
     const SphereSizes s = sizes_at(model, y);
     return std::log(s.mean_um() * section_share_above(s, sample.limit_um));
   });
+  const Eigen::VectorXd g_section = gradient([&](const Eigen::VectorXd& y) {
+    const SphereSizes s = sizes_at(model, y);
+    return std::log(s.mean_square_um2() / s.mean_um());
+  });
   const double se_mean = std::sqrt(g_mean.dot(cov * g_mean));
+  const double se_section = std::sqrt(g_section.dot(cov * g_section));
   const double se_density = std::sqrt(1.0 / n + g_seen.dot(cov * g_seen));
   const double z = 1.959963984540054;  // two-sided 95 % normal quantile
   fit.mean_low_um = fit.mean_diameter_um * std::exp(-z * se_mean);
   fit.mean_high_um = fit.mean_diameter_um * std::exp(z * se_mean);
+  fit.mean_section_um = M_PI / 4 * fit.spheres.mean_square_um2() / fit.mean_diameter_um;
+  fit.mean_section_low_um = fit.mean_section_um * std::exp(-z * se_section);
+  fit.mean_section_high_um = fit.mean_section_um * std::exp(z * se_section);
   fit.density_low_per_um3 = fit.number_density_per_um3 * std::exp(-z * se_density);
   fit.density_high_per_um3 = fit.number_density_per_um3 * std::exp(z * se_density);
   if (model == SphereSizeModel::lognormal && (x[1] < std::log(0.02) + 0.01 || x[1] > std::log(1.5) - 0.01)) {
     fit.reason = "the log-normal width ran to the edge of its range (" + std::to_string(fit.spheres.params[1]) + ")";
+    return fit;
+  }
+  if (model == SphereSizeModel::lsw &&
+      x[0] < std::log(*std::max_element(sample.diameter_um.begin(), sample.diameter_um.end()) / 1.5) + 0.01) {
+    fit.reason = "the largest section sits at the upper end of the LSW distribution: the LSW shape does not fit";
     return fit;
   }
   if (!(se_mean < 1.0)) {

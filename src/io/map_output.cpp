@@ -164,8 +164,8 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
   for (int b = 0; b < bins; ++b) left.push_back(b * w), width.push_back(w * 0.95);
   for (double x : d) count[std::min(bins - 1, static_cast<int>(x / w))] += 1;
   p.bars(left, width, count, "#7a9e7e", "particles");
-  for (size_t c = 1; c < classes.lower_um.size(); ++c)
-    if (classes.lower_um[c] < dmax) p.vertical_line(classes.lower_um[c], "#555", c == 1 ? "class boundaries" : "");
+  if (classes.lower_um.back() < dmax) p.vertical_line(classes.lower_um.back(), "#555", "primary bound");
+  if (r.detection.diameter_um < dmax) p.vertical_line(r.detection.diameter_um, "#c0392b", "detection limit");
   // Fitted log-normal per class, scaled to counts per bin.
   const char* colours[] = {"#8e44ad", "#c0392b", "#d35400", "#2c3e50"};
   for (size_t c = 0; c < r.classes.size(); ++c) {
@@ -181,6 +181,50 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
     p.line(xs, ys, colours[c % 4], "log-normal fit, " + s.name);
   }
   return p.render();
+}
+
+/// The class table (with the detection limit) and the secondary class's 3-D sizes.
+void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& config) {
+  const BeamFootprint beam = beam_footprint(config);
+  h << "<h2>Size classes</h2><p>Detection limit: sections of at least <b>" << fmt("%.3f", r.detection.diameter_um)
+    << " µm</b> ECD are counted (components of at least " << r.detection.min_points << " points; the matrix's noise, σ "
+    << fmt("%.3f", r.detection.noise_sd) << " per point about " << fmt("%.3f", r.detection.matrix_level) << ", makes "
+    << fmt("%.2f", r.detection.false_particles) << " such components per map; beam footprint σ "
+    << fmt("%.0f", beam.sigma_x_um * 1e3) << " × " << fmt("%.0f", beam.sigma_y_um * 1e3)
+    << " nm). At the limit about half the sections are found.</p>"
+    << "<table><tr><th>class</th><th>rule</th><th>count</th><th>area fraction</th>"
+       "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
+  for (size_t k = 0; k < r.classes.size(); ++k) {
+    const ClassStats& c = r.classes[k];
+    const bool last = k + 1 == r.classes.size();
+    const std::string rule = !c.counted ? "ordering below the detection limit (area only)"
+                             : last     ? "own orientation, on a grain boundary from " + fmt("%g", 0.5 * c.lower_um) +
+                                          " µm, or from " + fmt("%g", c.lower_um) + " µm"
+                                    : "every other resolved section";
+    const bool few = c.counted && c.count < 10;
+    h << "<tr><td>" << c.name << "</td><td>" << rule << "</td><td>" << (c.counted ? std::to_string(c.count) : "–")
+      << (few ? " (too few for statistics)" : "") << "</td><td>" << fmt("%.4f", c.area_fraction) << "</td><td>"
+      << (c.counted ? fmt("%.3f", c.number_density_per_um2) : "–") << "</td><td>"
+      << (c.counted ? fmt("%.4f", c.mean_ecd_um) : "–") << "</td><td>"
+      << (c.counted ? fmt("%.4f", c.median_ecd_um) : "–") << "</td></tr>";
+  }
+  h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left "
+       "out of counts, densities and sizes (guard frame). Section means are means of the resolved sections only; "
+       "the 3-D sizes below account for the sections the map cannot resolve.</p>\n";
+  h << "<h3>Secondary particles in 3-D (spheres assumed, sections truncated at the detection limit)</h3><table>"
+       "<tr><th>model</th><th>sections</th><th>mean diameter (µm), 95 % CI</th><th>number density (µm⁻³), 95 % "
+       "CI</th><th>share of sections resolved</th></tr>";
+  for (const SphereSizeFit* f : {&r.secondary_lognormal, &r.secondary_lsw}) {
+    h << "<tr><td>" << to_string(f->model) << "</td><td>" << f->sections << "</td>";
+    if (f->determined)
+      h << "<td>" << fmt("%.4f", f->mean_diameter_um) << " (" << fmt("%.4f", f->mean_low_um) << " – "
+        << fmt("%.4f", f->mean_high_um) << ")</td><td>" << fmt("%.1f", f->number_density_per_um3) << " ("
+        << fmt("%.1f", f->density_low_per_um3) << " – " << fmt("%.1f", f->density_high_per_um3) << ")</td><td>"
+        << fmt("%.2f", f->seen_share) << "</td></tr>";
+    else
+      h << "<td colspan=\"3\">not determined: " << xml_escape(f->reason) << "</td></tr>";
+  }
+  h << "</table>\n";
 }
 
 }  // namespace
@@ -239,12 +283,13 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     std::ostringstream os;
     os << "# " << provenance << "\n"
        << "class,lower_ecd_um,upper_ecd_um,count,area_fraction,number_density_per_um2,mean_ecd_um,median_ecd_um,"
-          "lognormal_mu_ln_um,lognormal_sigma\n";
+          "lognormal_mu_ln_um,lognormal_sigma,counted\n";
     for (const ClassStats& c : r.classes) {
       char b[400];
-      std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f\n", c.name.c_str(), c.lower_um,
+      std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f,%d\n", c.name.c_str(), c.lower_um,
                     std::isfinite(c.upper_um) ? fmt("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
-                    c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma);
+                    c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma,
+                    c.counted ? 1 : 0);
       os << b;
     }
     write_text_atomically(folder + "/classes.csv", os.str());
@@ -321,10 +366,36 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                        {"mean_ecd_um", c.mean_ecd_um},
                        {"median_ecd_um", c.median_ecd_um},
                        {"count", c.count},
+                       {"counted", c.counted},
                        {"lower_ecd_um", c.lower_um},
                        {"lognormal_mu_ln_um", c.lognormal_mu},
                        {"lognormal_sigma", c.lognormal_sigma}};
   j["classes"] = classes;
+  const BeamFootprint beam = beam_footprint(config);
+  j["detection_limit"] = {{"section_diameter_um", r.detection.diameter_um},
+                          {"min_points", r.detection.min_points},
+                          {"noise_diameter_um", r.detection.noise_diameter_um},
+                          {"noise_sd", r.detection.noise_sd},
+                          {"matrix_level", r.detection.matrix_level},
+                          {"false_particles_per_map", r.detection.false_particles},
+                          {"beam_sigma_x_um", beam.sigma_x_um},
+                          {"beam_sigma_y_um", beam.sigma_y_um}};
+  nlohmann::json sizes3d = nlohmann::json::object();
+  for (const SphereSizeFit* f : {&r.secondary_lognormal, &r.secondary_lsw}) {
+    nlohmann::json row = {{"determined", f->determined}, {"sections", f->sections}, {"reason", f->reason}};
+    if (f->determined)
+      row.update({{"parameters", f->spheres.params},
+                  {"mean_diameter_um", f->mean_diameter_um},
+                  {"mean_diameter_ci95_um", {f->mean_low_um, f->mean_high_um}},
+                  {"number_density_per_um3", f->number_density_per_um3},
+                  {"mean_section_diameter_um", f->mean_section_um},
+                  {"mean_section_diameter_ci95_um", {f->mean_section_low_um, f->mean_section_high_um}},
+                  {"number_density_ci95_per_um3", {f->density_low_per_um3, f->density_high_per_um3}},
+                  {"share_of_sections_resolved", f->seen_share},
+                  {"log_likelihood", f->log_likelihood}});
+    sizes3d[to_string(f->model)] = row;
+  }
+  j["secondary_3d"] = sizes3d;
   j["particles"] = r.segmentation.particles.size();
   j["threshold"] = r.segmentation.threshold;
   if (!r.unfolding.sphere_count.empty())
@@ -479,17 +550,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << "</td></tr>"
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
-  h << "<h2>Size classes</h2><table><tr><th>class</th><th>ECD range (µm)</th><th>count</th><th>area fraction</th>"
-       "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
-  for (const ClassStats& c : r.classes)
-    h << "<tr><td>" << c.name << "</td><td>" << fmt("%g", c.lower_um) << " – "
-      << (std::isfinite(c.upper_um) ? fmt("%g", c.upper_um) : std::string("")) << "</td><td>" << c.count << "</td><td>"
-      << fmt("%.4f", c.area_fraction) << "</td><td>" << fmt("%.3f", c.number_density_per_um2) << "</td><td>"
-      << fmt("%.4f", c.mean_ecd_um) << "</td><td>" << fmt("%.4f", c.median_ecd_um) << "</td></tr>";
-  h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left out "
-       "of "
-       "counts, densities and sizes (guard frame). The tertiary class lies mostly below the scan step; it is reported "
-       "through the sub-resolution ordered fraction.</p>\n";
+  write_class_tables(h, r, config);
   {
     // The largest grains: their matrix away from particles should agree (orientation bias check).
     std::vector<size_t> order;
