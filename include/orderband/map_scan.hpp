@@ -36,6 +36,8 @@ struct MapResults {
   Unfolding unfolding;  ///< of the secondary class's section diameters
   /// 3-D sizes of the secondary class from its resolved sections (truncated at the detection limit).
   SphereSizeFit secondary_lognormal, secondary_lsw;
+  /// The determined fit with the lower Akaike information criterion (null when neither is determined).
+  const SphereSizeFit* secondary_preferred() const;
   /// Master spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
   std::optional<SphereMap> master_disordered, master_ordered;
   double ordered_area_fraction() const { return fraction.mean_raw(); }

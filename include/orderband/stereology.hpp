@@ -56,6 +56,8 @@ struct SphereSizeFit {
   /// The mean diameter of all sections, resolved or not: (π/4) ⟨D²⟩ / ⟨D⟩, with its interval.
   double mean_section_um = 0, mean_section_low_um = 0, mean_section_high_um = 0;
   double seen_share = 0;  ///< S(limit): the share of all sections the map resolves
+  /// Akaike's information criterion, 2k − 2ℓ (k free parameters): the lower, the better supported.
+  double aic() const { return 2.0 * spheres.params.size() - 2 * log_likelihood; }
 };
 
 /// Needs at least `min_sections` sections (fewer: not determined, nothing fitted). Not determined

@@ -53,7 +53,7 @@ std::string cached_scan(const std::string& scenario, bool quiet) {
 }
 
 /// A trial's numbers for the ranking from its summary.json: the ordered fraction with its ASTM
-/// E562 interval, the secondary size as the mean of all sections from the log-normal 3-D fit (with
+/// E562 interval, the secondary size as the mean of all sections from the preferred 3-D fit (with
 /// its interval) when determined, else the resolved sections' mean; `radius_3d` gets half the
 /// fitted 3-D mean diameter (0 when not determined).
 TrialNumbers trial_numbers(const nlohmann::json& s, std::vector<double>& radius_3d) {
@@ -61,8 +61,8 @@ TrialNumbers trial_numbers(const nlohmann::json& s, std::vector<double>& radius_
   n.ordered_fraction = {s["ordered_area_fraction"], s["ci95"]["low"], s["ci95"]["high"]};
   const double section_mean = s["classes"]["secondary"]["mean_ecd_um"];
   n.secondary_mean_ecd_um = {section_mean, section_mean, section_mean};
-  const nlohmann::json fit =
-      s.contains("secondary_3d") ? s["secondary_3d"].value("lognormal", nlohmann::json()) : nlohmann::json();
+  const std::string preferred = s.contains("secondary_3d") ? s["secondary_3d"].value("preferred", "") : "";
+  const nlohmann::json fit = preferred.empty() ? nlohmann::json() : s["secondary_3d"][preferred];
   if (fit.is_object() && fit.value("determined", false)) {
     n.secondary_mean_ecd_um = {fit["mean_section_diameter_um"], fit["mean_section_diameter_ci95_um"][0],
                                fit["mean_section_diameter_ci95_um"][1]};
@@ -134,8 +134,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     }
     nlohmann::json k = {{"temperature_c", temp},
                         {"trials", t.size()},
-                        {"radius", three_d ? "3-D mean radius (log-normal fit to the sections truncated at the "
-                                             "detection limit)"
+                        {"radius", three_d ? "3-D mean radius (the fit preferred by AIC, log-normal or LSW, to "
+                                             "the sections truncated at the detection limit)"
                                            : "mean radius of the resolved sections (not 3-D; biased by truncation)"}};
     try {
       if (t.size() < 2) fail("fewer than two trials with secondary particles");
@@ -340,7 +340,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       << "</td><td>" << (fits_3d[temp] ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)")
       << "</td></tr>";
   h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the 3-D mean radius of the secondary "
-       "particles (log-normal fit to the sections truncated at each map's detection limit) where every trial of the "
+       "particles (the fit preferred by AIC, log-normal or LSW, to the sections truncated at each map's detection "
+       "limit) where every trial of the "
        "temperature has it, else on the mean radius of the resolved sections, which is neither 3-D nor free of the "
        "truncation; "
        "n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has been reported with n below 3, so set or fit "

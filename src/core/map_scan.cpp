@@ -48,6 +48,13 @@ void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int u
 
 }  // namespace
 
+const SphereSizeFit* MapResults::secondary_preferred() const {
+  const SphereSizeFit *a = &secondary_lognormal, *b = &secondary_lsw;
+  if (!a->determined) return b->determined ? b : nullptr;
+  if (!b->determined) return a;
+  return b->aic() < a->aic() ? b : a;
+}
+
 MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress,
                     RowStore* store) {
   MapResults r;

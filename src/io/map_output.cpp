@@ -215,7 +215,9 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
        "<tr><th>model</th><th>sections</th><th>mean diameter (µm), 95 % CI</th><th>number density (µm⁻³), 95 % "
        "CI</th><th>share of sections resolved</th></tr>";
   for (const SphereSizeFit* f : {&r.secondary_lognormal, &r.secondary_lsw}) {
-    h << "<tr><td>" << to_string(f->model) << "</td><td>" << f->sections << "</td>";
+    const bool preferred = f == r.secondary_preferred();
+    h << "<tr><td>" << to_string(f->model) << (preferred ? " (preferred: lower AIC)" : "") << "</td><td>" << f->sections
+      << "</td>";
     if (f->determined)
       h << "<td>" << fmt("%.4f", f->mean_diameter_um) << " (" << fmt("%.4f", f->mean_low_um) << " – "
         << fmt("%.4f", f->mean_high_um) << ")</td><td>" << fmt("%.1f", f->number_density_per_um3) << " ("
@@ -393,8 +395,10 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                   {"number_density_ci95_per_um3", {f->density_low_per_um3, f->density_high_per_um3}},
                   {"share_of_sections_resolved", f->seen_share},
                   {"log_likelihood", f->log_likelihood}});
+    if (f->determined) row["aic"] = f->aic();
     sizes3d[to_string(f->model)] = row;
   }
+  sizes3d["preferred"] = r.secondary_preferred() ? to_string(r.secondary_preferred()->model) : "";
   j["secondary_3d"] = sizes3d;
   j["particles"] = r.segmentation.particles.size();
   j["threshold"] = r.segmentation.threshold;
