@@ -18,6 +18,14 @@ struct SegmentSpec {
   int min_points = 1;           ///< smaller components are dropped (matrix); map sets it from the detection limit
   bool smooth = false;          ///< 3 × 3 (hexagonal: 7-point) mean of f before thresholding
   bool exclude_border = true;   ///< particles touching the map border stay out of size statistics
+  /// Touching particles split apart: markers are the maxima of the map smoothed by a Gaussian of
+  /// split_sigma_steps whose dynamic (height above the saddle to a higher maximum) reaches
+  /// split_depth_sd × the smoothed noise (σ_f / (2 √π σ) for independent per-point noise σ_f =
+  /// noise_sd), then the thresholded points are flooded from the markers. Off when noise_sd is 0.
+  bool split_touching = true;
+  double split_sigma_steps = 0.7;
+  double split_depth_sd = 2.5;
+  double noise_sd = 0;  ///< per-point noise of the map (map sets it from the detection limit)
 };
 
 struct Particle2D {

@@ -73,9 +73,12 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
   r.detection = map_detection_limit(config, r.fraction, options);
   SegmentSpec segment = options.segment;
   if (segment.min_points <= 0) segment.min_points = r.detection.min_points;
+  segment.noise_sd = r.detection.noise_sd;
   SizeClasses classes = options.classes;
   classes.detection_limit_um = r.detection.diameter_um;
-  r.segmentation = segment_particles(grid, r.fraction.fraction, r.orientations.grains.id, segment);
+  // The unclipped estimates: clipping at 0 and 1 flattens the noise the split relies on (the
+  // threshold picks the same points either way).
+  r.segmentation = segment_particles(grid, r.fraction.raw, r.orientations.grains.id, segment);
   r.classes = class_statistics(grid, r.segmentation, classes);
   r.e562 = astm_e562_ci(grid, r.fraction.raw, options.e562_tiles);
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);

@@ -12,6 +12,7 @@
 #include <set>
 
 #include "orderband/error.hpp"
+#include "orderband/particle_split.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
@@ -94,6 +95,46 @@ double free_boundary_circle_diameter(const ScanGrid& grid, const std::vector<siz
   return r <= (hi - lo).norm() ? 2 * r : 0.0;
 }
 
+/// The points of each particle before the size cut, in scan order of their first points: the
+/// connected parts of f ≥ threshold, split where the smoothed map shows two significant maxima
+/// (SegmentSpec::split_touching).
+std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std::vector<float>& f,
+                                                const Segmentation& seg, const SegmentSpec& spec, int conn) {
+  const size_t n = f.size();
+  std::vector<uint8_t> inside(n, 0);
+  for (size_t k = 0; k < n; ++k) inside[k] = seg.label[k] >= 0 && f[k] >= seg.threshold;
+  std::vector<int32_t> label(n, 0);
+  if (spec.split_touching && spec.noise_sd > 0) {
+    const double sigma = spec.split_sigma_steps;
+    // The spread of independent per-point noise after the Gaussian: σ_f / (2 √π σ).
+    const double depth = spec.split_depth_sd * spec.noise_sd / (2 * std::sqrt(kPi) * sigma);
+    // Two particles meet across matrix: their saddle dips toward the threshold, while noise on
+    // one particle's top leaves saddles near 1; split only below midway between the threshold and 1.
+    const double max_saddle = 0.5 * (seg.threshold + 1);
+    label = split_by_markers(grid, smooth_map(grid, f, sigma), inside, depth, max_saddle, conn);
+  } else {
+    int next = 0;
+    for (size_t start = 0; start < n; ++start) {
+      if (!inside[start] || label[start]) continue;
+      std::vector<size_t> queue{start};
+      label[start] = ++next;
+      for (size_t head = 0; head < queue.size(); ++head)
+        for (const GridPoint& nb : grid.neighbours(grid.point(queue[head]), conn))
+          if (const size_t j = grid.index(nb); inside[j] && !label[j]) label[j] = next, queue.push_back(j);
+    }
+  }
+  // Collected in scan order of each part's first point.
+  std::map<int32_t, size_t> order;
+  std::vector<std::vector<size_t>> parts;
+  for (size_t k = 0; k < n; ++k) {
+    if (label[k] <= 0) continue;
+    const auto [it, fresh] = order.try_emplace(label[k], parts.size());
+    if (fresh) parts.emplace_back();
+    parts[it->second].push_back(k);
+  }
+  return parts;
+}
+
 }  // namespace
 
 Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& fraction,
@@ -129,24 +170,16 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
   const double cell = grid.step_um * grid.row_spacing_um();  // area of one point's cell (µm²)
   std::map<int, int> grain_points;
   for (int32_t g : grain) grain_points[g]++;
+  const std::vector<std::vector<size_t>> parts = particle_parts(grid, f, seg, spec, conn);
   int next = 0;
   std::vector<int32_t> provisional(n, 0);
-  for (size_t start = 0; start < n; ++start) {
-    if (seg.label[start] < 0 || provisional[start] || f[start] < seg.threshold) continue;
-    std::vector<size_t> members{start};
-    provisional[start] = ++next;
-    for (size_t head = 0; head < members.size(); ++head)
-      for (const GridPoint& nb : grid.neighbours(grid.point(members[head]), conn)) {
-        const size_t j = grid.index(nb);
-        if (seg.label[j] < 0 || provisional[j] || f[j] < seg.threshold) continue;
-        provisional[j] = next;
-        members.push_back(j);
-      }
+  for (const std::vector<size_t>& members : parts) {
     if (static_cast<int>(members.size()) < spec.min_points) {
       for (size_t k : members) provisional[k] = -2;  // dropped: matrix
-      --next;
       continue;
     }
+    ++next;
+    for (size_t k : members) provisional[k] = next;
     Particle2D p;
     p.id = next;
     p.points = static_cast<int>(members.size());

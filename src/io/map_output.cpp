@@ -18,6 +18,7 @@
 #include "orderband/row_store.hpp"
 #include "orderband/svg_plot.hpp"
 #include "orderband/text_file.hpp"
+#include "orderband/truth_comparison.hpp"
 #include "orderband/units.hpp"
 #include "orderband/version.hpp"
 
@@ -229,6 +230,91 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
   h << "</table>\n";
 }
 
+/// For a synthetic scan (truth.json and truth_particles.csv beside its description): the truth,
+/// counted as map counts (sections in the field, off the border, at or above the detection limit,
+/// and all of them), for summary.json; null otherwise.
+nlohmann::json truth_beside(const ScanConfig& config, const MapResults& r) {
+  const std::string json_path = config.folder + "/truth.json", csv_path = config.folder + "/truth_particles.csv";
+  if (!fs::exists(json_path) || !fs::exists(csv_path)) return nullptr;
+  const nlohmann::json t = nlohmann::json::parse(read_text_file(json_path, "truth"));
+  const std::vector<TruthClassCount> counts =
+      count_truth_sections(read_truth_sections(csv_path), config.grid, r.detection.diameter_um);
+  nlohmann::json out = {{"file", json_path},
+                        {"ordered_area_fraction", t.value("ordered_area_fraction", 0.0)},
+                        {"subresolution_ordered_fraction", t.value("subresolution_ordered_fraction", 0.0)}};
+  nlohmann::json classes = nlohmann::json::object();
+  for (const TruthClassCount& c : counts)
+    classes[c.name] = {{"sections_all", c.count_all},
+                       {"area_fraction", t.contains("classes") && t["classes"].contains(c.name)
+                                             ? t["classes"][c.name].value("area_fraction", 0.0)
+                                             : c.area_fraction},
+                       {"sections_resolved", c.count_resolved},
+                       {"mean_ecd_all_um", c.mean_ecd_all_um},
+                       {"mean_ecd_resolved_um", c.mean_ecd_resolved_um},
+                       {"density_all_per_um2", c.density_all_per_um2},
+                       {"density_resolved_per_um2", c.density_resolved_per_um2}};
+  out["classes"] = classes;
+  const double d3 = t.contains("scenario") ? t["scenario"].value("secondary_mean_diameter_3d_um", 0.0) : 0.0;
+  out["secondary_mean_diameter_3d_um"] = d3;
+  // N_V from the true sections by N_A = N_V ⟨D⟩ (Wicksell's identity).
+  if (classes.contains("secondary") && d3 > 0)
+    out["secondary_number_density_per_um3"] = classes["secondary"]["density_all_per_um2"].get<double>() / d3;
+  return out;
+}
+
+/// The truth beside the measured values, as one table.
+void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapResults& r) {
+  if (truth.is_null()) return;
+  auto cls = [&](const char* name, const char* key) {
+    return truth["classes"].contains(name) ? truth["classes"][name].value(key, 0.0) : 0.0;
+  };
+  auto measured = [&](const char* name) -> const ClassStats* {
+    for (const ClassStats& c : r.classes)
+      if (c.name == name) return &c;
+    return nullptr;
+  };
+  const ClassStats* sec = measured("secondary");
+  const ClassStats* pri = measured("primary");
+  const SphereSizeFit* fit = r.secondary_preferred();
+  h << "<h2>Truth beside measurement (synthetic scan)</h2><table><tr><th>quantity</th><th>truth</th>"
+       "<th>measured</th></tr>";
+  auto row = [&](const std::string& q, const std::string& t, const std::string& m) {
+    h << "<tr><td>" << q << "</td><td>" << t << "</td><td>" << m << "</td></tr>";
+  };
+  row("ordered area fraction", fmt("%.4f", truth["ordered_area_fraction"].get<double>()),
+      fmt("%.4f", r.ordered_area_fraction()) + " (" + fmt("%.4f", r.e562.low) + " – " + fmt("%.4f", r.e562.high) + ")");
+  row("sub-resolution ordered fraction", fmt("%.4f", truth["subresolution_ordered_fraction"].get<double>()),
+      fmt("%.4f", r.fraction.subresolution_fraction) + " ± " + fmt("%.4f", r.fraction.subresolution_se));
+  if (pri)
+    row("primary: area fraction; sections off the border",
+        fmt("%.4f", cls("primary", "area_fraction")) + "; " + fmt("%.0f", cls("primary", "sections_all")),
+        fmt("%.4f", pri->area_fraction) + "; " + std::to_string(pri->count));
+  if (sec) {
+    row("secondary sections at or above the limit: count (per µm²)",
+        fmt("%.0f", cls("secondary", "sections_resolved")) + " (" +
+            fmt("%.2f", cls("secondary", "density_resolved_per_um2")) + ")",
+        std::to_string(sec->count) + " (" + fmt("%.2f", sec->number_density_per_um2) + ")");
+    row("secondary mean ECD of those sections (µm)", fmt("%.4f", cls("secondary", "mean_ecd_resolved_um")),
+        fmt("%.4f", sec->mean_ecd_um));
+    row("secondary sections, all: count; mean ECD (µm)",
+        fmt("%.0f", cls("secondary", "sections_all")) + "; " + fmt("%.4f", cls("secondary", "mean_ecd_all_um")),
+        fit ? "– ; " + fmt("%.4f", fit->mean_section_um) + " (" + fmt("%.4f", fit->mean_section_low_um) + " – " +
+                  fmt("%.4f", fit->mean_section_high_um) + ", 3-D fit)"
+            : std::string("not determined"));
+  }
+  row("secondary 3-D mean diameter (µm)", fmt("%.4f", truth["secondary_mean_diameter_3d_um"].get<double>()),
+      fit ? fmt("%.4f", fit->mean_diameter_um) + " (" + fmt("%.4f", fit->mean_low_um) + " – " +
+                fmt("%.4f", fit->mean_high_um) + ", " + to_string(fit->model) + ")"
+          : std::string("not determined"));
+  if (truth.contains("secondary_number_density_per_um3"))
+    row("secondary number density (µm⁻³; truth: all sections over the 3-D mean)",
+        fmt("%.1f", truth["secondary_number_density_per_um3"].get<double>()),
+        fit ? fmt("%.1f", fit->number_density_per_um3) + " (" + fmt("%.1f", fit->density_low_per_um3) + " – " +
+                  fmt("%.1f", fit->density_high_per_um3) + ")"
+            : std::string("not determined"));
+  h << "</table>\n";
+}
+
 }  // namespace
 
 void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
@@ -400,6 +486,8 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   }
   sizes3d["preferred"] = r.secondary_preferred() ? to_string(r.secondary_preferred()->model) : "";
   j["secondary_3d"] = sizes3d;
+  const nlohmann::json truth = truth_beside(config, r);
+  if (!truth.is_null()) j["truth"] = truth;
   j["particles"] = r.segmentation.particles.size();
   j["threshold"] = r.segmentation.threshold;
   if (!r.unfolding.sphere_count.empty())
@@ -555,6 +643,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   write_class_tables(h, r, config);
+  write_truth_table(h, truth, r);
   {
     // The largest grains: their matrix away from particles should agree (orientation bias check).
     std::vector<size_t> order;
