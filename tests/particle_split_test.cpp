@@ -46,8 +46,7 @@ TEST(ParticleSplit, MaximaDynamicsAgreeWithScikitImageHMaxima) {
   std::ofstream(dir + "/in.f32", std::ios::binary).write(reinterpret_cast<const char*>(f.data()), f.size() * 4);
   const std::vector<float> dynamic = maxima_dynamics(g, f, 8);
   for (double h : {0.05, 0.2, 0.5}) {
-    const auto r = test::run_reference_script("hmaxima_reference.py",
-                                              dir + "/in.f32 48 64 " + std::to_string(h));
+    const auto r = test::run_reference_script("hmaxima_reference.py", dir + "/in.f32 48 64 " + std::to_string(h));
     ASSERT_EQ(r.exit_code, 0) << r.err;
     std::istringstream in(r.out);
     size_t count = 0;

@@ -7,6 +7,7 @@
 #include <map>
 #include <memory>
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <sstream>
 
 #include "command.hpp"
@@ -75,6 +76,51 @@ TrialNumbers trial_numbers(const nlohmann::json& s, std::vector<double>& radius_
   n.primary_count = s["classes"]["primary"]["count"];
   n.secondary_count = s["classes"]["secondary"]["count"];
   return n;
+}
+
+/// The truth's numbers of a synthetic trial (its summary's `truth`), counted as the measurement
+/// is: exact values, so the truth's verdict against the same window is decided.
+std::optional<TrialNumbers> truth_numbers(const nlohmann::json& s) {
+  if (!s.contains("truth")) return std::nullopt;
+  const nlohmann::json& t = s["truth"];
+  auto cls = [&](const char* name, const char* key) {
+    return t["classes"].contains(name) ? t["classes"][name].value(key, 0.0) : 0.0;
+  };
+  TrialNumbers n;
+  const double f = t["ordered_area_fraction"], ecd = cls("secondary", "mean_ecd_all_um");
+  n.ordered_fraction = {f, f, f};
+  n.secondary_mean_ecd_um = {ecd, ecd, ecd};
+  n.secondary_size_from_fit = true;
+  n.primary_fraction = cls("primary", "area_fraction");
+  n.primary_count = 1000, n.secondary_count = 1000;  // the truth is exact: no class is too small to judge
+  return n;
+}
+
+/// The truth beside the measurement for synthetic trials: values, verdicts and ranks.
+void write_truth_table(std::ostream& h, const TrialsConfig& tc, const std::vector<TrialNumbers>& numbers,
+                       const std::vector<Ranked>& ranking, const std::vector<std::optional<TrialNumbers>>& truth,
+                       const std::vector<Ranked>& truth_ranking) {
+  if (truth_ranking.empty()) return;
+  auto place = [](const std::vector<Ranked>& r, size_t trial) {
+    for (size_t k = 0; k < r.size(); ++k)
+      if (r[k].trial == trial) return std::pair<size_t, Verdict>{k + 1, r[k].verdict};
+    return std::pair<size_t, Verdict>{0, Verdict::outside};
+  };
+  h << "<h2>Truth beside measurement (synthetic trials)</h2><table><tr><th>trial</th><th>ordered fraction, "
+       "truth / measured</th><th>secondary mean section ECD (µm), truth (all sections) / measured</th><th>primary "
+       "fraction, truth / measured</th><th>verdict, truth / measured</th><th>rank, truth / measured</th></tr>";
+  for (size_t i = 0; i < numbers.size(); ++i) {
+    if (!truth[i]) continue;
+    const auto [t_rank, t_verdict] = place(truth_ranking, i);
+    const auto [m_rank, m_verdict] = place(ranking, i);
+    h << "<tr><td>" << xml_escape(tc.trials[i].label) << "</td><td>" << fmt("%.3f", truth[i]->ordered_fraction.value)
+      << " / " << fmt("%.3f", numbers[i].ordered_fraction.value) << "</td><td>"
+      << fmt("%.3f", truth[i]->secondary_mean_ecd_um.value) << " / "
+      << fmt("%.3f", numbers[i].secondary_mean_ecd_um.value) << "</td><td>" << fmt("%.3f", truth[i]->primary_fraction)
+      << " / " << fmt("%.3f", numbers[i].primary_fraction) << "</td><td>" << to_string(t_verdict) << " / "
+      << to_string(m_verdict) << "</td><td>" << t_rank << " / " << m_rank << "</td></tr>";
+  }
+  h << "</table>\n";
 }
 
 }  // namespace
@@ -166,6 +212,15 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
         {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
   }
   const std::vector<Ranked> ranking = rank_trials(numbers, tc.target);
+  // Synthetic trials: the truth ranked against the same window (only when every trial has a truth).
+  std::vector<std::optional<TrialNumbers>> truth;
+  for (const auto& s : summaries) truth.push_back(truth_numbers(s));
+  std::vector<Ranked> truth_ranking;
+  if (std::all_of(truth.begin(), truth.end(), [](const auto& t) { return t.has_value(); })) {
+    std::vector<TrialNumbers> exact;
+    for (const auto& t : truth) exact.push_back(*t);
+    truth_ranking = rank_trials(exact, tc.target);
+  }
 
   // Comparison table.
   std::ostringstream csv;
@@ -210,6 +265,14 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
                        {"from_3d_fit", numbers[i].secondary_size_from_fit}}},
                      {"secondary_3d", s["secondary_3d"]},
                      {"report", tc.trials[i].label + "/report.html"}});
+    if (truth[i]) {
+      nlohmann::json tj = {{"ordered_area_fraction", truth[i]->ordered_fraction.value},
+                           {"secondary_mean_section_ecd_um", truth[i]->secondary_mean_ecd_um.value},
+                           {"primary_area_fraction", truth[i]->primary_fraction}};
+      for (size_t k = 0; k < truth_ranking.size(); ++k)
+        if (truth_ranking[k].trial == i) tj["rank"] = k + 1, tj["verdict"] = to_string(truth_ranking[k].verdict);
+      table.back()["truth"] = tj;
+    }
   }
   write_text_atomically(out + "/comparison.csv", csv.str());
   nlohmann::json j = {{"tool", "orderband"},    {"version", kVersion},   {"command_line", command_line()},
@@ -329,7 +392,9 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   }
   h << "</table><p class=\"caution\">Undecided: a quantity's 95 % interval crosses an edge of the window; undecided "
        "trials rank below the trials decided inside and above those decided outside. Classes with fewer than 10 "
-       "counted particles are flagged.</p>\n<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th>"
+       "counted particles are flagged.</p>\n";
+  write_truth_table(h, tc, numbers, ranking, truth, truth_ranking);
+  h << "<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th>"
        "<th>k (µmⁿ/h)</th><th>k 95 % CI</th><th>radius</th></tr>";
   for (const auto& [temp, f] : fits)
     h << "<tr><td>" << fmt("%g", temp) << "</td><td>" << fmt("%.3g", f.exponent)

@@ -80,8 +80,8 @@ std::vector<float> maxima_dynamics(const ScanGrid& grid, const std::vector<float
       continue;
     }
     // The part with the highest peak survives; every other part's maximum dies here.
-    const size_t keep = *std::max_element(roots.begin(), roots.end(),
-                                          [&](size_t a, size_t b) { return g[peak[a]] < g[peak[b]]; });
+    const size_t keep =
+        *std::max_element(roots.begin(), roots.end(), [&](size_t a, size_t b) { return g[peak[a]] < g[peak[b]]; });
     for (size_t r : roots)
       if (r != keep) dynamic[peak[r]] = g[peak[r]] - g[k], parent[r] = keep;
     parent[k] = keep;
