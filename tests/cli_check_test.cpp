@@ -60,3 +60,28 @@ TEST(CliCheck, ShortFileIsOneClearError) {
 
 }  // namespace
 }  // namespace orderband
+
+namespace orderband {
+
+TEST(CliUsage, BadOptionValuesAreOneLineInTheDocumentedFormWithExitTwo) {
+  // NaN, out-of-range and runaway values of options once ran (NaN thresholds, negative grain
+  // sizes) or printed the parser's own lines (a 309-digit range for --threads -1).
+  const std::vector<std::pair<std::string, std::string>> cases{
+      {"map s.toml --threshold nan", "map"},      {"map s.toml --threshold -1", "map"},
+      {"map s.toml --threshold 2", "map"},        {"map s.toml --grain-threshold nan", "map"},
+      {"map s.toml --grain-threshold 0", "map"},  {"map s.toml --min-particle -5", "map"},
+      {"map s.toml --threads 100000", "map"},     {"map s.toml --threads -1", "map"},
+      {"map s.toml --class-bounds nan 1", "map"}, {"orient s.toml --grain-threshold -5", "orient"},
+      {"orient s.toml --min-grain -3", "orient"}, {"check s.toml --sample -3", "check"},
+      {"families --threshold nan", "families"},   {"families --kv 0", "families"},
+      {"map s.toml --no-such-option", "map"}};
+  for (const auto& [args, command] : cases) {
+    const auto r = test::run_orderband(args);
+    EXPECT_EQ(r.exit_code, 2) << args;
+    EXPECT_EQ(r.err.rfind("orderband " + command + ": error: ", 0), 0u) << args << ": " << r.err;
+    EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << args << ": " << r.err;
+    EXPECT_LT(r.err.size(), 200u) << args;
+  }
+}
+
+}  // namespace orderband

@@ -8,6 +8,10 @@
 
 #include "orderband/error.hpp"
 #include "orderband/trials.hpp"
+#include "test_support.hpp"
+
+#include <filesystem>
+#include <fstream>
 
 namespace orderband {
 namespace {
@@ -122,6 +126,45 @@ TEST(Ranking, AnIntervalAcrossAWindowEdgeIsUndecidedAndNeverAboveADecidedTrial) 
   EXPECT_NE(r[2].flags[0].find("primary: 1 counted particle, too few"), std::string::npos) << r[2].flags[0];
   EXPECT_EQ(r[3].trial, 2u);
   EXPECT_EQ(r[3].verdict, Verdict::outside);
+}
+
+}  // namespace
+}  // namespace orderband
+
+namespace orderband {
+namespace {
+
+TEST(TrialsConfig, LabelsNameSafeFoldersAndNumbersStayInRange) {
+  // A label ".." once wrote into the parent of the screen folder; "." mixed a trial into it.
+  const std::string dir = test::make_temp_dir("trials");
+  std::ofstream(dir + "/s.toml") << "";
+  auto error_of = [&](const std::string& trial, const std::string& target = "") {
+    std::ofstream(dir + "/t.toml") << "[screen]\ntitle = \"t\"\n" << target << "[[trial]]\n" << trial;
+    try {
+      read_trials_config(dir + "/t.toml");
+    } catch (const Error& e) {
+      return std::string(e.what());
+    }
+    return std::string("no error");
+  };
+  const std::string rest = "scenario = \"s.toml\"\ntemperature_c = 760\ntime_h = 4\n";
+  for (const char* label : {"..", ".", "a/b", "a\\\\b", "", ".hidden", "a b"})
+    EXPECT_NE(error_of(std::string("label = \"") + label + "\"\n" + rest).find("must be 1 to 64 letters"),
+              std::string::npos)
+        << label;
+  EXPECT_EQ(error_of("label = \"age-760C_4h.v2\"\n" + rest), "no error");
+  EXPECT_NE(error_of("label = \"a\"\nscenario = \"s.toml\"\ntemperature_c = -300\ntime_h = 4\n")
+                .find("temperature_c must be a finite temperature"),
+            std::string::npos);
+  EXPECT_NE(error_of("label = \"a\"\nscenario = \"s.toml\"\ntemperature_c = 760\ntime_h = nan\n")
+                .find("time_h must be a finite time"),
+            std::string::npos);
+  EXPECT_NE(error_of("label = \"a\"\n" + rest, "[target]\nmax_primary_fraction = -1\n")
+                .find("max_primary_fraction must be within [0, 1]"),
+            std::string::npos);
+  EXPECT_NE(error_of("label = \"a\"\n" + rest, "[target]\nordered_fraction = [nan, 0.5]\n").find("finite 0 <= low"),
+            std::string::npos);
+  std::filesystem::remove_all(dir);
 }
 
 }  // namespace

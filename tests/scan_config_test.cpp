@@ -139,19 +139,54 @@ TEST(ScanConfig, OneClearLinePerProblem) {
     return t;
   };
   EXPECT_NE(error_of(with("rows = 3", "rows = 0")).find("rows and cols must be positive"), std::string::npos);
-  EXPECT_NE(error_of(with("step_um = 0.05", "step_um = -1")).find("step_um must be a positive step in µm"),
-            std::string::npos);
+  EXPECT_NE(
+      error_of(with("step_um = 0.05", "step_um = -1")).find("step_um must be a finite number within [0.0001, 1000] µm"),
+      std::string::npos);
   EXPECT_NE(error_of(with("format = \"raw\"", "format = \"zip\"")).find("format = \"zip\" is not"), std::string::npos);
   EXPECT_NE(error_of(with("width_px = 20\n", "")).find("a raw stack needs width_px and height_px"), std::string::npos);
   EXPECT_NE(error_of(with("pc_px = [10.0, 5.5]", "pc_px = 10")).find("pc_px must be [x, y]"), std::string::npos);
   EXPECT_NE(error_of(with("rows = 3", "rows = 3\nstep = 2")).find("unknown key 'step' in [scan]"), std::string::npos);
   EXPECT_NE(error_of(kMinimal + "[scna]\n").find("unknown table [scna]"), std::string::npos);
-  EXPECT_NE(error_of(kMinimal + "[microscope]\nkv = 0\n").find("kv must be a positive voltage"), std::string::npos);
+  EXPECT_NE(error_of(kMinimal + "[microscope]\nkv = 0\n").find("kv must be a finite number within [1, 1000] kV"),
+            std::string::npos);
   EXPECT_NE(error_of(kMinimal + "[phases]\nordered = \"x.cif\"\n").find("go together"), std::string::npos);
   EXPECT_NE(error_of(with("rows = 3", "rows = \"three\"")).find("rows must be an integer"), std::string::npos);
   EXPECT_NE(error_of("[scan\n").find("/tmp/scans/s.toml:1"), std::string::npos);
   EXPECT_NE(error_of(kMinimal + "[orientations]\nsource = \"file\"\n").find("needs 'file'"), std::string::npos);
   EXPECT_THROW(read_scan_config("/no/such/scan.toml"), Error);
+}
+
+TEST(ScanConfig, EveryNumberIsFiniteAndInsideItsNamedRange) {
+  // Values that once crashed, hung or ran away with memory (1e200 µm steps, 1e9 px backgrounds) or
+  // were taken silently (NaN): each is one clear error naming its key.
+  const std::vector<std::pair<std::string, std::string>> replace{{"step_um = 1e200", "step_um"},
+                                                                 {"step_um = 1e-200", "step_um"},
+                                                                 {"step_um = nan", "step_um"},
+                                                                 {"distance_px = nan", "distance_px"},
+                                                                 {"distance_px = inf", "distance_px"}};
+  for (const auto& [to, key] : replace) {
+    std::string t = kMinimal;
+    const std::string from = key == "step_um" ? "step_um = 0.05" : "distance_px = 18.0";
+    t.replace(t.find(from), from.size(), to);
+    const std::string e = error_of(t);
+    EXPECT_NE(e.find(key + " must be a finite number within"), std::string::npos) << to << ": " << e;
+  }
+  for (const auto& [extra, key] : std::vector<std::pair<std::string, std::string>>{
+           {"static_background_sigma_px = 1e9", "static_background_sigma_px"},
+           {"static_background_sigma_px = nan", "static_background_sigma_px"},
+           {"dynamic_background_sigma_px = 1e9", "dynamic_background_sigma_px"},
+           {"dynamic_background_sigma_px = nan", "dynamic_background_sigma_px"},
+           {"mask_radius_px = nan", "mask_radius_px"},
+           {"neighbour_sigma_steps = nan", "neighbour_sigma_steps"},
+           {"neighbour_sigma_steps = 1e9", "neighbour_sigma_steps"},
+           {"hot_pixel_threshold = nan", "hot_pixel_threshold"}}) {
+    const std::string e = error_of(kMinimal + "[preprocess]\n" + extra + "\n");
+    EXPECT_NE(e.find(key + " must be a finite number within"), std::string::npos) << extra << ": " << e;
+  }
+  EXPECT_NE(error_of(kMinimal + "[microscope]\nkv = nan\n").find("kv must be a finite number"), std::string::npos);
+  // The defaults and the documented "−1: default" still read.
+  EXPECT_EQ(error_of(kMinimal + "[preprocess]\nstatic_background_sigma_px = -1\ndynamic_background_sigma_px = 0\n"),
+            "no error");
 }
 
 }  // namespace

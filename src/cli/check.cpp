@@ -18,8 +18,12 @@ std::function<int()> setup_check(CLI::App& sub) {
   };
   auto o = std::make_shared<Options>();
   sub.add_option("scan", o->scan, "scan description (TOML)")->required();
-  sub.add_option("--sample", o->sample, "patterns preprocessed (and timed) to check the data")->capture_default_str();
-  sub.add_option("--d-min", o->d_min, "smallest d-spacing of the families listed (Å)")->capture_default_str();
+  sub.add_option("--sample", o->sample, "patterns preprocessed (and timed) to check the data, at least 1")
+      ->check(finite_within(1, 1e9, false, false))
+      ->capture_default_str();
+  sub.add_option("--d-min", o->d_min, "smallest d-spacing of the families listed (Å), in [0.3, 100]")
+      ->check(finite_within(0.3, 100, false, false))
+      ->capture_default_str();
   return [o]() {
     const ScanCheck c = check_scan(read_scan_config(o->scan), o->sample, o->d_min);
     const ScanConfig& s = c.config;

@@ -35,6 +35,9 @@ void add_format_option(CLI::App& sub, TableFormat& format);
 
 /// `--threads N` (0: all cores), shared by the commands that compute.
 void add_threads_option(CLI::App& sub, int& threads);
+/// A validator for a finite number inside [lo, hi] (open ends as asked): NaN, infinities and text
+/// are rejected with one line that names the range.
+CLI::Validator finite_within(double lo, double hi, bool open_low, bool open_high);
 /// Sets the OpenMP thread count (0 leaves the default: all cores).
 void apply_threads(int threads);
 

@@ -1,7 +1,10 @@
 // Helpers shared by the commands: provenance and shared options.
 #include <omp.h>
 
+#include <cmath>
+#include <cstdio>
 #include <map>
+#include <string>
 
 #include "command.hpp"
 
@@ -28,9 +31,34 @@ void add_format_option(CLI::App& sub, TableFormat& format) {
       ->default_str("text");
 }
 
+CLI::Validator finite_within(double lo, double hi, bool open_low, bool open_high) {
+  auto number = [](double v) {
+    char b[32];
+    std::snprintf(b, sizeof b, "%g", v);
+    return std::string(b);
+  };
+  const std::string range =
+      std::string(open_low ? "(" : "[") + number(lo) + ", " + number(hi) + (open_high ? ")" : "]");
+  return CLI::Validator(
+      [=](std::string& text) -> std::string {
+        double v = 0;
+        try {
+          size_t used = 0;
+          v = std::stod(text, &used);
+          if (used != text.size()) return "'" + text.substr(0, 40) + "' is not a number";
+        } catch (const std::exception&) {
+          return "'" + text.substr(0, 40) + "' is not a number";
+        }
+        const bool ok = std::isfinite(v) && (open_low ? v > lo : v >= lo) && (open_high ? v < hi : v <= hi);
+        return ok ? std::string() : "'" + text.substr(0, 40) + "' is outside " + range;
+      },
+      "NUMBER in " + range);
+}
+
 void add_threads_option(CLI::App& sub, int& threads) {
-  sub.add_option("--threads", threads, "worker threads (0: all cores)")
-      ->check(CLI::NonNegativeNumber)
+  // At most 1,024 threads: more would only cost memory (each holds its pattern buffers).
+  sub.add_option("--threads", threads, "worker threads (0: all cores; at most 1024)")
+      ->check(finite_within(0, 1024, false, false))
       ->default_str("0");
 }
 

@@ -25,9 +25,15 @@ std::function<int()> setup_families(CLI::App& sub) {
   sub.add_option("--pair", o->pair_name, "named pair from crystal-data/pairs.toml (ni, co, feal); default ni");
   sub.add_option("--ordered", o->ordered, "CIF of the ordered phase of a pair (with --disordered)");
   sub.add_option("--disordered", o->disordered, "CIF of the disordered phase of a pair (with --ordered)");
-  sub.add_option("--kv", o->kv, "accelerating voltage (kV)")->capture_default_str();
-  sub.add_option("--d-min", o->d_min, "smallest d-spacing listed (Å)")->capture_default_str();
-  sub.add_option("--threshold", o->threshold, "sensitivity at or above which a family counts as superlattice")
+  sub.add_option("--kv", o->kv, "accelerating voltage (kV), in [1, 1000]")
+      ->check(finite_within(1, 1000, false, false))
+      ->capture_default_str();
+  sub.add_option("--d-min", o->d_min, "smallest d-spacing listed (Å), in [0.3, 100]")
+      ->check(finite_within(0.3, 100, false, false))
+      ->capture_default_str();
+  sub.add_option("--threshold", o->threshold,
+                 "sensitivity at or above which a family counts as superlattice, in [-1, 1]")
+      ->check(finite_within(-1, 1, false, false))
       ->capture_default_str();
   add_format_option(sub, o->format);
   sub.footer(

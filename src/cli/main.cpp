@@ -42,7 +42,13 @@ int main(int argc, char** argv) {
   } catch (const CLI::Success& e) {
     return app.exit(e);
   } catch (const CLI::ParseError& e) {
-    app.exit(e);
+    // One line in the documented form, naming the command the user asked for.
+    std::string command;
+    for (auto& [sub, run] : runners)
+      if (sub->parsed()) command = " " + sub->get_name();
+    std::string what = e.what();
+    if (what.size() > 300) what = what.substr(0, 300) + "…";
+    std::fprintf(stderr, "orderband%s: error: %s (see --help)\n", command.c_str(), what.c_str());
     return 2;
   }
   for (auto& [sub, run] : runners) {

@@ -11,7 +11,9 @@
 namespace orderband::cli {
 
 void add_map_options(CLI::App& sub, MapRunOptions& o) {
-  sub.add_option("--threshold", o.threshold, "fraction threshold for particles")->capture_default_str();
+  sub.add_option("--threshold", o.threshold, "fraction threshold for particles, in (0, 1)")
+      ->check(finite_within(0, 1, true, true))
+      ->capture_default_str();
   sub.add_flag("--otsu", o.otsu, "threshold particles by Otsu's method instead");
   sub.add_option("--connectivity", o.connectivity, "square grids: 4 or 8 (hexagonal grids use 6)")
       ->check(CLI::IsMember({4, 8}))
@@ -19,12 +21,14 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
   sub.add_option(
          "--min-particle", o.min_particle,
          "smallest particle in points; 0: from the detection limit (the size the map's noise alone rarely makes)")
-      ->check(CLI::NonNegativeNumber)
+      ->check(finite_within(0, 1e9, false, false))
       ->capture_default_str();
   sub.add_option("--class-bounds", o.class_bounds,
                  "lower ECD bounds of the secondary and primary classes (µm), e.g. 0.1 1.0")
+      ->check(finite_within(0, 1000, true, false))
       ->expected(2);
-  sub.add_option("--grain-threshold", o.grain_threshold, "misorientation that separates grains (deg)")
+  sub.add_option("--grain-threshold", o.grain_threshold, "misorientation that separates grains (°), in (0, 180]")
+      ->check(finite_within(0, 180, true, false))
       ->capture_default_str();
   sub.add_option("--end-members", o.end_members,
                  "model, or mixture (rescale to the scan's two modes); reference regions come from the scan's "

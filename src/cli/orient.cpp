@@ -20,9 +20,12 @@ std::function<int()> setup_orient(CLI::App& sub) {
   auto o = std::make_shared<Options>();
   sub.add_option("scan", o->scan, "scan description (TOML)")->required();
   sub.add_option("-o,--output", o->out, "output folder (default: the scan's [output] folder)");
-  sub.add_option("--grain-threshold", o->grain_threshold, "misorientation that separates grains (deg)")
+  sub.add_option("--grain-threshold", o->grain_threshold, "misorientation that separates grains (°), in (0, 180]")
+      ->check(finite_within(0, 180, true, false))
       ->capture_default_str();
-  sub.add_option("--min-grain", o->min_grain, "smallest grain (points); smaller ones merge into a neighbour")
+  sub.add_option("--min-grain", o->min_grain,
+                 "smallest grain (points, at least 1); smaller ones merge into a neighbour")
+      ->check(finite_within(1, 1e9, false, false))
       ->capture_default_str();
   add_threads_option(sub, o->threads);
   sub.add_flag("--quiet", o->quiet, "no progress on stderr");

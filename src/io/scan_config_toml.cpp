@@ -27,6 +27,19 @@ DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int he
   return g;
 }
 
+namespace {
+
+/// A number read from the description: finite and inside [lo, hi] (the named limits, listed in
+/// README), or one clear error naming the table, the key, the value and the range.
+double within(const std::string& path, const char* table, const char* key, double v, double lo, double hi,
+              const char* unit) {
+  if (!std::isfinite(v) || v < lo || v > hi)
+    fail(path, ": [", table, "] ", key, " must be a finite number within [", lo, ", ", hi, "] ", unit, ", got ", v);
+  return v;
+}
+
+}  // namespace
+
 ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
@@ -57,7 +70,7 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   c.grid.rows = static_cast<int>(rows);
   c.grid.cols = static_cast<int>(cols);
   c.grid.step_um = r.require<double>(scan, "scan", "step_um");
-  if (!(c.grid.step_um > 0)) fail(path, ": [scan] step_um must be a positive step in µm, got ", c.grid.step_um);
+  within(path, "scan", "step_um", c.grid.step_um, 1e-4, 1000, "µm");
   c.beam.sigma_nm = r.get<double>(scan, "scan", "beam_sigma_nm").value_or(c.beam.sigma_nm);
   if (!(c.beam.sigma_nm >= 0 && c.beam.sigma_nm <= 1e4))
     fail(path, ": [scan] beam_sigma_nm must be within [0, 10000] nm, got ", c.beam.sigma_nm);
@@ -109,10 +122,15 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::array* pc = geo->get("pc_px") ? geo->get("pc_px")->as_array() : nullptr;
   if (!pc || pc->size() != 2 || !(*pc)[0].value<double>() || !(*pc)[1].value<double>())
     fail(path, ": [geometry] pc_px must be [x, y] in pixels from the top-left corner (x right, y down)");
-  c.geometry.pc_px = {*(*pc)[0].value<double>(), *(*pc)[1].value<double>()};
-  c.geometry.distance_px = r.require<double>(geo, "geometry", "distance_px");
-  c.geometry.sample_tilt_deg = r.get<double>(geo, "geometry", "sample_tilt_deg").value_or(70.0);
-  c.geometry.detector_tilt_deg = r.get<double>(geo, "geometry", "detector_tilt_deg").value_or(0.0);
+  c.geometry.pc_px = {within(path, "geometry", "pc_px[0]", *(*pc)[0].value<double>(), -1e5, 1e5, "px"),
+                      within(path, "geometry", "pc_px[1]", *(*pc)[1].value<double>(), -1e5, 1e5, "px")};
+  c.geometry.distance_px =
+      within(path, "geometry", "distance_px", r.require<double>(geo, "geometry", "distance_px"), 1e-3, 1e6, "px");
+  c.geometry.sample_tilt_deg = within(path, "geometry", "sample_tilt_deg",
+                                      r.get<double>(geo, "geometry", "sample_tilt_deg").value_or(70.0), 0, 89, "°");
+  c.geometry.detector_tilt_deg =
+      within(path, "geometry", "detector_tilt_deg", r.get<double>(geo, "geometry", "detector_tilt_deg").value_or(0.0),
+             -90, 90, "°");
   c.geometry.binning = static_cast<int>(r.get<int64_t>(geo, "geometry", "binning").value_or(1));
   if (auto px = r.get<double>(geo, "geometry", "screen_pixel_um")) c.geometry.screen_pixel_um = *px;
   c.geometry.width_px = c.patterns.width_px;
@@ -122,7 +140,7 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const toml::table* mic = r.table("microscope", false);
   r.check_keys(mic, "microscope", {"kv"});
   c.kv = r.get<double>(mic, "microscope", "kv").value_or(20.0);
-  if (!(c.kv > 0)) fail(path, ": [microscope] kv must be a positive voltage in kV, got ", c.kv);
+  within(path, "microscope", "kv", c.kv, 1, 1000, "kV");
 
   // [phases]
   const toml::table* ph = r.table("phases", false);
@@ -173,8 +191,13 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
       fail(path, ": [preprocess] static_background '", sb,
            "' is not \"scan_mean\", \"none\" or an existing image file");
   }
-  p.static_background_sigma_px = r.get<double>(pre, "preprocess", "static_background_sigma_px").value_or(-1.0);
-  p.dynamic_background_sigma_px = r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0);
+  // Negative: the default (0.1 × pattern width); 0: off; else at most 1,000 px.
+  p.static_background_sigma_px =
+      within(path, "preprocess", "static_background_sigma_px",
+             r.get<double>(pre, "preprocess", "static_background_sigma_px").value_or(-1.0), -1, 1000, "px");
+  p.dynamic_background_sigma_px =
+      within(path, "preprocess", "dynamic_background_sigma_px",
+             r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0), -1, 1000, "px");
   const std::string mask = r.get<std::string>(pre, "preprocess", "mask").value_or("circle");
   if (mask == "circle")
     p.mask = MaskKind::circle;
@@ -187,12 +210,12 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
       fail(path, ": [preprocess] mask '", mask, "' is not \"circle\", \"none\" or an existing image file");
   }
   p.mask_radius_px = r.get<double>(pre, "preprocess", "mask_radius_px").value_or(0.0);
-  if (p.mask_radius_px < 0) fail(path, ": [preprocess] mask_radius_px must be >= 0");
+  within(path, "preprocess", "mask_radius_px", p.mask_radius_px, 0, 1e5, "px");
   p.hot_pixel_filter = r.get<bool>(pre, "preprocess", "hot_pixel_filter").value_or(false);
   p.hot_pixel_threshold = r.get<double>(pre, "preprocess", "hot_pixel_threshold").value_or(8.0);
-  if (!(p.hot_pixel_threshold > 0)) fail(path, ": [preprocess] hot_pixel_threshold must be positive");
+  within(path, "preprocess", "hot_pixel_threshold", p.hot_pixel_threshold, 1e-3, 1e6, "MADs");
   p.neighbour_sigma_steps = r.get<double>(pre, "preprocess", "neighbour_sigma_steps").value_or(0.0);
-  if (p.neighbour_sigma_steps < 0) fail(path, ": [preprocess] neighbour_sigma_steps must be >= 0");
+  within(path, "preprocess", "neighbour_sigma_steps", p.neighbour_sigma_steps, 0, 100, "steps");
 
   // [output]
   // [fraction]

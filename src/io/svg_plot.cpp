@@ -125,8 +125,11 @@ std::string SvgPlot::render() const {
   s << "<rect width=\"100%\" height=\"100%\" fill=\"white\"/>\n";
   s << "<text x=\"" << width_ / 2 << "\" y=\"18\" text-anchor=\"middle\" font-size=\"13\">" << xml_escape(title_)
     << "</text>\n";
-  s << "<defs><clipPath id=\"plot\"><rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
-    << "\"/></clipPath></defs>\n";
+  // One page may hold many charts: the clip path's id names the chart's size, so charts of another
+  // size never borrow its box (charts of one size share an identical one).
+  const std::string clip = "plot-" + std::to_string(width_) + "x" + std::to_string(height_);
+  s << "<defs><clipPath id=\"" << clip << "\"><rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw
+    << "\" height=\"" << ph << "\"/></clipPath></defs>\n";
   // Axes and ticks.
   s << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
     << "\" fill=\"none\" stroke=\"#444\"/>\n";
@@ -146,7 +149,7 @@ std::string SvgPlot::render() const {
   s << "<text x=\"" << L + pw / 2 << "\" y=\"" << height_ - 12 << "\" text-anchor=\"middle\">" << xml_escape(x_label_)
     << "</text>\n";
   s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">"
-    << xml_escape(y_label_) << "</text>\n<g clip-path=\"url(#plot)\">\n";
+    << xml_escape(y_label_) << "</text>\n<g clip-path=\"url(#" << clip << ")\">\n";
   for (const Item& it : items_) {
     if (it.svg_kind == "vband") {
       s << "<rect x=\"" << X(it.x[0]) << "\" y=\"" << T << "\" width=\"" << X(it.x[1]) - X(it.x[0]) << "\" height=\""

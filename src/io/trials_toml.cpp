@@ -1,5 +1,6 @@
 // Trials description reading and ranking.
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -46,12 +47,16 @@ TrialsConfig read_trials_config(const std::string& path) {
     if (!a || a->size() != 2 || !(*a)[0].value<double>() || !(*a)[1].value<double>())
       fail(path, ": [target] ", key, " must be [low, high]");
     const double lo = *(*a)[0].value<double>(), hi = *(*a)[1].value<double>();
-    if (!(hi > lo)) fail(path, ": [target] ", key, " needs low < high, got [", lo, ", ", hi, "]");
+    if (!(hi > lo) || !std::isfinite(lo) || !std::isfinite(hi) || lo < 0)
+      fail(path, ": [target] ", key, " needs finite 0 <= low < high, got [", lo, ", ", hi, "]");
     return std::pair{lo, hi};
   };
   c.target.ordered_fraction = range("ordered_fraction");
   c.target.secondary_mean_ecd_um = range("secondary_mean_ecd_um");
-  if (auto v = r.get<double>(t, "target", "max_primary_fraction")) c.target.max_primary_fraction = *v;
+  if (auto v = r.get<double>(t, "target", "max_primary_fraction")) {
+    if (!(*v >= 0 && *v <= 1)) fail(path, ": [target] max_primary_fraction must be within [0, 1], got ", *v);
+    c.target.max_primary_fraction = *v;
+  }
 
   const toml::array* trials = root.get("trial") ? root.get("trial")->as_array() : nullptr;
   if (!trials || trials->empty()) fail(path, ": no [[trial]] entries");
@@ -62,8 +67,18 @@ TrialsConfig read_trials_config(const std::string& path) {
     r.check_keys(e, name, {"label", "scan", "scenario", "temperature_c", "time_h", "notes"});
     Trial tr;
     tr.label = r.require<std::string>(e, name, "label");
-    if (tr.label.empty() || tr.label.find_first_of("/\\") != std::string::npos)
-      fail(path, ": [", name, "] label must be a non-empty name without slashes (it names the trial's folder)");
+    // The label names the trial's folder inside the screen folder: letters, digits, '-', '_', '.',
+    // '+', not starting with '.' (no "." or "..", which would write beside or into the screen
+    // folder itself), at most 64 characters.
+    const bool safe =
+        !tr.label.empty() && tr.label.size() <= 64 && tr.label[0] != '.' &&
+        std::all_of(tr.label.begin(), tr.label.end(), [](char ch) {
+          return std::isalnum(static_cast<unsigned char>(ch)) || ch == '-' || ch == '_' || ch == '.' || ch == '+';
+        });
+    if (!safe)
+      fail(path, ": [", name, "] label '", tr.label.substr(0, 64),
+           "' must be 1 to 64 letters, digits, '-', '_', '.' or '+', not starting with '.' (it names the trial's "
+           "folder)");
     if (auto v = r.get<std::string>(e, name, "scan")) tr.scan = r.resolve(*v);
     if (auto v = r.get<std::string>(e, name, "scenario")) tr.scenario = r.resolve(*v);
     if (tr.scan.empty() == tr.scenario.empty())
@@ -71,8 +86,12 @@ TrialsConfig read_trials_config(const std::string& path) {
     for (const std::string& f : {tr.scan, tr.scenario})
       if (!f.empty() && !fs::exists(f)) fail(path, ": [", name, "] file '", f, "' does not exist");
     tr.temperature_c = r.require<double>(e, name, "temperature_c");
+    if (!(tr.temperature_c >= -273.15 && tr.temperature_c <= 5000))
+      fail(path, ": [", name, "] temperature_c must be a finite temperature within [-273.15, 5000] °C, got ",
+           tr.temperature_c);
     tr.time_h = r.require<double>(e, name, "time_h");
-    if (!(tr.time_h >= 0)) fail(path, ": [", name, "] time_h must be >= 0, got ", tr.time_h);
+    if (!(tr.time_h >= 0 && tr.time_h <= 1e7))
+      fail(path, ": [", name, "] time_h must be a finite time within [0, 1e7] h, got ", tr.time_h);
     tr.notes = r.get<std::string>(e, name, "notes").value_or("");
     for (const Trial& o : c.trials)
       if (o.label == tr.label) fail(path, ": two trials are labelled '", tr.label, "'");
