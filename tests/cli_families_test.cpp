@@ -77,8 +77,8 @@ TEST(CliFamilies, ErrorsAreOneLineWithNonZeroExit) {
     }
     EXPECT_TRUE(r.out.empty());
   };
-  expect_error("families --kv 0", "error: --kv must be a positive voltage", 1);
-  expect_error("families --kv -3", "error: --kv must be a positive voltage", 1);
+  expect_error("families --kv 0", "orderband families: error: --kv: '0' is outside [1, 1000]", 2);
+  expect_error("families --kv -3", "orderband families: error: --kv: '-3' is outside [1, 1000]", 2);
   expect_error("families /no/such.cif", "cannot read CIF file '/no/such.cif'", 1);
   expect_error("families --pair brass", "unknown phase pair 'brass'", 1);
   expect_error("families --ordered x.cif", "--ordered and --disordered go together", 1);

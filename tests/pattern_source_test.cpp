@@ -183,3 +183,49 @@ TEST(PatternSource, HexagonalGridNeighboursByHand) {
 
 }  // namespace
 }  // namespace orderband
+
+namespace orderband {
+
+TEST(PatternSourceExact, ARawFileLongerThanTheGridNeedsIsAnErrorUnlessATrailerIsDeclared) {
+  // A wrong width_px, fewer rows than the file holds or an undeclared 256-byte header all left
+  // bytes over and were read without a word.
+  const std::string dir = test::make_temp_dir("exact");
+  ScanGrid grid;
+  grid.rows = 2, grid.cols = 3, grid.step_um = 0.1;
+  PatternSourceSpec spec;
+  spec.format = PatternFormat::raw, spec.sample_type = SampleType::uint8, spec.width_px = 4, spec.height_px = 5;
+  spec.path = dir + "/p.raw";
+  const size_t data = 6 * 4 * 5;
+  std::ofstream(spec.path, std::ios::binary) << std::string(data + 256, '\x07');
+  try {
+    open_pattern_source(spec, grid);
+    ADD_FAILURE() << "a longer file was accepted";
+  } catch (const Error& e) {
+    EXPECT_NE(std::string(e.what()).find("is 376 bytes, longer than header 0 + 2 rows x 3 cols"), std::string::npos)
+        << e.what();
+  }
+  spec.trailer_bytes = 256;
+  EXPECT_NO_THROW(open_pattern_source(spec, grid));
+  spec.trailer_bytes = 0, spec.header_bytes = 256;
+  EXPECT_NO_THROW(open_pattern_source(spec, grid));
+  spec.header_bytes = 300;
+  EXPECT_THROW(open_pattern_source(spec, grid), Error);  // shorter
+  std::filesystem::remove_all(dir);
+}
+
+TEST(PatternSourceExact, AnImageNamePatternWithoutAPlaceholderIsAnError) {
+  const std::string dir = test::make_temp_dir("names");
+  ScanGrid grid;
+  grid.rows = 2, grid.cols = 2, grid.step_um = 0.1;
+  PatternSourceSpec spec;
+  spec.format = PatternFormat::images, spec.path = dir, spec.name_pattern = "pattern.png";
+  try {
+    open_pattern_source(spec, grid);
+    ADD_FAILURE() << "one image for every point was accepted";
+  } catch (const Error& e) {
+    EXPECT_NE(std::string(e.what()).find("needs {index}, or {row} and {col}"), std::string::npos) << e.what();
+  }
+  std::filesystem::remove_all(dir);
+}
+
+}  // namespace orderband

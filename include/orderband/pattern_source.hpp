@@ -19,7 +19,8 @@ struct PatternSourceSpec {
   std::string path;                             ///< raw file, HDF5 file, or image folder
   SampleType sample_type = SampleType::uint16;  ///< raw only: little-endian samples
   size_t header_bytes = 0;                      ///< raw only: bytes to skip at the start
-  int width_px = 0;                             ///< raw: required; others: 0 = take from the data, else checked
+  size_t trailer_bytes = 0;  ///< raw only: bytes after the last pattern (the size must match exactly)
+  int width_px = 0;          ///< raw: required; others: 0 = take from the data, else checked
   int height_px = 0;
   std::string dataset;  ///< HDF5: dataset path, shaped [points, h, w] or [rows, cols, h, w]
   /// Images: file name with placeholders {index}, {row}, {col}, optionally

@@ -69,11 +69,16 @@ class RawSource final : public PatternSource {
     ::fstat(fd_, &st);
     size_ = static_cast<size_t>(st.st_size);
     const size_t needed = spec.header_bytes + count_ * pixels() * sample_bytes(spec.sample_type);
-    if (size_ < needed) {
+    if (size_ != needed + spec.trailer_bytes) {
+      // Exactly: a longer file is as wrong as a shorter one (a wrong width, fewer rows than the
+      // file holds or an undeclared header all leave bytes over and shift every pattern).
       ::close(fd_);
-      fail(spec.path, " is ", size_, " bytes, shorter than header ", spec.header_bytes, " + ", grid.rows, " rows x ",
-           grid.cols, " cols x ", height_, " x ", width_, " px x ", sample_bytes(spec.sample_type), " bytes = ", needed,
-           " bytes; check the grid size, pattern size, sample type and header");
+      fail(spec.path, " is ", size_, " bytes, ", size_ < needed + spec.trailer_bytes ? "shorter" : "longer",
+           " than header ", spec.header_bytes, " + ", grid.rows, " rows x ", grid.cols, " cols x ", height_, " x ",
+           width_, " px x ", sample_bytes(spec.sample_type), " bytes = ", needed, " bytes",
+           spec.trailer_bytes ? " + trailer " + std::to_string(spec.trailer_bytes) : std::string(),
+           "; check the grid size, pattern size, sample type and header (a stack with bytes after its patterns "
+           "declares them as trailer_bytes)");
     }
     map_ = ::mmap(nullptr, size_, PROT_READ, MAP_PRIVATE, fd_, 0);
     if (map_ == MAP_FAILED) {
@@ -234,6 +239,13 @@ class ImageFolderSource final : public PatternSource {
     if (!fs::is_directory(spec.path)) fail("pattern image folder '", spec.path, "' does not exist");
     if (spec.name_pattern.empty())
       fail("name the pattern images with 'name_pattern', e.g. \"p_{row:03}_{col:03}.png\" or \"{index:05}.tif\"");
+    // Without {index}, or {row} and {col}, every point would read the same image.
+    const bool by_index = spec.name_pattern.find("{index") != std::string::npos;
+    const bool by_row_col =
+        spec.name_pattern.find("{row") != std::string::npos && spec.name_pattern.find("{col") != std::string::npos;
+    if (!by_index && !by_row_col)
+      fail("name_pattern \"", spec.name_pattern.substr(0, 80),
+           "\" names one file for every point: it needs {index}, or {row} and {col}");
     count_ = grid.count();
     const GrayImage first = read_gray_image(file_of(0));
     width_ = first.width;

@@ -81,7 +81,8 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   // [patterns]
   const toml::table* pat = r.table("patterns", true);
   r.check_keys(pat, "patterns",
-               {"format", "file", "sample_type", "header_bytes", "width_px", "height_px", "dataset", "name_pattern"});
+               {"format", "file", "sample_type", "header_bytes", "trailer_bytes", "width_px", "height_px", "dataset",
+                "name_pattern"});
   const std::string format = r.require<std::string>(pat, "patterns", "format");
   if (format == "raw")
     c.patterns.format = PatternFormat::raw;
@@ -102,6 +103,9 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   const int64_t header = r.get<int64_t>(pat, "patterns", "header_bytes").value_or(0);
   if (header < 0) fail(path, ": [patterns] header_bytes must be >= 0, got ", header);
   c.patterns.header_bytes = static_cast<size_t>(header);
+  const int64_t trailer = r.get<int64_t>(pat, "patterns", "trailer_bytes").value_or(0);
+  if (trailer < 0) fail(path, ": [patterns] trailer_bytes must be >= 0, got ", trailer);
+  c.patterns.trailer_bytes = static_cast<size_t>(trailer);
   c.patterns.width_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "width_px").value_or(0));
   c.patterns.height_px = static_cast<int>(r.get<int64_t>(pat, "patterns", "height_px").value_or(0));
   if (c.patterns.width_px < 0 || c.patterns.height_px < 0)
@@ -300,6 +304,7 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
   if (c.patterns.format == PatternFormat::raw)
     os << "sample_type = \"" << sample_type_name(c.patterns.sample_type)
        << "\"\nheader_bytes = " << c.patterns.header_bytes << "\n";
+  if (c.patterns.trailer_bytes) os << "trailer_bytes = " << c.patterns.trailer_bytes << "\n";
   if (c.patterns.width_px)
     os << "width_px = " << c.patterns.width_px << "\nheight_px = " << c.patterns.height_px << "\n";
   if (!c.patterns.dataset.empty()) os << "dataset = " << q(c.patterns.dataset) << "\n";
