@@ -110,5 +110,40 @@ TEST(PhaseCif, ClearErrors) {
   EXPECT_NE(message_of([] { parse_phase_cif("this is { not a cif", "g.cif"); }).find("g.cif"), std::string::npos);
 }
 
+TEST(PhaseCif, ImpossibleCellsCoordinatesAndSitesAreErrors) {
+  // Each was once read without a word: γ = 0 as a 1 Å cube, NaN coordinates (|F| = nan or 0),
+  // all sites empty, a 10⁶ Å cell (the family enumeration ran away).
+  auto error_of = [](const std::string& cell, const std::string& sites) {
+    try {
+      parse_phase_cif(minimal_cif(cell, "_space_group_IT_number 225\n", sites), "x.cif");
+    } catch (const Error& e) {
+      return std::string(e.what());
+    }
+    return std::string("no error");
+  };
+  auto cell = [](const std::string& from, const std::string& to) {
+    std::string c = kCubicCell;
+    c.replace(c.find(from), from.size(), to);
+    return c;
+  };
+  const std::string ni = "Ni1 Ni 0 0 0 1\n";
+  EXPECT_NE(error_of(cell("_cell_angle_gamma 90", "_cell_angle_gamma 0"), ni).find("_cell_angle_gamma = 0"),
+            std::string::npos);
+  EXPECT_NE(error_of(cell("_cell_angle_alpha 90", "_cell_angle_alpha 180"), ni).find("outside (0, 180)"),
+            std::string::npos);
+  EXPECT_NE(error_of(cell("_cell_length_a 3.6", "_cell_length_a 1e6"), ni).find("outside [0.5, 100]"),
+            std::string::npos);
+  // 60°, 60°, 180° close the cell flat.
+  EXPECT_NE(error_of(cell("_cell_angle_alpha 90\n_cell_angle_beta 90\n_cell_angle_gamma 90",
+                          "_cell_angle_alpha 60\n_cell_angle_beta 60\n_cell_angle_gamma 120"),
+                     ni)
+                .find("give no cell"),
+            std::string::npos);
+  EXPECT_NE(error_of(kCubicCell, "Ni1 Ni nan 0 0 1\n").find("not a number"), std::string::npos)
+      << error_of(kCubicCell, "Ni1 Ni nan 0 0 1\n");
+  EXPECT_NE(error_of(kCubicCell, "Ni1 Ni 0 0 0 0\n").find("every site has occupancy 0"), std::string::npos);
+  EXPECT_EQ(error_of(kCubicCell, ni), "no error");
+}
+
 }  // namespace
 }  // namespace orderband

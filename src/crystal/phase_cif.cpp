@@ -51,6 +51,25 @@ Phase phase_from_block(gemmi::cif::Block& block, const std::string& origin) {
   }
   if (!has_cell || !(st.cell.a > 0 && st.cell.b > 0 && st.cell.c > 0))
     fail(origin, ": no complete unit cell (_cell_length_a/b/c and _cell_angle_alpha/beta/gamma)");
+  // Named limits on the values as written (gemmi falls back to a 1 Å cube for a cell it cannot
+  // build): lengths within [0.5, 100] Å (every phase the tool pairs; a cell of 10⁶ Å made the
+  // family enumeration run away), angles within (0, 180)° and a cell of positive volume.
+  double given[6];
+  const char* tags[6] = {"_cell_length_a",    "_cell_length_b",   "_cell_length_c",
+                         "_cell_angle_alpha", "_cell_angle_beta", "_cell_angle_gamma"};
+  for (int k = 0; k < 6; ++k) {
+    given[k] = gemmi::cif::as_number(*block.find_value(tags[k]));
+    const bool ok = k < 3 ? given[k] >= 0.5 && given[k] <= 100 : given[k] > 0 && given[k] < 180;
+    if (!ok)
+      fail(origin, ": ", tags[k], " = ", given[k], k < 3 ? " Å is outside [0.5, 100] Å" : "° is outside (0, 180)°");
+  }
+  {
+    const double ca = std::cos(given[3] * M_PI / 180), cb = std::cos(given[4] * M_PI / 180),
+                 cg = std::cos(given[5] * M_PI / 180);
+    if (!(1 - ca * ca - cb * cb - cg * cg + 2 * ca * cb * cg > 1e-6))
+      fail(origin, ": the cell angles ", given[3], ", ", given[4], ", ", given[5],
+           "° give no cell (zero or imaginary volume)");
+  }
   if (st.sites.empty()) fail(origin, ": no atom sites (_atom_site_label, _atom_site_fract_x/y/z)");
   const gemmi::SpaceGroup* sg = space_group_of(st, block, origin);
   st.spacegroup_hm = sg->xhm();
@@ -81,14 +100,21 @@ Phase phase_from_block(gemmi::cif::Block& block, const std::string& origin) {
       fail(origin, ": site '", s.label, "' has unknown element '", s.type_symbol,
            "' (give _atom_site_type_symbol as an element symbol, e.g. Ni)");
     a.fract = Eigen::Vector3d(s.fract.x, s.fract.y, s.fract.z);
+    if (!a.fract.allFinite())
+      fail(origin, ": site '", s.label, "' has a coordinate that is not a number (", s.fract.x, ", ", s.fract.y, ", ",
+           s.fract.z, ")");
     if (!(s.occ >= 0 && s.occ <= 1.0 + 1e-9))
       fail(origin, ": site '", s.label, "' has occupancy ", s.occ, " outside [0, 1]");
     a.occupancy = s.occ;
     a.u_iso_A2 = s.u_iso;
-    if (!(s.u_iso >= 0)) fail(origin, ": site '", s.label, "' has negative displacement U = ", s.u_iso, " Å²");
+    if (!(s.u_iso >= 0 && s.u_iso <= 1))
+      fail(origin, ": site '", s.label, "' has displacement U = ", s.u_iso, " Å², outside [0, 1] Å²");
     return a;
   };
   for (const auto& s : st.sites) phase.asymmetric_sites.push_back(convert(s));
+  double occupied = 0;
+  for (const AtomSite& a : phase.asymmetric_sites) occupied += a.occupancy;
+  if (!(occupied > 0)) fail(origin, ": every site has occupancy 0 (no atom scatters)");
   for (const auto& s : st.get_all_unit_cell_sites()) phase.unit_cell_sites.push_back(convert(s));
   return phase;
 }
