@@ -58,6 +58,20 @@ TEST(CliCheck, ShortFileIsOneClearError) {
   EXPECT_NE(missing.err.find("cannot read scan description"), std::string::npos);
 }
 
+TEST(CliCheck, ReadsTheOrientationFileMapWouldRead) {
+  // check once never read the orientation table: a fractional row index (or any bad file) passed.
+  SmallScan s;
+  std::ofstream csv(s.dir + "/o.csv");
+  csv << "row,col,phi1_deg,Phi_deg,phi2_deg\n";
+  for (int r = 0; r < 4; ++r)
+    for (int c = 0; c < 5; ++c) csv << (r == 2 && c == 3 ? "2.5" : std::to_string(r)) << ',' << c << ",10,20,30\n";
+  csv.close();
+  std::ofstream(s.dir + "/scan.toml", std::ios::app) << "[orientations]\nsource = \"file\"\nfile = \"o.csv\"\n";
+  const auto r = test::run_orderband("check " + s.dir + "/scan.toml --sample 4");
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.err.find("o.csv:15: row and col must be integers, got '2.5', '3'"), std::string::npos) << r.err;
+}
+
 }  // namespace
 }  // namespace orderband
 

@@ -3,9 +3,12 @@
 
 #include <chrono>
 #include <cmath>
+#include <fstream>
 
 #include "orderband/error.hpp"
+#include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/point_mask.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
@@ -15,6 +18,15 @@ ScanCheck check_scan(const ScanConfig& config, size_t sample_points, double d_mi
   c.config = config;
   c.config.grid.validate();
   auto source = open_pattern_source(config.patterns, config.grid);
+  // Every file map reads is read here too, so that check fails where map would: the orientation
+  // table and the reference masks.
+  if (config.orientations.source == OrientationSourceKind::file) {
+    std::ifstream in(config.orientations.file);
+    if (!in) fail("cannot read orientation file '", config.orientations.file, "'");
+    read_orientation_csv(in, config.grid, config.orientations.file);
+  }
+  for (const std::string& mask : {config.end_members.ordered_mask, config.end_members.disordered_mask})
+    if (!mask.empty()) read_point_mask(mask, config.grid);
   c.source_description = source->describe();
   c.width_px = source->width();
   c.height_px = source->height();

@@ -55,13 +55,20 @@ OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, co
     if (k >= grid.count()) fail(origin, ":", line_no, ": more lines than the ", grid.count(), " scan points");
     if (f.size() < 5) fail(origin, ":", line_no, ": expected at least 5 fields, got ", f.size());
     const GridPoint want = grid.point(k);
-    int row, col;
-    try {
-      row = std::stoi(f[0]);
-      col = std::stoi(f[1]);
-    } catch (...) {
-      fail(origin, ":", line_no, ": row and col must be integers, got '", f[0], "', '", f[1], "'");
-    }
+    int row = 0, col = 0;
+    // Whole integers only ("0.5" or "1e3" are not a row).
+    auto integer = [&](const std::string& text, int& out) {
+      try {
+        size_t used = 0;
+        out = std::stoi(text, &used);
+        return used == text.size();
+      } catch (...) {
+        return false;
+      }
+    };
+    if (!integer(f[0], row) || !integer(f[1], col))
+      fail(origin, ":", line_no, ": row and col must be integers, got '", f[0].substr(0, 40), "', '",
+           f[1].substr(0, 40), "'");
     if (row != want.row || col != want.col)
       fail(origin, ":", line_no, ": expected row ", want.row, ", col ", want.col, " (points in scan order), got ", row,
            ", ", col);
