@@ -44,7 +44,7 @@ const Variant kSuite[] = {
     {"gamma' fund. 1.1, dark", "", "ordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n", 0.05},
     {"detector gamma 0.8", "", "detector_gamma = 0.8\nbackground_shape = \"gaussian\"\n", 0.0},
     {"detector gamma 1.2", "", "detector_gamma = 1.2\nbackground_shape = \"linear\"\n", 0.0},
-    {"misfit +0.3%, contrast .25", "band_contrast = 0.25\n", "lattice_misfit = 0.003\n", 0.0},
+    {"misfit +0.3%, amplitude .25", "band_amplitude = 0.25\n", "lattice_misfit = 0.003\n", 0.0},
     {"beam 2.9x along tilt", "", "beam_elongation = 2.9\n", 0.0},
     {"PC error 0.5 px", "", "pc_error_px = [0.5, -0.4, 0.6]\n", 0.0},
 };

@@ -43,11 +43,10 @@ int main(int argc, char** argv) {
     write_synthetic_scan(scenario, dir + "/scan", "size_bench");
     const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
     MapOptions options;
-    options.master_spheres = false;
+    options.mean_spheres = false;
     const MapResults r = map_scan(config, options);
-    const std::vector<TruthClassCount> truth =
-        count_truth_sections(read_truth_sections(dir + "/scan/truth_particles.csv"), config.grid,
-                             r.detection.diameter_um);
+    const std::vector<TruthClassCount> truth = count_truth_sections(
+        read_truth_sections(dir + "/scan/truth_particles.csv"), config.grid, r.detection.diameter_um);
     TruthClassCount t;
     for (const TruthClassCount& c : truth)
       if (c.name == "secondary") t = c;
@@ -55,7 +54,8 @@ int main(int argc, char** argv) {
     for (const ClassStats& c : r.classes)
       if (c.name == "secondary") sec = &c;
     // The scenario's population: log-normal, median 0.15 µm, σ 0.2.
-    const double d3 = 0.15 * std::exp(0.5 * 0.2 * 0.2), area = config.grid.field_width_um() * config.grid.field_height_um();
+    const double d3 = 0.15 * std::exp(0.5 * 0.2 * 0.2),
+                 area = config.grid.field_width_um() * config.grid.field_height_um();
     const double nv = t.count_all / area / d3;  // N_A = N_V ⟨D⟩ over the true sections
     const SphereSizeFit* fit = r.secondary_preferred();
     count_error_sum += std::abs(sec->count - t.count_resolved) / std::max(1.0, double(t.count_resolved));
@@ -75,10 +75,13 @@ int main(int argc, char** argv) {
   }
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   std::printf("\n%d seeds, %d x %d points, %.0f counts/px, %.0f s\n", seeds, side, side, counts, sec);
-  std::printf("resolved sections: mean |count error| %.1f %%, mean |ECD error| %.1f %% (against the truth counted the same way)\n",
-              100 * count_error_sum / seeds, 100 * ecd_error_sum / seeds);
-  std::printf("3-D mean: fitted in %d, within 15 %% in %d, inside its 95 %% CI in %d; N_V inside its CI in %d (of %d)\n",
-              fitted, mean_within, mean_covered, density_covered, seeds);
+  std::printf(
+      "resolved sections: mean |count error| %.1f %%, mean |ECD error| %.1f %% (against the truth counted the same "
+      "way)\n",
+      100 * count_error_sum / seeds, 100 * ecd_error_sum / seeds);
+  std::printf(
+      "3-D mean: fitted in %d, within 15 %% in %d, inside its 95 %% CI in %d; N_V inside its CI in %d (of %d)\n",
+      fitted, mean_within, mean_covered, density_covered, seeds);
   std::filesystem::remove_all(dir);
   return 0;
 }

@@ -80,7 +80,7 @@ TEST(MapSizes, SecondaryThreeDimensionalMeanFromSectionsTruncatedAtTheDetectionL
                                     "distribution = \"lognormal\"\nmedian_diameter_um = 0.15\nsigma_ln = 0.2\n"
                                     "[tertiary]\nfraction = 0.05\n";
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
-  const auto r = test::run_orderband("map " + dir + "/scan/scan.toml -o " + dir + "/out --quiet --no-master-spheres");
+  const auto r = test::run_orderband("map " + dir + "/scan/scan.toml -o " + dir + "/out --quiet --no-mean-spheres");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const auto s = nlohmann::json::parse(slurp(dir + "/out/summary.json"));
   const auto t = nlohmann::json::parse(slurp(dir + "/scan/truth.json"));
@@ -138,8 +138,8 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
   EXPECT_EQ(s["input_hashes"]["patterns"]["fnv1a64"].get<std::string>().size(), 16u);
   for (const char* f :
        {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "ordered_fraction.npy", "particles.csv",
-        "classes.csv", "band_profiles.svg", "family_diagnostics.svg", "size_histogram.svg", "master_sphere_ordered.png",
-        "master_sphere_disordered.png", "master_sphere_difference.png", "report.html", "orientations.csv"})
+        "classes.csv", "band_profiles.svg", "family_diagnostics.svg", "size_histogram.svg", "mean_sphere_ordered.png",
+        "mean_sphere_disordered.png", "mean_sphere_difference.png", "report.html", "orientations.csv"})
     EXPECT_TRUE(fs::exists(*dir_ + "/out/" + f)) << f;
   EXPECT_FALSE(fs::exists(*dir_ + "/out/.resume"));  // cleared after a complete run
 }

@@ -96,7 +96,7 @@ TEST(Ranking, DistanceToTheWindowWithReasons) {
   EXPECT_EQ(r[1].trial, 0u);  // 0.04 µm over a 0.06 µm window: 0.667
   EXPECT_EQ(r[1].verdict, Verdict::outside);
   EXPECT_NEAR(r[1].distance, 0.04 / 0.06, 1e-12);
-  EXPECT_NE(r[1].reasons[0].find("secondary mean ECD 0.2 um (95 % CI 0.18–0.22) above the window"), std::string::npos)
+  EXPECT_NE(r[1].reasons[0].find("secondary mean ECD 0.2 µm (95 % CI 0.18–0.22) above the window"), std::string::npos)
       << r[1].reasons[0];
   EXPECT_EQ(r[2].trial, 2u);  // 0.05/0.15 + 0.15/0.15 = 1.333
   EXPECT_NEAR(r[2].distance, 0.05 / 0.15 + 1.0, 1e-12);

@@ -1,4 +1,4 @@
-// HEALPix grid against healpy; back-projection and master spheres against the kinematic model.
+// HEALPix grid against healpy; back-projection and mean spheres against the kinematic model.
 #include "orderband/sphere.hpp"
 
 #include <gtest/gtest.h>
@@ -74,7 +74,7 @@ TEST(SphereGrid, EqualPixelAreasAndResolution) {
   EXPECT_THROW(SphereGrid(100), Error);
 }
 
-TEST(MasterSphere, ManyRandomPatternsRebuildTheModelSphere) {
+TEST(MeanSphere, ManyRandomPatternsRebuildTheModelSphere) {
   // 2,000 noisy synthetic patterns (pure γ, random orientations, 5,000 counts per pixel) are
   // flat-fielded by the scan mean, back-projected into the crystal frame and folded by m-3m;
   // the result must correlate with the kinematic model's own sphere at r > 0.95.

@@ -328,7 +328,7 @@ TEST(SynthVariants, DetectorGammaAndBackgroundShapes) {
   // Without bands the expected counts are counts · B^gamma, B the background of mean 1.
   const Phase ni = load_phase_cif(test::crystal_data("ni-fcc.cif"));
   BandModelParams params;
-  params.band_contrast = 0;
+  params.band_amplitude = 0;
   params.edge_contrast = 0;
   params.d_min_A = 2.0;
   const KinematicBandModel none(ni, 20, params);

@@ -15,7 +15,7 @@ namespace orderband {
 /// planes with unit normal n, a band of half-width θ_B around the great
 /// circle n·x = 0:
 ///   I(x) = 1 + Σ_planes w_hkl · p(α / θ_B),  α = asin(n·x),
-///   w_hkl = band_contrast · (|F_hkl| / |F_max|)^band_exponent,
+///   w_hkl = band_amplitude · (|F_hkl| / |F_max|)^band_exponent,
 ///   p(u) = s(u) + edge_contrast · exp(−(|u| − 1)² / (2 e²)),
 ///   s(u) = ½ [1 + tanh((1 − |u|) / e)],  e = edge_width (in units of θ_B),
 /// where F_max is the phase's strongest family, so the strongest band of
@@ -30,11 +30,11 @@ enum class BandShape {
 };
 
 struct BandModelParams {
-  double band_contrast = 0.12;  ///< weight of the strongest band (fraction of background)
-  double band_exponent = 2.0;   ///< w ∝ |F|^exponent
-  double edge_contrast = 0.25;  ///< bright edge lines, relative to the band's own weight
-  double edge_width = 0.12;     ///< edge softness e, in units of θ_B
-  double d_min_A = 0.8;         ///< families with d below this are left out
+  double band_amplitude = 0.12;  ///< weight of the strongest band (fraction of background)
+  double band_exponent = 2.0;    ///< w ∝ |F|^exponent
+  double edge_contrast = 0.25;   ///< bright edge lines, relative to the band's own weight
+  double edge_width = 0.12;      ///< edge softness e, in units of θ_B
+  double d_min_A = 0.8;          ///< families with d below this are left out
   BandShape shape = BandShape::soft;
   /// Edge line on the side n·x > 0 of a plane scaled by (1 + a), on the other by (1 − a): a
   /// renderer variant (real excess/deficiency lines differ between the two edges). 0: symmetric.

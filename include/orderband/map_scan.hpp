@@ -1,4 +1,4 @@
-// The whole per-scan analysis: orientations, ordered fraction, precipitates, master spheres.
+// The whole per-scan analysis: orientations, ordered fraction, precipitates, mean spheres.
 #pragma once
 
 #include <functional>
@@ -22,7 +22,7 @@ struct MapOptions {
   int bootstrap_block = 8;  ///< points per block side for the bootstrap interval
   int bootstrap_resamples = 1000;
   int unfold_classes = 10;  ///< Schwartz–Saltykov classes for the secondary particles
-  bool master_spheres = true;
+  bool mean_spheres = true;
 };
 
 struct MapResults {
@@ -38,8 +38,8 @@ struct MapResults {
   SphereSizeFit secondary_lognormal, secondary_lsw;
   /// The determined fit with the lower Akaike information criterion (null when neither is determined).
   const SphereSizeFit* secondary_preferred() const;
-  /// Master spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
-  std::optional<SphereMap> master_disordered, master_ordered;
+  /// Mean spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
+  std::optional<SphereMap> mean_disordered, mean_ordered;
   double ordered_area_fraction() const { return fraction.mean_raw(); }
 };
 

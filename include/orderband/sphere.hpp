@@ -1,4 +1,4 @@
-// The unit sphere on a HEALPix grid: back-projection of patterns, master spheres, stereographic images.
+// The unit sphere on a HEALPix grid: back-projection of patterns, mean spheres, stereographic images.
 #pragma once
 
 #include <Eigen/Core>

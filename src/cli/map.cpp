@@ -40,7 +40,7 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
                  "the scan; experimental)")
       ->check(CLI::IsMember({"model", "learned"}))
       ->capture_default_str();
-  sub.add_flag("--no-master-spheres", o.no_master_spheres, "skip the master-sphere pass and images");
+  sub.add_flag("--no-mean-spheres", o.no_mean_spheres, "skip the mean-sphere pass and images");
 }
 
 std::function<int()> setup_map(CLI::App& sub) {

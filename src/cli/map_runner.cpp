@@ -28,7 +28,7 @@ MapOptions to_map_options(const MapRunOptions& o) {
   m.orient.grains.threshold_deg = o.grain_threshold;
   m.fraction.end_members = o.end_members == "mixture" ? EndMemberMode::mixture : EndMemberMode::model;
   m.fraction.estimator = o.estimator == "learned" ? FractionEstimator::learned : FractionEstimator::profile;
-  m.master_spheres = !o.no_master_spheres;
+  m.mean_spheres = !o.no_mean_spheres;
   return m;
 }
 
@@ -41,7 +41,7 @@ std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
     << '|' << (config.end_members.ordered_mask.empty() ? "" : file_hash_fnv1a64(config.end_members.ordered_mask)) << '|'
     << (config.end_members.disordered_mask.empty() ? "" : file_hash_fnv1a64(config.end_members.disordered_mask)) << '|'
     << o.threshold << o.otsu << o.connectivity << o.min_particle << o.class_bounds[0] << o.class_bounds[1]
-    << o.grain_threshold << o.end_members << o.estimator << o.no_master_spheres;
+    << o.grain_threshold << o.end_members << o.estimator << o.no_mean_spheres;
   return text_hash_fnv1a64(k.str());
 }
 

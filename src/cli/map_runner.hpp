@@ -19,7 +19,7 @@ struct MapRunOptions {
   double grain_threshold = 5.0;
   std::string end_members = "model";
   std::string estimator = "model";  ///< "model" (kinematic references) or "learned" (data-led)
-  bool no_master_spheres = false;
+  bool no_mean_spheres = false;
 };
 
 void add_map_options(CLI::App& sub, MapRunOptions& o);

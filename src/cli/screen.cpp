@@ -299,7 +299,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       lo.push_back(summaries[i]["ci95"]["low"]), hi.push_back(summaries[i]["ci95"]["high"]);
     }
     frac.error_bars(t, lo, hi, colours[ci % 6]);
-    frac.markers(t, f, colours[ci % 6], fmt("%g C", temp));
+    frac.markers(t, f, colours[ci % 6], fmt("%g °C", temp));
     ++ci;
   }
   SvgPlot bars(560, 320, "area fraction per size class", "trial", "area fraction");
@@ -322,7 +322,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   }
   bars.x_categories(labels);
   bars.x_range(-0.7, tc.trials.size() - 0.3);
-  SvgPlot sizes(560, 320, "secondary particle sizes (ECD) per trial", "ECD (um)", "share of particles per bin");
+  SvgPlot sizes(560, 320, "secondary particle sizes (ECD) per trial", "ECD (µm)", "share of particles per bin");
   for (size_t i = 0; i < tc.trials.size(); ++i) {
     std::ifstream in(out + "/" + tc.trials[i].label + "/particles.csv");
     std::vector<double> d;
@@ -341,7 +341,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
     for (double v : d) y[std::min(bins - 1, static_cast<int>(v / w))] += 1.0 / d.size();
     sizes.line(x, y, colours[i % 6], tc.trials[i].label);
   }
-  SvgPlot power(560, 320, "coarsening: mean radius^n vs time (fit lines)", "ageing time (h)", "<r>^n (um^n)");
+  SvgPlot power(560, 320, "coarsening: mean radiusⁿ against time (fit lines)", "ageing time (h)", "⟨r⟩ⁿ (µmⁿ)");
   ci = 0;
   for (const auto& [temp, idx] : by_temperature) {
     if (!fits.count(temp)) continue;
@@ -354,7 +354,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       t.push_back(tc.trials[i].time_h), y.push_back(std::pow(r, f.exponent));
       tmax = std::max(tmax, tc.trials[i].time_h);
     }
-    power.markers(t, y, colours[ci % 6], fmt("%g C", temp) + ", n = " + fmt("%.3g", f.exponent));
+    power.markers(t, y, colours[ci % 6], fmt("%g °C", temp) + ", n = " + fmt("%.3g", f.exponent));
     power.line({0, tmax}, {f.r0_pow_n, f.r0_pow_n + f.k * tmax}, colours[ci % 6], "", true);
     ++ci;
   }

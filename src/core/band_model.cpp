@@ -22,7 +22,7 @@ BandModelParams with_families_of(const BandModelParams& params, const Phase& pha
 }
 
 KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const BandModelParams& params) : params_(params) {
-  if (!(params.band_contrast >= 0)) fail("band contrast must be >= 0, got ", params.band_contrast);
+  if (!(params.band_amplitude >= 0)) fail("band amplitude must be >= 0, got ", params.band_amplitude);
   if (!(params.band_exponent > 0)) fail("band exponent must be positive, got ", params.band_exponent);
   if (!(params.edge_width > 0)) fail("band edge width must be positive, got ", params.edge_width);
   if (!(std::abs(params.edge_asymmetry) <= 1))
@@ -39,7 +39,7 @@ KinematicBandModel::KinematicBandModel(const Phase& phase, double kv, const Band
   }
   if (!(f_max > 0)) fail(phase.source, ": no diffracting plane family with d >= ", params.d_min_A, " A");
   for (ModelFamily& m : families_) {
-    m.weight = m.f_abs_A > 1e-6 * f_max ? params.band_contrast * std::pow(m.f_abs_A / f_max, params.band_exponent) : 0;
+    m.weight = m.f_abs_A > 1e-6 * f_max ? params.band_amplitude * std::pow(m.f_abs_A / f_max, params.band_exponent) : 0;
     m.edge_contrast = params.edge_contrast;
   }
   std::vector<ModelBand> kept;

@@ -84,7 +84,7 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);
   fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
-  if (options.master_spheres) {
+  if (options.mean_spheres) {
     auto source = open_pattern_source(config.patterns, grid);
     const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
     const DetectorRays rays(geometry);
@@ -104,11 +104,11 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
                      *r.orientations.orientation[k], f > 0.8 ? ord : dis);
       }
       ++row;
-      if (progress) progress("master spheres", static_cast<size_t>(row) * grid.cols, grid.count());
+      if (progress) progress("mean spheres", static_cast<size_t>(row) * grid.cols, grid.count());
     }
     const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
-    r.master_disordered.emplace(fold_by_symmetry(dis, symmetry));
-    r.master_ordered.emplace(fold_by_symmetry(ord, symmetry));
+    r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
+    r.mean_ordered.emplace(fold_by_symmetry(ord, symmetry));
   }
   return r;
 }

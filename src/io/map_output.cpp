@@ -106,7 +106,7 @@ std::vector<std::string> band_profile_charts(const MapResults& r, const Fraction
   if (fams.size() > 4) fams.resize(4);
   std::vector<std::string> out;
   for (const FamilyDiagnostic* f : fams) {
-    SvgPlot p(420, 260, "band profile " + f->label + " (model, largest grain)", "offset from the plane / theta_B",
+    SvgPlot p(420, 260, "band profile " + f->label + " (model, largest grain)", "offset from the plane / θ_B",
               "normalised intensity");
     p.vertical_band(-spec.windows.interior_max, spec.windows.interior_max, "#ffd27f", 0.45, "interior window");
     p.vertical_band(spec.windows.flank_min, spec.windows.flank_max, "#9fd3ff", 0.45, "flank windows");
@@ -155,7 +155,7 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
   std::vector<double> d;
   for (const Particle2D& p : r.segmentation.particles)
     if (!p.touches_border) d.push_back(p.ecd_um);
-  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (um)",
+  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (µm)",
             "particles");
   if (d.empty()) return p.render();
   const double dmax = *std::max_element(d.begin(), d.end()) * 1.05;
@@ -328,7 +328,6 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
 
   // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
   write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
-  fs::remove(folder + "/orient_summary.json", ec);  // summary.json holds it all
 
   write_npy_float32(folder + "/ordered_fraction.npy", grid.rows, grid.cols, r.fraction.fraction);
   write_npy_float32(folder + "/ordered_fraction_unclipped.npy", grid.rows, grid.cols, r.fraction.raw);
@@ -339,16 +338,16 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   write_npy_int32(folder + "/particle_labels.npy", grid.rows, grid.cols, r.segmentation.label);
   write_png_rgb(folder + "/fraction_map.png", fraction_map_image(grid, r.fraction.fraction), text);
   write_png_rgb(folder + "/ordered_mask.png", mask_image(grid, r), text);
-  if (r.master_disordered && r.master_ordered) {
-    write_png_rgb(folder + "/master_sphere_disordered.png", stereographic_image(*r.master_disordered, 360), text);
-    write_png_rgb(folder + "/master_sphere_ordered.png", stereographic_image(*r.master_ordered, 360), text);
-    SphereMap diff(r.master_ordered->grid);
+  if (r.mean_disordered && r.mean_ordered) {
+    write_png_rgb(folder + "/mean_sphere_disordered.png", stereographic_image(*r.mean_disordered, 360), text);
+    write_png_rgb(folder + "/mean_sphere_ordered.png", stereographic_image(*r.mean_ordered, 360), text);
+    SphereMap diff(r.mean_ordered->grid);
     for (long p = 0; p < diff.grid.npix(); ++p) {
-      if (r.master_ordered->weight[p] <= 0 || r.master_disordered->weight[p] <= 0) continue;
-      diff.sum[p] = r.master_ordered->value(p) - r.master_disordered->value(p);
+      if (r.mean_ordered->weight[p] <= 0 || r.mean_disordered->weight[p] <= 0) continue;
+      diff.sum[p] = r.mean_ordered->value(p) - r.mean_disordered->value(p);
       diff.weight[p] = 1;
     }
-    write_png_rgb(folder + "/master_sphere_difference.png", stereographic_image_signed(diff, 360), text);
+    write_png_rgb(folder + "/mean_sphere_difference.png", stereographic_image_signed(diff, 360), text);
   }
 
   // Tables.
@@ -598,9 +597,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                 "band_profiles.svg",
                 "family_diagnostics.svg",
                 "size_histogram.svg",
-                "master_sphere_disordered.png",
-                "master_sphere_ordered.png",
-                "master_sphere_difference.png",
+                "mean_sphere_disordered.png",
+                "mean_sphere_ordered.png",
+                "mean_sphere_difference.png",
                 "report.html"};
   write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
 
@@ -686,10 +685,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
        "alone (d′ per point).</figcaption></figure>\n";
   h << "<figure>" << histogram
     << "<figcaption>Particle sizes with the class boundaries and log-normal fits per class.</figcaption></figure>\n";
-  if (r.master_disordered) {
-    h << "<figure><div class=\"plots\">" << img("master_sphere_disordered.png", "master sphere disordered")
-      << img("master_sphere_ordered.png", "master sphere ordered") << img("master_sphere_difference.png", "difference")
-      << "</div><figcaption>Master spheres (stereographic, upper hemisphere of the crystal frame) of the points "
+  if (r.mean_disordered) {
+    h << "<figure><div class=\"plots\">" << img("mean_sphere_disordered.png", "mean sphere of the disordered points")
+      << img("mean_sphere_ordered.png", "mean sphere of the ordered points")
+      << img("mean_sphere_difference.png", "difference")
+      << "</div><figcaption>Mean spheres of the measured patterns (stereographic, upper hemisphere of the crystal "
+         "frame) of the points "
          "measured "
          "as disordered (f &lt; 0.2) and ordered (f &gt; 0.8), and their difference (red: brighter in the ordered "
          "phase).</figcaption></figure>\n";

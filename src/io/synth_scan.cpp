@@ -189,7 +189,7 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
 
   const toml::table* pat = r.table("patterns", false);
   r.check_keys(pat, "patterns",
-               {"sample_type", "counts_per_px", "band_contrast", "band_exponent", "edge_contrast", "edge_width",
+               {"sample_type", "counts_per_px", "band_amplitude", "band_exponent", "edge_contrast", "edge_width",
                 "d_min_A", "beam_sigma_nm", "background_falloff"});
   const std::string type = r.get<std::string>(pat, "patterns", "sample_type").value_or("uint16");
   if (type == "uint8")
@@ -201,13 +201,13 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   s.counts_per_px = r.get<double>(pat, "patterns", "counts_per_px").value_or(5000.0);
   if (!(s.counts_per_px > 0 && s.counts_per_px < 60000))
     fail(path, ": [patterns] counts_per_px must be within (0, 60000), got ", s.counts_per_px);
-  s.band.band_contrast = r.get<double>(pat, "patterns", "band_contrast").value_or(s.band.band_contrast);
+  s.band.band_amplitude = r.get<double>(pat, "patterns", "band_amplitude").value_or(s.band.band_amplitude);
   s.band.band_exponent = r.get<double>(pat, "patterns", "band_exponent").value_or(s.band.band_exponent);
   s.band.edge_contrast = r.get<double>(pat, "patterns", "edge_contrast").value_or(s.band.edge_contrast);
   s.band.edge_width = r.get<double>(pat, "patterns", "edge_width").value_or(s.band.edge_width);
   s.band.d_min_A = r.get<double>(pat, "patterns", "d_min_A").value_or(s.band.d_min_A);
-  if (!(s.band.band_contrast >= 0 && s.band.band_contrast <= 1))
-    fail(path, ": [patterns] band_contrast must be within [0, 1], got ", s.band.band_contrast);
+  if (!(s.band.band_amplitude >= 0 && s.band.band_amplitude <= 1))
+    fail(path, ": [patterns] band_amplitude must be within [0, 1], got ", s.band.band_amplitude);
   if (!(s.band.band_exponent > 0)) fail(path, ": [patterns] band_exponent must be positive");
   if (!(s.band.edge_width > 0)) fail(path, ": [patterns] edge_width must be positive");
   if (!(s.band.d_min_A > 0)) fail(path, ": [patterns] d_min_A must be positive");
@@ -406,7 +406,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
       {"pattern_height_px", geometry.height()},
       {"counts_per_px", s.counts_per_px},
       {"sample_type", sample_type_name(s.sample_type)},
-      {"band_contrast", s.band.band_contrast},
+      {"band_amplitude", s.band.band_amplitude},
       {"band_exponent", s.band.band_exponent},
       {"edge_contrast", s.band.edge_contrast},
       {"edge_width_theta_b", s.band.edge_width},

@@ -133,7 +133,7 @@ std::vector<Ranked> rank_trials(const std::vector<TrialNumbers>& nums, const Tar
       r.reasons.push_back(buf);
     };
     check_range(nums[i].ordered_fraction, t.ordered_fraction, "ordered fraction", "");
-    check_range(nums[i].secondary_mean_ecd_um, t.secondary_mean_ecd_um, "secondary mean ECD", " um");
+    check_range(nums[i].secondary_mean_ecd_um, t.secondary_mean_ecd_um, "secondary mean ECD", " µm");
     if (t.max_primary_fraction && nums[i].primary_fraction > *t.max_primary_fraction) {
       r.distance += (nums[i].primary_fraction - *t.max_primary_fraction) / std::max(*t.max_primary_fraction, 1e-6);
       std::snprintf(buf, sizeof buf, "primary fraction %.3g above the limit %.3g", nums[i].primary_fraction,
