@@ -14,8 +14,10 @@ using namespace orderband;
 
 namespace {
 
-SphereSizes lognormal(double median, double sigma) { return {SphereSizeModel::lognormal, {median, sigma}}; }
-SphereSizes lsw(double mean) { return {SphereSizeModel::lsw, {mean}}; }
+SphereSizes lognormal(double median, double sigma) {
+  return SphereSizes::of(SphereSizeModel::lognormal, {median, sigma});
+}
+SphereSizes lsw(double mean) { return SphereSizes::of(SphereSizeModel::lsw, {mean}); }
 
 /// ∫ x^power f(x) dx over (0, top) by the midpoint rule on a fine grid.
 template <class F>

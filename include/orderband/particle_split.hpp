@@ -22,7 +22,8 @@ std::vector<float> maxima_dynamics(const ScanGrid& grid, const std::vector<float
 /// the maxima of `g` inside them whose dynamic is at least `depth` and whose saddle (height less
 /// dynamic) lies at or below `max_saddle` (maxima on a plateau, such as the noise on a large
 /// particle, are not particles of their own; the highest maximum of a part has no saddle and is
-/// always a marker). A part without a marker keeps its own highest point as one. Flooding goes in descending order of
+/// always a marker). A part without a marker keeps its own highest point as one, so an infinite
+/// depth labels the plain connected parts. Flooding goes in descending order of
 /// g, each point taking the label of the neighbour it is reached from. 0: outside.
 std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<float>& g,
                                       const std::vector<uint8_t>& inside, double depth, double max_saddle,

@@ -85,6 +85,8 @@ struct SizeClasses {
   std::string classify(double ecd_um) const;
 };
 inline constexpr const char* kUnresolvedClass = "unresolved";
+/// A class with fewer counted particles is flagged as too few for statistics (report, ranking).
+inline constexpr int kFewParticles = 10;
 
 struct ClassStats {
   std::string name;

@@ -28,7 +28,9 @@ class SizeDistribution {
   double quantile(double p) const;
   double mean_um() const;
   /// ⟨D³⟩ (µm³), for volume fractions.
-  double mean_cube_um3() const;
+  double mean_cube_um3() const { return mean_power(3); }
+  /// ⟨D^k⟩ (µm^k).
+  double mean_power(int k) const;
   /// Largest size drawn (the 1 − 1e-6 quantile; LSW: 1.5 × mean).
   double max_um() const;
   /// Probability density of D (per µm).
@@ -37,7 +39,6 @@ class SizeDistribution {
  private:
   enum class Kind { lognormal, lsw, fixed } kind_ = Kind::fixed;
   double a_ = 0, b_ = 0;  // lognormal: median, sigma; lsw: mean; fixed: diameter
-  std::vector<double> lsw_cdf_u_, lsw_cdf_p_;
 };
 
 }  // namespace orderband

@@ -4,6 +4,8 @@
 #include <string>
 #include <vector>
 
+#include "orderband/size_distribution.hpp"
+
 namespace orderband {
 
 /// The family of sphere-diameter distributions fitted to the sections.
@@ -13,13 +15,16 @@ enum class SphereSizeModel {
 };
 const char* to_string(SphereSizeModel m);
 
-/// A sphere-diameter distribution of one of the families, with its density.
+/// A sphere-diameter distribution of one of the families: the parameters as fitted and the
+/// distribution they name (size_distribution.hpp).
 struct SphereSizes {
   SphereSizeModel model = SphereSizeModel::lognormal;
   std::vector<double> params;  ///< lognormal: {median_um, sigma_ln}; lsw: {mean_um}
-  double density(double d_um) const;
-  double mean_um() const;
-  double mean_square_um2() const;  ///< ⟨D²⟩
+  SizeDistribution distribution;
+  static SphereSizes of(SphereSizeModel model, std::vector<double> params);
+  double density(double d_um) const { return distribution.density(d_um); }
+  double mean_um() const { return distribution.mean_um(); }
+  double mean_square_um2() const { return distribution.mean_power(2); }
   /// Diameters outside [lowest, highest] carry less than 1e-10 of the distribution.
   double lowest_um() const;
   double highest_um() const;

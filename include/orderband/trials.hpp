@@ -5,6 +5,8 @@
 #include <string>
 #include <vector>
 
+#include "orderband/particles.hpp"  // kFewParticles
+
 namespace orderband {
 
 struct Trial {
@@ -67,6 +69,6 @@ struct Ranked {
 /// bound itself for a one-sided limit); ties keep the input order. A class with fewer than
 /// `min_class_count` counted particles is flagged.
 std::vector<Ranked> rank_trials(const std::vector<TrialNumbers>& numbers, const TargetWindow& target,
-                                int min_class_count = 10);
+                                int min_class_count = kFewParticles);
 
 }  // namespace orderband

@@ -391,8 +391,8 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       << " counted)</td><td>" << xml_escape(verdict) << "</td></tr>";
   }
   h << "</table><p class=\"caution\">Undecided: a quantity's 95 % interval crosses an edge of the window; undecided "
-       "trials rank below the trials decided inside and above those decided outside. Classes with fewer than 10 "
-       "counted particles are flagged.</p>\n";
+       "trials rank below the trials decided inside and above those decided outside. Classes with fewer than "
+    << kFewParticles << " counted particles are flagged.</p>\n";
   write_truth_table(h, tc, numbers, ranking, truth, truth_ranking);
   h << "<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th>"
        "<th>k (µmⁿ/h)</th><th>k 95 % CI</th><th>radius</th></tr>";

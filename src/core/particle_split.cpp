@@ -94,25 +94,31 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
                                       int connectivity) {
   const size_t n = g.size();
   if (inside.size() != n) fail("splitting: ", inside.size(), " flags for ", n, " points");
-  const std::vector<float> dynamic = maxima_dynamics(grid, g, connectivity);
   std::vector<int32_t> label(n, 0);
   int32_t next = 0;
   using Item = std::pair<float, size_t>;  // (g, point): the highest first
   std::priority_queue<Item> queue;
-  for (size_t k = 0; k < n; ++k)
-    if (inside[k] && !std::isnan(g[k]) && dynamic[k] >= depth && g[k] - dynamic[k] <= max_saddle)
-      label[k] = ++next, queue.push({g[k], k});
+  if (std::isfinite(depth)) {
+    const std::vector<float> dynamic = maxima_dynamics(grid, g, connectivity);
+    for (size_t k = 0; k < n; ++k)
+      if (inside[k] && !std::isnan(g[k]) && dynamic[k] >= depth && g[k] - dynamic[k] <= max_saddle)
+        label[k] = ++next, queue.push({g[k], k});
+  }
   // A connected part of `inside` without a marker keeps its highest point as one.
   std::vector<uint8_t> reached(n, 0);
-  for (size_t start : descending(g)) {
+  for (size_t start = 0; start < n; ++start) {
     if (!inside[start] || reached[start] || std::isnan(g[start])) continue;
     std::vector<size_t> part{start};
     reached[start] = 1;
     bool marked = label[start] > 0;
+    size_t top = start;
     for (size_t head = 0; head < part.size(); ++head)
       for (size_t j : neighbour_indices(grid, part[head], connectivity))
-        if (inside[j] && !reached[j] && !std::isnan(g[j])) reached[j] = 1, part.push_back(j), marked |= label[j] > 0;
-    if (!marked) label[start] = ++next, queue.push({g[start], start});
+        if (inside[j] && !reached[j] && !std::isnan(g[j])) {
+          reached[j] = 1, part.push_back(j), marked |= label[j] > 0;
+          if (g[j] > g[top]) top = j;
+        }
+    if (!marked) label[top] = ++next, queue.push({g[top], top});
   }
   while (!queue.empty()) {
     const size_t k = queue.top().second;

@@ -103,7 +103,7 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
   const size_t n = f.size();
   std::vector<uint8_t> inside(n, 0);
   for (size_t k = 0; k < n; ++k) inside[k] = seg.label[k] >= 0 && f[k] >= seg.threshold;
-  std::vector<int32_t> label(n, 0);
+  std::vector<int32_t> label;
   if (spec.split_touching && spec.noise_sd > 0) {
     const double sigma = spec.split_sigma_steps;
     // The spread of independent per-point noise after the Gaussian: σ_f / (2 √π σ).
@@ -113,15 +113,7 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
     const double max_saddle = 0.5 * (seg.threshold + 1);
     label = split_by_markers(grid, smooth_map(grid, f, sigma), inside, depth, max_saddle, conn);
   } else {
-    int next = 0;
-    for (size_t start = 0; start < n; ++start) {
-      if (!inside[start] || label[start]) continue;
-      std::vector<size_t> queue{start};
-      label[start] = ++next;
-      for (size_t head = 0; head < queue.size(); ++head)
-        for (const GridPoint& nb : grid.neighbours(grid.point(queue[head]), conn))
-          if (const size_t j = grid.index(nb); inside[j] && !label[j]) label[j] = next, queue.push_back(j);
-    }
+    label = split_by_markers(grid, f, inside, HUGE_VAL, 0.0, conn);  // the connected parts as they are
   }
   // Collected in scan order of each part's first point.
   std::map<int32_t, size_t> order;

@@ -15,6 +15,32 @@ double lsw_density(double u) {
          std::exp(-u / (1.5 - u));
 }
 
+namespace {
+
+/// The CDF of h(u) tabulated once by the trapezoid rule on a fine grid (u, P); every LSW
+/// distribution shares it, scaled by its mean.
+struct LswTable {
+  std::vector<double> u, p;
+};
+const LswTable& lsw_table() {
+  static const LswTable table = [] {
+    const int n = 20000;
+    LswTable t{std::vector<double>(n + 1), std::vector<double>(n + 1)};
+    double acc = 0;
+    for (int k = 0; k <= n; ++k) {
+      const double u = 1.5 * k / n;
+      if (k > 0) acc += 0.5 * (lsw_density(u) + lsw_density(1.5 * (k - 1) / n)) * 1.5 / n;
+      t.u[k] = u;
+      t.p[k] = acc;
+    }
+    for (double& q : t.p) q /= acc;
+    return t;
+  }();
+  return table;
+}
+
+}  // namespace
+
 SizeDistribution SizeDistribution::lognormal(double median_um, double sigma_ln) {
   if (!(median_um > 0)) fail("log-normal median diameter must be positive, got ", median_um, " µm");
   if (!(sigma_ln >= 0) || sigma_ln > 2) fail("log-normal sigma must be within [0, 2], got ", sigma_ln);
@@ -30,18 +56,6 @@ SizeDistribution SizeDistribution::lsw(double mean_um) {
   SizeDistribution d;
   d.kind_ = Kind::lsw;
   d.a_ = mean_um;
-  // Tabulated CDF of h(u) by the trapezoid rule on a fine grid.
-  const int n = 20000;
-  d.lsw_cdf_u_.resize(n + 1);
-  d.lsw_cdf_p_.resize(n + 1);
-  double acc = 0;
-  for (int k = 0; k <= n; ++k) {
-    const double u = 1.5 * k / n;
-    if (k > 0) acc += 0.5 * (lsw_density(u) + lsw_density(1.5 * (k - 1) / n)) * 1.5 / n;
-    d.lsw_cdf_u_[k] = u;
-    d.lsw_cdf_p_[k] = acc;
-  }
-  for (double& p : d.lsw_cdf_p_) p /= acc;
   return d;
 }
 
@@ -68,10 +82,11 @@ double SizeDistribution::quantile(double p) const {
       return a_ * std::exp(b_ * 0.5 * (lo + hi));
     }
     case Kind::lsw: {
-      const auto it = std::lower_bound(lsw_cdf_p_.begin(), lsw_cdf_p_.end(), p);
-      const size_t k = std::clamp<size_t>(it - lsw_cdf_p_.begin(), 1, lsw_cdf_p_.size() - 1);
-      const double t = (p - lsw_cdf_p_[k - 1]) / std::max(1e-300, lsw_cdf_p_[k] - lsw_cdf_p_[k - 1]);
-      return a_ * (lsw_cdf_u_[k - 1] + t * (lsw_cdf_u_[k] - lsw_cdf_u_[k - 1]));
+      const LswTable& tab = lsw_table();
+      const auto it = std::lower_bound(tab.p.begin(), tab.p.end(), p);
+      const size_t k = std::clamp<size_t>(it - tab.p.begin(), 1, tab.p.size() - 1);
+      const double t = (p - tab.p[k - 1]) / std::max(1e-300, tab.p[k] - tab.p[k - 1]);
+      return a_ * (tab.u[k - 1] + t * (tab.u[k] - tab.u[k - 1]));
     }
   }
   return a_;
@@ -95,20 +110,28 @@ double SizeDistribution::mean_um() const {
   return a_;
 }
 
-double SizeDistribution::mean_cube_um3() const {
+double SizeDistribution::mean_power(int k) const {
+  // x^k by repeated multiplication (the same rounding as a product written out).
+  auto power = [k](double x) {
+    double r = x;
+    for (int i = 1; i < k; ++i) r *= x;
+    return k == 0 ? 1.0 : r;
+  };
   switch (kind_) {
     case Kind::fixed:
-      return a_ * a_ * a_;
+      return power(a_);
     case Kind::lognormal:
-      return a_ * a_ * a_ * std::exp(4.5 * b_ * b_);
+      return power(a_) * std::exp(0.5 * k * k * b_ * b_);
     case Kind::lsw: {
       double acc = 0;
       const int n = 20000;
-      for (int k = 0; k < n; ++k) {
-        const double u = 1.5 * (k + 0.5) / n;
-        acc += u * u * u * lsw_density(u) * 1.5 / n;
+      for (int i = 0; i < n; ++i) {
+        const double u = 1.5 * (i + 0.5) / n;
+        acc += power(u) * lsw_density(u) * 1.5 / n;
       }
-      return acc * a_ * a_ * a_;
+      double scaled = acc;
+      for (int i = 0; i < k; ++i) scaled *= a_;
+      return scaled;
     }
   }
   return 0;

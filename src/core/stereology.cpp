@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <functional>
+#include <utility>
 
 #include <Eigen/Dense>
 #include <boost/math/quadrature/gauss_kronrod.hpp>
@@ -20,25 +21,13 @@ namespace {
 constexpr double kTailZ = 6.4;  // |z| beyond which a normal carries less than 1e-10
 }
 
-double SphereSizes::density(double d) const {
-  if (!(d > 0)) return 0.0;
-  if (model == SphereSizeModel::lognormal) {
-    const double s = params[1], z = std::log(d / params[0]) / s;
-    return std::exp(-0.5 * z * z) / (d * s * std::sqrt(2 * M_PI));
-  }
-  return lsw_density(d / params[0]) / params[0];
-}
-
-double SphereSizes::mean_um() const {
-  return model == SphereSizeModel::lognormal ? params[0] * std::exp(0.5 * params[1] * params[1]) : params[0];
-}
-
-double SphereSizes::mean_square_um2() const {
-  if (model == SphereSizeModel::lognormal) return params[0] * params[0] * std::exp(2 * params[1] * params[1]);
-  // ⟨u²⟩ of the LSW law, once (Gauss–Kronrod over its support).
-  static const double u2 = boost::math::quadrature::gauss_kronrod<double, 61>::integrate(
-      [](double u) { return u * u * lsw_density(u); }, 0.0, 1.5, 10, 1e-12);
-  return u2 * params[0] * params[0];
+SphereSizes SphereSizes::of(SphereSizeModel model, std::vector<double> params) {
+  SphereSizes s;
+  s.model = model;
+  s.params = std::move(params);
+  s.distribution = model == SphereSizeModel::lognormal ? SizeDistribution::lognormal(s.params.at(0), s.params.at(1))
+                                                       : SizeDistribution::lsw(s.params.at(0));
+  return s;
 }
 
 double SphereSizes::lowest_um() const {
@@ -78,10 +67,9 @@ namespace {
 
 /// The distribution for the fit's free parameters x (logarithms of the model's parameters).
 SphereSizes sizes_at(SphereSizeModel model, const Eigen::VectorXd& x) {
-  SphereSizes s;
-  s.model = model;
-  for (int i = 0; i < x.size(); ++i) s.params.push_back(std::exp(x[i]));
-  return s;
+  std::vector<double> params;
+  for (int i = 0; i < x.size(); ++i) params.push_back(std::exp(x[i]));
+  return SphereSizes::of(model, std::move(params));
 }
 
 double log_likelihood(const SectionSample& sample, const SphereSizes& s) {

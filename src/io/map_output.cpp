@@ -185,7 +185,7 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
 }
 
 /// The class table (with the detection limit) and the secondary class's 3-D sizes.
-void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& config) {
+void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& config, const SizeClasses& classes) {
   const BeamFootprint beam = beam_footprint(config);
   h << "<h2>Size classes</h2><p>Detection limit: sections of at least <b>" << fmt("%.3f", r.detection.diameter_um)
     << " µm</b> ECD are counted (components of at least " << r.detection.min_points << " points; the matrix's noise, σ "
@@ -199,10 +199,11 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
     const ClassStats& c = r.classes[k];
     const bool last = k + 1 == r.classes.size();
     const std::string rule = !c.counted ? "ordering below the detection limit (area only)"
-                             : last     ? "own orientation, on a grain boundary from " + fmt("%g", 0.5 * c.lower_um) +
-                                          " µm, or from " + fmt("%g", c.lower_um) + " µm"
+                             : last     ? "own orientation, on a grain boundary from " +
+                                          fmt("%g", classes.boundary_share * c.lower_um) + " µm, or from " +
+                                          fmt("%g", c.lower_um) + " µm"
                                     : "every other resolved section";
-    const bool few = c.counted && c.count < 10;
+    const bool few = c.counted && c.count < kFewParticles;
     h << "<tr><td>" << c.name << "</td><td>" << rule << "</td><td>" << (c.counted ? std::to_string(c.count) : "–")
       << (few ? " (too few for statistics)" : "") << "</td><td>" << fmt("%.4f", c.area_fraction) << "</td><td>"
       << (c.counted ? fmt("%.3f", c.number_density_per_um2) : "–") << "</td><td>"
@@ -641,7 +642,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << "</td></tr>"
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
-  write_class_tables(h, r, config);
+  write_class_tables(h, r, config, options.classes);
   write_truth_table(h, truth, r);
   {
     // The largest grains: their matrix away from particles should agree (orientation bias check).
