@@ -123,6 +123,78 @@ void write_truth_table(std::ostream& h, const TrialsConfig& tc, const std::vecto
   h << "</table>\n";
 }
 
+/// Coarsening kinetics of the trials: per temperature the fit, its JSON record and the radius
+/// used per trial; an Arrhenius fit over two or more temperatures.
+struct Kinetics {
+  std::map<double, std::vector<size_t>> by_temperature;  ///< trials per temperature
+  nlohmann::json kinetics = nlohmann::json::array(), arrhenius = nullptr;
+  std::map<double, CoarseningFit> fits;
+  std::map<double, bool> fits_3d;      ///< the fit used 3-D radii
+  std::vector<double> kinetic_radius;  ///< per trial (0: none)
+};
+
+Kinetics fit_kinetics(const TrialsConfig& tc, const std::vector<nlohmann::json>& summaries,
+                      const std::vector<double>& radius_3d) {
+  // Kinetics per temperature, on the 3-D mean radius of the secondary particles where every trial
+  // of the temperature has it (the LSW constant is for 3-D radii), else on the mean radius of the
+  // resolved sections, labelled as such.
+  Kinetics out;
+  auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = out;
+  for (size_t i = 0; i < tc.trials.size(); ++i) by_temperature[tc.trials[i].temperature_c].push_back(i);
+  kinetic_radius.assign(tc.trials.size(), 0.0);
+  std::vector<double> temps, ks;
+  for (const auto& [temp, idx] : by_temperature) {
+    std::vector<double> t, r;
+    const bool three_d = std::all_of(idx.begin(), idx.end(), [&](size_t i) { return radius_3d[i] > 0; });
+    for (size_t i : idx) {
+      const double radius =
+          three_d ? radius_3d[i] : 0.5 * summaries[i]["classes"]["secondary"]["mean_ecd_um"].get<double>();
+      if (radius > 0) t.push_back(tc.trials[i].time_h), r.push_back(radius);
+      kinetic_radius[i] = radius;
+    }
+    nlohmann::json k = {{"temperature_c", temp},
+                        {"trials", t.size()},
+                        {"radius", three_d ? "3-D mean radius (the fit preferred by AIC, log-normal or LSW, to "
+                                             "the sections truncated at the detection limit)"
+                                           : "mean radius of the resolved sections (not 3-D; biased by truncation)"}};
+    try {
+      if (t.size() < 2) fail("fewer than two trials with secondary particles");
+      const CoarseningFit f = tc.exponent ? fit_coarsening(t, r, *tc.exponent) : fit_coarsening_free(t, r);
+      fits[temp] = f;
+      fits_3d[temp] = three_d;
+      k["exponent"] = f.exponent;
+      k["exponent_ci95"] = {f.exponent_low, f.exponent_high};
+      k["exponent_fitted"] = !tc.exponent.has_value();
+      k["k_um_pow_n_per_h"] = f.k;
+      k["k_ci95"] = {std::isfinite(f.k_low) ? nlohmann::json(f.k_low) : nlohmann::json(nullptr),
+                     std::isfinite(f.k_high) ? nlohmann::json(f.k_high) : nlohmann::json(nullptr)};
+      k["r0_pow_n_um_pow_n"] = f.r0_pow_n;
+      if (f.k > 0) temps.push_back(temp), ks.push_back(f.k);
+    } catch (const Error& e) {
+      k["note"] = e.what();
+    }
+    kinetics.push_back(k);
+  }
+  if (temps.size() >= 2) {
+    const ArrheniusFit a = fit_arrhenius(temps, ks);
+    arrhenius = {
+        {"activation_energy_kj_mol", a.activation_kj_mol},
+        {"ci95",
+         {std::isfinite(a.q_low) ? nlohmann::json(a.q_low) : nlohmann::json(nullptr),
+          std::isfinite(a.q_high) ? nlohmann::json(a.q_high) : nlohmann::json(nullptr)}},
+        {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
+  }
+  return out;
+}
+
+/// Synthetic trials: the truth ranked against the same window (only when every trial has a truth).
+std::vector<Ranked> rank_truth(const std::vector<std::optional<TrialNumbers>>& truth, const TargetWindow& target) {
+  if (!std::all_of(truth.begin(), truth.end(), [](const auto& t) { return t.has_value(); })) return {};
+  std::vector<TrialNumbers> exact;
+  for (const auto& t : truth) exact.push_back(*t);
+  return rank_trials(exact, target);
+}
+
 }  // namespace
 
 ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
@@ -159,68 +231,12 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   std::vector<TrialNumbers> numbers;
   std::vector<double> radius_3d;  // per trial: half the fitted 3-D mean diameter (0: not determined)
   for (const auto& s : summaries) numbers.push_back(trial_numbers(s, radius_3d));
-  // Kinetics per temperature, on the 3-D mean radius of the secondary particles where every trial
-  // of the temperature has it (the LSW constant is for 3-D radii), else on the mean radius of the
-  // resolved sections, labelled as such.
-  std::map<double, std::vector<size_t>> by_temperature;
-  for (size_t i = 0; i < tc.trials.size(); ++i) by_temperature[tc.trials[i].temperature_c].push_back(i);
-  nlohmann::json kinetics = nlohmann::json::array();
-  std::vector<double> temps, ks;
-  std::map<double, CoarseningFit> fits;
-  std::map<double, bool> fits_3d;
-  std::vector<double> kinetic_radius(tc.trials.size(), 0.0);
-  for (const auto& [temp, idx] : by_temperature) {
-    std::vector<double> t, r;
-    const bool three_d = std::all_of(idx.begin(), idx.end(), [&](size_t i) { return radius_3d[i] > 0; });
-    for (size_t i : idx) {
-      const double radius =
-          three_d ? radius_3d[i] : 0.5 * summaries[i]["classes"]["secondary"]["mean_ecd_um"].get<double>();
-      if (radius > 0) t.push_back(tc.trials[i].time_h), r.push_back(radius);
-      kinetic_radius[i] = radius;
-    }
-    nlohmann::json k = {{"temperature_c", temp},
-                        {"trials", t.size()},
-                        {"radius", three_d ? "3-D mean radius (the fit preferred by AIC, log-normal or LSW, to "
-                                             "the sections truncated at the detection limit)"
-                                           : "mean radius of the resolved sections (not 3-D; biased by truncation)"}};
-    try {
-      if (t.size() < 2) fail("fewer than two trials with secondary particles");
-      const CoarseningFit f = tc.exponent ? fit_coarsening(t, r, *tc.exponent) : fit_coarsening_free(t, r);
-      fits[temp] = f;
-      fits_3d[temp] = three_d;
-      k["exponent"] = f.exponent;
-      k["exponent_ci95"] = {f.exponent_low, f.exponent_high};
-      k["exponent_fitted"] = !tc.exponent.has_value();
-      k["k_um_pow_n_per_h"] = f.k;
-      k["k_ci95"] = {std::isfinite(f.k_low) ? nlohmann::json(f.k_low) : nlohmann::json(nullptr),
-                     std::isfinite(f.k_high) ? nlohmann::json(f.k_high) : nlohmann::json(nullptr)};
-      k["r0_pow_n_um_pow_n"] = f.r0_pow_n;
-      if (f.k > 0) temps.push_back(temp), ks.push_back(f.k);
-    } catch (const Error& e) {
-      k["note"] = e.what();
-    }
-    kinetics.push_back(k);
-  }
-  nlohmann::json arrhenius = nullptr;
-  if (temps.size() >= 2) {
-    const ArrheniusFit a = fit_arrhenius(temps, ks);
-    arrhenius = {
-        {"activation_energy_kj_mol", a.activation_kj_mol},
-        {"ci95",
-         {std::isfinite(a.q_low) ? nlohmann::json(a.q_low) : nlohmann::json(nullptr),
-          std::isfinite(a.q_high) ? nlohmann::json(a.q_high) : nlohmann::json(nullptr)}},
-        {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
-  }
+  const Kinetics kin = fit_kinetics(tc, summaries, radius_3d);
+  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = kin;
   const std::vector<Ranked> ranking = rank_trials(numbers, tc.target);
-  // Synthetic trials: the truth ranked against the same window (only when every trial has a truth).
   std::vector<std::optional<TrialNumbers>> truth;
   for (const auto& s : summaries) truth.push_back(truth_numbers(s));
-  std::vector<Ranked> truth_ranking;
-  if (std::all_of(truth.begin(), truth.end(), [](const auto& t) { return t.has_value(); })) {
-    std::vector<TrialNumbers> exact;
-    for (const auto& t : truth) exact.push_back(*t);
-    truth_ranking = rank_trials(exact, tc.target);
-  }
+  const std::vector<Ranked> truth_ranking = rank_truth(truth, tc.target);
 
   // Comparison table.
   std::ostringstream csv;
@@ -345,7 +361,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   ci = 0;
   for (const auto& [temp, idx] : by_temperature) {
     if (!fits.count(temp)) continue;
-    const CoarseningFit& f = fits[temp];
+    const CoarseningFit& f = fits.at(temp);
     std::vector<double> t, y;
     double tmax = 0;
     for (size_t i : idx) {
@@ -402,7 +418,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
       << "</td><td>" << fmt("%.4g", f.k) << "</td><td>"
       << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high)
                                  : std::string("needs 3 or more trials"))
-      << "</td><td>" << (fits_3d[temp] ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)")
+      << "</td><td>" << (fits_3d.at(temp) ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)")
       << "</td></tr>";
   h << "</table><p class=\"caution\">Fitted to ⟨r⟩ⁿ − ⟨r0⟩ⁿ = k t on the 3-D mean radius of the secondary "
        "particles (the fit preferred by AIC, log-normal or LSW, to the sections truncated at each map's detection "
