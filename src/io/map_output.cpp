@@ -231,6 +231,37 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
   h << "</table>\n";
 }
 
+/// summary.json: the detection limit and the secondary class's 3-D fits.
+void add_size_statistics(nlohmann::json& j, const MapResults& r, const ScanConfig& config) {
+  const BeamFootprint beam = beam_footprint(config);
+  j["detection_limit"] = {{"section_diameter_um", r.detection.diameter_um},
+                          {"min_points", r.detection.min_points},
+                          {"noise_diameter_um", r.detection.noise_diameter_um},
+                          {"noise_sd", r.detection.noise_sd},
+                          {"matrix_level", r.detection.matrix_level},
+                          {"false_particles_per_map", r.detection.false_particles},
+                          {"beam_sigma_x_um", beam.sigma_x_um},
+                          {"beam_sigma_y_um", beam.sigma_y_um}};
+  nlohmann::json sizes3d = nlohmann::json::object();
+  for (const SphereSizeFit* f : {&r.secondary_lognormal, &r.secondary_lsw}) {
+    nlohmann::json row = {{"determined", f->determined}, {"sections", f->sections}, {"reason", f->reason}};
+    if (f->determined)
+      row.update({{"parameters", f->spheres.params},
+                  {"mean_diameter_um", f->mean_diameter_um},
+                  {"mean_diameter_ci95_um", {f->mean_low_um, f->mean_high_um}},
+                  {"number_density_per_um3", f->number_density_per_um3},
+                  {"mean_section_diameter_um", f->mean_section_um},
+                  {"mean_section_diameter_ci95_um", {f->mean_section_low_um, f->mean_section_high_um}},
+                  {"number_density_ci95_per_um3", {f->density_low_per_um3, f->density_high_per_um3}},
+                  {"share_of_sections_resolved", f->seen_share},
+                  {"log_likelihood", f->log_likelihood},
+                  {"aic", f->aic()}});
+    sizes3d[to_string(f->model)] = row;
+  }
+  sizes3d["preferred"] = r.secondary_preferred() ? to_string(r.secondary_preferred()->model) : "";
+  j["secondary_3d"] = sizes3d;
+}
+
 /// For a synthetic scan (truth.json and truth_particles.csv beside its description): the truth,
 /// counted as map counts (sections in the field, off the border, at or above the detection limit,
 /// and all of them), for summary.json; null otherwise.
@@ -459,33 +490,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                        {"lognormal_mu_ln_um", c.lognormal_mu},
                        {"lognormal_sigma", c.lognormal_sigma}};
   j["classes"] = classes;
-  const BeamFootprint beam = beam_footprint(config);
-  j["detection_limit"] = {{"section_diameter_um", r.detection.diameter_um},
-                          {"min_points", r.detection.min_points},
-                          {"noise_diameter_um", r.detection.noise_diameter_um},
-                          {"noise_sd", r.detection.noise_sd},
-                          {"matrix_level", r.detection.matrix_level},
-                          {"false_particles_per_map", r.detection.false_particles},
-                          {"beam_sigma_x_um", beam.sigma_x_um},
-                          {"beam_sigma_y_um", beam.sigma_y_um}};
-  nlohmann::json sizes3d = nlohmann::json::object();
-  for (const SphereSizeFit* f : {&r.secondary_lognormal, &r.secondary_lsw}) {
-    nlohmann::json row = {{"determined", f->determined}, {"sections", f->sections}, {"reason", f->reason}};
-    if (f->determined)
-      row.update({{"parameters", f->spheres.params},
-                  {"mean_diameter_um", f->mean_diameter_um},
-                  {"mean_diameter_ci95_um", {f->mean_low_um, f->mean_high_um}},
-                  {"number_density_per_um3", f->number_density_per_um3},
-                  {"mean_section_diameter_um", f->mean_section_um},
-                  {"mean_section_diameter_ci95_um", {f->mean_section_low_um, f->mean_section_high_um}},
-                  {"number_density_ci95_per_um3", {f->density_low_per_um3, f->density_high_per_um3}},
-                  {"share_of_sections_resolved", f->seen_share},
-                  {"log_likelihood", f->log_likelihood}});
-    if (f->determined) row["aic"] = f->aic();
-    sizes3d[to_string(f->model)] = row;
-  }
-  sizes3d["preferred"] = r.secondary_preferred() ? to_string(r.secondary_preferred()->model) : "";
-  j["secondary_3d"] = sizes3d;
+  add_size_statistics(j, r, config);
   const nlohmann::json truth = truth_beside(config, r);
   if (!truth.is_null()) j["truth"] = truth;
   j["particles"] = r.segmentation.particles.size();
