@@ -300,9 +300,7 @@ TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
 TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
   // A renderer variant (issue Wave 2 · A, "Must show"): γ′'s fundamental bands 0.8 × γ's. In the
   // mismatch bench the model-led estimator is off by +0.09 on it, the learned one by +0.007; here it
-  // must hold the issue's ±0.03 and classify ≥ 95 % away from phase boundaries. (Detector gamma 1.2
-  // passes in the bench, +0.020, but not on this test's scan: a matrix grain taken for one of the
-  // ordered phase alone, +0.41; see DEVELOPERS.md.)
+  // must hold the issue's ±0.03 and classify ≥ 95 % away from phase boundaries.
   const ScenarioRun r = run_scenario(scenario("[renderer]\nordered_fundamental_ratio = 0.8\n" + kSecondary, 40), 0,
                                      false, {}, learned_spec());
   EXPECT_TRUE(r.fraction.two_phases);
@@ -310,12 +308,76 @@ TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
   EXPECT_GE(classification(r), 0.95);
 }
 
+TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
+  // Issue Wave 2 · A, "Must show": renderer variants the estimator is never told, on this file's
+  // secondary-γ′ scan (3 grains, 40 × 40 points, 60 × 60 px, 5,000 counts), the learned estimator
+  // within ±0.03 of the true area fraction and ≥ 95 % of the points away from phase boundaries on
+  // the right side of one half. Measured: −0.005 … +0.007, 96.7–100 %. The model-led estimator
+  // misses ±0.03 on five of these six in the mismatch bench (−0.46 with the family contrasts, −0.60
+  // with misfit and double amplitude). Not yet held (DEVELOPERS.md): flat bands (−0.057 on this
+  // scan), Gaussian bands, detector gamma 0.8 (93 % classified), and the tertiary level, which the
+  // learned estimator counts as matrix.
+  const std::vector<std::pair<std::string, std::string>> variants = {
+      {"dark edges, steep background", "edge_contrast = -0.3\nbackground_falloff = 0.8\n"},
+      {"misfit +0.3 %, band amplitude 0.25", "band_amplitude = 0.25\n[renderer]\nlattice_misfit = 0.003\n"},
+      {"detector gamma 1.2, linear background", "[renderer]\ndetector_gamma = 1.2\nbackground_shape = \"linear\"\n"},
+      {"γ′ fundamentals × 1.1 with dark edges",
+       "[renderer]\nordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n"},
+      {"family contrasts ±30 %, |F|^1.5",
+       "band_exponent = 1.5\n[renderer]\nfamily_contrast_spread = 0.3\nfamily_contrast_seed = 7\n"},
+      {"asymmetric edge lines", "edge_contrast = 0.3\n[renderer]\nedge_asymmetry = 0.8\n"},
+  };
+  for (const auto& [name, variant] : variants) {
+    const ScenarioRun r = run_scenario(scenario(variant + kSecondary, 40), 0, false, {}, learned_spec());
+    EXPECT_TRUE(r.fraction.two_phases) << name;
+    EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << name;
+    EXPECT_GE(classification(r), 0.95) << name;
+  }
+}
+
 TEST(LearnedFraction, OnePhaseIsReportedAsOnePhase) {
-  // Three grains of pure γ: the learner must not split noise into two halves.
-  const ScenarioRun r = run_scenario(scenario("[grains]\ncount = 3\n", 32), 0, false, {}, learned_spec());
-  EXPECT_FALSE(r.fraction.two_phases) << "separation " << r.fraction.learned_separation;
-  EXPECT_FALSE(r.fraction.single_phase_ordered);
-  EXPECT_NEAR(r.fraction.mean_raw(), 0.0, 0.05);
+  // Issue Wave 2 · A, "Must show": scans of one phase (three grains of pure γ; three grains of pure
+  // γ′, rendered as a matrix ordered throughout) on the default renderer and seven variants the
+  // estimator is not told. The learner must not split noise into two halves: one phase on all 16.
+  // Which phase it is has no data-led answer without a second phase to compare with; it comes from
+  // the grains' levels between the model's phases with the data's band scale (scaled_model_level):
+  // measured γ / γ′ medians 0.01 / 0.89 (default), −3.7 / 2.1 (|F|¹), 0.14 / 1.04 (gamma 1.2),
+  // −0.92 / 1.09 (family contrasts), so mean f within 0.05 of 0 resp. 1 with ≥ 95 % of the points
+  // on the right side of one half there. Not yet on the others: dark edges put pure γ at 1.25,
+  // flat bands at 0.76, Gaussian bands at 2.7 (γ′ 2.2, 1.7, 3.4), misfit with double amplitude puts
+  // pure γ′ at 0.45 (DEVELOPERS.md).
+  struct Case {
+    const char* name;
+    std::string variant;
+    bool phase_checked;
+  };
+  const std::vector<Case> cases = {
+      {"default renderer", "", true},
+      {"weights |F|^1", "band_exponent = 1.0\n", true},
+      {"detector gamma 1.2, linear background", "[renderer]\ndetector_gamma = 1.2\nbackground_shape = \"linear\"\n",
+       true},
+      {"family contrasts ±30 %, |F|^1.5",
+       "band_exponent = 1.5\n[renderer]\nfamily_contrast_spread = 0.3\nfamily_contrast_seed = 7\n", true},
+      {"dark edges, steep background", "edge_contrast = -0.3\nbackground_falloff = 0.8\n", false},
+      {"flat sharp bands", "edge_contrast = 0.0\n[renderer]\nband_shape = \"flat\"\n", false},
+      {"Gaussian bands", "edge_contrast = 0.0\n[renderer]\nband_shape = \"gaussian\"\n", false},
+      {"misfit +0.3 %, band amplitude 0.25", "band_amplitude = 0.25\n[renderer]\nlattice_misfit = 0.003\n", false},
+  };
+  for (const Case& c : cases)
+    for (const bool ordered : {false, true}) {
+      const std::string phase = ordered ? "[tertiary]\nfraction = 1.0\n" : "";
+      const ScenarioRun r =
+          run_scenario(scenario(c.variant + "[grains]\ncount = 3\n" + phase, 32), 0, false, {}, learned_spec());
+      const std::string what = std::string(c.name) + (ordered ? ", all γ′" : ", all γ");
+      EXPECT_FALSE(r.fraction.two_phases) << what << ": evidence " << r.fraction.learned_evidence;
+      if (!c.phase_checked) continue;
+      EXPECT_EQ(r.fraction.single_phase_ordered, ordered) << what;
+      EXPECT_NEAR(r.fraction.mean_raw(), ordered ? 1.0 : 0.0, 0.05) << what;
+      size_t right = 0, measured = 0;
+      for (size_t k = 0; k < r.fraction.raw.size(); ++k)
+        if (!r.fraction.reason[k]) right += (r.fraction.raw[k] >= 0.5) == ordered, ++measured;
+      EXPECT_GE(right, 0.95 * measured) << what;
+    }
 }
 
 }  // namespace

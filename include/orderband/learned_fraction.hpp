@@ -1,6 +1,7 @@
 // The data-led ordered fraction: the response to ordering learned from the scan's own band profiles.
 #pragma once
 
+#include <array>
 #include <cstddef>
 #include <cstdint>
 #include <vector>
@@ -21,6 +22,18 @@ struct LearnedInputs {
   std::vector<float> x;             ///< points × features
   std::vector<double> first_guess;  ///< per point
   std::vector<uint8_t> boundary;    ///< per point, 1: next to another grain (scored, not learned from); may be empty
+  /// Per grain (index 1..grains), per feature: the model's expected ordered − disordered
+  /// difference on the features that show the new superlattice bands alone (0 elsewhere). Only the
+  /// sign of the learned direction is read from it (empty: the sign comes from the first guess).
+  std::vector<std::vector<double>> ordering_signature;
+  /// Per grain (index 1..grains): the model's features of the pure disordered [0] and ordered [1]
+  /// phase at the grain's orientation, and `bins` per family (features = families × bins). The
+  /// model supplies how the profiles change from one grain's orientation to another's (geometry),
+  /// not how they change with ordering. May be empty.
+  std::vector<std::array<std::vector<double>, 2>> model;
+  size_t bins = 0;
+  size_t superlattice_families = 0;  ///< the first families are the superlattice ones, the rest fundamental
+  int cols = 0;  ///< points lie row by row, `cols` to a row: neighbours for the spatial start (0: no neighbours known)
 };
 
 /// Per grain (index 1..grains), the mean of every feature over the points the learning uses (0
@@ -31,12 +44,23 @@ struct GrainFeatures {
 GrainFeatures grain_features(const LearnedInputs& in);
 
 struct LearnedSpec {
-  int iterations = 6;
+  int iterations = 1;
   double shrinkage = 0.3;            ///< covariance shrunk toward its diagonal by this share
   double min_evidence = 10.0;        ///< ΔBIC for a second component below which one phase is reported
   double min_second_weight = 0.003;  ///< share of points the second component must hold
   int min_class_points = 8;          ///< per grain and class, to enter the learned difference
+  int min_grain_points = 30;         ///< points away from its boundaries a grain needs to be placed
+  bool spatial_start = true;         ///< start from the scan's own direction of ordering (spatial_direction)
 };
+
+/// The scan's own direction of ordering, learned without the model: noise is independent from
+/// point to point while precipitates span several points, so the direction in which neighbouring
+/// points' features (each grain's mean removed, every feature scaled by its noise spread from
+/// neighbour differences) vary together is the direction of the phase contrast (the leading
+/// eigenvector of the symmetrised lag-one cross-covariance; the idea of maximum autocorrelation
+/// factors, Switzer & Green 1984, from memory). Returns per point the score along it (NaN where not
+/// measured), its sign free; empty if no neighbours are known.
+std::vector<double> spatial_direction_scores(const LearnedInputs& in, const GrainFeatures& gf);
 
 struct LearnedFraction {
   std::vector<float> f;            ///< per point, unclipped (NaN where not measured)

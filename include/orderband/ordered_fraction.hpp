@@ -21,6 +21,7 @@ enum class FractionReason : uint8_t {
   unusable_pattern = 1,
   no_orientation = 2,
   no_band_contrast = 3,  ///< the fundamental bands show no contrast (pattern too poor)
+  small_grain = 4,       ///< learned estimator: the grain has too few points away from its boundaries to be placed
 };
 
 /// How the two end members (pure disordered, pure ordered) are fixed.

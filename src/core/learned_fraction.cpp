@@ -117,7 +117,114 @@ GrainFeatures grain_features(const LearnedInputs& in) {
   return gf;
 }
 
+std::vector<double> spatial_direction_scores(const LearnedInputs& in, const GrainFeatures& gf) {
+  const size_t p = in.features, n = in.points;
+  if (in.cols <= 0 || n == 0 || p == 0) return {};
+  const size_t cols = static_cast<size_t>(in.cols);
+  // Neighbour pairs inside one grain, both learned from (right and lower neighbour).
+  std::vector<std::pair<size_t, size_t>> pairs;
+  for (size_t k = 0; k < n; ++k) {
+    if (!learns(in, k)) continue;
+    const size_t right = k + 1, down = k + cols;
+    if ((k + 1) % cols != 0 && right < n && learns(in, right) && in.grain[right] == in.grain[k])
+      pairs.emplace_back(k, right);
+    if (down < n && learns(in, down) && in.grain[down] == in.grain[k]) pairs.emplace_back(k, down);
+  }
+  if (pairs.size() < 2 * p) return {};
+  auto centred = [&](size_t k, size_t b) {
+    const float v = in.x[k * p + b];
+    return std::isnan(v) ? 0.0 : v - gf.mean[in.grain[k]][b];
+  };
+  // Every feature's noise spread from neighbour differences (half their mean square).
+  std::vector<double> noise(p, 0.0), covered(p, 0.0);
+  for (const auto& [a, b2] : pairs)
+    for (size_t b = 0; b < p; ++b)
+      if (!std::isnan(in.x[a * p + b]) && !std::isnan(in.x[b2 * p + b]))
+        noise[b] += 0.5 * std::pow(centred(a, b) - centred(b2, b), 2), covered[b] += 1;
+  Eigen::VectorXd scale = Eigen::VectorXd::Zero(p);
+  for (size_t b = 0; b < p; ++b)
+    if (covered[b] >= 0.1 * pairs.size() && noise[b] > 0) scale[b] = 1 / std::sqrt(noise[b] / covered[b]);
+  Eigen::MatrixXd za(pairs.size(), p), zb(pairs.size(), p);
+  for (size_t i = 0; i < pairs.size(); ++i)
+    for (size_t b = 0; b < p; ++b)
+      za(i, b) = scale[b] * centred(pairs[i].first, b), zb(i, b) = scale[b] * centred(pairs[i].second, b);
+  Eigen::MatrixXd lag = za.transpose() * zb;
+  lag = 0.5 * (lag + lag.transpose()) / static_cast<double>(pairs.size());
+  const Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(lag);
+  if (eig.info() != Eigen::Success) return {};
+  const Eigen::VectorXd w = eig.eigenvectors().col(p - 1).cwiseProduct(scale);
+  std::vector<double> score(n, std::nan(""));
+  for (size_t k = 0; k < n; ++k) {
+    if (!measured(in, k)) continue;
+    double t = 0;
+    for (size_t b = 0; b < p; ++b) t += w[b] * centred(k, b);
+    score[k] = t;
+  }
+  return score;
+}
+
 namespace {
+
+/// The sign of a direction's scores: the features regressed on the scores (each grain's means
+/// removed) give the difference that one unit of score makes; its projection on the grain's
+/// ordering signature (LearnedInputs::ordering_signature) is positive when the scores rise with
+/// ordering. 0 when no signature is given.
+double ordering_sign(const LearnedInputs& in, const std::vector<double>& score) {
+  if (in.ordering_signature.size() != static_cast<size_t>(in.grains) + 1) return 0;
+  const size_t p = in.features;
+  const GrainFeatures gf = grain_features(in);
+  std::vector<double> ms(in.grains + 1, 0.0), cnt(in.grains + 1, 0.0);
+  for (size_t k = 0; k < in.points; ++k)
+    if (learns(in, k) && !std::isnan(score[k])) ms[in.grain[k]] += score[k], cnt[in.grain[k]] += 1;
+  for (int g = 1; g <= in.grains; ++g) ms[g] = cnt[g] > 0 ? ms[g] / cnt[g] : 0.0;
+  double shown = 0;
+  for (size_t k = 0; k < in.points; ++k) {
+    if (!learns(in, k) || std::isnan(score[k])) continue;
+    const int g = in.grain[k];
+    const double ds = score[k] - ms[g];
+    const std::vector<double>& signature = in.ordering_signature[g];
+    if (signature.size() != p) continue;
+    for (size_t b = 0; b < p; ++b)
+      if (const float v = in.x[k * p + b]; !std::isnan(v) && signature[b] != 0)
+        shown += signature[b] * ds * (v - gf.mean[g][b]);
+  }
+  return shown > 0 ? 1.0 : shown < 0 ? -1.0 : 0.0;
+}
+
+/// The model's first guess carried by the scan's own direction: per grain, the guess regressed on
+/// the spatial scores (one common slope, a level per grain), and every point's guess replaced by
+/// its fitted value. The sign comes from the ordering signature (ordering_sign), the model keeps
+/// the grains' levels (used only where no grain shows two components); the point-to-point
+/// variation comes from the data's direction, far less noisy than the model's projection where the
+/// model's intensities are wrong. The model's guess where no spatial score is known.
+std::vector<double> guess_along_spatial_direction(const LearnedInputs& in, const std::vector<double>& spatial) {
+  std::vector<double> guess = in.first_guess;
+  if (spatial.empty()) return guess;
+  const int G = in.grains;
+  std::vector<double> ms(G + 1, 0.0), mg(G + 1, 0.0), cnt(G + 1, 0.0);
+  auto usable = [&](size_t k) { return learns(in, k) && !std::isnan(spatial[k]) && !std::isnan(in.first_guess[k]); };
+  for (size_t k = 0; k < in.points; ++k)
+    if (usable(k)) ms[in.grain[k]] += spatial[k], mg[in.grain[k]] += in.first_guess[k], cnt[in.grain[k]] += 1;
+  for (int g = 1; g <= G; ++g)
+    if (cnt[g] > 0) ms[g] /= cnt[g], mg[g] /= cnt[g];
+  double sxy = 0, sxx = 0;
+  for (size_t k = 0; k < in.points; ++k) {
+    if (!usable(k)) continue;
+    const double ds = spatial[k] - ms[in.grain[k]];
+    sxy += ds * (in.first_guess[k] - mg[in.grain[k]]), sxx += ds * ds;
+  }
+  if (!(sxx > 0)) return guess;
+  // The sign from the ordering signature where it is given; the magnitude from the regression (1
+  // spatial unit per guess unit where the model's guess does not vary with the scores at all).
+  double slope = sxy / sxx;
+  if (const double sign = ordering_sign(in, spatial); sign != 0) slope = sign * (slope != 0 ? std::abs(slope) : 1.0);
+  if (slope == 0) return guess;
+  for (size_t k = 0; k < in.points; ++k) {
+    const int g = in.grain[k];
+    if (measured(in, k) && !std::isnan(spatial[k]) && cnt[g] > 0) guess[k] = mg[g] + slope * (spatial[k] - ms[g]);
+  }
+  return guess;
+}
 
 /// Scores of every point with the direction learned on the other fold, in units of the learned
 /// difference over the bins the point's grain covers. False if no direction could be learned.
@@ -293,12 +400,14 @@ double component_separation(const std::array<EndMember, 2>& mix) {
   return spread > 0 ? (mix[1].mean - mix[0].mean) / spread : 0.0;
 }
 
-/// The first split of the points and the grains' kinds. Only the direction and sign of the model's
-/// first guess are trusted, not its scale nor its level, which shift with a grain's orientation
-/// when the model's intensities are wrong: so each grain whose guesses hold two components
-/// (second_component_evidence ≥ spec.min_evidence, each ≥ 5 % of its points) is split midway between
-/// them; a grain of one component whose mean guess lies above the median of those cuts holds the
-/// ordered phase alone, and the points of the others are split at that cut one by one.
+/// The first split of the points and the grains' kinds. Each grain whose guesses hold two
+/// components (second_component_evidence ≥ spec.min_evidence, each ≥ 5 % of its points) is split
+/// midway between them. A grain of one component holds either phase alone: which one is decided by
+/// comparing it with the grains of two components (ordered_alone_by_transfer); without such grains,
+/// by the model's level (its mean guess above the cut between the pooled components). The points of
+/// a grain of the disordered phase alone are split one by one at its median guess plus the median
+/// distance from matrix to cut in the grains of two components (so that the few particles of a
+/// grain too sparse to show two components still start as ordered).
 struct FirstSplit {
   std::vector<uint8_t> label;          ///< per point: 1 ordered
   std::vector<uint8_t> ordered_grain;  ///< per grain: the ordered phase alone
@@ -321,53 +430,186 @@ std::array<EndMember, 2> components(std::vector<double> v, double& evidence) {
   return mix;
 }
 
-FirstSplit first_split(const LearnedInputs& in, const LearnedSpec& spec) {
-  std::vector<std::vector<double>> per_grain(in.grains + 1);
+double median_of(std::vector<double> v) {
+  if (v.empty()) return std::nan("");
+  std::sort(v.begin(), v.end());
+  const size_t m = v.size() / 2;
+  return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
+}
+
+/// Whether grain h, of one component, holds the ordered phase: its mean features against every grain
+/// g of two components. The data of g give its matrix X₀ and its particles X₁; the model gives how a
+/// disordered grain's features change from g's orientation to h's (M₀,h − M₀,g), scaled per family
+/// to the data by the slope of data on model over the grains of two components. With h's base
+/// X₀ + b (M₀,h − M₀,g), h's position along g's ordering difference D = X₁ − X₀ is
+/// c = (X̄_h − base)·D / D·D over the features of the ordering signature; ordered if the median c
+/// over the grains g is at least one half. Only the model's change between orientations enters,
+/// not its change with ordering nor its absolute intensities.
+std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const std::vector<uint8_t>& label,
+                                               const std::vector<uint8_t>& two_phase,
+                                               const std::vector<uint8_t>& one_phase) {
+  const size_t p = in.features, bins = in.bins;
+  const int G = in.grains;
+  std::vector<uint8_t> ordered(G + 1, 0);
+  // Class means of the grains of two components (points away from grain boundaries).
+  std::vector<std::array<std::vector<double>, 2>> cls(G + 1);
+  for (int g = 1; g <= G; ++g)
+    if (two_phase[g])
+      for (int c = 0; c < 2; ++c) cls[g][c].assign(p, 0.0);
+  std::vector<std::array<std::vector<double>, 2>> cnt = cls;
+  for (size_t k = 0; k < in.points; ++k) {
+    const int g = in.grain[k];
+    if (!learns(in, k) || !two_phase[g]) continue;
+    for (size_t b = 0; b < p; ++b)
+      if (const float v = in.x[k * p + b]; !std::isnan(v)) cls[g][label[k]][b] += v, cnt[g][label[k]][b] += 1;
+  }
+  for (int g = 1; g <= G; ++g)
+    if (two_phase[g])
+      for (int c = 0; c < 2; ++c)
+        for (size_t b = 0; b < p; ++b) cls[g][c][b] = cnt[g][c][b] >= 3 ? cls[g][c][b] / cnt[g][c][b] : std::nan("");
+  // Per family, the slope of data on model over both classes of the grains of two components.
+  const size_t families = p / bins;
+  std::vector<double> slope(families, 1.0);
+  for (size_t f = 0; f < families; ++f) {
+    double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+    for (int g = 1; g <= G; ++g)
+      for (int c = 0; c < 2 && two_phase[g]; ++c)
+        for (size_t b = f * bins; b < (f + 1) * bins; ++b) {
+          const double x = in.model[g][c][b], y = cls[g][c][b];
+          if (std::isnan(x) || std::isnan(y)) continue;
+          sx += x, sy += y, sxx += x * x, sxy += x * y, n += 1;
+        }
+    const double var = sxx - sx * sx / std::max(n, 1.0);
+    if (n >= 4 && var > 0) slope[f] = (sxy - sx * sy / n) / var;
+  }
+  const GrainFeatures gf = grain_features(in);
+  for (int h = 1; h <= G; ++h) {
+    if (!one_phase[h]) continue;
+    const std::vector<double>& signature = in.ordering_signature[h];
+    std::vector<double> c;
+    for (int g = 1; g <= G; ++g) {
+      if (!two_phase[g]) continue;
+      double num = 0, den = 0;
+      for (size_t b = 0; b < p; ++b) {
+        if (signature[b] == 0 || gf.count[h][b] == 0) continue;
+        const double base = cls[g][0][b] + slope[b / bins] * (in.model[h][0][b] - in.model[g][0][b]);
+        const double d = cls[g][1][b] - cls[g][0][b];
+        if (std::isnan(base) || std::isnan(d)) continue;
+        num += (gf.mean[h][b] - base) * d, den += d * d;
+      }
+      if (den > 0) c.push_back(num / den);
+    }
+    ordered[h] = !c.empty() && median_of(c) >= 0.5;
+  }
+  return ordered;
+}
+
+bool transfer_possible(const LearnedInputs& in) {
+  if (in.bins == 0 || in.features % in.bins != 0) return false;
+  if (in.model.size() != static_cast<size_t>(in.grains) + 1 || in.ordering_signature.size() != in.model.size())
+    return false;
+  for (int g = 1; g <= in.grains; ++g)
+    if (in.model[g][0].size() != in.features || in.model[g][1].size() != in.features ||
+        in.ordering_signature[g].size() != in.features)
+      return false;
+  return true;
+}
+
+FirstSplit first_split(const LearnedInputs& in, const std::vector<double>& guess, const LearnedSpec& spec) {
+  const int G = in.grains;
+  std::vector<std::vector<double>> per_grain(G + 1);
   std::vector<double> pooled;
   for (size_t k = 0; k < in.points; ++k)
-    if (learns(in, k) && !std::isnan(in.first_guess[k]))
-      pooled.push_back(in.first_guess[k]), per_grain[in.grain[k]].push_back(in.first_guess[k]);
-  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(in.grains + 1, 0)};
-  // Grains of two components are cut midway between them; the median of those cuts (or, without
-  // such grains, the cut between the pooled components) decides the grains of one component.
-  std::vector<double> cut(in.grains + 1, std::nan("")), two_cuts;
-  for (int g = 1; g <= in.grains; ++g) {
+    if (learns(in, k) && !std::isnan(guess[k])) pooled.push_back(guess[k]), per_grain[in.grain[k]].push_back(guess[k]);
+  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(G + 1, 0)};
+  // Grains of two components are cut midway between them.
+  std::vector<double> cut(G + 1, std::nan("")), two_cuts, matrix_to_cut;
+  std::vector<uint8_t> two_phase(G + 1, 0), one_phase(G + 1, 0);
+  for (int g = 1; g <= G; ++g) {
     double evidence = 0;
     const std::array<EndMember, 2> mix = components(per_grain[g], evidence);
-    const bool two = evidence >= spec.min_evidence && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
-    if (two) cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]);
-  }
-  double one_cut = 0;
-  if (!two_cuts.empty()) {
-    std::nth_element(two_cuts.begin(), two_cuts.begin() + two_cuts.size() / 2, two_cuts.end());
-    one_cut = two_cuts[two_cuts.size() / 2];
-  } else {
-    double evidence = 0;
-    const std::array<EndMember, 2> all = components(pooled, evidence);
-    one_cut = 0.5 * (all[0].mean + all[1].mean);
-  }
-  for (int g = 1; g <= in.grains; ++g) {
-    if (!std::isnan(cut[g]) || per_grain[g].empty()) continue;
-    double mean = 0;
-    for (double x : per_grain[g]) mean += x / per_grain[g].size();
-    split.ordered_grain[g] = mean >= one_cut;
-    // A grain of one component above the cut holds the ordered phase alone; below it, its points
-    // are split at the cut one by one (where one pattern's guess is too noisy to show two
-    // components in the grain, the learning still starts from the points' own guesses).
-    cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
+    two_phase[g] = evidence >= spec.min_evidence && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
+    one_phase[g] = !two_phase[g] && !per_grain[g].empty();
+    if (two_phase[g])
+      cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]),
+      matrix_to_cut.push_back(cut[g] - mix[0].mean);
   }
   for (size_t k = 0; k < in.points; ++k)
-    split.label[k] = measured(in, k) && !std::isnan(cut[in.grain[k]]) && in.first_guess[k] >= cut[in.grain[k]];
+    split.label[k] = measured(in, k) && two_phase[in.grain[k]] && guess[k] >= cut[in.grain[k]];
+  // Grains of one component: which phase, from the grains of two components if there are any.
+  if (!two_cuts.empty() && transfer_possible(in)) {
+    split.ordered_grain = ordered_alone_by_transfer(in, split.label, two_phase, one_phase);
+    const double offset = median_of(matrix_to_cut);
+    for (int g = 1; g <= G; ++g)
+      if (one_phase[g]) cut[g] = split.ordered_grain[g] ? -HUGE_VAL : median_of(per_grain[g]) + offset;
+  } else {
+    double one_cut = median_of(two_cuts);
+    if (two_cuts.empty()) {
+      double evidence = 0;
+      const std::array<EndMember, 2> all = components(pooled, evidence);
+      one_cut = 0.5 * (all[0].mean + all[1].mean);
+    }
+    for (int g = 1; g <= G; ++g) {
+      if (!one_phase[g]) continue;
+      double mean = 0;
+      for (double x : per_grain[g]) mean += x / per_grain[g].size();
+      split.ordered_grain[g] = mean >= one_cut;
+      cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
+    }
+  }
+  for (size_t k = 0; k < in.points; ++k)
+    if (measured(in, k) && one_phase[in.grain[k]]) split.label[k] = guess[k] >= cut[in.grain[k]];
   return split;
 }
 
-/// One phase: which one from the model's first guess (its sign survives a mismatch of scale);
-/// every point is that phase.
-void report_one_phase(const LearnedInputs& in, LearnedFraction& out) {
-  double sum = 0, count = 0;
-  for (size_t k = 0; k < in.points; ++k)
-    if (measured(in, k) && !std::isnan(in.first_guess[k])) sum += in.first_guess[k], count += 1;
-  out.single_phase_ordered = count > 0 && sum / count > 0.5;
+/// A grain's level between the model's two phases with the data's own scale: the slope b of the
+/// grain's mean features on the model's disordered features over the fundamental families (bands
+/// that ordering barely changes fix how bright the model's bands are in these data), then the
+/// grain's position along its ordering signature, r = Σ s·(x̄ − b M₀) / (b Σ s²) over the signature's
+/// features, each family's mean over them removed: 0 for the disordered phase, 1 for the ordered,
+/// where the model's band shapes hold. NaN if the grain's model or features do not allow it.
+double scaled_model_level(const LearnedInputs& in, const GrainFeatures& gf, int g) {
+  const size_t p = in.features, bins = in.bins;
+  const std::vector<double>& x = gf.mean[g];
+  const std::vector<double>& m0 = in.model[g][0];
+  const std::vector<double>& sig = in.ordering_signature[g];
+  double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+  for (size_t b = in.superlattice_families * bins; b < p; ++b)
+    if (gf.count[g][b] > 0 && !std::isnan(m0[b]))
+      sx += m0[b], sy += x[b], sxx += m0[b] * m0[b], sxy += m0[b] * x[b], n += 1;
+  const double var = sxx - sx * sx / std::max(n, 1.0);
+  if (n < 4 || !(var > 0)) return std::nan("");
+  const double slope = (sxy - sx * sy / n) / var;
+  if (!(slope > 0)) return std::nan("");
+  double num = 0, den = 0;
+  for (size_t f = 0; f < in.superlattice_families; ++f) {
+    auto used = [&](size_t b) { return sig[b] != 0 && gf.count[g][b] > 0 && !std::isnan(m0[b]); };
+    double mr = 0, ms = 0, c = 0;
+    for (size_t b = f * bins; b < (f + 1) * bins; ++b)
+      if (used(b)) mr += x[b] - slope * m0[b], ms += sig[b], c += 1;
+    if (c < 2) continue;
+    for (size_t b = f * bins; b < (f + 1) * bins; ++b)
+      if (used(b)) num += (sig[b] - ms / c) * (x[b] - slope * m0[b] - mr / c), den += std::pow(sig[b] - ms / c, 2);
+  }
+  return den > 0 ? num / (slope * den) : std::nan("");
+}
+
+/// One phase: which one from the grains' levels with the data's scale (scaled_model_level, median
+/// over the grains; the model's first guess where the level cannot be formed). Every point is that
+/// phase.
+void report_one_phase(const LearnedInputs& in, const GrainFeatures& gf, LearnedFraction& out) {
+  std::vector<double> levels;
+  if (transfer_possible(in) && in.superlattice_families > 0)
+    for (int g = 1; g <= in.grains; ++g)
+      if (const double r = scaled_model_level(in, gf, g); !std::isnan(r)) levels.push_back(r);
+  if (!levels.empty()) {
+    out.single_phase_ordered = median_of(levels) > 0.5;
+  } else {
+    double sum = 0, count = 0;
+    for (size_t k = 0; k < in.points; ++k)
+      if (measured(in, k) && !std::isnan(in.first_guess[k])) sum += in.first_guess[k], count += 1;
+    out.single_phase_ordered = count > 0 && sum / count > 0.5;
+  }
   for (size_t k = 0; k < in.points; ++k)
     if (measured(in, k)) out.f[k] = out.single_phase_ordered ? 1.0f : 0.0f, out.uncertainty[k] = 0.0f;
 }
@@ -385,7 +627,9 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   // 1. First split from the model's guess; then learn, score, place and split again, keeping the
   // round with the strongest evidence for two components (a round can drift when edge or grain-boundary points
   // pull the direction toward their own signature).
-  const FirstSplit split = first_split(in, spec);
+  const std::vector<double> guess =
+      spec.spatial_start ? guess_along_spatial_direction(in, spatial_direction_scores(in, gf)) : in.first_guess;
+  const FirstSplit split = first_split(in, guess, spec);
   std::vector<uint8_t> label = split.label;
   std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
   std::vector<double> difference;
@@ -406,7 +650,7 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   out.two_phases = out.evidence >= spec.min_evidence && mix[1].weight >= spec.min_second_weight &&
                    mix[0].weight >= spec.min_second_weight;
   if (!out.two_phases) {
-    report_one_phase(in, out);
+    report_one_phase(in, gf, out);
     return out;
   }
   for (size_t k = 0; k < n; ++k)

@@ -241,6 +241,48 @@ void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* ou
       if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
 }
 
+/// Whether a chosen fundamental family lies on the planes of family `f` (hkl a multiple of f's):
+/// in L1₂ every superlattice family does ({100} inside {200}), but only the strong low-index ones
+/// are chosen, and a change of their intensity with ordering would swamp a faint interior excess.
+bool covered_by_fundamental(const PairFamily& f, const std::vector<PairFamily>& chosen, size_t first_fundamental) {
+  for (size_t j = first_fundamental; j < chosen.size(); ++j)
+    for (int m = 2; m <= 4; ++m)
+      if (chosen[j].family.hkl == m * f.family.hkl) return true;
+  return false;
+}
+
+/// The learned estimator's ordering signature of one grain (LearnedInputs::ordering_signature):
+/// the model's ordered − disordered profile difference at the grain's orientation on the
+/// superlattice families no chosen fundamental family covers (all of them if every one is
+/// covered), bins with |u| < 1.75 only, each family's mean over them removed; 0 elsewhere. Where
+/// a covering fundamental band changes with ordering (in strength or edge lines), its change would
+/// outweigh the faint superlattice band; the uncovered families see only the new band and the
+/// crossings of other bands, which the model's difference does not contain.
+std::vector<double> ordering_signature(const BandProfiler& features, const std::vector<PairFamily>& chosen,
+                                       size_t first_fundamental, const std::array<std::vector<double>, 2>& model) {
+  const size_t bins = static_cast<size_t>(features.bins());
+  std::vector<uint8_t> use(first_fundamental, 0);
+  for (size_t f = 0; f < first_fundamental; ++f) use[f] = !covered_by_fundamental(chosen[f], chosen, first_fundamental);
+  if (std::find(use.begin(), use.end(), 1) == use.end()) std::fill(use.begin(), use.end(), 1);
+  std::vector<double> signature(chosen.size() * bins, 0.0);
+  for (size_t f = 0; f < first_fundamental; ++f) {
+    if (!use[f]) continue;
+    double mean = 0, count = 0;
+    auto inside = [&](size_t b) {
+      const size_t i = f * bins + b;
+      const double u = std::abs(features.bin_centre_u(static_cast<int>(b)));
+      return (u < 0.75 || (u > 1.25 && u < 1.75)) && !std::isnan(model[0][i]) && !std::isnan(model[1][i]);
+    };
+    for (size_t b = 0; b < bins; ++b)
+      if (inside(b)) mean += model[1][f * bins + b] - model[0][f * bins + b], count += 1;
+    if (count < 2) continue;
+    mean /= count;
+    for (size_t b = 0; b < bins; ++b)
+      if (inside(b)) signature[f * bins + b] = model[1][f * bins + b] - model[0][f * bins + b] - mean;
+  }
+  return signature;
+}
+
 /// At a grain boundary the beam sees a second lattice. The other grain's model pattern profiled in
 /// this grain's frame (`seen`, families × bins), less this grain's own model profile (`own_model`),
 /// is the direction along which a point's features move with the other lattice's share; its
@@ -736,7 +778,7 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
     const auto model_features = learned_model_features(features, model_linear);
 
     LearnedInputs in;
-    in.points = n, in.features = p, in.grains = grains;
+    in.points = n, in.features = p, in.grains = grains, in.cols = grid.cols;
     in.grain.assign(n, 0);
     in.fold.assign(n, 0);
     in.x.assign(n * p, std::nanf(""));
@@ -752,6 +794,14 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         in.boundary[k] = in.boundary[k] || ori.grains.id[grid.index(nb)] != ori.grains.id[k];
     for (size_t k = 0; k < n; ++k)
       if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) in.grain[k] = ori.grains.id[k];
+    // A grain with too few points away from its boundaries (a sliver at the field's edge) cannot be
+    // placed: its mean is too noisy and too mixed with its neighbours' lattices.
+    std::vector<int> inner_points(grains + 1, 0);
+    for (size_t k = 0; k < n; ++k)
+      if (in.grain[k] > 0 && !in.boundary[k]) ++inner_points[in.grain[k]];
+    for (size_t k = 0; k < n; ++k)
+      if (in.grain[k] > 0 && inner_points[in.grain[k]] < spec.learned.min_grain_points)
+        in.grain[k] = 0, res.reason[k] = static_cast<uint8_t>(FractionReason::small_grain);
     // Grain boundaries: the second lattice's share taken out of the features, about each grain's
     // mean over its points away from boundaries.
     const CrossProfiles cross = cross_profiles_with(features, model_linear);
@@ -764,6 +814,12 @@ FractionResults ordered_fraction_scan(const ScanConfig& config, const Orientatio
         take_out_second_lattice(in.x.data() + k * p, interior.mean[g], interior.count[g], model_features[g][0],
                                 seen->second, bins);
     }
+    in.model = model_features;
+    in.bins = bins;
+    in.superlattice_families = first_fundamental;
+    in.ordering_signature.assign(grains + 1, {});
+    for (int g = 1; g <= grains; ++g)
+      in.ordering_signature[g] = ordering_signature(features, chosen, first_fundamental, model_features[g]);
     for (size_t k = 0; k < n; ++k)
       if (in.grain[k] > 0)
         in.first_guess[k] =
