@@ -439,6 +439,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["points_unusable"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 1);
   j["points_without_orientation"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 2);
   j["points_without_band_contrast"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 3);
+  j["points_in_grains_too_small_to_place"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 4);
   j["ordered_area_fraction"] = r.ordered_area_fraction();
   j["ci95"] = {{"low", r.e562.low}, {"high", r.e562.high}, {"method", r.e562.method}};
   j["ci95_bootstrap"] = {{"low", r.bootstrap.low}, {"high", r.bootstrap.high}, {"method", r.bootstrap.method}};
