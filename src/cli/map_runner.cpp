@@ -8,6 +8,7 @@
 
 #include "command.hpp"
 #include "orderband/error.hpp"
+#include "orderband/folder_lock.hpp"
 #include "orderband/point_mask.hpp"
 #include "orderband/version.hpp"
 #include "progress.hpp"
@@ -67,6 +68,7 @@ MapResults run_map(const ScanConfig& config, const std::string& folder, const Ma
   std::error_code ec;
   fs::create_directories(folder, ec);
   if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const FolderLock lock(folder);
   FolderRowStore store(folder + "/.resume", map_key(config, o));
   std::unique_ptr<ProgressReporter> bar;
   std::string current;
@@ -82,6 +84,8 @@ MapResults run_map(const ScanConfig& config, const std::string& folder, const Ma
   if (bar) bar->finish();
   if (!quiet && store.rows_found() > 0)
     std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", store.rows_found());
+  if (!quiet && store.rows_damaged() > 0)
+    std::fprintf(stderr, "resume: %zu damaged row results computed again\n", store.rows_damaged());
   write_map_outputs(folder, config, r, options, command_line());
   store.clear();
   return r;
