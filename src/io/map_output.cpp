@@ -27,6 +27,11 @@ namespace fs = std::filesystem;
 namespace orderband {
 namespace {
 
+/// The learned estimator places every grain's matrix at zero: ordering finer than the beam in the
+/// matrix is counted as matrix, so its sub-resolution fraction is ≈ 0 by construction, not measured.
+bool subresolution_measured(const MapResults& r) { return r.fraction.estimator != "learned"; }
+
+
 double pixels_per_step(const ScanGrid& grid) {
   return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols)));
 }
@@ -316,7 +321,8 @@ void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapRe
   row("ordered area fraction", fmt("%.4f", truth["ordered_area_fraction"].get<double>()),
       fmt("%.4f", r.ordered_area_fraction()) + " (" + fmt("%.4f", r.e562.low) + " – " + fmt("%.4f", r.e562.high) + ")");
   row("sub-resolution ordered fraction", fmt("%.4f", truth["subresolution_ordered_fraction"].get<double>()),
-      fmt("%.4f", r.fraction.subresolution_fraction) + " ± " + fmt("%.4f", r.fraction.subresolution_se));
+      fmt("%.4f", r.fraction.subresolution_fraction) + " ± " + fmt("%.4f", r.fraction.subresolution_se) +
+          (subresolution_measured(r) ? "" : " (not measured: learned estimator)"));
   if (pri)
     row("primary: area fraction; sections off the border",
         fmt("%.4f", cls("primary", "area_fraction")) + "; " + fmt("%.0f", cls("primary", "sections_all")),
@@ -446,6 +452,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["subresolution_ordered_fraction"] = r.fraction.subresolution_fraction;
   j["subresolution_ordered_fraction_se"] = r.fraction.subresolution_se;
   j["subresolution_points"] = r.fraction.subresolution_points;
+  j["subresolution_measured"] = subresolution_measured(r);
   j["pattern_centre"] = {{"refined", r.fraction.pattern_centre_refined},
                          {"grains_used", r.fraction.pattern_centre_grains},
                          {"pc_px", {r.fraction.geometry.pc_px.x(), r.fraction.geometry.pc_px.y()}},
@@ -645,6 +652,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << fmt("%.4f", r.bootstrap.high) << "</td></tr>"
     << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
     << fmt("%.4f", r.fraction.subresolution_fraction) << " ± " << fmt("%.4f", r.fraction.subresolution_se)
+    << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
     << "</td></tr>"
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
