@@ -43,6 +43,11 @@ struct MapResults {
   double ordered_area_fraction() const { return fraction.mean_raw(); }
 };
 
+/// Plain-language warnings about results that rest on too little: most points without an ordered
+/// fraction or without an orientation (the area fraction then comes from the few that are left),
+/// the learned estimator's sub-resolution fraction (not measured). Empty when none applies.
+std::vector<std::string> map_warnings(const MapResults& r);
+
 /// Progress of a stage: (stage name, done, total).
 using StageProgress = std::function<void(const std::string& stage, size_t done, size_t total)>;
 

@@ -43,12 +43,17 @@ struct SectionSample {
   std::vector<double> diameter_um;
   double limit_um = 0;
   double area_um2 = 0;
+  /// Spread of an error common to every measured diameter (µm): where a section's edge falls
+  /// between two grid points is not seen, so the measured diameters share a shift within about
+  /// ± half a step (uniform: step/√12; common practice, no source). Added to the intervals.
+  double common_error_sd_um = 0;
 };
 
 /// A sphere-size distribution fitted to sections by maximum likelihood, the truncation at the
 /// detection limit taken into account: ℓ = Σ ln f(dᵢ) − n ln S(limit). 95 % intervals by the
 /// observed information (Wald, on the logarithms of the parameters, the delta method for the
-/// mean); the number density N_V = N_A / (⟨D⟩ S(limit)) with the count's Poisson error added.
+/// mean), widened by the sample's common diameter error (relative to the mean, in quadrature);
+/// the number density N_V = N_A / (⟨D⟩ S(limit)) with the count's Poisson error added.
 struct SphereSizeFit {
   SphereSizeModel model = SphereSizeModel::lognormal;
   bool determined = false;  ///< false: the sections cannot fix the distribution (see `reason`)

@@ -86,6 +86,7 @@ MapResults run_map(const ScanConfig& config, const std::string& folder, const Ma
     std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", store.rows_found());
   if (!quiet && store.rows_damaged() > 0)
     std::fprintf(stderr, "resume: %zu damaged row results computed again\n", store.rows_damaged());
+  for (const std::string& w : map_warnings(r)) std::fprintf(stderr, "orderband map: warning: %s\n", w.c_str());
   write_map_outputs(folder, config, r, options, command_line());
   store.clear();
   return r;

@@ -36,8 +36,10 @@ DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResul
 void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int unfold_classes, MapResults& r) {
   if (classes.names.size() < 2) return;
   const std::string& secondary = classes.names[classes.names.size() - 2];
-  SectionSample sample{
-      {}, r.detection.diameter_um, r.segmentation.usable_points * grid.step_um * grid.row_spacing_um()};
+  SectionSample sample{{},
+                       r.detection.diameter_um,
+                       r.segmentation.usable_points * grid.step_um * grid.row_spacing_um(),
+                       grid.step_um / std::sqrt(12.0)};
   for (const Particle2D& p : r.segmentation.particles)
     if (p.size_class == secondary && !p.touches_border) sample.diameter_um.push_back(p.ecd_um);
   if (!(sample.area_um2 > 0)) return;
@@ -47,6 +49,27 @@ void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int u
 }
 
 }  // namespace
+
+std::vector<std::string> map_warnings(const MapResults& r) {
+  std::vector<std::string> w;
+  const size_t n = r.fraction.reason.size(), measured = r.fraction.measured();
+  const size_t no_orientation = r.orientations.orientation.size() - r.orientations.with_orientation();
+  auto percent = [&](size_t k) {
+    return std::to_string(static_cast<int>(std::lround(100.0 * k / std::max<size_t>(n, 1))));
+  };
+  if (n > 0 && 5 * no_orientation > n)
+    w.push_back(percent(no_orientation) + " % of the points have no orientation (" + std::to_string(no_orientation) +
+                " of " + std::to_string(n) +
+                "): check the patterns (hot pixels, the detector mask, the pattern centre) before trusting the maps");
+  if (n > 0 && 2 * measured < n)
+    w.push_back("the ordered fraction rests on " + std::to_string(measured) + " of " + std::to_string(n) + " points (" +
+                percent(measured) + " %); the area fraction and the statistics describe those points only");
+  if (r.fraction.estimator == "learned")
+    w.push_back(
+        "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "
+        "counted as matrix, not measured");
+  return w;
+}
 
 const SphereSizeFit* MapResults::secondary_preferred() const {
   const SphereSizeFit *a = &secondary_lognormal, *b = &secondary_lsw;

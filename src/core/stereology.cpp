@@ -179,9 +179,12 @@ SphereSizeFit fit_sphere_sizes(const SectionSample& sample, SphereSizeModel mode
     const SphereSizes s = sizes_at(model, y);
     return std::log(s.mean_square_um2() / s.mean_um());
   });
-  const double se_mean = std::sqrt(g_mean.dot(cov * g_mean));
-  const double se_section = std::sqrt(g_section.dot(cov * g_section));
-  const double se_density = std::sqrt(1.0 / n + g_seen.dot(cov * g_seen));
+  // A shift common to all diameters moves ⟨D⟩, the mean section and (through ⟨D⟩) N_V by about the
+  // same relative amount.
+  const double common = std::pow(sample.common_error_sd_um / fit.mean_diameter_um, 2);
+  const double se_mean = std::sqrt(g_mean.dot(cov * g_mean) + common);
+  const double se_section = std::sqrt(g_section.dot(cov * g_section) + common);
+  const double se_density = std::sqrt(1.0 / n + g_seen.dot(cov * g_seen) + common);
   const double z = 1.959963984540054;  // two-sided 95 % normal quantile
   fit.mean_low_um = fit.mean_diameter_um * std::exp(-z * se_mean);
   fit.mean_high_um = fit.mean_diameter_um * std::exp(z * se_mean);

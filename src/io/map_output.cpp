@@ -31,7 +31,6 @@ namespace {
 /// matrix is counted as matrix, so its sub-resolution fraction is ≈ 0 by construction, not measured.
 bool subresolution_measured(const MapResults& r) { return r.fraction.estimator != "learned"; }
 
-
 double pixels_per_step(const ScanGrid& grid) {
   return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols)));
 }
@@ -424,6 +423,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   nlohmann::json j;
   j["tool"] = "orderband";
   j["version"] = kVersion;
+  j["warnings"] = map_warnings(r);
   j["command_line"] = command_line;
   j["scan"] = config.path;
   nlohmann::json hashes;
@@ -644,6 +644,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   h << "<h1>Ordered-phase analysis</h1>\n<p>Scan <code>" << xml_escape(config.path) << "</code>: " << grid.rows << " x "
     << grid.cols << " points, step " << fmt("%g", grid.step_um) << " µm; pair " << xml_escape(r.ordered_phase) << " / "
     << xml_escape(r.disordered_phase) << " at " << fmt("%g", config.kv) << " kV.</p>\n";
+  for (const std::string& w : map_warnings(r))
+    h << "<p style=\"border:1px solid #c60;background:#fff4e5;padding:6px\"><b>Warning:</b> " << xml_escape(w)
+      << "</p>\n";
   h << "<table><tr><th>quantity</th><th>value</th></tr>"
     << "<tr><td>ordered area fraction</td><td>" << fmt("%.4f", r.ordered_area_fraction()) << "</td></tr>"
     << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << fmt("%.4f", r.e562.low) << " – "

@@ -1,0 +1,35 @@
+// Warnings when a map's results rest on too few points.
+#include <gtest/gtest.h>
+
+#include "orderband/map_scan.hpp"
+
+namespace orderband {
+namespace {
+
+MapResults results_with(size_t points, size_t oriented, size_t measured) {
+  MapResults r;
+  r.orientations.orientation.assign(points, std::nullopt);
+  for (size_t k = 0; k < oriented; ++k) r.orientations.orientation[k] = Rotation();
+  r.fraction.reason.assign(points, static_cast<uint8_t>(FractionReason::no_orientation));
+  for (size_t k = 0; k < measured; ++k) r.fraction.reason[k] = static_cast<uint8_t>(FractionReason::ok);
+  r.fraction.estimator = "model";
+  return r;
+}
+
+TEST(MapWarnings, SayWhenTheResultsRestOnFewPoints) {
+  // 256 points of which 17 keep an orientation and a fraction (as five hot pixels per pattern with
+  // the filter off gave): both warnings, with the counts.
+  const std::vector<std::string> w = map_warnings(results_with(256, 17, 17));
+  ASSERT_EQ(w.size(), 2u);
+  EXPECT_NE(w[0].find("93 % of the points have no orientation (239 of 256)"), std::string::npos) << w[0];
+  EXPECT_NE(w[1].find("rests on 17 of 256 points (7 %)"), std::string::npos) << w[1];
+  // 85 % oriented and measured: no warning; the learned estimator always says what it does not measure.
+  EXPECT_TRUE(map_warnings(results_with(256, 218, 218)).empty());
+  MapResults learned = results_with(256, 256, 256);
+  learned.fraction.estimator = "learned";
+  ASSERT_EQ(map_warnings(learned).size(), 1u);
+  EXPECT_NE(map_warnings(learned)[0].find("tertiary"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace orderband
