@@ -275,5 +275,33 @@ TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
   fs::remove_all(dir);
 }
 
+TEST(CliScreen, AFailedTrialIsReportedAndTheOthersAreCompared) {
+  // Trial B's pattern file lost its last kilobyte: B fails, A is still mapped and compared, the
+  // failure is logged, listed in comparison.json and the report, and the exit code says so.
+  const std::string dir = test::make_temp_dir("screen-fail");
+  fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
+  const std::string a = make_scan(dir + "/a", 16, 41), b = make_scan(dir + "/b", 16, 42);
+  fs::resize_file(dir + "/b/scan/patterns.raw", fs::file_size(dir + "/b/scan/patterns.raw") - 1024);
+  std::ofstream(dir + "/trials.toml") << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
+                                         "[[trial]]\nlabel = \"A\"\nscan = \""
+                                      << a
+                                      << "\"\ntemperature_c = 760\ntime_h = 4\n"
+                                         "[[trial]]\nlabel = \"B\"\nscan = \""
+                                      << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
+  const auto r = test::run_orderband("screen " + dir + "/trials.toml -o " + dir + "/out --quiet");
+  EXPECT_EQ(r.exit_code, 1) << r.err;
+  EXPECT_NE(r.err.find("trial B failed"), std::string::npos) << r.err;
+  const std::string log = slurp(dir + "/out/screen_log.txt");
+  EXPECT_NE(log.find("trial A: computed"), std::string::npos) << log;
+  EXPECT_NE(log.find("trial B: failed"), std::string::npos) << log;
+  const auto j = nlohmann::json::parse(slurp(dir + "/out/comparison.json"));
+  ASSERT_EQ(j["trials"].size(), 1u);
+  EXPECT_EQ(j["trials"][0]["label"], "A");
+  ASSERT_EQ(j["failed_trials"].size(), 1u);
+  EXPECT_EQ(j["failed_trials"][0]["label"], "B");
+  EXPECT_NE(slurp(dir + "/out/report.html").find("Trial B failed"), std::string::npos);
+  fs::remove_all(dir);
+}
+
 }  // namespace
 }  // namespace orderband

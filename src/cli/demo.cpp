@@ -42,7 +42,7 @@ std::function<int()> setup_demo(CLI::App& sub) {
     apply_threads(o->threads);
     const ScreenOutcome r = run_screen(demo_data_dir() + "/trials.toml", o->out, MapRunOptions{}, o->quiet);
     std::printf("demo report: %s\n", fs::absolute(r.report).lexically_normal().c_str());
-    return 0;
+    return r.failed.empty() ? 0 : 1;
   };
 }
 

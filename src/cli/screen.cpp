@@ -198,34 +198,44 @@ std::vector<Ranked> rank_truth(const std::vector<std::optional<TrialNumbers>>& t
 }  // namespace
 
 ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
-  const TrialsConfig tc = read_trials_config(trials_path);
+  TrialsConfig tc = read_trials_config(trials_path);
   std::error_code ec;
   fs::create_directories(out, ec);
   if (ec) fail("cannot create output folder '", out, "': ", ec.message());
   ScreenOutcome outcome;
   std::ostringstream log;
   std::vector<nlohmann::json> summaries;
+  std::vector<Trial> mapped;  // the trials whose map succeeded; a failed one is reported and skipped
   for (const Trial& t : tc.trials) {
-    const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, quiet) : t.scan;
-    const ScanConfig config = read_scan_config(scan_path);
-    const std::string folder = out + "/" + t.label;
-    const std::string key = map_key(config, run);
-    const std::string key_file = folder + "/run_key.txt";
-    const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
-                       read_text_file(key_file, "run key") == key + "\n";
-    if (reuse) {
-      log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
-      if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
-    } else {
-      if (!quiet) std::fprintf(stderr, "trial %s: mapping %s\n", t.label.c_str(), scan_path.c_str());
-      run_map(config, folder, run, quiet);
-      write_text_atomically(key_file, key + "\n");
-      log << "trial " << t.label << ": computed (key " << key << ")\n";
-      outcome.computed.push_back(t.label);
+    try {
+      const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, quiet) : t.scan;
+      const ScanConfig config = read_scan_config(scan_path);
+      const std::string folder = out + "/" + t.label;
+      const std::string key = map_key(config, run);
+      const std::string key_file = folder + "/run_key.txt";
+      const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
+                         read_text_file(key_file, "run key") == key + "\n";
+      if (reuse) {
+        log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
+        if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
+      } else {
+        if (!quiet) std::fprintf(stderr, "trial %s: mapping %s\n", t.label.c_str(), scan_path.c_str());
+        run_map(config, folder, run, quiet);
+        write_text_atomically(key_file, key + "\n");
+        log << "trial " << t.label << ": computed (key " << key << ")\n";
+        outcome.computed.push_back(t.label);
+      }
+      summaries.push_back(nlohmann::json::parse(read_text_file(folder + "/summary.json", "trial summary")));
+      mapped.push_back(t);
+    } catch (const std::exception& e) {
+      log << "trial " << t.label << ": failed: " << e.what() << "\n";
+      std::fprintf(stderr, "orderband screen: trial %s failed: %s\n", t.label.c_str(), e.what());
+      outcome.failed.emplace_back(t.label, e.what());
     }
-    summaries.push_back(nlohmann::json::parse(read_text_file(folder + "/summary.json", "trial summary")));
   }
   write_text_atomically(out + "/screen_log.txt", log.str());
+  if (mapped.empty()) fail("every trial failed (see ", out, "/screen_log.txt)");
+  tc.trials = mapped;  // the comparison covers the trials that were mapped
 
   // Numbers per trial.
   std::vector<TrialNumbers> numbers;
@@ -302,6 +312,9 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
                   {"reasons", r.reasons},
                   {"flags", r.flags}});
   j["ranking"] = rk;
+  nlohmann::json failed = nlohmann::json::array();
+  for (const auto& [label, error] : outcome.failed) failed.push_back({{"label", label}, {"error", error}});
+  j["failed_trials"] = failed;
   write_text_atomically(out + "/comparison.json", j.dump(2) + "\n");
 
   // Plots.
@@ -386,7 +399,11 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
        "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
        "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
        ".caution{font-size:0.85em;color:#555}</style></head><body>\n<h1>"
-    << xml_escape(tc.title) << "</h1>\n<h2>Ranking against the target</h2><table><tr><th>rank</th><th>trial</th>"
+    << xml_escape(tc.title) << "</h1>\n";
+  for (const auto& [label, error] : outcome.failed)
+    h << "<p style=\"border:1px solid #c60;background:#fff4e5;padding:6px\"><b>Trial " << xml_escape(label)
+      << " failed and is not compared:</b> " << xml_escape(error) << "</p>\n";
+  h << "<h2>Ranking against the target</h2><table><tr><th>rank</th><th>trial</th>"
     << "<th>ordered fraction (95 % CI)</th><th>secondary mean section ECD, all sections (µm, 95 % CI)</th>"
        "<th>primary fraction</th><th>verdict</th></tr>";
   for (size_t k = 0; k < ranking.size(); ++k) {
@@ -459,7 +476,10 @@ std::function<int()> setup_screen(CLI::App& sub) {
     apply_threads(o->threads);
     const ScreenOutcome r = run_screen(o->trials, o->out, o->run, o->quiet);
     std::printf("report: %s\n", r.report.c_str());
-    return 0;
+    if (!r.failed.empty())
+      std::fprintf(stderr, "orderband screen: %zu of the trials failed (listed in the report and comparison.json)\n",
+                   r.failed.size());
+    return r.failed.empty() ? 0 : 1;
   };
 }
 
