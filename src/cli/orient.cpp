@@ -1,8 +1,11 @@
 // `orderband orient SCAN.toml -o DIR`: orientations, grains and their maps.
 #include <cstdio>
+#include <filesystem>
 #include <memory>
 
 #include "command.hpp"
+#include "orderband/error.hpp"
+#include "orderband/folder_lock.hpp"
 #include "orderband/orient_output.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "progress.hpp"
@@ -35,10 +38,14 @@ std::function<int()> setup_orient(CLI::App& sub) {
     OrientSpec spec;
     spec.grains.threshold_deg = o->grain_threshold;
     spec.grains.min_points = o->min_grain;
+    const std::string folder = o->out.empty() ? config.output_folder : o->out;
+    std::error_code ec;
+    std::filesystem::create_directories(folder, ec);
+    if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+    const FolderLock lock(folder);
     ProgressReporter progress("orient", "points", o->quiet);
     const OrientationResults r = orient_scan(config, spec, [&](size_t d, size_t t) { progress(d, t); });
     progress.finish();
-    const std::string folder = o->out.empty() ? config.output_folder : o->out;
     const OrderingPair pair = load_phases(config.phases);
     write_orientation_outputs(folder, config, r, spec, pair.disordered.name, command_line());
     if (!o->quiet)
