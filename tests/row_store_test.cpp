@@ -49,6 +49,23 @@ TEST(FolderRowStore, TakesSoundRowsAndRecomputesDamagedOrSwappedOnes) {
   std::filesystem::remove_all(dir);
 }
 
+TEST(FolderHash, ChangesWithAnyImagesNameOrBytes) {
+  const std::string dir = test::make_temp_dir("hash");
+  auto write = [&](const std::string& name, const std::string& text) { std::ofstream(dir + "/" + name) << text; };
+  write("p_0.png", "first image"), write("p_1.png", "second image");
+  const std::string h0 = folder_hash_fnv1a64(dir);
+  EXPECT_EQ(folder_hash_fnv1a64(dir), h0);
+  write("p_1.png", "second imagf");  // one byte changed
+  const std::string h1 = folder_hash_fnv1a64(dir);
+  EXPECT_NE(h1, h0);
+  std::filesystem::rename(dir + "/p_1.png", dir + "/p_2.png");  // renamed
+  const std::string h2 = folder_hash_fnv1a64(dir);
+  EXPECT_NE(h2, h1);
+  write("p_3.png", "");  // an empty image added
+  EXPECT_NE(folder_hash_fnv1a64(dir), h2);
+  std::filesystem::remove_all(dir);
+}
+
 TEST(FolderLock, ASecondRunIntoTheSameFolderStopsUntilTheFirstEnds) {
   const std::string dir = test::make_temp_dir("lock");
   {

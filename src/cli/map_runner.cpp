@@ -36,7 +36,13 @@ MapOptions to_map_options(const MapRunOptions& o) {
 std::string map_key(const ScanConfig& config, const MapRunOptions& o) {
   std::ostringstream k;
   k << kVersion << '|' << file_hash_fnv1a64(config.path) << '|'
-    << (fs::is_directory(config.patterns.path) ? config.patterns.path : file_hash_fnv1a64(config.patterns.path)) << '|'
+    << (fs::is_directory(config.patterns.path) ? folder_hash_fnv1a64(config.patterns.path)
+                                               : file_hash_fnv1a64(config.patterns.path))
+    << '|'
+    << (config.phases.pair_name.empty()
+            ? file_hash_fnv1a64(config.phases.ordered_cif) + file_hash_fnv1a64(config.phases.disordered_cif)
+            : config.phases.pair_name)
+    << '|'
     << (config.orientations.source == OrientationSourceKind::file ? file_hash_fnv1a64(config.orientations.file)
                                                                   : "find")
     << '|' << (config.end_members.ordered_mask.empty() ? "" : file_hash_fnv1a64(config.end_members.ordered_mask)) << '|'

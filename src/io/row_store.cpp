@@ -1,6 +1,7 @@
 // Row-result persistence and hashing.
 #include "orderband/row_store.hpp"
 
+#include <algorithm>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -92,6 +93,19 @@ std::string file_hash_fnv1a64(const std::string& path) {
     for (std::streamsize k = 0; k < in.gcount(); ++k) h = (h ^ static_cast<uint8_t>(buf[k])) * kFnvPrime;
   }
   return hex(h);
+}
+
+std::string folder_hash_fnv1a64(const std::string& folder) {
+  std::vector<fs::path> files;
+  std::error_code ec;
+  for (const auto& e : fs::directory_iterator(folder, ec))
+    if (e.is_regular_file()) files.push_back(e.path());
+  if (ec) fail("cannot list '", folder, "' to hash it: ", ec.message());
+  std::sort(files.begin(), files.end());
+  std::string names_and_hashes;
+  for (const fs::path& f : files)
+    names_and_hashes += f.filename().string() + '\0' + file_hash_fnv1a64(f.string()) + '\n';
+  return text_hash_fnv1a64(names_and_hashes);
 }
 
 std::string text_hash_fnv1a64(const std::string& text) {
