@@ -236,16 +236,19 @@ TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {
   EXPECT_GT(fs::file_size(shot), 20000u);
 }
 
+/// A trials description of two trials at 760 °C: A (4 h, scan `a`) and B (16 h, scan `b`).
+void write_two_trials(const std::string& path, const std::string& a, const std::string& b) {
+  std::ofstream(path) << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
+                         "[[trial]]\nlabel = \"A\"\nscan = \""
+                      << a << "\"\ntemperature_c = 760\ntime_h = 4\n[[trial]]\nlabel = \"B\"\nscan = \"" << b
+                      << "\"\ntemperature_c = 760\ntime_h = 16\n";
+}
+
 TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
   const std::string dir = test::make_temp_dir("screen");
   fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
   const std::string a = make_scan(dir + "/a", 16, 41), b = make_scan(dir + "/b", 16, 42);
-  std::ofstream(dir + "/trials.toml") << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
-                                         "[[trial]]\nlabel = \"A\"\nscan = \""
-                                      << a
-                                      << "\"\ntemperature_c = 760\ntime_h = 4\n"
-                                         "[[trial]]\nlabel = \"B\"\nscan = \""
-                                      << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
+  write_two_trials(dir + "/trials.toml", a, b);
   const std::string cmd = "screen " + dir + "/trials.toml -o " + dir + "/out --quiet";
   auto r = test::run_orderband(cmd);
   ASSERT_EQ(r.exit_code, 0) << r.err;
@@ -282,12 +285,7 @@ TEST(CliScreen, AFailedTrialIsReportedAndTheOthersAreCompared) {
   fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
   const std::string a = make_scan(dir + "/a", 16, 41), b = make_scan(dir + "/b", 16, 42);
   fs::resize_file(dir + "/b/scan/patterns.raw", fs::file_size(dir + "/b/scan/patterns.raw") - 1024);
-  std::ofstream(dir + "/trials.toml") << "[screen]\ntitle = \"test\"\n[target]\nordered_fraction = [0.2, 0.4]\n"
-                                         "[[trial]]\nlabel = \"A\"\nscan = \""
-                                      << a
-                                      << "\"\ntemperature_c = 760\ntime_h = 4\n"
-                                         "[[trial]]\nlabel = \"B\"\nscan = \""
-                                      << b << "\"\ntemperature_c = 760\ntime_h = 16\n";
+  write_two_trials(dir + "/trials.toml", a, b);
   const auto r = test::run_orderband("screen " + dir + "/trials.toml -o " + dir + "/out --quiet");
   EXPECT_EQ(r.exit_code, 1) << r.err;
   EXPECT_NE(r.err.find("trial B failed"), std::string::npos) << r.err;

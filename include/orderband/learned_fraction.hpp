@@ -78,20 +78,22 @@ struct LearnedFraction {
 /// iterated with the split it implies, cross-fitted over the two folds so that no point's own noise
 /// shapes the direction it is scored with), places every point between the two end members, and
 /// decides whether the scan holds one phase or two. Steps:
-///  1. first split from the model's first guess, per grain: a grain whose guesses hold two
-///     components (ΔBIC ≥ min_evidence) is split midway between them; a grain of one component
-///     whose mean guess lies above the median of those cuts holds the ordered phase alone, the
-///     points of the others are split at that cut one by one (the model's level and scale are not
-///     trusted, only its direction and sign);
+///  1. first split along the scan's own direction of ordering (spatial_direction_scores, its sign
+///     from the ordering signature): a grain whose points hold two components (ΔBIC ≥
+///     min_evidence) is split midway between them; a grain of one component holds one phase alone,
+///     which one decided against the grains of two components (the model moves their matrix to
+///     the grain's orientation, the data give the ordering difference); without such grains, by
+///     the model's level;
 ///  2. per fold: pooled class difference and within-class covariance of the features (grain and
 ///     class means removed), direction w = Σ⁻¹ Δ, scores of the other fold's points;
 ///  3. end members: per grain, the mean score of its matrix points is 0 (a grain of the ordered
 ///     phase alone, such as a primary particle with its own orientation, anchors its mean at 1); the
 ///     scale is the score of pure ordered points, the upper component of a Gaussian + uniform
-///     mixture of the anchored scores pooled over grains; split again at 0.5 and repeat, keeping
-///     the round with the strongest evidence for two components;
+///     mixture of the anchored scores pooled over grains, then zeros and scale refined jointly by
+///     EM; with more than one iteration, split again at 0.5 and repeat, keeping the round with the
+///     strongest evidence for two components;
 ///  4. one phase when the evidence for a second component (ΔBIC of two Gaussians + uniform over
-///     one) is below min_evidence; which phase from the model's first guess.
+///     one) is below min_evidence; which phase from the grains' levels with the data's band scale.
 /// The disordered end member is the matrix: ordering finer than the beam inside the matrix
 /// (tertiary) is not separable from it by the data alone and is counted as disordered.
 LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec = {});

@@ -71,9 +71,6 @@ MapResults run_map(const ScanConfig& config, const std::string& folder, const Ma
     if (!config.end_members.disordered_mask.empty())
       options.fraction.disordered_mask = read_point_mask(config.end_members.disordered_mask, config.grid);
   }
-  std::error_code ec;
-  fs::create_directories(folder, ec);
-  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
   const FolderLock lock(folder);
   FolderRowStore store(folder + "/.resume", map_key(config, o));
   std::unique_ptr<ProgressReporter> bar;

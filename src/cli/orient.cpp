@@ -1,10 +1,8 @@
 // `orderband orient SCAN.toml -o DIR`: orientations, grains and their maps.
 #include <cstdio>
-#include <filesystem>
 #include <memory>
 
 #include "command.hpp"
-#include "orderband/error.hpp"
 #include "orderband/folder_lock.hpp"
 #include "orderband/orient_output.hpp"
 #include "orderband/pair_catalog.hpp"
@@ -39,9 +37,6 @@ std::function<int()> setup_orient(CLI::App& sub) {
     spec.grains.threshold_deg = o->grain_threshold;
     spec.grains.min_points = o->min_grain;
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
-    std::error_code ec;
-    std::filesystem::create_directories(folder, ec);
-    if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
     const FolderLock lock(folder);
     ProgressReporter progress("orient", "points", o->quiet);
     const OrientationResults r = orient_scan(config, spec, [&](size_t d, size_t t) { progress(d, t); });

@@ -169,10 +169,9 @@ namespace {
 /// removed) give the difference that one unit of score makes; its projection on the grain's
 /// ordering signature (LearnedInputs::ordering_signature) is positive when the scores rise with
 /// ordering. 0 when no signature is given.
-double ordering_sign(const LearnedInputs& in, const std::vector<double>& score) {
+double ordering_sign(const LearnedInputs& in, const GrainFeatures& gf, const std::vector<double>& score) {
   if (in.ordering_signature.size() != static_cast<size_t>(in.grains) + 1) return 0;
   const size_t p = in.features;
-  const GrainFeatures gf = grain_features(in);
   std::vector<double> ms(in.grains + 1, 0.0), cnt(in.grains + 1, 0.0);
   for (size_t k = 0; k < in.points; ++k)
     if (learns(in, k) && !std::isnan(score[k])) ms[in.grain[k]] += score[k], cnt[in.grain[k]] += 1;
@@ -197,7 +196,8 @@ double ordering_sign(const LearnedInputs& in, const std::vector<double>& score) 
 /// the grains' levels (used only where no grain shows two components); the point-to-point
 /// variation comes from the data's direction, far less noisy than the model's projection where the
 /// model's intensities are wrong. The model's guess where no spatial score is known.
-std::vector<double> guess_along_spatial_direction(const LearnedInputs& in, const std::vector<double>& spatial) {
+std::vector<double> guess_along_spatial_direction(const LearnedInputs& in, const GrainFeatures& gf,
+                                                  const std::vector<double>& spatial) {
   std::vector<double> guess = in.first_guess;
   if (spatial.empty()) return guess;
   const int G = in.grains;
@@ -217,7 +217,8 @@ std::vector<double> guess_along_spatial_direction(const LearnedInputs& in, const
   // The sign from the ordering signature where it is given; the magnitude from the regression (1
   // spatial unit per guess unit where the model's guess does not vary with the scores at all).
   double slope = sxy / sxx;
-  if (const double sign = ordering_sign(in, spatial); sign != 0) slope = sign * (slope != 0 ? std::abs(slope) : 1.0);
+  if (const double sign = ordering_sign(in, gf, spatial); sign != 0)
+    slope = sign * (slope != 0 ? std::abs(slope) : 1.0);
   if (slope == 0) return guess;
   for (size_t k = 0; k < in.points; ++k) {
     const int g = in.grain[k];
@@ -445,8 +446,8 @@ double median_of(std::vector<double> v) {
 /// c = (X̄_h − base)·D / D·D over the features of the ordering signature; ordered if the median c
 /// over the grains g is at least one half. Only the model's change between orientations enters,
 /// not its change with ordering nor its absolute intensities.
-std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const std::vector<uint8_t>& label,
-                                               const std::vector<uint8_t>& two_phase,
+std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
+                                               const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
                                                const std::vector<uint8_t>& one_phase) {
   const size_t p = in.features, bins = in.bins;
   const int G = in.grains;
@@ -482,7 +483,6 @@ std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const st
     const double var = sxx - sx * sx / std::max(n, 1.0);
     if (n >= 4 && var > 0) slope[f] = (sxy - sx * sy / n) / var;
   }
-  const GrainFeatures gf = grain_features(in);
   for (int h = 1; h <= G; ++h) {
     if (!one_phase[h]) continue;
     const std::vector<double>& signature = in.ordering_signature[h];
@@ -515,7 +515,8 @@ bool transfer_possible(const LearnedInputs& in) {
   return true;
 }
 
-FirstSplit first_split(const LearnedInputs& in, const std::vector<double>& guess, const LearnedSpec& spec) {
+FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const std::vector<double>& guess,
+                       const LearnedSpec& spec) {
   const int G = in.grains;
   std::vector<std::vector<double>> per_grain(G + 1);
   std::vector<double> pooled;
@@ -538,7 +539,7 @@ FirstSplit first_split(const LearnedInputs& in, const std::vector<double>& guess
     split.label[k] = measured(in, k) && two_phase[in.grain[k]] && guess[k] >= cut[in.grain[k]];
   // Grains of one component: which phase, from the grains of two components if there are any.
   if (!two_cuts.empty() && transfer_possible(in)) {
-    split.ordered_grain = ordered_alone_by_transfer(in, split.label, two_phase, one_phase);
+    split.ordered_grain = ordered_alone_by_transfer(in, gf, split.label, two_phase, one_phase);
     const double offset = median_of(matrix_to_cut);
     for (int g = 1; g <= G; ++g)
       if (one_phase[g]) cut[g] = split.ordered_grain[g] ? -HUGE_VAL : median_of(per_grain[g]) + offset;
@@ -628,8 +629,8 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   // round with the strongest evidence for two components (a round can drift when edge or grain-boundary points
   // pull the direction toward their own signature).
   const std::vector<double> guess =
-      spec.spatial_start ? guess_along_spatial_direction(in, spatial_direction_scores(in, gf)) : in.first_guess;
-  const FirstSplit split = first_split(in, guess, spec);
+      spec.spatial_start ? guess_along_spatial_direction(in, gf, spatial_direction_scores(in, gf)) : in.first_guess;
+  const FirstSplit split = first_split(in, gf, guess, spec);
   std::vector<uint8_t> label = split.label;
   std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
   std::vector<double> difference;

@@ -7,12 +7,16 @@
 
 #include <cerrno>
 #include <cstring>
+#include <filesystem>
 
 #include "orderband/error.hpp"
 
 namespace orderband {
 
 FolderLock::FolderLock(const std::string& folder) {
+  std::error_code ec;
+  std::filesystem::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
   const std::string path = folder + "/.lock";
   fd_ = ::open(path.c_str(), O_RDWR | O_CREAT | O_CLOEXEC, 0644);
   if (fd_ < 0) fail("cannot create the lock file '", path, "': ", std::strerror(errno));
