@@ -12,6 +12,9 @@ namespace orderband {
 struct GrainSpec {
   double threshold_deg = 5.0;  ///< neighbours closer than this belong to one grain
   int min_points = 4;          ///< smaller grains are merged into their closest neighbour grain
+  /// Split grains whose orientations form two groups further apart than the threshold, joined
+  /// only through a few in-between points (beam-mixed patterns at a boundary chain the flood fill).
+  bool split_bimodal = true;
 };
 
 struct GrainMap {
@@ -22,7 +25,8 @@ struct GrainMap {
 };
 
 /// Flood fill over neighbours (8 on square grids, 6 on hexagonal ones) with
-/// a symmetry-aware misorientation threshold; grains below min_points are
+/// a symmetry-aware misorientation threshold; grains whose orientations form two
+/// separate groups are split (GrainSpec::split_bimodal); grains below min_points are
 /// merged into the touching grain of smallest mean misorientation (or left
 /// as they are if none touches). Grain ids follow scan order of first points.
 GrainMap segment_grains(const ScanGrid& grid, const std::vector<std::optional<Rotation>>& orientations,

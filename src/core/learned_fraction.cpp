@@ -15,6 +15,9 @@ namespace {
 
 bool measured(const LearnedInputs& in, size_t k) { return in.grain[k] > 0; }
 
+/// The share of a grain's points each component must hold for the grain to count as two-phase.
+constexpr double kMinComponentShare = 0.05;
+
 /// A measured point the learning uses: not next to another grain, where the pattern may mix two
 /// orientations (such points are scored, never learned from).
 bool learns(const LearnedInputs& in, size_t k) { return measured(in, k) && (in.boundary.empty() || !in.boundary[k]); }
@@ -306,7 +309,10 @@ double second_component_evidence(const std::vector<double>& v, const std::array<
 /// used: at the separations one pattern gives (d′ ≈ 3) a labelled point's class is too often wrong
 /// for class means to place the end members.
 void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& score,
-                            const std::vector<uint8_t>& ordered_alone, std::vector<double>& z, double& beta) {
+                            const std::vector<uint8_t>& ordered_alone, const std::vector<uint8_t>& two_phase,
+                            std::vector<double>& z, double& beta) {
+  std::vector<double> last_z = z;
+  double last_beta = beta;
   const int G = in.grains;
   std::vector<std::array<double, 3>> share(G + 1, {0.6, 0.3, 0.1});
   for (int g = 1; g <= G; ++g)
@@ -316,7 +322,7 @@ void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& 
   for (int it = 0; it < 100; ++it) {
     std::vector<double> zs(G + 1, 0.0), zn(G + 1, 0.0);
     std::vector<std::array<double, 3>> sum(G + 1, {0, 0, 0});
-    double bs = 0, bn = 0, ss = 0, sn = 0;
+    double bs = 0, bn = 0, ss = 0, sn = 0, ordered = 0, two_phase_points = 0;
     for (size_t k = 0; k < in.points; ++k) {
       const int g = in.grain[k];
       if (!learns(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
@@ -329,7 +335,17 @@ void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& 
       resp[k] = {p0 / total, p1 / total, pm / total};
       for (int c = 0; c < 3; ++c) sum[g][c] += resp[k][c];
       zs[g] += resp[k][0] * score[k] + resp[k][1] * (score[k] - beta), zn[g] += resp[k][0] + resp[k][1];
+      if (two_phase[g]) ordered += resp[k][1], two_phase_points += 1;
     }
+    // The grains found to hold two phases must keep them: at small separations the scale can run
+    // off with the ordered component collapsing onto a few outliers (a likelihood maximum where all
+    // but the tail is matrix). The refinement stops at the last step that kept the ordered share of
+    // those grains' points at the first split's minimum.
+    if (it > 0 && two_phase_points > 0 && ordered < kMinComponentShare * two_phase_points) {
+      z = last_z, beta = last_beta;
+      break;
+    }
+    last_z = z, last_beta = beta;
     for (int g = 1; g <= G; ++g) {
       if (zn[g] > 0) z[g] = zs[g] / zn[g];
       const double t = sum[g][0] + sum[g][1] + sum[g][2];
@@ -363,7 +379,8 @@ struct Placement {
 /// are refined jointly (refine_zeros_and_scale). The mixture also gives the evidence for a second
 /// phase. Writes f per point.
 Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& label,
-                       const std::vector<uint8_t>& ordered_alone, const std::vector<double>& score,
+                       const std::vector<uint8_t>& ordered_alone, const std::vector<uint8_t>& two_phase,
+                       const std::vector<double>& score,
                        std::vector<double>& f) {
   const size_t n = in.points;
   std::vector<uint8_t> matrix(n, 0), all(n, 1);
@@ -383,7 +400,7 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
   // Start: each grain's zero from its matrix points and the pooled components; then refined jointly.
   std::vector<double> z(in.grains + 1, std::nan(""));
   for (int g = 1; g <= in.grains; ++g) z[g] = ordered_alone[g] ? grain_t[g] - pl.beta : matrix_t[g] + zero;
-  refine_zeros_and_scale(in, score, ordered_alone, z, pl.beta);
+  refine_zeros_and_scale(in, score, ordered_alone, two_phase, z, pl.beta);
   for (size_t k = 0; k < n; ++k) {
     const int g = in.grain[k];
     if (!measured(in, k) || std::isnan(score[k]) || std::isnan(z[g])) continue;
@@ -412,6 +429,7 @@ double component_separation(const std::array<EndMember, 2>& mix) {
 struct FirstSplit {
   std::vector<uint8_t> label;          ///< per point: 1 ordered
   std::vector<uint8_t> ordered_grain;  ///< per grain: the ordered phase alone
+  std::vector<uint8_t> two_phase;      ///< per grain: two components found
 };
 
 /// Two components of `v` (fitted in units where its 5th and 95th percentiles are 0 and 1), in the
@@ -515,26 +533,69 @@ bool transfer_possible(const LearnedInputs& in) {
   return true;
 }
 
+/// Per point the mean of `v` over its 3 × 3 neighbourhood within its own grain (points the learning
+/// uses; NaN elsewhere). Precipitates span several points while the noise of neighbouring points is
+/// independent, so the mean keeps the phase contrast of a particle's inner points and divides the
+/// noise by up to 3: a grain whose particles are too faint point by point to show two components
+/// shows them here. Without known neighbours (cols 0), `v` itself.
+std::vector<double> neighbourhood_means(const LearnedInputs& in, const std::vector<double>& v) {
+  if (in.cols <= 0) return v;
+  const long cols = in.cols, rows = static_cast<long>(in.points) / cols;
+  std::vector<double> out(in.points, std::nan(""));
+  for (size_t k = 0; k < in.points; ++k) {
+    if (!learns(in, k) || std::isnan(v[k])) continue;
+    const long r = static_cast<long>(k) / cols, c = static_cast<long>(k) % cols;
+    double sum = 0;
+    int n = 0;
+    for (long i = std::max(0L, r - 1); i <= std::min(rows - 1, r + 1); ++i)
+      for (long j = std::max(0L, c - 1); j <= std::min(cols - 1, c + 1); ++j) {
+        const size_t q = static_cast<size_t>(i * cols + j);
+        if (in.grain[q] != in.grain[k] || !learns(in, q) || std::isnan(v[q])) continue;
+        sum += v[q], ++n;
+      }
+    out[k] = sum / n;
+  }
+  return out;
+}
+
 FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const std::vector<double>& guess,
                        const LearnedSpec& spec) {
   const int G = in.grains;
-  std::vector<std::vector<double>> per_grain(G + 1);
+  std::vector<std::vector<double>> per_grain(G + 1), smooth_per_grain(G + 1);
   std::vector<double> pooled;
   for (size_t k = 0; k < in.points; ++k)
     if (learns(in, k) && !std::isnan(guess[k])) pooled.push_back(guess[k]), per_grain[in.grain[k]].push_back(guess[k]);
-  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(G + 1, 0)};
+  const std::vector<double> smooth = neighbourhood_means(in, guess);
+  for (size_t k = 0; k < in.points; ++k)
+    if (!std::isnan(smooth[k])) smooth_per_grain[in.grain[k]].push_back(smooth[k]);
+  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(G + 1, 0), {}};
   // Grains of two components are cut midway between them.
   std::vector<double> cut(G + 1, std::nan("")), two_cuts, matrix_to_cut;
-  std::vector<uint8_t> two_phase(G + 1, 0), one_phase(G + 1, 0);
+  std::vector<uint8_t> two_phase(G + 1, 0), one_phase(G + 1, 0), faint(G + 1, 0);
+  std::vector<double> faint_matrix(G + 1, std::nan("")), faint_ordered(G + 1, std::nan(""));
   for (int g = 1; g <= G; ++g) {
     double evidence = 0;
-    const std::array<EndMember, 2> mix = components(per_grain[g], evidence);
-    two_phase[g] = evidence >= spec.min_evidence && mix[0].weight >= 0.05 && mix[1].weight >= 0.05;
+    std::array<EndMember, 2> mix = components(per_grain[g], evidence);
+    if (evidence < spec.min_evidence) {
+      // Point by point too faint: decided on the neighbourhood means; their matrix component
+      // keeps the matrix's mean (a matrix point's neighbours are matrix), the cut above it is set
+      // below from the grains that show two components point by point.
+      mix = components(smooth_per_grain[g], evidence);
+      faint[g] = evidence >= spec.min_evidence;
+      faint_matrix[g] = mix[0].mean, faint_ordered[g] = mix[1].mean;
+    }
+    two_phase[g] = evidence >= spec.min_evidence && mix[0].weight >= kMinComponentShare &&
+                   mix[1].weight >= kMinComponentShare;
     one_phase[g] = !two_phase[g] && !per_grain[g].empty();
-    if (two_phase[g])
+    if (two_phase[g] && !faint[g])
       cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]),
       matrix_to_cut.push_back(cut[g] - mix[0].mean);
   }
+  for (int g = 1; g <= G; ++g)
+    if (two_phase[g] && faint[g]) {
+      const double offset = matrix_to_cut.empty() ? 0.5 * (faint_ordered[g] - faint_matrix[g]) : median_of(matrix_to_cut);
+      cut[g] = faint_matrix[g] + offset, two_cuts.push_back(cut[g]);
+    }
   for (size_t k = 0; k < in.points; ++k)
     split.label[k] = measured(in, k) && two_phase[in.grain[k]] && guess[k] >= cut[in.grain[k]];
   // Grains of one component: which phase, from the grains of two components if there are any.
@@ -560,6 +621,7 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   }
   for (size_t k = 0; k < in.points; ++k)
     if (measured(in, k) && one_phase[in.grain[k]]) split.label[k] = guess[k] >= cut[in.grain[k]];
+  split.two_phase = two_phase;
   return split;
 }
 
@@ -638,7 +700,7 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   out.evidence = -HUGE_VAL;
   for (int it = 0; it < spec.iterations; ++it) {
     if (!cross_fitted_scores(in, label, gf, spec, score, difference)) break;
-    pl = place_scores(in, label, split.ordered_grain, score, f);
+    pl = place_scores(in, label, split.ordered_grain, split.two_phase, score, f);
     for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && !std::isnan(f[k]) && f[k] >= 0.5;
     const bool both = pl.mix[0].weight >= spec.min_second_weight && pl.mix[1].weight >= spec.min_second_weight;
     if (it == 0 || (both && pl.evidence > out.evidence))

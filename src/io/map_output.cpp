@@ -544,6 +544,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"refine", config.orientations.refine},
         {"grain_threshold_deg", options.orient.grains.threshold_deg},
         {"grain_min_points", options.orient.grains.min_points},
+        {"grain_split_bimodal", options.orient.grains.split_bimodal},
         {"candidates", options.orient.candidates},
         {"pseudo_symmetry_samples", options.orient.pseudo_symmetry_samples},
         {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},

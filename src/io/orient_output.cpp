@@ -87,6 +87,7 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
       {"refine", config.orientations.refine},
       {"grain_threshold_deg", spec.grains.threshold_deg},
       {"grain_min_points", spec.grains.min_points},
+      {"grain_split_bimodal", spec.grains.split_bimodal},
       {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
       {"max_bands", spec.detect.max_bands},
       {"candidates", spec.candidates},
