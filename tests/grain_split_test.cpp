@@ -54,8 +54,10 @@ TEST(GrainSegmentation, SplitsTwoGrainsChainedThroughInBetweenBoundaryPoints) {
   for (size_t k = 0; k < grid.count(); ++k) {
     const GridPoint p = grid.point(k);
     const double r = std::hypot(p.row - 15.0, p.col - 15.0);
-    if (in_disc[k]) disc_ids.insert(grains.id[k]);
-    else if (r >= 7) outside_ids.insert(grains.id[k]);
+    if (in_disc[k])
+      disc_ids.insert(grains.id[k]);
+    else if (r >= 7)
+      outside_ids.insert(grains.id[k]);
   }
   ASSERT_EQ(disc_ids.size(), 1u);
   ASSERT_EQ(outside_ids.size(), 1u);

@@ -314,9 +314,9 @@ TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
   // within ±0.03 of the true area fraction and ≥ 95 % of the points away from phase boundaries on
   // the right side of one half. Measured: −0.005 … +0.007, 96.7–100 %. The model-led estimator
   // misses ±0.03 on five of these six in the mismatch bench (−0.46 with the family contrasts, −0.60
-  // with misfit and double amplitude). Not yet held (DEVELOPERS.md): flat bands (−0.057 on this
-  // scan), Gaussian bands, detector gamma 0.8 (93 % classified), and the tertiary level, which the
-  // learned estimator counts as matrix.
+  // with misfit and double amplitude). Not yet held (DEVELOPERS.md), measured on this scan: flat
+  // bands −0.057, Gaussian bands −0.047 (95.8 % classified), detector gamma 0.8 −0.039, and the
+  // tertiary level, which the learned estimator counts as matrix.
   const std::vector<std::pair<std::string, std::string>> variants = {
       {"dark edges, steep background", "edge_contrast = -0.3\nbackground_falloff = 0.8\n"},
       {"misfit +0.3 %, band amplitude 0.25", "band_amplitude = 0.25\n[renderer]\nlattice_misfit = 0.003\n"},

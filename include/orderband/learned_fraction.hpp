@@ -79,8 +79,9 @@ struct LearnedFraction {
 /// shapes the direction it is scored with), places every point between the two end members, and
 /// decides whether the scan holds one phase or two. Steps:
 ///  1. first split along the scan's own direction of ordering (spatial_direction_scores, its sign
-///     from the ordering signature): a grain whose points hold two components (ΔBIC ≥
-///     min_evidence) is split midway between them; a grain of one component holds one phase alone,
+///     from the ordering signature): a grain whose points, or failing that their 3 × 3
+///     neighbourhood means, hold two components (ΔBIC ≥ min_evidence) is split between them; a
+///     grain of one component holds one phase alone,
 ///     which one decided against the grains of two components (the model moves their matrix to
 ///     the grain's orientation, the data give the ordering difference); without such grains, by
 ///     the model's level;

@@ -78,9 +78,12 @@ bool is_bimodal(const std::vector<Eigen::Vector3d>& v, const TwoMeans& t, double
   int low = 0, middle = 0, high = 0;
   for (const auto& x : v) {
     const double s = (x - t.centre[0]).dot(axis) / (separation * separation);
-    if (s < 1.0 / 3) ++low;
-    else if (s > 2.0 / 3) ++high;
-    else ++middle;
+    if (s < 1.0 / 3)
+      ++low;
+    else if (s > 2.0 / 3)
+      ++high;
+    else
+      ++middle;
   }
   return low >= min_points && high >= min_points && middle * 10 <= static_cast<int>(v.size());
 }

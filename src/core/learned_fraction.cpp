@@ -380,8 +380,7 @@ struct Placement {
 /// phase. Writes f per point.
 Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& label,
                        const std::vector<uint8_t>& ordered_alone, const std::vector<uint8_t>& two_phase,
-                       const std::vector<double>& score,
-                       std::vector<double>& f) {
+                       const std::vector<double>& score, std::vector<double>& f) {
   const size_t n = in.points;
   std::vector<uint8_t> matrix(n, 0), all(n, 1);
   for (size_t k = 0; k < n; ++k) matrix[k] = measured(in, k) && !label[k];
@@ -420,7 +419,9 @@ double component_separation(const std::array<EndMember, 2>& mix) {
 
 /// The first split of the points and the grains' kinds. Each grain whose guesses hold two
 /// components (second_component_evidence ≥ spec.min_evidence, each ≥ 5 % of its points) is split
-/// midway between them. A grain of one component holds either phase alone: which one is decided by
+/// midway between them; a grain whose guesses show two components only in their neighbourhood
+/// means (neighbourhood_means) is cut at its matrix level plus the median distance from matrix to
+/// cut of the others. A grain of one component holds either phase alone: which one is decided by
 /// comparing it with the grains of two components (ordered_alone_by_transfer); without such grains,
 /// by the model's level (its mean guess above the cut between the pooled components). The points of
 /// a grain of the disordered phase alone are split one by one at its median guess plus the median
@@ -584,8 +585,8 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       faint[g] = evidence >= spec.min_evidence;
       faint_matrix[g] = mix[0].mean, faint_ordered[g] = mix[1].mean;
     }
-    two_phase[g] = evidence >= spec.min_evidence && mix[0].weight >= kMinComponentShare &&
-                   mix[1].weight >= kMinComponentShare;
+    two_phase[g] =
+        evidence >= spec.min_evidence && mix[0].weight >= kMinComponentShare && mix[1].weight >= kMinComponentShare;
     one_phase[g] = !two_phase[g] && !per_grain[g].empty();
     if (two_phase[g] && !faint[g])
       cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]),
@@ -593,7 +594,8 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   }
   for (int g = 1; g <= G; ++g)
     if (two_phase[g] && faint[g]) {
-      const double offset = matrix_to_cut.empty() ? 0.5 * (faint_ordered[g] - faint_matrix[g]) : median_of(matrix_to_cut);
+      const double offset =
+          matrix_to_cut.empty() ? 0.5 * (faint_ordered[g] - faint_matrix[g]) : median_of(matrix_to_cut);
       cut[g] = faint_matrix[g] + offset, two_cuts.push_back(cut[g]);
     }
   for (size_t k = 0; k < in.points; ++k)
