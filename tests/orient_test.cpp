@@ -205,5 +205,31 @@ TEST(OrientationCsv, RejectsBadTables) {
   EXPECT_NE(error_of("a,b,c\n").find("header must be"), std::string::npos);
 }
 
+TEST(OrientationCsv, RadiansAreRecognised) {
+  // 24 random orientations written in radians: every angle passes the degree range check, and
+  // each point would then be refined from a wrong start. The table is refused as a whole; the same
+  // orientations in degrees are read.
+  const ScanGrid grid{GridKind::square, 4, 6, 0.1};
+  std::ostringstream radians, degrees;
+  radians << "row,col,phi1_deg,Phi_deg,phi2_deg\n";
+  degrees << "row,col,phi1_deg,Phi_deg,phi2_deg\n";
+  const auto rotations = random_rotations(grid.count(), 5);
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const GridPoint p = grid.point(k);
+    const Eigen::Vector3d e = rotations[k].bunge();
+    radians << p.row << "," << p.col << "," << e[0] << "," << e[1] << "," << e[2] << "\n";
+    degrees << p.row << "," << p.col << "," << rad_to_deg(e[0]) << "," << rad_to_deg(e[1]) << "," << rad_to_deg(e[2])
+            << "\n";
+  }
+  std::istringstream in_radians(radians.str()), in_degrees(degrees.str());
+  try {
+    read_orientation_csv(in_radians, grid, "o.csv");
+    ADD_FAILURE() << "radians accepted";
+  } catch (const Error& e) {
+    EXPECT_NE(std::string(e.what()).find("look like radians"), std::string::npos) << e.what();
+  }
+  EXPECT_EQ(read_orientation_csv(in_degrees, grid, "o.csv").orientations.size(), grid.count());
+}
+
 }  // namespace
 }  // namespace orderband

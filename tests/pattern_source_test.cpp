@@ -120,12 +120,57 @@ TEST(PatternSource, Float32RawStackAndNonFiniteValues) {
   s.sample_type = SampleType::float32;
   auto src = open_pattern_source(s, fx.grid);
   EXPECT_EQ(fx.read_all(*src, 6), values);
-  // NaN in one pattern: the error names the file and the point.
-  values[static_cast<size_t>(2 * kCols + 3) * kW * kH + 17] = std::nanf("");
+  // NaN in one pattern, infinity in another: the scan goes on; those two patterns come back as NaN
+  // throughout (unusable) and are recorded with their point; every other pattern is read as stored.
+  const size_t bad_nan = 2 * kCols + 3, bad_inf = 4 * kCols + 0, pixels = static_cast<size_t>(kW) * kH;
+  values[bad_nan * pixels + 17] = std::nanf("");
+  values[bad_inf * pixels + 3] = INFINITY;
   std::ofstream(path, std::ios::binary).write(reinterpret_cast<const char*>(values.data()), values.size() * 4);
-  const std::string e = error_of(s, fx.grid);
-  EXPECT_NE(e.find(path), std::string::npos) << e;
-  EXPECT_NE(e.find("row 2, col 3 contains NaN or Inf"), std::string::npos) << e;
+  auto faulty = open_pattern_source(s, fx.grid);
+  const std::vector<float> read = fx.read_all(*faulty, 6);
+  const auto faults = faulty->faults();
+  ASSERT_EQ(faults.size(), 2u);
+  EXPECT_NE(faults.at(bad_nan).find("row 2, col 3 has a NaN or infinite pixel (17)"), std::string::npos);
+  EXPECT_NE(faults.at(bad_inf).find("row 4, col 0 has a NaN or infinite pixel (3)"), std::string::npos);
+  for (size_t k = 0; k < fx.grid.count(); ++k)
+    for (size_t q = 0; q < pixels; ++q) {
+      const float v = read[k * pixels + q];
+      if (k == bad_nan || k == bad_inf)
+        ASSERT_TRUE(std::isnan(v)) << k;
+      else
+        ASSERT_EQ(v, values[k * pixels + q]) << k;
+    }
+}
+
+TEST(PatternSource, AMissingOrCorruptImageIsAFaultOfItsPointOnly) {
+  Fixture fx;
+  const std::string folder = fx.dir + "/img";
+  std::filesystem::create_directory(folder);
+  const size_t pixels = static_cast<size_t>(kW) * kH;
+  for (size_t k = 0; k < fx.grid.count(); ++k) {
+    GrayImage img{kW, kH, 16, std::vector<uint16_t>(fx.data.begin() + k * pixels, fx.data.begin() + (k + 1) * pixels)};
+    write_png_gray(folder + "/" + std::to_string(k) + ".png", img);
+  }
+  std::filesystem::remove(folder + "/19.png");                        // the last point's image: missing
+  std::ofstream(folder + "/7.png", std::ios::binary) << "not a png";  // corrupt
+  GrayImage small{kW / 2, kH, 16, std::vector<uint16_t>(pixels / 2, 100)};
+  write_png_gray(folder + "/11.png", small);  // wrongly sized
+  PatternSourceSpec s;
+  s.format = PatternFormat::images;
+  s.path = folder;
+  s.name_pattern = "{index}.png";
+  const auto src = open_pattern_source(s, fx.grid);
+  const std::vector<float> read = fx.read_all(*src, 4);
+  const auto faults = src->faults();
+  ASSERT_EQ(faults.size(), 3u);
+  EXPECT_NE(faults.at(19).find("is missing"), std::string::npos) << faults.at(19);
+  EXPECT_NE(faults.at(7).find("7.png"), std::string::npos) << faults.at(7);
+  EXPECT_NE(faults.at(11).find("is 10 x 16 px; the first pattern is 20 x 16 px"), std::string::npos) << faults.at(11);
+  for (size_t k = 0; k < fx.grid.count(); ++k) {
+    const bool bad = k == 19 || k == 7 || k == 11;
+    EXPECT_EQ(std::isnan(read[k * pixels]), bad) << k;
+    if (!bad) EXPECT_EQ(read[k * pixels + 5], static_cast<float>(fx.data[k * pixels + 5])) << k;
+  }
 }
 
 TEST(PatternSource, ClearErrorsForBadInput) {

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <cstdint>
+#include <map>
 #include <optional>
 #include <string>
 #include <vector>
@@ -51,6 +52,8 @@ struct OrientationResults {
   int pseudo_symmetric_grains = 0;     ///< grains found on a pseudo-symmetric solution and mapped
   size_t pseudo_symmetric_points = 0;  ///< points of those grains that took the mapped orientation
   size_t points_joined_to_grain = 0;   ///< points far from their grain's mean that took it
+  /// Patterns that could not be used as stored (PatternSource::faults): point index → reason.
+  std::map<size_t, std::string> pattern_faults;
   size_t usable() const;
   size_t with_orientation() const;
 };

@@ -2,7 +2,9 @@
 #pragma once
 
 #include <cstddef>
+#include <map>
 #include <memory>
+#include <mutex>
 #include <string>
 
 #include "orderband/scan_grid.hpp"
@@ -43,14 +45,26 @@ class PatternSource {
   size_t pixels() const { return static_cast<size_t>(width_) * height_; }
   /// One line describing the source, for messages and provenance.
   virtual std::string describe() const = 0;
-  /// Reads patterns [first, first + n) into out (n · pixels() floats).
-  /// Throws orderband::Error naming the file and point for unreadable or
-  /// non-finite data.
+  /// Reads patterns [first, first + n) into out (n · pixels() floats). A pattern that cannot be
+  /// used as stored (a NaN or infinite pixel, a missing, unreadable or wrongly sized image) is
+  /// filled with NaN and recorded in faults(): the scan goes on and the point is unusable (a
+  /// point that fails never stops the scan). Throws orderband::Error only where the whole source
+  /// fails (a read past the end, an HDF5 read error).
   virtual void read(size_t first, size_t n, float* out) = 0;
+  /// The patterns found faulty so far, by point index, with the reason.
+  std::map<size_t, std::string> faults() const;
 
  protected:
+  /// Fills one pattern with NaN and records why (thread-safe).
+  void mark_faulty(size_t index, const std::string& reason, float* pattern);
+  /// Marks every pattern of out[0, n) holding a non-finite pixel (points first…first + n − 1).
+  void mark_non_finite(float* out, size_t n, size_t first, const ScanGrid& grid);
   size_t count_ = 0;
   int width_ = 0, height_ = 0;
+
+ private:
+  mutable std::mutex faults_mutex_;
+  std::map<size_t, std::string> faults_;
 };
 
 /// Opens a source and checks it holds exactly grid.count() patterns

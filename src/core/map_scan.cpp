@@ -64,6 +64,10 @@ std::vector<std::string> map_warnings(const MapResults& r) {
   if (n > 0 && 2 * measured < n)
     w.push_back("the ordered fraction rests on " + std::to_string(measured) + " of " + std::to_string(n) + " points (" +
                 percent(measured) + " %); the area fraction and the statistics describe those points only");
+  if (const auto& faults = r.orientations.pattern_faults; !faults.empty())
+    w.push_back(std::to_string(faults.size()) + " pattern" + (faults.size() == 1 ? "" : "s") +
+                " could not be used as stored and count as unusable points (first: " + faults.begin()->second +
+                "); they are listed in summary.json");
   if (r.fraction.estimator == "learned")
     w.push_back(
         "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "

@@ -259,6 +259,7 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
     if (changed) r.grains = segment_grains(grid, r.orientation, symmetry, spec.grains);
   }
   r.kam_deg = kernel_average_misorientation(grid, r.orientation, r.grains, symmetry);
+  r.pattern_faults = source->faults();
   return r;
 }
 

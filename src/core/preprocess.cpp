@@ -121,15 +121,22 @@ std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const 
   const size_t px = source.pixels();
   std::vector<double> sum(px, 0.0);
   std::vector<float> buffer(chunk * px);
+  size_t used = 0;
   for (size_t first = 0; first < source.count(); first += chunk) {
     const size_t n = std::min(chunk, source.count() - first);
     source.read(first, n, buffer.data());
-    for (size_t k = 0; k < n; ++k)
+    for (size_t k = 0; k < n; ++k) {
+      if (std::isnan(buffer[k * px])) continue;  // a faulty pattern (PatternSource::faults)
       for (size_t q = 0; q < px; ++q) sum[q] += buffer[k * px + q];
+      ++used;
+    }
     if (progress) progress(first + n, source.count());
   }
+  if (used == 0)
+    fail(source.describe(), ": no pattern of the scan could be read (", source.faults().size(),
+         " faulty; first: ", source.faults().empty() ? "" : source.faults().begin()->second, ")");
   std::vector<float> mean(px);
-  for (size_t q = 0; q < px; ++q) mean[q] = static_cast<float>(sum[q] / source.count());
+  for (size_t q = 0; q < px; ++q) mean[q] = static_cast<float>(sum[q] / used);
   return mean;
 }
 

@@ -4,6 +4,8 @@
 #include <unistd.h>
 
 #include <atomic>
+#include <cerrno>
+#include <cstring>
 #include <filesystem>
 #include <fstream>
 
@@ -16,8 +18,10 @@ namespace orderband {
 void write_atomically(const std::string& path, const std::function<void(const std::string&)>& write) {
   static std::atomic<unsigned> counter{0};
   const fs::path target(path);
-  const fs::path temp = target.parent_path() / ("." + target.filename().string() + ".tmp-" +
-                                                std::to_string(::getpid()) + "-" + std::to_string(counter++));
+  std::string name = ".";  // built step by step: one concatenated expression trips a false -Wrestrict in GCC 12
+  name += target.filename().string();
+  name += ".tmp-" + std::to_string(::getpid()) + "-" + std::to_string(counter++);
+  const fs::path temp = target.parent_path() / name;
   try {
     write(temp.string());
     std::error_code ec;
@@ -30,13 +34,22 @@ void write_atomically(const std::string& path, const std::function<void(const st
   }
 }
 
+void finish_writing(std::ofstream& out, const std::string& path) {
+  errno = 0;
+  if (out) out.flush();
+  out.close();
+  if (!out) {
+    const int e = errno;
+    fail("error while writing '", path, "': ", e ? std::strerror(e) : "the write failed (disk full?)");
+  }
+}
+
 void write_text_atomically(const std::string& path, const std::string& content) {
   write_atomically(path, [&](const std::string& temp) {
     std::ofstream out(temp, std::ios::binary);
     if (!out) fail("cannot create '", temp, "' (folder missing or not writable?)");
     out << content;
-    out.close();
-    if (!out) fail("error while writing '", path, "' (disk full?)");
+    finish_writing(out, path);
   });
 }
 

@@ -26,16 +26,24 @@ struct FileCloser {
   }
 };
 
+// libpng reports through these instead of printing its own lines: the message becomes part of ours.
+thread_local std::string png_message;
+void png_quiet_error(png_structp png, png_const_charp message) {
+  png_message = message ? message : "";
+  png_longjmp(png, 1);
+}
+void png_quiet_warning(png_structp, png_const_charp) {}
+
 GrayImage read_png(const std::string& path) {
   std::unique_ptr<FILE, FileCloser> f(std::fopen(path.c_str(), "rb"));
   if (!f) fail("cannot read image '", path, "' (missing or unreadable)");
-  png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
+  png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
   png_infop info = png_create_info_struct(png);
   GrayImage img;
   std::vector<png_bytep> rows;
   if (setjmp(png_jmpbuf(png))) {
     png_destroy_read_struct(&png, &info, nullptr);
-    fail("'", path, "' is not a readable PNG file");
+    fail("'", path, "' is not a readable PNG file (", png_message, ")");
   }
   png_init_io(png, f.get());
   png_read_info(png, info);
@@ -100,11 +108,11 @@ void write_png(const std::string& path, int width, int height, int color_type, i
   write_atomically(path, [&](const std::string& temp) {
     std::unique_ptr<FILE, FileCloser> f(std::fopen(temp.c_str(), "wb"));
     if (!f) fail("cannot create '", temp, "' (folder missing or not writable?)");
-    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, nullptr, nullptr);
+    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
     png_infop info = png_create_info_struct(png);
     if (setjmp(png_jmpbuf(png))) {
       png_destroy_write_struct(&png, &info);
-      fail("error while writing PNG '", path, "'");
+      fail("error while writing PNG '", path, "' (", png_message, ")");
     }
     png_init_io(png, f.get());
     png_set_IHDR(png, info, width, height, depth, color_type, PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT,

@@ -424,6 +424,14 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["tool"] = "orderband";
   j["version"] = kVersion;
   j["warnings"] = map_warnings(r);
+  // Faulty patterns (at most the first 100 listed; the count is whole).
+  j["faulty_patterns"] = r.orientations.pattern_faults.size();
+  nlohmann::json faulty = nlohmann::json::array();
+  for (const auto& [index, reason] : r.orientations.pattern_faults) {
+    if (faulty.size() >= 100) break;
+    faulty.push_back({{"index", index}, {"reason", reason}});
+  }
+  j["faulty_pattern_list"] = faulty;
   j["command_line"] = command_line;
   j["scan"] = config.path;
   nlohmann::json hashes;

@@ -26,7 +26,7 @@ void write_npy(const std::string& path, const char* descr, int rows, int cols, c
     out.write(reinterpret_cast<const char*>(&len), 2);
     out << header;
     out.write(static_cast<const char*>(data), static_cast<std::streamsize>(bytes));
-    if (!out) fail("error while writing '", path, "'");
+    finish_writing(out, path);
   });
 }
 

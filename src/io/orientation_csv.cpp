@@ -1,6 +1,7 @@
 // Orientation CSV reading and writing.
 #include "orderband/orientation_csv.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <sstream>
@@ -36,6 +37,8 @@ OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, co
   std::string line;
   size_t line_no = 0;
   bool header = false;
+  double largest[3] = {0, 0, 0};
+  size_t given = 0;
   while (std::getline(is, line)) {
     ++line_no;
     if (!line.empty() && line.back() == '\r') line.pop_back();
@@ -86,10 +89,19 @@ OrientationTable read_orientation_csv(std::istream& is, const ScanGrid& grid, co
         fail(origin, ":", line_no, ": Euler angles (", e[0], ", ", e[1], ", ", e[2],
              ") deg out of range (phi1, phi2 within ±360, Phi within [0, 180]); are they in radians?");
       t.orientations.push_back(Rotation::from_bunge(deg_to_rad(e[0]), deg_to_rad(e[1]), deg_to_rad(e[2])));
+      for (int i = 0; i < 3; ++i) largest[i] = std::max(largest[i], std::abs(e[i]));
+      ++given;
     }
     t.phases.push_back(f.size() > 5 ? f[5] : "");
   }
   if (!header) fail(origin, ": no header line row,col,phi1_deg,Phi_deg,phi2_deg[,phase]");
+  // Radians pass the range check; a table whose every φ1 and φ2 lies within 2π and Φ within π,
+  // with angles beyond 1 (not a crystal at the Euler origin), is in radians: in degrees that would be
+  // every orientation within 6.3° of (0, 0, 0).
+  if (given >= 10 && largest[0] <= 2 * M_PI + 1e-6 && largest[2] <= 2 * M_PI + 1e-6 && largest[1] <= M_PI + 1e-6 &&
+      std::max(largest[0], largest[2]) > 1.0)
+    fail(origin, ": every angle lies within 2π (largest φ1 ", largest[0], ", Φ ", largest[1], ", φ2 ", largest[2],
+         "): the angles look like radians; the table needs degrees (multiply by 180/π)");
   if (t.orientations.size() != grid.count())
     fail(origin, ": ", t.orientations.size(), " orientations for ", grid.count(), " scan points (", grid.rows, " x ",
          grid.cols, ")");

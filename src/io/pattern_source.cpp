@@ -7,6 +7,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <bit>
 #include <cmath>
 #include <cstring>
@@ -44,16 +45,6 @@ const char* sample_type_name(SampleType t) {
 namespace {
 
 size_t sample_bytes(SampleType t) { return t == SampleType::uint8 ? 1 : t == SampleType::uint16 ? 2 : 4; }
-
-void check_finite(const float* data, size_t n, size_t pixels, size_t first, const std::string& file,
-                  const ScanGrid& grid) {
-  for (size_t k = 0; k < n * pixels; ++k)
-    if (!std::isfinite(data[k])) {
-      const GridPoint p = grid.point(first + k / pixels);
-      fail(file, ": pattern at row ", p.row, ", col ", p.col, " contains NaN or Inf (pixel ", k % pixels,
-           "); repair or mask the data");
-    }
-}
 
 class RawSource final : public PatternSource {
  public:
@@ -112,7 +103,7 @@ class RawSource final : public PatternSource {
         break;
       case SampleType::float32:
         std::memcpy(out, src, m * 4);
-        check_finite(out, n, pixels(), first, spec_.path, grid_);
+        mark_non_finite(out, n, first, grid_);
         break;
     }
     // Drop the pages just read from this process's resident set: memory stays
@@ -222,7 +213,7 @@ class Hdf5Source final : public PatternSource {
       if (status < 0) fail(spec_.path, ": cannot read patterns ", p, "..", p + take - 1, " of '", spec_.dataset, "'");
       done += take;
     }
-    if (is_float_) check_finite(out, n, pixels(), first, spec_.path, grid_);
+    if (is_float_) mark_non_finite(out, n, first, grid_);
   }
 
  private:
@@ -253,17 +244,31 @@ class ImageFolderSource final : public PatternSource {
     if ((spec.width_px && spec.width_px != width_) || (spec.height_px && spec.height_px != height_))
       fail(file_of(0), " is ", width_, " x ", height_, " px, but the scan description says ", spec.width_px, " x ",
            spec.height_px);
-    const std::string last = file_of(count_ - 1);
-    if (!fs::exists(last)) fail("pattern image '", last, "' for the last scan point is missing");
   }
   std::string describe() const override { return "image folder " + spec_.path + " (" + spec_.name_pattern + ")"; }
   void read(size_t first, size_t n, float* out) override {
     for (size_t k = 0; k < n; ++k) {
       const std::string file = file_of(first + k);
-      const GrayImage img = read_gray_image(file);
-      if (img.width != width_ || img.height != height_)
-        fail(file, " is ", img.width, " x ", img.height, " px; the first pattern is ", width_, " x ", height_, " px");
-      for (size_t q = 0; q < pixels(); ++q) out[k * pixels() + q] = img.pixels[q];
+      float* pattern = out + k * pixels();
+      if (!fs::exists(file)) {
+        mark_faulty(first + k, "image " + file + " is missing", pattern);
+        continue;
+      }
+      GrayImage img;
+      try {
+        img = read_gray_image(file);
+      } catch (const Error& e) {
+        mark_faulty(first + k, e.what(), pattern);
+        continue;
+      }
+      if (img.width != width_ || img.height != height_) {
+        mark_faulty(first + k,
+                    file + " is " + std::to_string(img.width) + " x " + std::to_string(img.height) +
+                        " px; the first pattern is " + std::to_string(width_) + " x " + std::to_string(height_) + " px",
+                    pattern);
+        continue;
+      }
+      for (size_t q = 0; q < pixels(); ++q) pattern[q] = img.pixels[q];
     }
   }
   std::string file_of(size_t index) const {
@@ -295,6 +300,32 @@ class ImageFolderSource final : public PatternSource {
 };
 
 }  // namespace
+
+std::map<size_t, std::string> PatternSource::faults() const {
+  std::lock_guard<std::mutex> lock(faults_mutex_);
+  return faults_;
+}
+
+void PatternSource::mark_faulty(size_t index, const std::string& reason, float* pattern) {
+  std::fill(pattern, pattern + pixels(), std::nanf(""));
+  std::lock_guard<std::mutex> lock(faults_mutex_);
+  faults_.emplace(index, reason);
+}
+
+void PatternSource::mark_non_finite(float* out, size_t n, size_t first, const ScanGrid& grid) {
+  for (size_t k = 0; k < n; ++k) {
+    float* pattern = out + k * pixels();
+    for (size_t q = 0; q < pixels(); ++q)
+      if (!std::isfinite(pattern[q])) {
+        const GridPoint p = grid.point(first + k);
+        mark_faulty(first + k,
+                    "pattern at row " + std::to_string(p.row) + ", col " + std::to_string(p.col) +
+                        " has a NaN or infinite pixel (" + std::to_string(q) + ")",
+                    pattern);
+        break;
+      }
+  }
+}
 
 std::unique_ptr<PatternSource> open_pattern_source(const PatternSourceSpec& spec, const ScanGrid& grid) {
   grid.validate();

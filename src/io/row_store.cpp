@@ -65,7 +65,7 @@ void FolderRowStore::save(const std::string& stage, int row, const std::vector<u
     std::ofstream out(temp, std::ios::binary);
     out.write(reinterpret_cast<const char*>(bytes.data()), static_cast<std::streamsize>(bytes.size()));
     out.write(reinterpret_cast<const char*>(&check), sizeof check);
-    if (!out) fail("cannot write resume data to '", temp, "'");
+    finish_writing(out, "resume data " + temp);
   });
 }
 

@@ -325,7 +325,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
       }
       if (progress) progress(static_cast<size_t>(r + 1) * s.grid.cols, s.grid.count());
     }
-    if (!out) fail("error while writing '", patterns_path, "' (disk full?)");
+    finish_writing(out, patterns_path);
   });
 
   const SynthTruth truth = compute_truth(micro, s.grid, beam_um, beam_y_um);
