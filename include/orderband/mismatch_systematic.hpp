@@ -1,0 +1,28 @@
+// The systematic uncertainty of the ordered area fraction from model mismatch: the spread of the
+// area error over the renderer variants of the mismatch suite (bench/mismatch_bench), per estimator.
+#pragma once
+
+#include <string>
+
+namespace orderband {
+
+/// What the mismatch suite measured for one estimator: the area error (measured − true) over
+/// renderer variants the estimator is never told (band shapes, weight exponents, family
+/// contrasts, γ′/γ fundamental ratios, detector response, misfit, beam footprint, pattern-centre
+/// error). The RMS is a systematic uncertainty beside the statistical interval: it does not shrink
+/// with more points, and it is common to every trial analysed alike (it cancels, to first order,
+/// in comparisons of trials). Real, dynamical patterns differ from the kinematic renderer more
+/// than any variant does, so it is a lower bound.
+struct MismatchSystematic {
+  double rms = 0;           ///< RMS area error over the variants
+  double largest = 0;       ///< largest |area error|
+  int variants = 0;         ///< renderer variants in the suite
+  int within_003 = 0;       ///< variants with |area error| ≤ 0.03
+  std::string measured_by;  ///< how and when the figures were measured
+};
+
+/// The figures of the last full run of the suite for "learned" or "profile" (the model-led
+/// estimator); other estimators (reference regions) have none: rms NaN.
+MismatchSystematic mismatch_systematic(const std::string& estimator);
+
+}  // namespace orderband
