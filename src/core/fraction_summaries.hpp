@@ -1,0 +1,23 @@
+// The fraction stage's last parts: end members fixed from the scan (mixture or reference
+// regions) and the summaries per grain and of the matrix away from particles.
+#pragma once
+
+#include "orderband/grains.hpp"
+#include "orderband/ordered_fraction.hpp"
+#include "orderband/scan_grid.hpp"
+
+namespace orderband {
+
+/// The end members: with the model's (default) or the learned estimator's, the raw estimates stand;
+/// `EndMemberMode::mixture` rescales them so that a two-component mixture of the scan sits at 0 and
+/// 1, `EndMemberMode::regions` so that the reference regions do. Then every measured point's
+/// fraction is the rescaled raw value clipped to [0, 1]. Records the mixture of the raw estimates
+/// as r.disordered / r.ordered (model-led estimators only).
+void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, bool learned);
+
+/// Per grain: points and mean fraction; the matrix away from particles (a point whose eight
+/// neighbours are all measured and below one half): per grain its points, mean and spread, and
+/// over the scan the sub-resolution fraction with a standard error from 4 × 4-point blocks.
+void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const GrainMap& grains);
+
+}  // namespace orderband
