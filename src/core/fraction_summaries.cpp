@@ -99,7 +99,8 @@ void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const
         w2 += double(b.second) * b.second;
       }
       const double nb = static_cast<double>(blocks.size());
-      r.subresolution_se = nb > 1 ? std::sqrt(ss / (matrix_count * double(matrix_count)) * nb / (nb - 1)) : std::nan("");
+      r.subresolution_se =
+          nb > 1 ? std::sqrt(ss / (matrix_count * double(matrix_count)) * nb / (nb - 1)) : std::nan("");
     }
   }
 
