@@ -335,6 +335,62 @@ TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
   }
 }
 
+/// The mismatch bench's scan (bench/mismatch_bench.cpp): 40 × 40 points, three grains, one primary
+/// particle of 0.4 µm with its own orientation, secondary γ′ 25 %, with the bench's seed per variant.
+std::string mismatch_suite_scenario(int seed, const std::string& patterns, const std::string& renderer) {
+  return "[scenario]\nseed = " + std::to_string(seed) +
+         "\n[scan]\nrows = 40\ncols = 40\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+         "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[phases]\npair = \"ni\"\n[patterns]\ncounts_per_px = 5000\n" +
+         patterns + "[renderer]\n" + renderer +
+         "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = \"fixed\"\ndiameter_um = 0.4\n"
+         "own_orientation = true\n[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
+         "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = 0.0\n";
+}
+
+TEST(LearnedFraction, HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBroke) {
+  // Two variants of the mismatch suite, on the bench's own scans. Band weights ∝ |F|: beam-mixed
+  // points chained the primary particle into its neighbour's grain (area −0.216 before the split of
+  // grains with two orientation groups). Gaussian bands: a γ grain whose particles are too faint
+  // point by point (ΔBIC −0.7) was taken for ordered alone (+0.154 before its neighbourhood means
+  // were tested). Measured now: +0.002 and −0.015; the primary's grain at 0.97 and 0.95 (issue
+  // Wave 2 · A: > 0.9); each pure-γ grain's matrix within 0.05.
+  struct Case {
+    const char* name;
+    int seed;
+    std::string patterns, renderer;
+  };
+  const std::vector<Case> cases = {{"weights |F|^1", 32, "band_exponent = 1.0\n", ""},
+                                   {"Gaussian bands", 34, "edge_contrast = 0.0\n", "band_shape = \"gaussian\"\n"}};
+  for (const Case& c : cases) {
+    const ScenarioRun r =
+        run_scenario(mismatch_suite_scenario(c.seed, c.patterns, c.renderer), 0, false, {}, learned_spec());
+    EXPECT_TRUE(r.fraction.two_phases) << c.name;
+    EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << c.name;
+    // Per found grain: mostly ordered in truth (the primary) → mean f > 0.9; else its matrix
+    // points (truth 0) within 0.05 of 0.
+    const GrainMap& grains = r.orientations.grains;
+    std::vector<double> ordered(grains.count() + 1), f(grains.count() + 1), points(grains.count() + 1),
+        matrix(grains.count() + 1), matrix_points(grains.count() + 1);
+    for (size_t k = 0; k < r.truth.size(); ++k) {
+      const int g = grains.id[k];
+      if (g <= 0 || r.fraction.reason[k]) continue;
+      ordered[g] += r.truth[k] >= 0.5, f[g] += r.fraction.raw[k], points[g] += 1;
+      if (r.truth[k] <= 0.02) matrix[g] += r.fraction.raw[k], matrix_points[g] += 1;
+    }
+    int primaries = 0;
+    for (int g = 1; g <= grains.count(); ++g) {
+      if (points[g] < 20) continue;
+      if (ordered[g] > 0.5 * points[g]) {
+        EXPECT_GT(f[g] / points[g], 0.9) << c.name << ", grain " << g;
+        ++primaries;
+      } else if (matrix_points[g] >= 20) {
+        EXPECT_NEAR(matrix[g] / matrix_points[g], 0.0, 0.05) << c.name << ", grain " << g;
+      }
+    }
+    EXPECT_EQ(primaries, 1) << c.name;
+  }
+}
+
 TEST(LearnedFraction, OnePhaseIsReportedAsOnePhase) {
   // Issue Wave 2 · A, "Must show": scans of one phase (three grains of pure γ; three grains of pure
   // γ′, rendered as a matrix ordered throughout) on the default renderer and seven variants the
