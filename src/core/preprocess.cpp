@@ -132,9 +132,11 @@ std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const 
     }
     if (progress) progress(first + n, source.count());
   }
-  if (used == 0)
-    fail(source.describe(), ": no pattern of the scan could be read (", source.faults().size(),
-         " faulty; first: ", source.faults().empty() ? "" : source.faults().begin()->second, ")");
+  if (used == 0) {
+    const auto faults = source.faults();
+    fail(source.describe(), ": no pattern of the scan could be read (", faults.size(),
+         " faulty; first: ", faults.empty() ? "" : faults.begin()->second, ")");
+  }
   std::vector<float> mean(px);
   for (size_t q = 0; q < px; ++q) mean[q] = static_cast<float>(sum[q] / used);
   return mean;
