@@ -115,3 +115,52 @@ void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const
 }
 
 }  // namespace orderband
+
+namespace orderband {
+
+std::vector<FamilyDiagnostic> family_diagnostics(const FractionScan& scan, const std::vector<FractionReference>& refs,
+                                                 const FamilySeparation& separation, const LearnedFamilies& learned) {
+  const size_t nf = scan.families.count(), first_fundamental = scan.families.first_fundamental;
+  const std::vector<int>& size = scan.ori.grains.size;
+  std::vector<double> share(nf, 0.0), lo(nf, 0.0), hi(nf, 0.0);
+  double total_points = 0;
+  for (int g = 1; g <= scan.grains; ++g) {
+    const double wgt = size[g - 1];
+    total_points += wgt;
+    for (size_t f = 0; f < first_fundamental; ++f) {
+      share[f] +=
+          wgt * (refs[g].denominator > 0 ? refs[g].a[f] * (refs[g].r1[f] - refs[g].r0[f]) / refs[g].denominator : 0);
+      lo[f] += wgt * refs[g].r0[f], hi[f] += wgt * refs[g].r1[f];
+    }
+  }
+  int largest = 0, largest_size = -1;
+  for (int g = 1; g <= scan.grains; ++g)
+    if (size[g - 1] > largest_size) largest_size = size[g - 1], largest = g;
+  const BandProfiler& profiler = scan.profiler;
+  std::vector<FamilyDiagnostic> out;
+  for (size_t f = 0; f < nf; ++f) {
+    FamilyDiagnostic d;
+    d.label = scan.families.chosen[f].family.label();
+    d.superlattice = f < first_fundamental;
+    d.sensitivity = scan.families.chosen[f].sensitivity;
+    if (total_points > 0)
+      d.weight = share[f] / total_points, d.disordered_level = lo[f] / total_points,
+      d.ordered_level = hi[f] / total_points;
+    d.separation = separation.den[f] > 0 ? separation.num[f] / separation.den[f] : 0.0;
+    for (int b = 0; b < profiler.bins(); ++b) d.profile_u.push_back(profiler.bin_centre_u(b));
+    if (largest > 0) {
+      for (int b = 0; b < profiler.bins(); ++b) {
+        d.profile_disordered.push_back(refs[largest].profile0[f].mean(b));
+        d.profile_ordered.push_back(refs[largest].profile1[f].mean(b));
+      }
+    }
+    if (f < learned.difference.size()) {
+      d.learned_u = learned.u;
+      d.learned_difference = learned.difference[f];
+    }
+    out.push_back(std::move(d));
+  }
+  return out;
+}
+
+}  // namespace orderband

@@ -2,6 +2,9 @@
 // regions) and the summaries per grain and of the matrix away from particles.
 #pragma once
 
+#include "fraction_reference.hpp"
+#include "learned_fraction_scan.hpp"
+#include "model_led_fraction.hpp"
 #include "orderband/grains.hpp"
 #include "orderband/ordered_fraction.hpp"
 #include "orderband/scan_grid.hpp"
@@ -19,5 +22,11 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
 /// neighbours are all measured and below one half): per grain its points, mean and spread, and
 /// over the scan the sub-resolution fraction with a standard error from 4 × 4-point blocks.
 void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const GrainMap& grains);
+
+/// Diagnostics per family: the model's weights and levels averaged over grains by their size, the
+/// separation the points showed, the largest grain's reference profiles, and the learned
+/// difference (if the learned estimator ran: `learned` non-empty).
+std::vector<FamilyDiagnostic> family_diagnostics(const FractionScan& scan, const std::vector<FractionReference>& refs,
+                                                 const FamilySeparation& separation, const LearnedFamilies& learned);
 
 }  // namespace orderband

@@ -1,0 +1,322 @@
+// The data-led estimator run on a scan: features per point, the model's first guess and
+// signatures per grain, then learn_fraction.
+#include "learned_fraction_scan.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+
+#include "orderband/learned_fraction.hpp"
+#include "row_loop.hpp"
+
+namespace orderband {
+
+namespace {
+
+/// The model's first guess of a point's fraction: the point's superlattice profile shapes (each
+/// family's mean over its bins removed, so that offsets and fundamental contrast do not enter)
+/// projected on the model's ordered − disordered difference. `model[phase]` and `x` hold
+/// families × bins features (NaN: bin not covered).
+double model_first_guess(const std::array<std::vector<double>, 2>& model, const float* x, size_t bins,
+                         size_t superlattice_families) {
+  double num = 0, den = 0;
+  auto covered = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(model[0][i]); };
+  for (size_t f = 0; f < superlattice_families; ++f) {
+    double mx = 0, m0 = 0, m1 = 0, c = 0;
+    for (size_t i = f * bins; i < (f + 1) * bins; ++i)
+      if (covered(i)) mx += x[i], m0 += model[0][i], m1 += model[1][i], c += 1;
+    if (c < 2) continue;
+    mx /= c, m0 /= c, m1 /= c;
+    for (size_t i = f * bins; i < (f + 1) * bins; ++i) {
+      if (!covered(i)) continue;
+      const double d = (model[1][i] - m1) - (model[0][i] - m0);
+      num += d * ((x[i] - mx) - (model[0][i] - m0)), den += d * d;
+    }
+  }
+  return den > 0 ? num / den : std::nan("");
+}
+
+/// Writes the bin means of every family (families × bins values) where a bin holds pixels; other
+/// entries are left as they are (NaN: not covered).
+template <class T>
+void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* out) {
+  for (size_t f = 0; f < prof.size(); ++f)
+    for (size_t b = 0; b < bins; ++b)
+      if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
+}
+
+/// Whether a chosen fundamental family lies on the planes of family `f` (hkl a multiple of f's):
+/// in L1₂ every superlattice family does ({100} inside {200}), but only the strong low-index ones
+/// are chosen, and a change of their intensity with ordering would swamp a faint interior excess.
+bool covered_by_fundamental(const PairFamily& f, const std::vector<PairFamily>& chosen, size_t first_fundamental) {
+  for (size_t j = first_fundamental; j < chosen.size(); ++j)
+    for (int m = 2; m <= 4; ++m)
+      if (chosen[j].family.hkl == m * f.family.hkl) return true;
+  return false;
+}
+
+/// The ordering signature of one grain (LearnedInputs::ordering_signature): the model's ordered −
+/// disordered profile difference at the grain's orientation on the superlattice families no chosen
+/// fundamental family covers (all of them if every one is covered), bins with |u| < 1.75 only,
+/// each family's mean over them removed; 0 elsewhere. Where a covering fundamental band changes
+/// with ordering (in strength or edge lines), its change would outweigh the faint superlattice
+/// band; the uncovered families see only the new band and the crossings of other bands, which the
+/// model's difference does not contain.
+std::vector<double> ordering_signature(const BandProfiler& features, const FractionFamilies& fam,
+                                       const std::array<std::vector<double>, 2>& model) {
+  const size_t bins = static_cast<size_t>(features.bins()), first_fundamental = fam.first_fundamental;
+  std::vector<uint8_t> use(first_fundamental, 0);
+  for (size_t f = 0; f < first_fundamental; ++f)
+    use[f] = !covered_by_fundamental(fam.chosen[f], fam.chosen, first_fundamental);
+  if (std::find(use.begin(), use.end(), 1) == use.end()) std::fill(use.begin(), use.end(), 1);
+  std::vector<double> signature(fam.count() * bins, 0.0);
+  for (size_t f = 0; f < first_fundamental; ++f) {
+    if (!use[f]) continue;
+    double mean = 0, count = 0;
+    auto inside = [&](size_t b) {
+      const size_t i = f * bins + b;
+      const double u = std::abs(features.bin_centre_u(static_cast<int>(b)));
+      return (u < 0.75 || (u > 1.25 && u < 1.75)) && !std::isnan(model[0][i]) && !std::isnan(model[1][i]);
+    };
+    for (size_t b = 0; b < bins; ++b)
+      if (inside(b)) mean += model[1][f * bins + b] - model[0][f * bins + b], count += 1;
+    if (count < 2) continue;
+    mean /= count;
+    for (size_t b = 0; b < bins; ++b)
+      if (inside(b)) signature[f * bins + b] = model[1][f * bins + b] - model[0][f * bins + b] - mean;
+  }
+  return signature;
+}
+
+/// At a grain boundary the beam sees a second lattice. The other grain's model pattern profiled in
+/// this grain's frame (`seen`, families × bins), less this grain's own model profile (`own_model`),
+/// is the direction along which a point's features move with the other lattice's share; its
+/// component in the point's features `x` (least squares about the grain's mean features, bins no
+/// point of the grain covers left out) is taken out. The model gives the other lattice's band
+/// positions; the share comes from the data.
+void take_out_second_lattice(float* x, const std::vector<double>& grain_mean, const std::vector<double>& grain_count,
+                             const std::vector<double>& own_model, const std::vector<std::vector<double>>& seen,
+                             size_t bins) {
+  auto direction = [&](size_t i) { return seen[i / bins][i % bins] - own_model[i]; };
+  auto usable = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(own_model[i]) && grain_count[i] > 0; };
+  double rc = 0, cc = 0;
+  for (size_t i = 0; i < own_model.size(); ++i)
+    if (usable(i)) rc += (x[i] - grain_mean[i]) * direction(i), cc += direction(i) * direction(i);
+  if (!(cc > 0)) return;
+  const double share = rc / cc;
+  for (size_t i = 0; i < own_model.size(); ++i)
+    if (usable(i)) x[i] -= static_cast<float>(share * direction(i));
+}
+
+/// End members as the learned estimator found them: mean, spread and share of the measured points
+/// on either side of one half.
+void end_members_either_side_of_half(FractionResults& r) {
+  double sum[2] = {0, 0}, sq[2] = {0, 0}, cnt[2] = {0, 0};
+  for (size_t k = 0; k < r.raw.size(); ++k) {
+    if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    const int c = r.raw[k] >= 0.5;
+    sum[c] += r.raw[k], sq[c] += double(r.raw[k]) * r.raw[k], cnt[c] += 1;
+  }
+  const double total = cnt[0] + cnt[1];
+  for (int c = 0; c < 2; ++c) {
+    EndMember& e = c ? r.ordered : r.disordered;
+    if (cnt[c] > 0)
+      e.mean = sum[c] / cnt[c], e.sd = std::sqrt(std::max(0.0, sq[c] / cnt[c] - e.mean * e.mean)),
+      e.weight = cnt[c] / total;
+  }
+}
+
+/// What the learned estimator works with: features from patterns kept linear in the phase
+/// mixture, and the model processed the same way.
+struct LinearFeatures {
+  const FractionScan& scan;
+  BandProfiler features;
+  Preprocessor data, model;
+  size_t bins, p;
+
+  static PreprocessSpec without_unit_variance(PreprocessSpec spec) {
+    spec.unit_variance = false;
+    return spec;
+  }
+
+  LinearFeatures(const FractionScan& s, const PreprocessSpec& data_spec, const PreprocessSpec& model_spec)
+      : scan(s),
+        features(s.families.profile, s.spec.learned_profile),
+        data(without_unit_variance(data_spec), s.source->width(), s.source->height(), s.pre.static_background()),
+        model(without_unit_variance(model_spec), s.source->width(), s.source->height(), s.pre.static_background()),
+        bins(static_cast<size_t>(features.bins())),
+        p(s.families.count() * bins) {}
+
+  /// Both phases' model features at each grain's orientation (index = grain id).
+  std::vector<std::array<std::vector<double>, 2>> model_features() const {
+    std::vector<std::array<std::vector<double>, 2>> out(scan.grains + 1);
+#pragma omp parallel for schedule(dynamic)
+    for (int g = 1; g <= scan.grains; ++g) {
+      std::vector<float> img(scan.pixels());
+      std::vector<FamilyProfile> prof;
+      for (int phase = 0; phase < 2; ++phase) {
+        scan.model->phase(model, scan.geometry, scan.grain_orientation[g], phase == 1, img.data());
+        features.profile(img.data(), scan.pre.mask(), scan.rays, scan.grain_orientation[g], prof);
+        out[g][phase].assign(p, std::nan(""));
+        profile_features(prof, bins, out[g][phase].data());
+      }
+    }
+    return out;
+  }
+
+  /// Every point's features and its pattern quality (the strongest fundamental band's interior
+  /// over its flanks), row by row and resumable.
+  void collect(FractionResults& res, LearnedInputs& in, const ProgressFn& progress, RowStore* store) const {
+    const ScanGrid& grid = scan.grid;
+    const size_t first_fundamental = scan.families.first_fundamental;
+    PreprocessedRows rows(*scan.source, grid, data);
+    for_each_scan_row(
+        rows, grid, store, "fraction-learned", progress,
+        [&](int row, ByteReader& bytes) {
+          for (int col = 0; col < grid.cols; ++col) {
+            const size_t k = grid.index({row, col});
+            res.reason[k] = bytes.get<uint8_t>();
+            res.band_contrast[k] = bytes.get<float>();
+            for (size_t b = 0; b < p; ++b) in.x[k * p + b] = bytes.get<float>();
+          }
+        },
+        [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
+#pragma omp parallel
+          {
+            std::vector<FamilyProfile> prof;
+#pragma omp for schedule(dynamic)
+            for (int col = 0; col < grid.cols; ++col) {
+              const size_t k = grid.index({row, col});
+              const int g = scan.ori.grains.id[k];
+              if (!usable[col]) {
+                res.reason[k] = static_cast<uint8_t>(FractionReason::unusable_pattern);
+                continue;
+              }
+              if (!scan.ori.orientation[k] || g <= 0) {
+                res.reason[k] = static_cast<uint8_t>(FractionReason::no_orientation);
+                continue;
+              }
+              const float* pattern = patterns.data() + static_cast<size_t>(col) * scan.pixels();
+              features.profile(pattern, scan.pre.mask(), scan.rays, scan.grain_orientation[g], prof);
+              profile_features(prof, bins, in.x.data() + k * p);
+              const FamilyWindows fw = features.windows(prof[first_fundamental], scan.spec.windows);
+              res.band_contrast[k] = static_cast<float>(fw.interior.mean - fw.flanks.mean);
+            }
+          }
+        },
+        [&](int row, ByteWriter& bytes) {
+          for (int col = 0; col < grid.cols; ++col) {
+            const size_t k = grid.index({row, col});
+            bytes.put<uint8_t>(res.reason[k]);
+            bytes.put<float>(res.band_contrast[k]);
+            for (size_t b = 0; b < p; ++b) bytes.put<float>(in.x[k * p + b]);
+          }
+        });
+  }
+};
+
+/// The learning's inputs before the features: points, folds for cross-fitting (alternate 4 × 4
+/// blocks), features NaN until collected.
+LearnedInputs empty_inputs(const FractionScan& scan, size_t p) {
+  LearnedInputs in;
+  in.points = scan.n, in.features = p, in.grains = scan.grains, in.cols = scan.grid.cols;
+  in.grain.assign(scan.n, 0);
+  in.fold.assign(scan.n, 0);
+  in.x.assign(scan.n * p, std::nanf(""));
+  in.first_guess.assign(scan.n, std::nan(""));
+  for (size_t k = 0; k < scan.n; ++k) {
+    const GridPoint pt = scan.grid.point(k);
+    in.fold[k] = static_cast<uint8_t>((pt.row / 4 + pt.col / 4) % 2);
+  }
+  return in;
+}
+
+/// Boundary points (a neighbour in another grain) and each measured point's grain. A grain with
+/// too few points away from its boundaries (a sliver at the field's edge) cannot be placed: its
+/// mean is too noisy and too mixed with its neighbours' lattices.
+void assign_grains(const FractionScan& scan, FractionResults& res, LearnedInputs& in) {
+  const size_t n = scan.n;
+  const std::vector<int32_t>& id = scan.ori.grains.id;
+  in.boundary.assign(n, 0);
+  for (size_t k = 0; k < n; ++k)
+    for (const GridPoint& nb : scan.grid.neighbours(scan.grid.point(k), 8))
+      in.boundary[k] = in.boundary[k] || id[scan.grid.index(nb)] != id[k];
+  for (size_t k = 0; k < n; ++k)
+    if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) in.grain[k] = id[k];
+  std::vector<int> inner_points(scan.grains + 1, 0);
+  for (size_t k = 0; k < n; ++k)
+    if (in.grain[k] > 0 && !in.boundary[k]) ++inner_points[in.grain[k]];
+  for (size_t k = 0; k < n; ++k)
+    if (in.grain[k] > 0 && inner_points[in.grain[k]] < scan.spec.learned.min_grain_points)
+      in.grain[k] = 0, res.reason[k] = static_cast<uint8_t>(FractionReason::small_grain);
+}
+
+/// Grain boundaries: the second lattice's share taken out of the features, about each grain's
+/// mean over its points away from boundaries.
+void take_out_second_lattices(const FractionScan& scan, const LinearFeatures& lin,
+                              const std::vector<std::array<std::vector<double>, 2>>& model_features,
+                              LearnedInputs& in) {
+  const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model);
+  const GrainFeatures interior = grain_features(in);
+  for (size_t k = 0; k < scan.n; ++k) {
+    const int g = in.grain[k];
+    if (g <= 0 || !in.boundary[k]) continue;
+    const int other = scan.neighbour_grain(k);
+    if (const auto seen = cross.find({g, other}); other > 0 && seen != cross.end())
+      take_out_second_lattice(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], model_features[g][0],
+                              seen->second, lin.bins);
+  }
+}
+
+/// The learning's result into the stage's results.
+void take_learned(const LearnedFraction& lf, FractionResults& res) {
+  for (size_t k = 0; k < res.raw.size(); ++k) {
+    if (res.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    if (std::isnan(lf.f[k])) {
+      res.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);
+      continue;
+    }
+    res.raw[k] = lf.f[k];
+    res.uncertainty[k] = lf.uncertainty[k];
+  }
+  res.estimator = "learned";
+  res.two_phases = lf.two_phases;
+  res.single_phase_ordered = lf.single_phase_ordered;
+  res.learned_separation = lf.separation;
+  res.learned_evidence = lf.evidence;
+  res.learned_iterations = lf.iterations_run;
+  end_members_either_side_of_half(res);
+}
+
+}  // namespace
+
+LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res, const ProgressFn& progress,
+                                 RowStore* store) {
+  const LinearFeatures lin(scan, scan.config.preprocess, scan.model->processing_spec());
+  const auto model_features = lin.model_features();
+  LearnedInputs in = empty_inputs(scan, lin.p);
+  lin.collect(res, in, progress, store);
+  assign_grains(scan, res, in);
+  take_out_second_lattices(scan, lin, model_features, in);
+  in.model = model_features;
+  in.bins = lin.bins;
+  in.superlattice_families = scan.families.first_fundamental;
+  in.ordering_signature.assign(scan.grains + 1, {});
+  for (int g = 1; g <= scan.grains; ++g)
+    in.ordering_signature[g] = ordering_signature(lin.features, scan.families, model_features[g]);
+  for (size_t k = 0; k < scan.n; ++k)
+    if (in.grain[k] > 0)
+      in.first_guess[k] =
+          model_first_guess(model_features[in.grain[k]], in.x.data() + k * lin.p, lin.bins, in.superlattice_families);
+  const LearnedFraction lf = learn_fraction(in, scan.spec.learned);
+  take_learned(lf, res);
+  LearnedFamilies out;
+  const size_t nf = scan.families.count();
+  if (lf.difference.size() == nf * lin.bins)
+    for (size_t f = 0; f < nf; ++f)
+      out.difference.emplace_back(lf.difference.begin() + f * lin.bins, lf.difference.begin() + (f + 1) * lin.bins);
+  for (size_t b = 0; b < lin.bins; ++b) out.u.push_back(lin.features.bin_centre_u(static_cast<int>(b)));
+  return out;
+}
+
+}  // namespace orderband
