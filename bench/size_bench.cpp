@@ -1,15 +1,21 @@
 // Precipitate statistics through the whole map chain over many seeds: resolved sections against the
 // truth counted the same way, and the 3-D secondary mean with its interval.
-// usage: size_bench [SEEDS=20] [SIDE=80] [COUNTS=5000]
-// Each seed renders a synthetic scan (SIDE × SIDE points of 25 nm, 60 × 60 px, log-normal secondary
-// γ′ of median 0.15 µm and σ 0.2 at 30 %, tertiary 5 %, two grains), maps it with the model-led
-// estimator and prints one row; the last lines give the shares the checks ask for.
+// usage: size_bench [SEEDS=20] [SIDE=80] [COUNTS=5000] [SCENARIO=medium]
+// Each seed renders a synthetic scan (SIDE × SIDE points, 60 × 60 px, log-normal secondary γ′,
+// tertiary 5 %, two grains), maps it with the model-led estimator and prints one row; the last
+// lines give the shares the checks ask for. Scenarios (invented, each a different size
+// against the step):
+//   medium: median 0.15 µm, σ 0.2, 30 %, step 25 nm (≈ 6 steps across the median);
+//   fine:   median 0.08 µm, σ 0.25, 25 %, step 15 nm (≈ 5 steps, sections near the limit);
+//   coarse: median 0.30 µm, σ 0.15, 35 %, step 50 nm (≈ 6 steps, few sections per field);
+//   sparse: median 0.12 µm, σ 0.2, 10 %, step 20 nm (isolated particles, few per field).
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <string>
 
 #include "orderband/map_scan.hpp"
 #include "orderband/scan_config.hpp"
@@ -18,11 +24,29 @@
 
 using namespace orderband;
 
+struct Population {
+  const char* name;
+  double median_um, sigma_ln, area_fraction, step_um;
+};
+
+const Population kPopulations[] = {{"medium", 0.15, 0.2, 0.30, 0.025},
+                                   {"fine", 0.08, 0.25, 0.25, 0.015},
+                                   {"coarse", 0.30, 0.15, 0.35, 0.050},
+                                   {"sparse", 0.12, 0.2, 0.10, 0.020}};
+
 int main(int argc, char** argv) {
   const int seeds = argc > 1 ? std::atoi(argv[1]) : 20;
   const int side = argc > 2 ? std::atoi(argv[2]) : 80;
   const double counts = argc > 3 ? std::atof(argv[3]) : 5000;
-  const std::string dir = (std::filesystem::temp_directory_path() / "orderband-size-bench").string();
+  const std::string name = argc > 4 ? argv[4] : "medium";
+  const Population* pop = nullptr;
+  for (const Population& p : kPopulations)
+    if (name == p.name) pop = &p;
+  if (!pop) {
+    std::fprintf(stderr, "size_bench: scenario \"%s\" is not medium, fine, coarse or sparse\n", name.c_str());
+    return 2;
+  }
+  const std::string dir = (std::filesystem::temp_directory_path() / ("orderband-size-bench-" + name)).string();
   int mean_within = 0, mean_covered = 0, density_covered = 0, fitted = 0;
   double count_error_sum = 0, ecd_error_sum = 0;
   std::printf("%5s %8s %8s %9s %9s %9s %19s %9s %8s %17s %8s\n", "seed", "limit", "count", "truth", "ECD", "truth",
@@ -32,13 +56,13 @@ int main(int argc, char** argv) {
     std::filesystem::remove_all(dir);
     std::filesystem::create_directories(dir);
     std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 500 + seed << "\n[scan]\nrows = " << side
-                                   << "\ncols = " << side
-                                   << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+                                   << "\ncols = " << side << "\nstep_um = " << pop->step_um
+                                   << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
                                       "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
                                    << counts
-                                   << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
-                                      "distribution = \"lognormal\"\nmedian_diameter_um = 0.15\nsigma_ln = 0.2\n"
-                                      "[tertiary]\nfraction = 0.05\n";
+                                   << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = " << pop->area_fraction
+                                   << "\ndistribution = \"lognormal\"\nmedian_diameter_um = " << pop->median_um
+                                   << "\nsigma_ln = " << pop->sigma_ln << "\n[tertiary]\nfraction = 0.05\n";
     const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
     write_synthetic_scan(scenario, dir + "/scan", "size_bench");
     const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
@@ -53,11 +77,15 @@ int main(int argc, char** argv) {
     const ClassStats* sec = nullptr;
     for (const ClassStats& c : r.classes)
       if (c.name == "secondary") sec = &c;
-    // The scenario's population: log-normal, median 0.15 µm, σ 0.2.
-    const double d3 = 0.15 * std::exp(0.5 * 0.2 * 0.2),
+    // The scenario's population: log-normal, mean = median · exp(σ²/2).
+    const double d3 = pop->median_um * std::exp(0.5 * pop->sigma_ln * pop->sigma_ln),
                  area = config.grid.field_width_um() * config.grid.field_height_um();
     const double nv = t.count_all / area / d3;  // N_A = N_V ⟨D⟩ over the true sections
     const SphereSizeFit* fit = r.secondary_preferred();
+    if (!sec) {
+      std::printf("%5d no secondary class measured\n", seed);
+      continue;
+    }
     count_error_sum += std::abs(sec->count - t.count_resolved) / std::max(1.0, double(t.count_resolved));
     ecd_error_sum += std::abs(sec->mean_ecd_um / t.mean_ecd_resolved_um - 1);
     if (fit) {
@@ -74,7 +102,8 @@ int main(int argc, char** argv) {
     std::fflush(stdout);
   }
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  std::printf("\n%d seeds, %d x %d points, %.0f counts/px, %.0f s\n", seeds, side, side, counts, sec);
+  std::printf("\n%s: %d seeds, %d x %d points of %.0f nm, %.0f counts/px, %.0f s\n", pop->name, seeds, side, side,
+              1000 * pop->step_um, counts, sec);
   std::printf(
       "resolved sections: mean |count error| %.1f %%, mean |ECD error| %.1f %% (against the truth counted the same "
       "way)\n",

@@ -108,6 +108,15 @@ TEST(PhaseCif, ClearErrors) {
             }).find("occupancy 1.7"),
             std::string::npos);
   EXPECT_NE(message_of([] { parse_phase_cif("this is { not a cif", "g.cif"); }).find("g.cif"), std::string::npos);
+  // Found by the CIF fuzz target: a space group number far outside int's range was cast (undefined).
+  for (const char* number : {"1e300", "0", "231", "12.5", "-4"})
+    EXPECT_NE(message_of([&] {
+                parse_phase_cif(
+                    minimal_cif(kCubicCell, std::string("_space_group_IT_number ") + number + "\n", "Ni1 Ni 0 0 0 1\n"),
+                    "h.cif");
+              }).find("is not a whole number from 1 to 230"),
+              std::string::npos)
+        << number;
 }
 
 TEST(PhaseCif, ImpossibleCellsCoordinatesAndSitesAreErrors) {

@@ -135,8 +135,8 @@ FractionModel::FractionModel(const OrderingPair& pair, double kv, const Detector
       spec_(model_processing(data_spec, !data.static_background().empty())),
       processing_(spec_, data.width(), data.height(), data.static_background()) {}
 
-void FractionModel::phase(const Preprocessor& processing, const DetectorGeometry& geo, const Rotation& g,
-                          bool ordered, float* out) const {
+void FractionModel::phase(const Preprocessor& processing, const DetectorGeometry& geo, const Rotation& g, bool ordered,
+                          float* out) const {
   renderer_.expected({{g, ordered, 1.0, 0}}, geo, out);
   for (size_t q = 0; q < pixels_; ++q) out[q] *= detector_background_[q];
   processing.apply(out);

@@ -25,9 +25,9 @@ namespace orderband {
 /// strongest fundamental ones, which normalise the band contrast.
 struct FractionFamilies {
   std::vector<PairFamily> chosen;
-  size_t first_fundamental = 0;             ///< index of the first fundamental family in `chosen`
-  std::vector<double> fundamental_weight;   ///< per fundamental family: its disordered |F|² share
-  std::vector<ProfileFamily> profile;       ///< `chosen` as the profiler takes them
+  size_t first_fundamental = 0;            ///< index of the first fundamental family in `chosen`
+  std::vector<double> fundamental_weight;  ///< per fundamental family: its disordered |F|² share
+  std::vector<ProfileFamily> profile;      ///< `chosen` as the profiler takes them
   size_t count() const { return chosen.size(); }
 };
 

@@ -103,9 +103,7 @@ GrainSums sum_grain_patterns(const FractionScan& scan) {
 
 /// The disordered model processed like the data, as the pattern-centre fit takes it.
 ProcessedModel processed_disordered(const FractionScan& scan) {
-  return [&scan](const DetectorGeometry& geo, const Rotation& g, float* out) {
-    scan.model->phase(geo, g, false, out);
-  };
+  return [&scan](const DetectorGeometry& geo, const Rotation& g, float* out) { scan.model->phase(geo, g, false, out); };
 }
 
 void refine_pattern_centre(FractionScan& scan, const GrainSums& sums, FractionResults& r) {
@@ -113,9 +111,8 @@ void refine_pattern_centre(FractionScan& scan, const GrainSums& sums, FractionRe
   std::vector<int> order;
   for (int g = 1; g <= scan.grains; ++g)
     if (sums.count[g] >= spec.pattern_centre_min_points) order.push_back(g);
-  std::sort(order.begin(), order.end(), [&](int a, int b) {
-    return sums.count[a] > sums.count[b] || (sums.count[a] == sums.count[b] && a < b);
-  });
+  std::sort(order.begin(), order.end(),
+            [&](int a, int b) { return sums.count[a] > sums.count[b] || (sums.count[a] == sums.count[b] && a < b); });
   if (order.size() > static_cast<size_t>(spec.pattern_centre_grains)) order.resize(spec.pattern_centre_grains);
   if (order.empty()) return;
   std::vector<GrainPattern> evidence;

@@ -26,8 +26,7 @@ struct WindowSignals {
   std::vector<int> n_int, n_flank;
 };
 
-WindowSignals window_signals(const BandProfiler& profiler, const std::vector<FamilyProfile>& prof,
-                             const WindowSpec& w);
+WindowSignals window_signals(const BandProfiler& profiler, const std::vector<FamilyProfile>& prof, const WindowSpec& w);
 
 /// The fundamental band contrast: the fundamental families' window signals weighted by |F|².
 double contrast(const WindowSignals& w, const std::vector<double>& fundamental_weight, size_t first_fundamental);

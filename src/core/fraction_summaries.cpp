@@ -92,11 +92,10 @@ void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const
     if (matrix_count) {
       r.subresolution_fraction = sum / matrix_count;
       // Block means weighted by their point counts: SE of the weighted mean.
-      double ss = 0, w2 = 0;
+      double ss = 0;
       for (const auto& [key, b] : blocks) {
         const double m = b.first / b.second;
         ss += b.second * b.second * (m - r.subresolution_fraction) * (m - r.subresolution_fraction);
-        w2 += double(b.second) * b.second;
       }
       const double nb = static_cast<double>(blocks.size());
       r.subresolution_se =

@@ -130,8 +130,8 @@ struct PointEstimator {
     const double pixel_sd = pixel_noise_sd(pattern, scan.pre.mask(), scan.source->width());
     const int other = own ? 0 : scan.neighbour_grain(k);
     const auto cross = other ? cross_profiles.find({g, other}) : cross_profiles.end();
-    const PointFit fit = fit_point(scan, prof, ref, cross != cross_profiles.end() ? &cross->second : nullptr,
-                                   pixel_sd, fam_num, fam_den);
+    const PointFit fit = fit_point(scan, prof, ref, cross != cross_profiles.end() ? &cross->second : nullptr, pixel_sd,
+                                   fam_num, fam_den);
     r.band_contrast[k] = static_cast<float>(fit.q);
     if (!fit.ok) {
       r.reason[k] = static_cast<uint8_t>(FractionReason::no_band_contrast);

@@ -136,7 +136,8 @@ std::pair<double, double> percentiles(const SphereMap& map, double lo, double hi
 }  // namespace
 
 RgbImage stereographic_image(const SphereMap& map, int size) {
-  const auto [lo, hi] = percentiles(map, 0.01, 0.99);
+  const std::pair<double, double> range = percentiles(map, 0.01, 0.99);
+  const double lo = range.first, hi = range.second;
   return stereographic(map, size, [&](double v) {
     const double t = std::clamp((v - lo) / std::max(hi - lo, 1e-30), 0.0, 1.0);
     const auto g = static_cast<uint8_t>(std::lround(30 + 225 * t));
@@ -145,7 +146,8 @@ RgbImage stereographic_image(const SphereMap& map, int size) {
 }
 
 RgbImage stereographic_image_signed(const SphereMap& map, int size) {
-  const auto [lo, hi] = percentiles(map, 0.01, 0.99);
+  const std::pair<double, double> range = percentiles(map, 0.01, 0.99);
+  const double lo = range.first, hi = range.second;
   const double scale = std::max({std::abs(lo), std::abs(hi), 1e-30});
   return stereographic(map, size, [&](double v) {
     const double t = std::clamp(v / scale, -1.0, 1.0);

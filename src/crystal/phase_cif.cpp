@@ -24,8 +24,10 @@ const gemmi::SpaceGroup* space_group_of(const gemmi::SmallStructure& st, gemmi::
   }
   for (const char* tag : {"_space_group_IT_number", "_symmetry_Int_Tables_number"}) {
     if (const std::string* v = block.find_value(tag)) {
-      const int number = static_cast<int>(gemmi::cif::as_number(*v));
-      if (const gemmi::SpaceGroup* sg = gemmi::find_spacegroup_by_number(number)) return sg;
+      const double number = gemmi::cif::as_number(*v);
+      if (!(number >= 1 && number <= 230 && number == std::floor(number)))
+        fail(origin, ": space group number ", v->substr(0, 40), " is not a whole number from 1 to 230");
+      if (const gemmi::SpaceGroup* sg = gemmi::find_spacegroup_by_number(static_cast<int>(number))) return sg;
       fail(origin, ": unknown space group number ", *v);
     }
   }

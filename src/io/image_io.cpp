@@ -5,6 +5,7 @@
 #include <tiffio.h>
 
 #include <cstdio>
+#include <cstring>
 #include <filesystem>
 #include <memory>
 
@@ -34,41 +35,65 @@ void png_quiet_error(png_structp png, png_const_charp message) {
 }
 void png_quiet_warning(png_structp, png_const_charp) {}
 
+// Pattern images are a few hundred pixels across; larger sides are damage, not data.
+constexpr uint32_t kMaxImageSide = 16384;
+
+/// A PNG as libpng decodes it. Every C++ object lives here, in the caller's frame: libpng's error
+/// handler jumps back into decode_png, and a jump must not skip a destructor.
+struct PngDecoded {
+  int width = 0, height = 0, bits = 0, color = 0;
+  bool grey = false;  ///< 8- or 16-bit greyscale (else nothing beyond the header was read)
+  std::vector<uint8_t> buffer;
+  std::vector<png_bytep> rows;
+};
+
+/// Returns false (png_message says why) when libpng fails.
+bool decode_png(FILE* f, PngDecoded& out) {
+  png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
+  if (!png) {
+    png_message = "out of memory";
+    return false;
+  }
+  png_infop info = png_create_info_struct(png);
+  if (setjmp(png_jmpbuf(png))) {
+    png_destroy_read_struct(&png, &info, nullptr);
+    return false;
+  }
+  png_set_user_limits(png, kMaxImageSide, kMaxImageSide);
+  png_init_io(png, f);
+  png_read_info(png, info);
+  out.color = png_get_color_type(png, info);
+  out.bits = png_get_bit_depth(png, info);
+  out.width = static_cast<int>(png_get_image_width(png, info));
+  out.height = static_cast<int>(png_get_image_height(png, info));
+  out.grey = out.color == PNG_COLOR_TYPE_GRAY && (out.bits == 8 || out.bits == 16);
+  if (out.grey) {
+    if (out.bits == 16) png_set_swap(png);  // PNG stores big-endian; read as host order (little-endian)
+    png_read_update_info(png, info);
+    const size_t stride = png_get_rowbytes(png, info);
+    out.buffer.resize(stride * out.height);
+    out.rows.resize(out.height);
+    for (int i = 0; i < out.height; ++i) out.rows[i] = out.buffer.data() + i * stride;
+    png_read_image(png, out.rows.data());
+  }
+  png_destroy_read_struct(&png, &info, nullptr);
+  return true;
+}
+
 GrayImage read_png(const std::string& path) {
   std::unique_ptr<FILE, FileCloser> f(std::fopen(path.c_str(), "rb"));
   if (!f) fail("cannot read image '", path, "' (missing or unreadable)");
-  png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
-  png_infop info = png_create_info_struct(png);
+  PngDecoded d;
+  if (!decode_png(f.get(), d)) fail("'", path, "' is not a readable PNG file (", png_message, ")");
+  if (!d.grey) fail("'", path, "' must be an 8- or 16-bit greyscale PNG (colour type ", d.color, ", ", d.bits, " bit)");
   GrayImage img;
-  std::vector<png_bytep> rows;
-  if (setjmp(png_jmpbuf(png))) {
-    png_destroy_read_struct(&png, &info, nullptr);
-    fail("'", path, "' is not a readable PNG file (", png_message, ")");
-  }
-  png_init_io(png, f.get());
-  png_read_info(png, info);
-  const int color = png_get_color_type(png, info), depth = png_get_bit_depth(png, info);
-  if (color != PNG_COLOR_TYPE_GRAY || (depth != 8 && depth != 16)) {
-    png_destroy_read_struct(&png, &info, nullptr);
-    fail("'", path, "' must be an 8- or 16-bit greyscale PNG (colour type ", color, ", ", depth, " bit)");
-  }
-  img.width = static_cast<int>(png_get_image_width(png, info));
-  img.height = static_cast<int>(png_get_image_height(png, info));
-  img.bits = depth;
-  if (depth == 16) png_set_swap(png);  // PNG stores big-endian; read as host order (little-endian)
-  png_read_update_info(png, info);
-  const size_t stride = png_get_rowbytes(png, info);
-  std::vector<uint8_t> buffer(stride * img.height);
-  rows.resize(img.height);
-  for (int i = 0; i < img.height; ++i) rows[i] = buffer.data() + i * stride;
-  png_read_image(png, rows.data());
-  png_destroy_read_struct(&png, &info, nullptr);
+  img.width = d.width, img.height = d.height, img.bits = d.bits;
   img.pixels.resize(static_cast<size_t>(img.width) * img.height);
   for (int i = 0; i < img.height; ++i)
     for (int j = 0; j < img.width; ++j) {
-      const uint8_t* row = rows[i];
+      const uint8_t* row = d.rows[i];
       img.pixels[static_cast<size_t>(i) * img.width + j] =
-          depth == 16 ? static_cast<uint16_t>(row[2 * j] | (row[2 * j + 1] << 8)) : row[j];
+          d.bits == 16 ? static_cast<uint16_t>(row[2 * j] | (row[2 * j + 1] << 8)) : row[j];
     }
   return img;
 }
@@ -87,47 +112,70 @@ GrayImage read_tiff(const std::string& path) {
   TIFFGetFieldDefaulted(tif.get(), TIFFTAG_SAMPLEFORMAT, &format);
   if (samples != 1 || (bits != 8 && bits != 16) || format != SAMPLEFORMAT_UINT)
     fail("'", path, "' must be an 8- or 16-bit unsigned greyscale TIFF (", samples, " samples, ", bits, " bit)");
+  if (w == 0 || h == 0 || w > kMaxImageSide || h > kMaxImageSide)
+    fail("'", path, "': a TIFF of ", w, " x ", h, " px is not a pattern image (sides 1 to ", kMaxImageSide, " px)");
+  const tmsize_t line_bytes = TIFFScanlineSize(tif.get());
+  if (line_bytes < static_cast<tmsize_t>(w) * (bits / 8))
+    fail("'", path, "': its TIFF rows hold fewer bytes than ", w, " pixels of ", bits, " bit");
   GrayImage img;
   img.width = static_cast<int>(w);
   img.height = static_cast<int>(h);
   img.bits = bits;
   img.pixels.resize(static_cast<size_t>(w) * h);
-  std::vector<uint8_t> line(TIFFScanlineSize(tif.get()));
+  std::vector<uint8_t> line(static_cast<size_t>(line_bytes));
   for (uint32_t i = 0; i < h; ++i) {
     if (TIFFReadScanline(tif.get(), line.data(), i) < 0) fail("'", path, "': cannot read TIFF row ", i);
-    for (uint32_t j = 0; j < w; ++j)
-      img.pixels[static_cast<size_t>(i) * w + j] =
-          bits == 16 ? reinterpret_cast<const uint16_t*>(line.data())[j] : line[j];
+    for (uint32_t j = 0; j < w; ++j) {
+      uint16_t v = line[j];
+      if (bits == 16) std::memcpy(&v, line.data() + 2 * static_cast<size_t>(j), 2);
+      img.pixels[static_cast<size_t>(i) * w + j] = v;
+    }
   }
   return img;
+}
+
+/// Encodes `rows` with libpng; returns false (png_message says why) when libpng fails. No C++
+/// object lives in this frame: libpng's error handler jumps back into it.
+bool encode_png(FILE* f, int width, int height, int color_type, int depth, const std::vector<uint8_t>* rows,
+                png_text* chunks, int chunk_count) {
+  png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
+  if (!png) {
+    png_message = "out of memory";
+    return false;
+  }
+  png_infop info = png_create_info_struct(png);
+  if (setjmp(png_jmpbuf(png))) {
+    png_destroy_write_struct(&png, &info);
+    return false;
+  }
+  png_init_io(png, f);
+  png_set_IHDR(png, info, width, height, depth, color_type, PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT,
+               PNG_FILTER_TYPE_DEFAULT);
+  if (chunk_count > 0) png_set_text(png, info, chunks, chunk_count);
+  png_write_info(png, info);
+  for (int i = 0; i < height; ++i) png_write_row(png, rows[i].data());
+  png_write_end(png, nullptr);
+  png_destroy_write_struct(&png, &info);
+  return true;
 }
 
 void write_png(const std::string& path, int width, int height, int color_type, int depth,
                const std::vector<std::vector<uint8_t>>& rows,
                const std::vector<std::pair<std::string, std::string>>& text) {
+  if (rows.size() != static_cast<size_t>(height))
+    fail("PNG '", path, "': ", rows.size(), " rows for a height of ", height);
   write_atomically(path, [&](const std::string& temp) {
     std::unique_ptr<FILE, FileCloser> f(std::fopen(temp.c_str(), "wb"));
     if (!f) fail("cannot create '", temp, "' (folder missing or not writable?)");
-    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, nullptr, png_quiet_error, png_quiet_warning);
-    png_infop info = png_create_info_struct(png);
-    if (setjmp(png_jmpbuf(png))) {
-      png_destroy_write_struct(&png, &info);
-      fail("error while writing PNG '", path, "' (", png_message, ")");
-    }
-    png_init_io(png, f.get());
-    png_set_IHDR(png, info, width, height, depth, color_type, PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT,
-                 PNG_FILTER_TYPE_DEFAULT);
     std::vector<png_text> chunks(text.size());
     for (size_t k = 0; k < text.size(); ++k) {
       chunks[k].compression = PNG_TEXT_COMPRESSION_NONE;
       chunks[k].key = const_cast<char*>(text[k].first.c_str());
       chunks[k].text = const_cast<char*>(text[k].second.c_str());
     }
-    if (!chunks.empty()) png_set_text(png, info, chunks.data(), static_cast<int>(chunks.size()));
-    png_write_info(png, info);
-    for (const auto& row : rows) png_write_row(png, row.data());
-    png_write_end(png, nullptr);
-    png_destroy_write_struct(&png, &info);
+    if (!encode_png(f.get(), width, height, color_type, depth, rows.data(), chunks.data(),
+                    static_cast<int>(chunks.size())))
+      fail("error while writing PNG '", path, "' (", png_message, ")");
   });
 }
 

@@ -2,6 +2,7 @@
 #include "orderband/npy_io.hpp"
 
 #include <cstring>
+#include <filesystem>
 #include <fstream>
 #include <regex>
 
@@ -44,49 +45,76 @@ void write_npy_int32(const std::string& path, int rows, int cols, const std::vec
   write_npy(path, "<i4", rows, cols, v.data(), v.size() * 4);
 }
 
+namespace {
+
+constexpr uint32_t kMaxNpyHeaderBytes = 1u << 20;  // numpy writes tens of bytes; a megabyte is damage
+
+/// The dimensions of a shape tuple such as "40, 40" (or "40," or ""), each with at most 12 digits.
+std::vector<size_t> npy_dimensions(const std::string& dims, const std::string& path) {
+  std::vector<size_t> shape;
+  static const std::regex number("[0-9]+");
+  for (std::sregex_iterator it(dims.begin(), dims.end(), number), end; it != end; ++it) {
+    if (it->str().size() > 12) fail("'", path, "': .npy dimension ", it->str().substr(0, 16), "... is too large");
+    shape.push_back(std::stoul(it->str()));
+  }
+  return shape;
+}
+
+}  // namespace
+
 NpyArray read_npy(const std::string& path) {
   std::ifstream in(path, std::ios::binary);
   if (!in) fail("cannot read '", path, "'");
-  char magic[8];
-  in.read(magic, 8);
-  if (!in || std::memcmp(magic + 1, "NUMPY", 5) != 0) fail("'", path, "' is not a .npy file");
+  std::error_code ec;
+  const uintmax_t file_bytes = std::filesystem::file_size(path, ec);
+  if (ec) fail("cannot read '", path, "' (not a regular file)");
+  unsigned char magic[8];
+  in.read(reinterpret_cast<char*>(magic), 8);
+  if (!in || std::memcmp(magic, "\x93NUMPY", 6) != 0) fail("'", path, "' is not a .npy file");
+  if (magic[6] < 1 || magic[6] > 3) fail("'", path, "': .npy format version ", int(magic[6]), " is not 1, 2 or 3");
   uint32_t len = 0;
   if (magic[6] == 1) {
-    uint16_t l16;
+    uint16_t l16 = 0;
     in.read(reinterpret_cast<char*>(&l16), 2);
     len = l16;
   } else {
     in.read(reinterpret_cast<char*>(&len), 4);
   }
+  if (!in || len > kMaxNpyHeaderBytes) fail("'", path, "': unreadable .npy header");
   std::string header(len, ' ');
   in.read(header.data(), len);
+  if (!in) fail("'", path, "' is shorter than its header says");
   std::smatch m;
   if (!std::regex_search(header, m, std::regex("'descr': *'([<|][a-z][0-9])'")))
     fail("'", path, "': unreadable .npy header");
   const std::string descr = m[1];
+  const size_t item = descr == "<f4" || descr == "<i4" ? 4 : descr == "<f8" ? 8 : 0;
+  if (item == 0) fail("'", path, "': unsupported dtype ", descr, " (use float32, float64 or int32)");
   if (header.find("'fortran_order': True") != std::string::npos) fail("'", path, "': Fortran order is not supported");
   if (!std::regex_search(header, m, std::regex("'shape': *\\(([0-9, ]*)\\)"))) fail("'", path, "': no shape");
   NpyArray a;
-  size_t count = 1;
-  const std::string dims = m[1];
-  static const std::regex number("[0-9]+");
-  for (std::sregex_iterator it(dims.begin(), dims.end(), number), end; it != end; ++it) {
-    a.shape.push_back(std::stoul(it->str()));
-    count *= a.shape.back();
+  a.shape = npy_dimensions(m[1], path);
+  // The data must fill the rest of the file exactly (checked before anything is allocated).
+  const uintmax_t data_bytes = file_bytes - static_cast<uintmax_t>(in.tellg());
+  uintmax_t count = 1;
+  for (size_t d : a.shape) {
+    if (d != 0 && count > data_bytes / item / d + 1)
+      fail("'", path, "': its shape needs more data than the file holds");
+    count *= d;
   }
+  if (count * item != data_bytes)
+    fail("'", path, "': its shape needs ", count * item, " bytes of data, the file holds ", data_bytes);
   a.values.resize(count);
   if (descr == "<f4") {
-    in.read(reinterpret_cast<char*>(a.values.data()), count * 4);
+    in.read(reinterpret_cast<char*>(a.values.data()), static_cast<std::streamsize>(count * 4));
   } else if (descr == "<f8") {
     std::vector<double> d(count);
-    in.read(reinterpret_cast<char*>(d.data()), count * 8);
-    for (size_t k = 0; k < count; ++k) a.values[k] = static_cast<float>(d[k]);
-  } else if (descr == "<i4") {
-    std::vector<int32_t> d(count);
-    in.read(reinterpret_cast<char*>(d.data()), count * 4);
+    in.read(reinterpret_cast<char*>(d.data()), static_cast<std::streamsize>(count * 8));
     for (size_t k = 0; k < count; ++k) a.values[k] = static_cast<float>(d[k]);
   } else {
-    fail("'", path, "': unsupported dtype ", descr, " (use float32, float64 or int32)");
+    std::vector<int32_t> d(count);
+    in.read(reinterpret_cast<char*>(d.data()), static_cast<std::streamsize>(count * 4));
+    for (size_t k = 0; k < count; ++k) a.values[k] = static_cast<float>(d[k]);
   }
   if (!in) fail("'", path, "' is shorter than its header says");
   return a;
