@@ -304,7 +304,8 @@ double second_component_evidence(const std::vector<double>& v, const std::array<
 
 /// The grains' zeros z_g and the common scale β refined together by EM on the learners' scores:
 /// s = z_g + β·φ + noise, φ = 0 (matrix), 1 (ordered) or spread evenly between them (points that
-/// mix both phases under the beam), the noise's spread shared, the three shares per grain. A grain
+/// mix both phases under the beam; their noise enters too, so the component is the uniform
+/// density convolved with the noise), the noise's spread shared, the three shares per grain. A grain
 /// of the ordered phase alone has no matrix component, so its zero follows from β. Labels are not
 /// used: at the separations one pattern gives (d′ ≈ 3) a labelled point's class is too often wrong
 /// for class means to place the end members.
@@ -330,7 +331,8 @@ void refine_zeros_and_scale(const LearnedInputs& in, const std::vector<double>& 
       const double s = sd / beta;
       const double p0 = share[g][0] * std::exp(-0.5 * u * u / (s * s)) / (s * std::sqrt(2 * M_PI));
       const double p1 = share[g][1] * std::exp(-0.5 * (u - 1) * (u - 1) / (s * s)) / (s * std::sqrt(2 * M_PI));
-      const double pm = share[g][2] * (u >= 0 && u <= 1 ? 1.0 : 0.0);
+      // Mixed points are spread evenly between the end members and carry the same noise.
+      const double pm = share[g][2] * 0.5 * (std::erf(u / (s * M_SQRT2)) - std::erf((u - 1) / (s * M_SQRT2)));
       const double total = std::max(p0 + p1 + pm, 1e-300);
       resp[k] = {p0 / total, p1 / total, pm / total};
       for (int c = 0; c < 3; ++c) sum[g][c] += resp[k][c];
