@@ -41,8 +41,8 @@ double measured_radius(const std::string& dir, int seed, double t, int side, dou
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
   std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 9000 + 10 * seed + static_cast<int>(std::log2(t))
-                                 << "\n[scan]\nrows = " << side << "\ncols = " << side
-                                 << "\nstep_um = " << step_um(t) << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+                                 << "\n[scan]\nrows = " << side << "\ncols = " << side << "\nstep_um = " << step_um(t)
+                                 << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
                                     "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
                                  << counts
                                  << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
@@ -93,8 +93,8 @@ int main(int argc, char** argv) {
   }
   std::filesystem::remove_all(dir);
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  std::printf("\n%d seeds, %zu trials each, %d x %d points, %.0f counts/px, %.0f s\n", seeds, kTimes.size(), side,
-              side, counts, sec);
+  std::printf("\n%d seeds, %zu trials each, %d x %d points, %.0f counts/px, %.0f s\n", seeds, kTimes.size(), side, side,
+              counts, sec);
   std::printf("k = %.1e µm³/h inside the fitted 95 %% interval in %d of %d fitted series; mean |k error| %.1f %%\n",
               kRate, covered, fitted, fitted ? 100 * error_sum / fitted : NAN);
   return 0;

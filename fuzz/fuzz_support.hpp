@@ -3,12 +3,12 @@
 // crash, a sanitizer report, another exception, a hang, is a finding.
 #pragma once
 
+#include <unistd.h>
 #include <cstddef>
 #include <cstdint>
 #include <cstdio>
 #include <fstream>
 #include <string>
-#include <unistd.h>
 
 #include "orderband/error.hpp"
 

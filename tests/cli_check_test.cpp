@@ -98,4 +98,29 @@ TEST(CliUsage, BadOptionValuesAreOneLineInTheDocumentedFormWithExitTwo) {
   }
 }
 
+TEST(CliUsage, UnknownCommandsFoldersAndLongValuesGiveOneShortLine) {
+  // An unknown command was reported as "A subcommand is required".
+  auto r = test::run_orderband("frobnicate s.toml");
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_EQ(r.err.rfind("orderband: error: unknown command 'frobnicate' (commands: families, check, synth, orient, "
+                        "map, screen, demo; see --help)",
+                        0),
+            0u)
+      << r.err;
+  // A folder given as the scan description read as an empty file ("missing table [scan]").
+  const std::string dir = test::make_temp_dir("usage");
+  r = test::run_orderband("check " + dir);
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_EQ(r.err, "orderband check: error: '" + dir + "' is a folder, not a scan description file\n");
+  // A 5,000-character value is not echoed whole: its start and end, and how much was left out.
+  const std::string name = dir + "/" + std::string(5000 - dir.size() - 6, 'a') + ".toml";
+  r = test::run_orderband("map " + name);
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_LT(r.err.size(), 500u);
+  EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << r.err;
+  EXPECT_NE(r.err.find("characters left out"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("aaa.toml' (missing or unreadable)"), std::string::npos) << r.err;
+  std::filesystem::remove_all(dir);
+}
+
 }  // namespace orderband

@@ -2,6 +2,8 @@
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
+#include <optional>
+#include <string>
 #include <vector>
 
 #include "command.hpp"
@@ -23,6 +25,25 @@ const std::vector<CommandEntry>& commands() {
   };
   return table;
 }
+
+/// Messages echo values from files and options; a 10 MB value must not fill the terminal. Longer
+/// than 400 characters: the start and the end, with the count left out between them.
+std::string shortened(std::string what) {
+  const size_t head = 250, tail = 120;
+  if (what.size() <= 400) return what;
+  const size_t cut = what.size() - head - tail;
+  return what.substr(0, head) + " ... (" + std::to_string(cut) + " characters left out) ... " +
+         what.substr(what.size() - tail);
+}
+
+/// The first argument when it is meant as a command (not an option) and names none.
+std::optional<std::string> unknown_command(int argc, char** argv) {
+  if (argc < 2 || argv[1][0] == '-') return std::nullopt;
+  for (const CommandEntry& c : commands())
+    if (std::string(c.name) == argv[1]) return std::nullopt;
+  return std::string(argv[1]);
+}
+
 }  // namespace
 }  // namespace orderband::cli
 
@@ -37,6 +58,13 @@ int main(int argc, char** argv) {
     CLI::App* sub = app.add_subcommand(c.name, c.description);
     runners.emplace_back(sub, c.setup(*sub));
   }
+  if (const auto unknown = unknown_command(argc, argv)) {
+    std::string names;
+    for (const CommandEntry& c : commands()) names += (names.empty() ? "" : ", ") + std::string(c.name);
+    std::fprintf(stderr, "orderband: error: unknown command '%s' (commands: %s; see --help)\n",
+                 shortened(*unknown).c_str(), names.c_str());
+    return 2;
+  }
   try {
     app.parse(argc, argv);
   } catch (const CLI::Success& e) {
@@ -46,9 +74,7 @@ int main(int argc, char** argv) {
     std::string command;
     for (auto& [sub, run] : runners)
       if (sub->parsed()) command = " " + sub->get_name();
-    std::string what = e.what();
-    if (what.size() > 300) what = what.substr(0, 300) + "…";
-    std::fprintf(stderr, "orderband%s: error: %s (see --help)\n", command.c_str(), what.c_str());
+    std::fprintf(stderr, "orderband%s: error: %s (see --help)\n", command.c_str(), shortened(e.what()).c_str());
     return 2;
   }
   for (auto& [sub, run] : runners) {
@@ -56,10 +82,10 @@ int main(int argc, char** argv) {
     try {
       return run();
     } catch (const orderband::Error& e) {
-      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), e.what());
+      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());
       return 1;
     } catch (const std::exception& e) {
-      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), e.what());
+      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());
       return 1;
     }
   }
