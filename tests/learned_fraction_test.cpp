@@ -139,8 +139,8 @@ TEST(SpatialDirection, NoNeighboursKnownGivesNoDirection) {
 /// scale and offset by one (only the change between grains' orientations and the signature's shape
 /// enter; intensities are not trusted). Grain 2's particles carry `right_contrast` instead of
 /// `contrast` (fainter where the beam or the band shapes weaken them).
-Planted planted_with_primary(double contrast, double right_contrast) {
-  Planted s = planted_scan(3, contrast);
+Planted planted_with_primary(double contrast, double right_contrast, unsigned seed = 3) {
+  Planted s = planted_scan(seed, contrast);
   LearnedInputs& in = s.in;
   const size_t p = in.features, bins = 4;
   const int cols = in.cols;
@@ -228,6 +228,61 @@ TEST(LearnedFraction, PlacesPlantedPhasesAndFindsAGrainOfTheOrderedPhaseAlone) {
     EXPECT_NEAR(m.mean[g][1], 1.0, 0.1) << "grain " << g;
   }
   EXPECT_NEAR(m.area_error, 0.0, 0.02);
+}
+
+/// planted_scan's discs seen through a footprint stretched along the columns of points (a
+/// Gaussian of σ 1.2 steps along a column, as on a 70° sample at a step of a third of the beam's
+/// long axis): each point's features mix its neighbours' phases by the footprint's weights.
+Planted planted_under_long_footprint(unsigned seed) {
+  Planted s = planted_with_primary(1.2, 1.2, seed);
+  LearnedInputs& in = s.in;
+  const int cols = in.cols, rows = static_cast<int>(in.points / cols);
+  const size_t p = in.features;
+  std::vector<double> mixed(in.points, 0.0);
+  for (size_t k = 0; k < in.points; ++k) {
+    const int r = static_cast<int>(k / cols), c = static_cast<int>(k % cols);
+    double w = 0, m = 0;
+    for (int dr = -4; dr <= 4; ++dr) {
+      if (r + dr < 0 || r + dr >= rows) continue;
+      const double weight = std::exp(-0.5 * dr * dr / (1.2 * 1.2));
+      w += weight, m += weight * s.fraction[static_cast<size_t>(r + dr) * cols + c];
+    }
+    mixed[k] = m / w;
+  }
+  for (size_t k = 0; k < in.points; ++k)
+    for (size_t b = 0; b < p; ++b)
+      if (!std::isnan(in.x[k * p + b]) && in.grain[k] != 3) {
+        in.x[k * p + b] += static_cast<float>(1.2 * (mixed[k] - s.fraction[k]) * s.difference[b]);
+      }
+  for (size_t k = 0; k < in.points; ++k)
+    if (in.grain[k] == 3) mixed[k] = 1.0;
+  s.fraction = mixed;
+  return s;
+}
+
+TEST(LearnedFraction, MatrixZeroHoldsUnderALongFootprint) {
+  // Under a footprint 2.9 times longer along the tilt most matrix points see a little of a
+  // particle; a mixture's matrix component then sits above the pure matrix. The zero is taken from
+  // the points with no ordered neighbour within the beam's reach (2 σ: 3 points along a column),
+  // which the scan description gives. Measured over 4 seeds: pure matrix 0.000 to 0.008 (from the
+  // mixture's matrix component alone, before: −0.019 to −0.058, 3 of 4 outside ±0.015); area
+  // error 0.001 to 0.030: the scale still comes from an ordered component that the footprint
+  // pulls down (before, the two errors partly cancelled: −0.021 to 0.019).
+  for (unsigned seed : {5u, 6u, 7u, 8u}) {
+    Planted s = planted_under_long_footprint(seed);
+    s.in.reach_rows = 3;
+    const LearnedFraction lf = learn_fraction(s.in);
+    ASSERT_TRUE(lf.two_phases) << seed;
+    double sum = 0, count = 0, area = 0, truth = 0, measured = 0;
+    for (size_t k = 0; k < s.in.points; ++k) {
+      if (std::isnan(lf.f[k])) continue;
+      area += lf.f[k], truth += s.fraction[k], measured += 1;
+      if (!s.in.boundary[k] && s.fraction[k] < 0.005) sum += lf.f[k], count += 1;
+    }
+    ASSERT_GT(count, 100) << seed;
+    EXPECT_NEAR(sum / count, 0.0, 0.015) << seed;
+    EXPECT_NEAR((area - truth) / measured, 0.0, 0.035) << seed;
+  }
 }
 
 }  // namespace

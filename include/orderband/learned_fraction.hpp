@@ -34,6 +34,10 @@ struct LearnedInputs {
   size_t bins = 0;
   size_t superlattice_families = 0;  ///< the first families are the superlattice ones, the rest fundamental
   int cols = 0;  ///< points lie row by row, `cols` to a row: neighbours for the spatial start (0: no neighbours known)
+  /// How far the beam reaches, in points along the rows and along the columns (about two standard
+  /// deviations of its footprint, at least 1): a matrix point with no ordered point within this reach
+  /// is pure matrix. Used only where `cols` is known.
+  int reach_rows = 1, reach_cols = 1;
 };
 
 /// Per grain (index 1..grains), the mean of every feature over the points the learning uses (0

@@ -6,6 +6,7 @@
 #include <array>
 #include <cmath>
 
+#include "orderband/detection_limit.hpp"
 #include "orderband/learned_fraction.hpp"
 #include "row_loop.hpp"
 
@@ -220,6 +221,10 @@ struct LinearFeatures {
 LearnedInputs empty_inputs(const FractionScan& scan, size_t p) {
   LearnedInputs in;
   in.points = scan.n, in.features = p, in.grains = scan.grains, in.cols = scan.grid.cols;
+  // The beam's reach: two standard deviations of its footprint along each axis of the grid.
+  const BeamFootprint beam = beam_footprint(scan.config);
+  in.reach_cols = std::max(1, static_cast<int>(std::ceil(2 * beam.sigma_x_um / scan.grid.step_um)));
+  in.reach_rows = std::max(1, static_cast<int>(std::ceil(2 * beam.sigma_y_um / scan.grid.row_spacing_um())));
   in.grain.assign(scan.n, 0);
   in.fold.assign(scan.n, 0);
   in.x.assign(scan.n * p, std::nanf(""));
