@@ -15,14 +15,12 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
-#include <fstream>
+#include <sstream>
 #include <string>
 #include <vector>
 
 #include "orderband/kinetics.hpp"
-#include "orderband/map_scan.hpp"
-#include "orderband/scan_config.hpp"
-#include "orderband/synth.hpp"
+#include "synthetic_scan.hpp"
 
 using namespace orderband;
 
@@ -38,22 +36,16 @@ double step_um(double t) { return std::max(0.020, 0.005 * std::round(2 * true_ra
 
 /// The 3-D mean radius of one trial's secondary particles (the fit `screen` prefers), 0 if none.
 double measured_radius(const std::string& dir, int seed, double t, int side, double counts) {
-  std::filesystem::remove_all(dir);
-  std::filesystem::create_directories(dir);
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 9000 + 10 * seed + static_cast<int>(std::log2(t))
-                                 << "\n[scan]\nrows = " << side << "\ncols = " << side << "\nstep_um = " << step_um(t)
-                                 << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
-                                    "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
-                                 << counts
-                                 << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
-                                    "distribution = \"lsw\"\nmean_diameter_um = "
-                                 << 2 * true_radius(t) << "\n";
-  const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
-  write_synthetic_scan(scenario, dir + "/scan", "kinetics_bench");
-  const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-  MapOptions options;
-  options.mean_spheres = false;
-  const MapResults r = map_scan(config, options);
+  std::ostringstream toml;
+  toml << "[scenario]\nseed = " << 9000 + 10 * seed + static_cast<int>(std::log2(t)) << "\n[scan]\nrows = " << side
+       << "\ncols = " << side << "\nstep_um = " << step_um(t)
+       << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+          "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
+       << counts
+       << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = 0.3\n"
+          "distribution = \"lsw\"\nmean_diameter_um = "
+       << 2 * true_radius(t) << "\n";
+  const MapResults r = bench::map_without_mean_spheres(bench::render_scenario(dir, toml.str(), "kinetics_bench"));
   const SphereSizeFit* fit = r.secondary_preferred();
   return fit ? 0.5 * fit->mean_diameter_um : 0.0;
 }

@@ -14,13 +14,11 @@
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
-#include <fstream>
+#include <sstream>
 #include <string>
 
-#include "orderband/map_scan.hpp"
-#include "orderband/scan_config.hpp"
-#include "orderband/synth.hpp"
 #include "orderband/truth_comparison.hpp"
+#include "synthetic_scan.hpp"
 
 using namespace orderband;
 
@@ -53,22 +51,16 @@ int main(int argc, char** argv) {
               "3-D mean (95 % CI)", "truth", "N_V", "(95 % CI)", "truth");
   const auto t0 = std::chrono::steady_clock::now();
   for (int seed = 1; seed <= seeds; ++seed) {
-    std::filesystem::remove_all(dir);
-    std::filesystem::create_directories(dir);
-    std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 500 + seed << "\n[scan]\nrows = " << side
-                                   << "\ncols = " << side << "\nstep_um = " << pop->step_um
-                                   << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
-                                      "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
-                                   << counts
-                                   << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = " << pop->area_fraction
-                                   << "\ndistribution = \"lognormal\"\nmedian_diameter_um = " << pop->median_um
-                                   << "\nsigma_ln = " << pop->sigma_ln << "\n[tertiary]\nfraction = 0.05\n";
-    const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
-    write_synthetic_scan(scenario, dir + "/scan", "size_bench");
-    const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-    MapOptions options;
-    options.mean_spheres = false;
-    const MapResults r = map_scan(config, options);
+    std::ostringstream toml;
+    toml << "[scenario]\nseed = " << 500 + seed << "\n[scan]\nrows = " << side << "\ncols = " << side
+         << "\nstep_um = " << pop->step_um
+         << "\n[detector]\nwidth_px = 60\nheight_px = 60\n"
+            "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[patterns]\ncounts_per_px = "
+         << counts << "\n[grains]\ncount = 2\n[secondary]\narea_fraction = " << pop->area_fraction
+         << "\ndistribution = \"lognormal\"\nmedian_diameter_um = " << pop->median_um
+         << "\nsigma_ln = " << pop->sigma_ln << "\n[tertiary]\nfraction = 0.05\n";
+    const ScanConfig config = bench::render_scenario(dir, toml.str(), "size_bench");
+    const MapResults r = bench::map_without_mean_spheres(config);
     const std::vector<TruthClassCount> truth = count_truth_sections(
         read_truth_sections(dir + "/scan/truth_particles.csv"), config.grid, r.detection.diameter_um);
     TruthClassCount t;
