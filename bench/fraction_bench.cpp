@@ -12,7 +12,10 @@
 #include "orderband/npy_io.hpp"
 #include "orderband/ordered_fraction.hpp"
 #include "orderband/orientation_csv.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 
 using namespace orderband;
 
@@ -45,7 +48,7 @@ int main(int argc, char** argv) {
     config.orientations.file = dir + "/scan/truth_orientations.csv";
     config.orientations.refine = false;
   }
-  const OrientationResults ori = orient_scan(config);
+  const OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
   {
     std::ifstream tin(dir + "/scan/truth_orientations.csv");
     const OrientationTable truth_o = read_orientation_csv(tin, config.grid, "truth");
@@ -61,7 +64,7 @@ int main(int argc, char** argv) {
   const auto t0 = std::chrono::steady_clock::now();
   FractionSpec fspec;
   if (std::getenv("ORDERBAND_BENCH_LEARNED")) fspec.estimator = FractionEstimator::learned;
-  const FractionResults fr = ordered_fraction_scan(config, ori, fspec);
+  const FractionResults fr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, fspec);
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   const NpyArray truth = read_npy(dir + "/scan/truth_fraction.npy");
   const ScanGrid& grid = config.grid;

@@ -8,8 +8,12 @@
 #include <filesystem>
 #include <fstream>
 
+#include "orderband/map_output.hpp"
 #include "orderband/map_scan.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 
 using namespace orderband;
 
@@ -27,9 +31,9 @@ int main(int argc, char** argv) {
   getrusage(RUSAGE_SELF, &before);
   const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
   const auto t0 = std::chrono::steady_clock::now();
-  const MapResults r = map_scan(config, MapOptions{});
+  const MapResults r = map_scan(read_scan_inputs(config, InputHashing::skip), MapOptions{});
   const double s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  write_map_outputs(dir + "/out", config, r, MapOptions{}, "map_bench");
+  write_map_outputs(dir + "/out", config, r, r.options, "map_bench");
   struct rusage after {};
   getrusage(RUSAGE_SELF, &after);
   std::printf(

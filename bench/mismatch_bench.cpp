@@ -19,7 +19,10 @@
 #include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/preprocess.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 
 using namespace orderband;
 
@@ -110,7 +113,7 @@ int main(int argc, char** argv) {
     const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
     write_synthetic_scan(scenario, dir + "/scan", "mismatch_bench");
     const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-    const OrientationResults ori = orient_scan(config);
+    const OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
     const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
     const ScanGrid& grid = config.grid;
     double truth_mean = 0;
@@ -122,7 +125,7 @@ int main(int argc, char** argv) {
       FractionSpec spec;
       spec.estimator = e ? FractionEstimator::learned : FractionEstimator::profile;
       const auto t0 = std::chrono::steady_clock::now();
-      const FractionResults fr = ordered_fraction_scan(config, ori, spec);
+      const FractionResults fr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, spec);
       const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
       Row& row = rows[v][e];
       row.rate = grid.count() / sec;

@@ -10,7 +10,10 @@
 
 #include "orderband/orient.hpp"
 #include "orderband/orientation_csv.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/units.hpp"
 
 using namespace orderband;
@@ -33,7 +36,7 @@ int main(int argc, char** argv) {
   write_synthetic_scan(s, dir + "/scan", "orient_bench");
   const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
   const auto t0 = std::chrono::steady_clock::now();
-  const OrientationResults r = orient_scan(config);
+  const OrientationResults r = orient_scan(read_scan_inputs(config, InputHashing::skip));
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   std::ifstream truth_in(dir + "/scan/truth_orientations.csv");
   const OrientationTable truth = read_orientation_csv(truth_in, config.grid, "truth");

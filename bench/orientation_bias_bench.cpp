@@ -17,7 +17,10 @@
 
 #include "orderband/npy_io.hpp"
 #include "orderband/ordered_fraction.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/units.hpp"
 
 using namespace orderband;
@@ -62,7 +65,7 @@ int main(int argc, char** argv) {
     config.orientations.file = dir + "/scan/truth_orientations.csv";
     config.orientations.refine = false;
   }
-  OrientationResults ori = orient_scan(config);
+  OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
   if (const char* jitter = std::getenv("ORDERBAND_BENCH_JITTER")) {  // random per-point orientation errors (deg)
     std::mt19937_64 rng(7);
     std::normal_distribution<double> normal(0, deg_to_rad(std::atof(jitter)));
@@ -80,7 +83,7 @@ int main(int argc, char** argv) {
   }
   FractionSpec spec;
   if (const char* r = std::getenv("ORDERBAND_BENCH_KERNEL")) spec.orientation_kernel_radius = std::atoi(r);
-  const FractionResults fr = ordered_fraction_scan(config, ori, spec);
+  const FractionResults fr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, spec);
   const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
   const NpyArray truth = read_npy(dir + "/scan/truth_fraction.npy");
   const NpyArray truth_grain = read_npy(dir + "/scan/truth_grains.npy");

@@ -11,6 +11,7 @@
 #include <fstream>
 #include <vector>
 
+#include "orderband/pattern_files.hpp"
 #include "orderband/preprocess.hpp"
 
 using namespace orderband;

@@ -7,7 +7,10 @@
 
 #include "orderband/map_scan.hpp"
 #include "orderband/scan_config.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 
 namespace orderband::bench {
 
@@ -25,7 +28,7 @@ inline ScanConfig render_scenario(const std::string& dir, const std::string& tom
 inline MapResults map_without_mean_spheres(const ScanConfig& config) {
   MapOptions options;
   options.mean_spheres = false;
-  return map_scan(config, options);
+  return map_scan(read_scan_inputs(config, InputHashing::skip), options);
 }
 
 }  // namespace orderband::bench

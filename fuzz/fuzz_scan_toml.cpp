@@ -1,6 +1,7 @@
 // Fuzz target: the scan description (TOML).
 #include "fuzz_support.hpp"
 #include "orderband/scan_config.hpp"
+#include "orderband/scan_config_toml.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   return orderband::fuzz::expect_result_or_error(

@@ -1,6 +1,7 @@
 // Fuzz target: the synthetic-scan scenario (TOML).
 #include "fuzz_support.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const uint8_t* data, size_t size) {
   return orderband::fuzz::expect_result_or_error(

@@ -6,6 +6,7 @@
 #include <cmath>
 
 #include "orderband/band_model.hpp"
+#include "orderband/phase_cif.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {

@@ -15,6 +15,7 @@
 #include <thread>
 
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/version.hpp"
 #include "test_support.hpp"
 

@@ -8,6 +8,7 @@
 
 #include "orderband/error.hpp"
 #include "orderband/trials.hpp"
+#include "orderband/trials_toml.hpp"
 #include "test_support.hpp"
 
 #include <filesystem>

@@ -1,5 +1,6 @@
 // Laue-group rotations: counts per Laue class, orthogonality, closure.
 #include "orderband/laue_group.hpp"
+#include "orderband/phase_cif.hpp"
 
 #include <gtest/gtest.h>
 

@@ -10,7 +10,10 @@
 #include <nlohmann/json.hpp>
 
 #include "orderband/npy_io.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "test_support.hpp"
 
 namespace orderband {
@@ -40,8 +43,8 @@ ScenarioRun run_scenario(const std::string& scenario, double neighbour_sigma = 0
     r.config.orientations.file = dir + "/scan/truth_orientations.csv";
     r.config.orientations.refine = false;
   }
-  r.orientations = orient_scan(r.config);
-  r.fraction = ordered_fraction_scan(r.config, r.orientations, spec);
+  r.orientations = orient_scan(read_scan_inputs(r.config));
+  r.fraction = ordered_fraction_scan(read_scan_inputs(r.config), r.orientations, spec);
   r.truth = read_npy(dir + "/scan/truth_fraction.npy").values;
   for (float g : read_npy(dir + "/scan/truth_grains.npy").values) r.truth_grain.push_back(static_cast<int>(g));
   std::ifstream in(dir + "/scan/truth.json");
@@ -142,7 +145,7 @@ TEST(OrderedFraction, ReferenceRegionsSetTheEndMembers) {
     spec.disordered_regions = {block_of(6, false)};
     ASSERT_GE(spec.ordered_regions[0].row0, 0);
     ASSERT_GE(spec.disordered_regions[0].row0, 0);
-    const FractionResults f = ordered_fraction_scan(r.config, r.orientations, spec);
+    const FractionResults f = ordered_fraction_scan(read_scan_inputs(r.config), r.orientations, spec);
     double in_ordered = 0, in_disordered = 0;
     int n1 = 0, n0 = 0;
     for (size_t k = 0; k < g.count(); ++k) {
@@ -160,7 +163,7 @@ TEST(OrderedFraction, ReferenceRegionsSetTheEndMembers) {
       by_mask.ordered_mask[k] = spec.ordered_regions[0].contains(g.point(k));
       by_mask.disordered_mask[k] = spec.disordered_regions[0].contains(g.point(k));
     }
-    const FractionResults m = ordered_fraction_scan(r.config, r.orientations, by_mask);
+    const FractionResults m = ordered_fraction_scan(read_scan_inputs(r.config), r.orientations, by_mask);
     EXPECT_DOUBLE_EQ(m.calibration_offset, f.calibration_offset);
     EXPECT_DOUBLE_EQ(m.calibration_scale, f.calibration_scale);
   });
@@ -228,8 +231,8 @@ TEST(OrderedFraction, PatternCentreErrorIsRefinedAway) {
   const DetectorGeometrySpec truth = config.geometry;
   config.geometry.pc_px += Eigen::Vector2d(0.4, -0.3);
   config.geometry.distance_px += 0.5;
-  const OrientationResults ori = orient_scan(config);
-  const FractionResults f = ordered_fraction_scan(config, ori);
+  const OrientationResults ori = orient_scan(read_scan_inputs(config));
+  const FractionResults f = ordered_fraction_scan(read_scan_inputs(config), ori);
   EXPECT_TRUE(f.pattern_centre_refined);
   EXPECT_GE(f.pattern_centre_grains, 3);
   EXPECT_NEAR(f.geometry.pc_px.x(), truth.pc_px.x(), 0.1);

@@ -13,7 +13,10 @@
 #include "orderband/grains.hpp"
 #include "orderband/npy_io.hpp"
 #include "orderband/orientation_csv.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/units.hpp"
 #include "test_support.hpp"
 
@@ -33,7 +36,7 @@ class OrientScan : public ::testing::Test {
                                         "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
     write_synthetic_scan(read_synth_scenario(*dir_ + "/s.toml"), *dir_ + "/scan", "test");
     config_ = new ScanConfig(read_scan_config(*dir_ + "/scan/scan.toml"));
-    results_ = new OrientationResults(orient_scan(*config_));
+    results_ = new OrientationResults(orient_scan(read_scan_inputs(*config_)));
     std::ifstream in(*dir_ + "/scan/truth_orientations.csv");
     truth_ = new OrientationTable(read_orientation_csv(in, config_->grid, "truth"));
   }
@@ -124,7 +127,7 @@ TEST_F(OrientScan, CsvRoundTripsExactlyAndReadOrientationsAreRefined) {
   ScanConfig c = *config_;
   c.orientations.source = OrientationSourceKind::file;
   c.orientations.file = *dir_ + "/noisy.csv";
-  const OrientationResults r = orient_scan(c);
+  const OrientationResults r = orient_scan(read_scan_inputs(c));
   const CrystalSymmetry cubic = CrystalSymmetry::cubic();
   std::vector<double> err;
   for (size_t k = 0; k < grid.count(); ++k)

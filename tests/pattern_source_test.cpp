@@ -1,5 +1,6 @@
 // Pattern sources: raw, HDF5 (written by h5py), PNG and TIFF folders give identical patterns; bad input.
 #include "orderband/pattern_source.hpp"
+#include "orderband/pattern_files.hpp"
 
 #include <gtest/gtest.h>
 

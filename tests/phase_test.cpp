@@ -6,6 +6,7 @@
 #include <Eigen/Dense>
 
 #include "orderband/error.hpp"
+#include "orderband/phase_cif.hpp"
 #include "test_support.hpp"
 
 namespace orderband {

@@ -1,5 +1,6 @@
 // Plane-family enumeration: multiplicities, equivalents, d-spacings, ordering.
 #include "orderband/plane_family.hpp"
+#include "orderband/phase_cif.hpp"
 
 #include <gtest/gtest.h>
 

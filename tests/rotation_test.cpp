@@ -1,5 +1,6 @@
 // Rotations: conventions of Rowenhorst et al. 2015, scipy cross-checks, cubic misorientation statistics.
 #include "orderband/rotation.hpp"
+#include "orderband/phase_cif.hpp"
 
 #include <gtest/gtest.h>
 

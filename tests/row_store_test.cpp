@@ -1,5 +1,7 @@
 // Resume rows that are damaged or misplaced are not taken; an output folder holds one run at a time.
 #include "orderband/row_store.hpp"
+#include "orderband/folder_row_store.hpp"
+#include "orderband/input_hash.hpp"
 
 #include <gtest/gtest.h>
 

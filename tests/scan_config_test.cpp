@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "orderband/error.hpp"
+#include "orderband/scan_config_toml.hpp"
 #include "test_support.hpp"
 
 namespace orderband {

@@ -1,5 +1,6 @@
 // Electron scattering factors and kinematic structure factors against hand formulas.
 #include "orderband/scattering.hpp"
+#include "orderband/phase_cif.hpp"
 
 #include <gtest/gtest.h>
 

@@ -1,6 +1,7 @@
 // Synthetic patterns: bands where the geometry puts them, ordering only in superlattice bands,
 // determinism across thread counts, scenario errors.
 #include "orderband/synth.hpp"
+#include "orderband/phase_cif.hpp"
 
 #include <gtest/gtest.h>
 
@@ -15,6 +16,7 @@
 #include "orderband/error.hpp"
 #include "orderband/ordering_pair.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/units.hpp"
 #include "test_support.hpp"
 

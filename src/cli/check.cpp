@@ -5,6 +5,8 @@
 
 #include "command.hpp"
 #include "orderband/scan_check.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/units.hpp"
 #include "orderband/version.hpp"
 
@@ -25,7 +27,8 @@ std::function<int()> setup_check(CLI::App& sub) {
       ->check(finite_within(0.3, 100, false, false))
       ->capture_default_str();
   return [o]() {
-    const ScanCheck c = check_scan(read_scan_config(o->scan), o->sample, o->d_min);
+    const ScanCheck c =
+        check_scan(read_scan_inputs(read_scan_config(o->scan), InputHashing::skip), o->sample, o->d_min);
     const ScanConfig& s = c.config;
     std::printf("orderband %s check of %s\n", kVersion, s.path.c_str());
     std::printf("scan:        %s grid, %d rows x %d cols = %zu points, step %.4g um\n",

@@ -6,6 +6,7 @@
 #include "orderband/error.hpp"
 #include "orderband/family_table_io.hpp"
 #include "orderband/pair_catalog.hpp"
+#include "orderband/phase_cif.hpp"
 #include "orderband/version.hpp"
 
 namespace orderband::cli {

@@ -6,6 +6,8 @@
 
 #include "command.hpp"
 #include "map_runner.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/version.hpp"
 
 namespace orderband::cli {
@@ -60,7 +62,7 @@ std::function<int()> setup_map(CLI::App& sub) {
     apply_threads(o->threads);
     const ScanConfig config = read_scan_config(o->scan);
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
-    run_map(config, folder, o->run, o->quiet);
+    run_map(read_scan_inputs(config), folder, o->run, o->quiet);
     if (!o->quiet) std::fprintf(stderr, "report: %s/report.html\n", folder.c_str());
     return 0;
   };

@@ -24,10 +24,10 @@ struct MapRunOptions {
 
 void add_map_options(CLI::App& sub, MapRunOptions& o);
 MapOptions to_map_options(const MapRunOptions& o);
-/// A key of everything that determines the results: tool version, scan description text,
-/// pattern and orientation file hashes, options.
-std::string map_key(const ScanConfig& config, const MapRunOptions& o);
+/// A key of everything that determines the results: tool version, the hash of every input file
+/// (ScanInputs::input_hash), options.
+std::string map_key(const ScanInputs& inputs, const MapRunOptions& o);
 /// Runs every stage with a progress bar and a resume store in folder/.resume; writes the outputs.
-MapResults run_map(const ScanConfig& config, const std::string& folder, const MapRunOptions& o, bool quiet);
+MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet);
 
 }  // namespace orderband::cli

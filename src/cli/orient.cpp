@@ -5,7 +5,8 @@
 #include "command.hpp"
 #include "orderband/folder_lock.hpp"
 #include "orderband/orient_output.hpp"
-#include "orderband/pair_catalog.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "progress.hpp"
 
 namespace orderband::cli {
@@ -33,16 +34,16 @@ std::function<int()> setup_orient(CLI::App& sub) {
   return [o]() {
     apply_threads(o->threads);
     const ScanConfig config = read_scan_config(o->scan);
+    const ScanInputs inputs = read_scan_inputs(config, InputHashing::skip);
     OrientSpec spec;
     spec.grains.threshold_deg = o->grain_threshold;
     spec.grains.min_points = o->min_grain;
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
     const FolderLock lock(folder);
     ProgressReporter progress("orient", "points", o->quiet);
-    const OrientationResults r = orient_scan(config, spec, [&](size_t d, size_t t) { progress(d, t); });
+    const OrientationResults r = orient_scan(inputs, spec, [&](size_t d, size_t t) { progress(d, t); });
     progress.finish();
-    const OrderingPair pair = load_phases(config.phases);
-    write_orientation_outputs(folder, config, r, spec, pair.disordered.name, command_line());
+    write_orientation_outputs(folder, config, r, spec, inputs.phases.disordered.name, command_line());
     if (!o->quiet)
       std::fprintf(stderr, "orientations for %zu of %zu points (%zu usable), %d grains; written to %s\n",
                    r.with_orientation(), config.grid.count(), r.usable(), r.grains.count(), folder.c_str());

@@ -14,11 +14,16 @@
 #include "map_runner.hpp"
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
+#include "orderband/input_hash.hpp"
 #include "orderband/kinetics.hpp"
+#include "orderband/scan_config_toml.hpp"
+#include "orderband/scan_inputs_io.hpp"
 #include "orderband/svg_plot.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "orderband/text_file.hpp"
 #include "orderband/trials.hpp"
+#include "orderband/trials_toml.hpp"
 #include "orderband/version.hpp"
 #include "progress.hpp"
 #include "screen_runner.hpp"
@@ -209,9 +214,9 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   for (const Trial& t : tc.trials) {
     try {
       const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, quiet) : t.scan;
-      const ScanConfig config = read_scan_config(scan_path);
+      const ScanInputs inputs = read_scan_inputs(read_scan_config(scan_path));
       const std::string folder = out + "/" + t.label;
-      const std::string key = map_key(config, run);
+      const std::string key = map_key(inputs, run);
       const std::string key_file = folder + "/run_key.txt";
       const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
                          read_text_file(key_file, "run key") == key + "\n";
@@ -220,7 +225,7 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
         if (!quiet) std::fprintf(stderr, "trial %s: results reused (inputs unchanged)\n", t.label.c_str());
       } else {
         if (!quiet) std::fprintf(stderr, "trial %s: mapping %s\n", t.label.c_str(), scan_path.c_str());
-        run_map(config, folder, run, quiet);
+        run_map(inputs, folder, run, quiet);
         write_text_atomically(key_file, key + "\n");
         log << "trial " << t.label << ": computed (key " << key << ")\n";
         outcome.computed.push_back(t.label);

@@ -6,6 +6,7 @@
 
 #include "command.hpp"
 #include "orderband/synth.hpp"
+#include "orderband/synth_scan.hpp"
 #include "progress.hpp"
 
 namespace orderband::cli {

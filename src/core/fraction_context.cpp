@@ -11,7 +11,6 @@
 #include "orderband/gaussian_blur.hpp"
 #include "orderband/grains.hpp"
 #include "orderband/laue_group.hpp"
-#include "orderband/pair_catalog.hpp"
 
 namespace orderband {
 
@@ -142,21 +141,22 @@ void FractionModel::phase(const Preprocessor& processing, const DetectorGeometry
   processing.apply(out);
 }
 
-FractionScan::FractionScan(const ScanConfig& config_, const OrientationResults& ori_, const FractionSpec& spec_)
-    : config(config_),
+FractionScan::FractionScan(const ScanInputs& inputs, const OrientationResults& ori_, const FractionSpec& spec_)
+    : config(inputs.config),
       ori(ori_),
       spec(spec_),
-      grid(config_.grid),
-      n(config_.grid.count()),
+      grid(inputs.config.grid),
+      n(inputs.config.grid.count()),
       grains(ori_.grains.count()),
-      pair(load_phases(config_.phases)),
-      families(choose_fraction_families(pair, config_.kv, spec_)),
+      pair(inputs.phases),
+      families(choose_fraction_families(pair, inputs.config.kv, spec_)),
       profiler(families.profile, spec_.profile),
-      source(open_pattern_source(config_.patterns, config_.grid)),
-      geometry(geometry_for(config_, source->width(), source->height())),
+      source(inputs.patterns.get()),
+      geometry(inputs.geometry()),
       rays(geometry),
-      pre(make_preprocessor(config_.preprocess, *source)),
-      model(std::make_unique<FractionModel>(pair, config_.kv, geometry, pre, config_.preprocess, ori_.grains)),
+      pre(inputs.preprocessor()),
+      model(std::make_unique<FractionModel>(pair, inputs.config.kv, geometry, pre, inputs.config.preprocess,
+                                            ori_.grains)),
       symmetry(laue_rotations(pair.disordered)),
       point_orientation(
           kernel_mean_orientations(grid, ori_.orientation, ori_.grains, symmetry, spec_.orientation_kernel_radius)),

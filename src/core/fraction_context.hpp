@@ -16,7 +16,7 @@
 #include "orderband/pattern_source.hpp"
 #include "orderband/preprocess.hpp"
 #include "orderband/rotation.hpp"
-#include "orderband/scan_config.hpp"
+#include "orderband/scan_inputs.hpp"
 #include "orderband/synth.hpp"
 
 namespace orderband {
@@ -78,7 +78,7 @@ using CrossProfiles = std::map<std::pair<int, int>, std::vector<std::vector<doub
 /// One scan as the fraction stage sees it. Built in three steps: the inputs (constructor), the
 /// grain frames (refine_grain_frames), then the estimators read it.
 struct FractionScan {
-  FractionScan(const ScanConfig& config, const OrientationResults& ori, const FractionSpec& spec);
+  FractionScan(const ScanInputs& inputs, const OrientationResults& ori, const FractionSpec& spec);
 
   const ScanConfig& config;
   const OrientationResults& ori;
@@ -86,10 +86,10 @@ struct FractionScan {
   const ScanGrid& grid;
   size_t n;    ///< points
   int grains;  ///< grain count (ids 1 … grains)
-  OrderingPair pair;
+  const OrderingPair& pair;
   FractionFamilies families;
-  BandProfiler profiler;  ///< the model-led estimator's profiles of the chosen families
-  std::unique_ptr<PatternSource> source;
+  BandProfiler profiler;      ///< the model-led estimator's profiles of the chosen families
+  PatternSource* source;      ///< the inputs' (shared by the stages)
   DetectorGeometry geometry;  ///< the reference geometry (refined pattern centre once the frames are)
   DetectorRays rays;
   Preprocessor pre;

@@ -2,10 +2,10 @@
 #include "orderband/map_scan.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 
 #include "orderband/laue_group.hpp"
-#include "orderband/pair_catalog.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
@@ -82,10 +82,32 @@ const SphereSizeFit* MapResults::secondary_preferred() const {
   return b->aic() < a->aic() ? b : a;
 }
 
-MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress,
+MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs) {
+  MapOptions applied = options;
+  const ScanConfig& config = inputs.config;
+  FractionSpec& f = applied.fraction;
+  f.refine_pattern_centre = config.refine_pattern_centre;
+  if (f.end_members != EndMemberMode::model || config.end_members.mode == "model") return applied;
+  f.end_members = config.end_members.mode == "mixture" ? EndMemberMode::mixture : EndMemberMode::regions;
+  auto rects = [](const std::vector<std::array<int, 4>>& in) {
+    std::vector<PointRect> out;
+    for (const auto& v : in) out.push_back({v[0], v[1], v[2], v[3]});
+    return out;
+  };
+  f.ordered_regions = rects(config.end_members.ordered_regions);
+  f.disordered_regions = rects(config.end_members.disordered_regions);
+  f.ordered_mask = inputs.ordered_mask;
+  f.disordered_mask = inputs.disordered_mask;
+  return applied;
+}
+
+MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const StageProgress& progress,
                     RowStore* store) {
   MapResults r;
-  const OrderingPair pair = load_phases(config.phases);
+  r.options = options_for_scan(requested, inputs);
+  const MapOptions& options = r.options;
+  const ScanConfig& config = inputs.config;
+  const OrderingPair& pair = inputs.phases;
   r.ordered_phase = pair.ordered.name;
   r.disordered_phase = pair.disordered.name;
   auto stage = [&](const std::string& name) {
@@ -93,8 +115,8 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
       if (progress) progress(name, d, t);
     };
   };
-  r.orientations = orient_scan(config, options.orient, stage("orientations"), store);
-  r.fraction = ordered_fraction_scan(config, r.orientations, options.fraction, stage("ordered fraction"), store);
+  r.orientations = orient_scan(inputs, options.orient, stage("orientations"), store);
+  r.fraction = ordered_fraction_scan(inputs, r.orientations, options.fraction, stage("ordered fraction"), store);
 
   const ScanGrid& grid = config.grid;
   r.detection = map_detection_limit(config, r.fraction, options);
@@ -112,10 +134,10 @@ MapResults map_scan(const ScanConfig& config, const MapOptions& options, const S
   fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
   if (options.mean_spheres) {
-    auto source = open_pattern_source(config.patterns, grid);
-    const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
+    PatternSource* source = inputs.patterns.get();
+    const DetectorGeometry geometry(inputs.geometry());
     const DetectorRays rays(geometry);
-    const Preprocessor pre = make_preprocessor(config.preprocess, *source);
+    const Preprocessor pre = inputs.preprocessor();
     const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
     SphereMap dis(sphere_grid), ord(sphere_grid);
     PreprocessedRows rows(*source, grid, pre);

@@ -72,11 +72,11 @@ std::array<EndMember, 2> two_component_mixture(const std::vector<double>& v) {
   return c;
 }
 
-FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& ori, const FractionSpec& spec,
+FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& ori, const FractionSpec& spec,
                                       const ProgressFn& progress, RowStore* store) {
-  if (ori.orientation.size() != config.grid.count())
-    fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", config.grid.count());
-  FractionScan scan(config, ori, spec);
+  if (ori.orientation.size() != inputs.grid().count())
+    fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", inputs.grid().count());
+  FractionScan scan(inputs, ori, spec);
   FractionResults r;
   refine_grain_frames(scan, r);
   std::vector<FractionReference> refs(scan.grains + 1);

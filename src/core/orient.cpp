@@ -3,12 +3,9 @@
 
 #include <algorithm>
 #include <cmath>
-#include <fstream>
 
 #include "orderband/error.hpp"
 #include "orderband/laue_group.hpp"
-#include "orderband/orientation_csv.hpp"
-#include "orderband/pair_catalog.hpp"
 #include "orderband/units.hpp"
 #include "row_loop.hpp"
 
@@ -41,12 +38,13 @@ size_t OrientationResults::with_orientation() const {
       std::count_if(orientation.begin(), orientation.end(), [](const auto& o) { return o.has_value(); }));
 }
 
-OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec, const ProgressFn& progress,
+OrientationResults orient_scan(const ScanInputs& inputs, const OrientSpec& spec, const ProgressFn& progress,
                                RowStore* store) {
+  const ScanConfig& config = inputs.config;
   const ScanGrid& grid = config.grid;
-  auto source = open_pattern_source(config.patterns, grid);
-  const DetectorGeometry geometry(geometry_for(config, source->width(), source->height()));
-  const OrderingPair pair = load_phases(config.phases);
+  PatternSource* source = inputs.patterns.get();
+  const DetectorGeometry geometry(inputs.geometry());
+  const OrderingPair& pair = inputs.phases;
   // γ and γ′ share the lattice (cube-on-cube): index and refine as the disordered parent.
   const Phase& parent = pair.disordered;
   const CrystalSymmetry symmetry(laue_rotations(parent));
@@ -54,15 +52,9 @@ OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec,
   model_params.d_min_A = 0.9;
   const KinematicBandModel model(parent, config.kv, model_params);
   const Indexer indexer(parent, config.kv, spec.index);
+  const std::optional<OrientationTable>& given = inputs.given_orientations;
 
-  std::optional<OrientationTable> given;
-  if (config.orientations.source == OrientationSourceKind::file) {
-    std::ifstream in(config.orientations.file);
-    if (!in) fail("cannot read orientation file '", config.orientations.file, "'");
-    given = read_orientation_csv(in, grid, config.orientations.file);
-  }
-
-  const Preprocessor pre = make_preprocessor(config.preprocess, *source);
+  const Preprocessor pre = inputs.preprocessor();
   const BandDetector detector(geometry, pre.mask(), spec.detect);
   const DetectorRays rays(geometry);
   const OrientationRefiner refiner(model, rays, pre.mask(), spec.refine);

@@ -5,7 +5,6 @@
 #include <cmath>
 
 #include "orderband/error.hpp"
-#include "orderband/image_io.hpp"
 
 namespace orderband {
 
@@ -39,7 +38,8 @@ size_t filter_hot_pixels(float* p, int w, int h, double threshold) {
   return replaced;
 }
 
-Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background)
+Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background,
+                           const GrayImage* mask_image)
     : spec_(spec), w_(width), h_(height) {
   const size_t n = static_cast<size_t>(w_) * h_;
   // Mask.
@@ -50,7 +50,8 @@ Preprocessor::Preprocessor(const PreprocessSpec& spec, int width, int height, st
     for (int i = 0; i < h_; ++i)
       for (int j = 0; j < w_; ++j) mask_[static_cast<size_t>(i) * w_ + j] = std::hypot(j + 0.5 - cx, i + 0.5 - cy) <= r;
   } else if (spec.mask == MaskKind::file) {
-    const GrayImage m = read_gray_image(spec.mask_file);
+    if (!mask_image) fail("the pattern mask '", spec.mask_file, "' was not read");
+    const GrayImage& m = *mask_image;
     if (m.width != w_ || m.height != h_)
       fail("mask '", spec.mask_file, "' is ", m.width, " x ", m.height, " px; patterns are ", w_, " x ", h_, " px");
     for (size_t q = 0; q < n; ++q) mask_[q] = m.pixels[q] != 0;
@@ -142,7 +143,8 @@ std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const 
   return mean;
 }
 
-Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const ProgressFn& progress) {
+Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const PreprocessImages& images,
+                               const ProgressFn& progress) {
   std::vector<float> background;
   if (spec.static_background == StaticBackgroundKind::scan_mean) {
     background = scan_mean_pattern(source, 256, progress);
@@ -150,13 +152,15 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
     if (sigma < 0) sigma = 0.1 * source.width();
     if (sigma > 0) GaussianBlur(source.width(), source.height(), sigma).apply(background.data(), background.data());
   } else if (spec.static_background == StaticBackgroundKind::file) {
-    const GrayImage img = read_gray_image(spec.static_background_file);
+    if (!images.static_background) fail("the static background '", spec.static_background_file, "' was not read");
+    const GrayImage& img = *images.static_background;
     if (img.width != source.width() || img.height != source.height())
       fail("static background '", spec.static_background_file, "' is ", img.width, " x ", img.height,
            " px; patterns are ", source.width(), " x ", source.height(), " px");
     background.assign(img.pixels.begin(), img.pixels.end());
   }
-  return Preprocessor(spec, source.width(), source.height(), std::move(background));
+  return Preprocessor(spec, source.width(), source.height(), std::move(background),
+                      images.mask ? &*images.mask : nullptr);
 }
 
 void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const float* const rows[3],

@@ -3,30 +3,17 @@
 
 #include <chrono>
 #include <cmath>
-#include <fstream>
 
 #include "orderband/error.hpp"
-#include "orderband/orientation_csv.hpp"
-#include "orderband/pair_catalog.hpp"
-#include "orderband/point_mask.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
 
-ScanCheck check_scan(const ScanConfig& config, size_t sample_points, double d_min_A) {
+ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points, double d_min_A) {
+  const ScanConfig& config = inputs.config;
   ScanCheck c;
   c.config = config;
-  c.config.grid.validate();
-  auto source = open_pattern_source(config.patterns, config.grid);
-  // Every file map reads is read here too, so that check fails where map would: the orientation
-  // table and the reference masks.
-  if (config.orientations.source == OrientationSourceKind::file) {
-    std::ifstream in(config.orientations.file);
-    if (!in) fail("cannot read orientation file '", config.orientations.file, "'");
-    read_orientation_csv(in, config.grid, config.orientations.file);
-  }
-  for (const std::string& mask : {config.end_members.ordered_mask, config.end_members.disordered_mask})
-    if (!mask.empty()) read_point_mask(mask, config.grid);
+  PatternSource* source = inputs.patterns.get();
   c.source_description = source->describe();
   c.width_px = source->width();
   c.height_px = source->height();
@@ -43,7 +30,7 @@ ScanCheck check_scan(const ScanConfig& config, size_t sample_points, double d_mi
   c.max_angle_from_pc_deg = rad_to_deg(geometry.max_angle_from_pc_rad());
   c.pc_direction_sample = geometry.direction_sample({config.geometry.pc_px.x(), config.geometry.pc_px.y()}).vec();
 
-  const OrderingPair pair = load_phases(config.phases);
+  const OrderingPair& pair = inputs.phases;
   c.pair_name = pair.name;
   for (const PairFamily& f : pair_family_table(pair, config.kv, d_min_A)) {
     FamilyVisibility v{f, 2 * f.bragg_ordered_rad / geometry.angular_pixel_size_rad()};
@@ -58,7 +45,7 @@ ScanCheck check_scan(const ScanConfig& config, size_t sample_points, double d_mi
   PreprocessSpec spec = config.preprocess;
   if (spec.static_background == StaticBackgroundKind::scan_mean) spec.static_background = StaticBackgroundKind::none;
   // (A static background file is read and checked here; the scan mean is not computed.)
-  const Preprocessor pre = make_preprocessor(spec, *source);
+  const Preprocessor pre = inputs.preprocessor(spec);
   const size_t n = std::min(sample_points, source->count());
   std::vector<float> buffer(source->pixels());
   const auto t0 = std::chrono::steady_clock::now();

@@ -6,6 +6,7 @@
 #include <filesystem>
 
 #include "orderband/error.hpp"
+#include "orderband/phase_cif.hpp"
 #include "orderband/scan_config.hpp"
 
 namespace fs = std::filesystem;

@@ -4,10 +4,12 @@
 #include <cstdint>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 #include <vector>
 
 #include "orderband/gaussian_blur.hpp"
+#include "orderband/image.hpp"
 #include "orderband/pattern_source.hpp"
 #include "orderband/scan_grid.hpp"
 
@@ -42,6 +44,12 @@ struct PreprocessSpec {
   bool unit_variance = true;
 };
 
+/// The images a spec names (mask_file, static_background_file), read by the io layer
+/// (`read_preprocess_images`); empty where the spec names none.
+struct PreprocessImages {
+  std::optional<GrayImage> mask, static_background;
+};
+
 /// Per-pattern preprocessing, in this order:
 /// 1. hot-pixel filter (optional);
 /// 2. static background: divide by the background normalised to mean 1;
@@ -51,8 +59,10 @@ struct PreprocessSpec {
 /// band contrast. A pattern with no variation inside the mask is unusable.
 class Preprocessor {
  public:
-  /// `static_background` must have width·height values (ignored for kind none).
-  Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background = {});
+  /// `static_background` must have width·height values (ignored for kind none); `mask_image` is
+  /// the mask file's image when spec.mask is file.
+  Preprocessor(const PreprocessSpec& spec, int width, int height, std::vector<float> static_background = {},
+               const GrayImage* mask_image = nullptr);
 
   /// In place. Returns false (and zeroes the pattern) if the pattern is unusable.
   bool apply(float* pattern) const;
@@ -86,9 +96,10 @@ using ProgressFn = std::function<void(size_t done, size_t total)>;
 /// Mean raw pattern of the whole scan, streamed in chunks of `chunk` points.
 std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk = 256, const ProgressFn& progress = {});
 
-/// Builds the preprocessor for a source: reads the static background file or
-/// computes the scan mean as the spec asks.
-Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const ProgressFn& progress = {});
+/// Builds the preprocessor for a source: takes the static background image or computes the scan
+/// mean as the spec asks.
+Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source, const PreprocessImages& images = {},
+                               const ProgressFn& progress = {});
 
 /// Neighbour averaging of one scan row. `rows[0..2]` are the preprocessed
 /// rows r−1, r, r+1 (nullptr outside the grid), each cols · pixels floats,

@@ -1,4 +1,4 @@
-// Pattern sources: raw stacks, HDF5 datasets and image folders, read in chunks.
+// Pattern sources: where the patterns are stored, and the stream of patterns every stage reads.
 #pragma once
 
 #include <cstddef>
@@ -66,10 +66,5 @@ class PatternSource {
   mutable std::mutex faults_mutex_;
   std::map<size_t, std::string> faults_;
 };
-
-/// Opens a source and checks it holds exactly grid.count() patterns
-/// (a shorter raw file, a dataset of the wrong rank or shape, missing image
-/// files are errors that name the file, the value and the fix).
-std::unique_ptr<PatternSource> open_pattern_source(const PatternSourceSpec& spec, const ScanGrid& grid);
 
 }  // namespace orderband

@@ -60,11 +60,6 @@ struct SynthScenario {
   bool scan_uses_truth_orientations = false;  ///< the written scan.toml reads truth_orientations.csv
 };
 
-/// Reads a scenario; one clear error line per problem (negative sizes,
-/// fractions above 1, unknown phase files, unknown keys).
-SynthScenario read_synth_scenario(const std::string& path);
-SynthScenario parse_synth_scenario(const std::string& toml_text, const std::string& path);
-
 /// One phase component of a point's pattern: a lattice orientation, ordered
 /// or not, with its share of the diffracting volume.
 struct MixtureComponent {
@@ -139,15 +134,5 @@ RenderModels render_models(const SynthScenario& scenario, const OrderingPair& pa
 
 /// The geometry the patterns are rendered with (the recorded one plus the variant's PC error).
 DetectorGeometrySpec render_geometry(const SynthScenario& scenario);
-
-using SynthProgress = std::function<void(size_t done, size_t total)>;
-
-/// Writes a complete synthetic scan into `folder` (created if needed):
-/// scan.toml, patterns.raw, truth.json, truth_fraction.npy, truth_grains.npy,
-/// truth_orientations.csv, truth_particles.csv. Multi-threaded over points;
-/// byte-identical for a seed whatever the thread count. `command_line` goes
-/// into the provenance.
-void write_synthetic_scan(const SynthScenario& scenario, const std::string& folder, const std::string& command_line,
-                          const SynthProgress& progress = {});
 
 }  // namespace orderband

@@ -7,7 +7,7 @@
 #include <vector>
 
 #include "orderband/detector_geometry.hpp"
-#include "orderband/image_io.hpp"
+#include "orderband/image.hpp"
 #include "orderband/rotation.hpp"
 
 namespace orderband {

@@ -151,7 +151,7 @@ struct FractionResults {
 /// Every step is linear in the mixture of the two phases under the beam, so the estimate is
 /// unbiased where the model holds; `end_members` can rescale it by the data. The windows
 /// estimator replaces 4 by interior-minus-flank window signals over the fundamental contrast.
-FractionResults ordered_fraction_scan(const ScanConfig& config, const OrientationResults& orientations,
+FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& orientations,
                                       const FractionSpec& spec = {}, const ProgressFn& progress = {},
                                       RowStore* store = nullptr);
 

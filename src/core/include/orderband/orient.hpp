@@ -13,7 +13,7 @@
 #include "orderband/preprocess.hpp"
 #include "orderband/refine.hpp"
 #include "orderband/row_store.hpp"
-#include "orderband/scan_config.hpp"
+#include "orderband/scan_inputs.hpp"
 
 namespace orderband {
 
@@ -61,11 +61,11 @@ struct OrientationResults {
 /// Runs the orientation stage of a scan: preprocesses the patterns (streamed
 /// by rows), then per point either finds the orientation (band detection,
 /// indexing against the parent phase, Gauss–Newton refinement) or takes it
-/// from the orientation CSV and refines it (unless refine = false), and
+/// from the inputs' orientation table and refines it (unless refine = false), and
 /// finally segments grains. Multi-threaded over the points of each row.
 /// With a RowStore, finished rows are saved, and rows saved by an earlier (interrupted) run
 /// are taken from it instead of being computed again; the results are the same either way.
-OrientationResults orient_scan(const ScanConfig& config, const OrientSpec& spec = {}, const ProgressFn& progress = {},
+OrientationResults orient_scan(const ScanInputs& inputs, const OrientSpec& spec = {}, const ProgressFn& progress = {},
                                RowStore* store = nullptr);
 
 }  // namespace orderband

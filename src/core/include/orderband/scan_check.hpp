@@ -5,7 +5,7 @@
 #include <vector>
 
 #include "orderband/ordering_pair.hpp"
-#include "orderband/scan_config.hpp"
+#include "orderband/scan_inputs.hpp"
 
 namespace orderband {
 
@@ -31,9 +31,9 @@ struct ScanCheck {
   std::vector<std::string> warnings;
 };
 
-/// Opens the pattern source, builds the geometry and the pair, preprocesses
-/// up to `sample_points` patterns (timed) and returns the summary. Throws
-/// orderband::Error with one clear line for the first problem found.
-ScanCheck check_scan(const ScanConfig& config, size_t sample_points = 64, double d_min_A = 0.9);
+/// From the scan's inputs (read_scan_inputs has already read and checked every file `map` reads):
+/// the geometry, the pair's families, and up to `sample_points` patterns preprocessed (timed).
+/// Throws orderband::Error with one clear line for the first problem found.
+ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points = 64, double d_min_A = 0.9);
 
 }  // namespace orderband

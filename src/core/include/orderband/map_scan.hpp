@@ -26,6 +26,7 @@ struct MapOptions {
 };
 
 struct MapResults {
+  MapOptions options;  ///< as applied: the scan description's choices included (options_for_scan)
   std::string ordered_phase, disordered_phase;
   OrientationResults orientations;
   FractionResults fraction;
@@ -51,13 +52,14 @@ std::vector<std::string> map_warnings(const MapResults& r);
 /// Progress of a stage: (stage name, done, total).
 using StageProgress = std::function<void(const std::string& stage, size_t done, size_t total)>;
 
-/// Runs every stage on a scan. With a RowStore the orientation and fraction stages resume.
-MapResults map_scan(const ScanConfig& config, const MapOptions& options, const StageProgress& progress = {},
-                    RowStore* store = nullptr);
+/// The options with the scan description's own choices applied: its pattern-centre refinement,
+/// and its [fraction] end members (regions, masks or the mixture) unless the options already ask
+/// for the mixture.
+MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs);
 
-/// Writes every output of `map` into `folder` (see README: outputs of map), each atomically,
-/// with the tool version, the command line, the input files' hashes and the parameters.
-void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& results,
-                       const MapOptions& options, const std::string& command_line);
+/// Runs every stage on a scan, with options_for_scan(options, inputs). With a RowStore the
+/// orientation and fraction stages resume.
+MapResults map_scan(const ScanInputs& inputs, const MapOptions& options, const StageProgress& progress = {},
+                    RowStore* store = nullptr);
 
 }  // namespace orderband

@@ -32,9 +32,6 @@ struct TrialsConfig {
   std::vector<Trial> trials;
 };
 
-/// Reads a trials description (TOML); one clear line per problem.
-TrialsConfig read_trials_config(const std::string& path);
-
 /// A measured quantity with its 95 % interval (low = high = value when none is known).
 struct Measured {
   double value = 0, low = 0, high = 0;

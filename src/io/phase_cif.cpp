@@ -10,7 +10,7 @@
 #include <sstream>
 
 #include "orderband/error.hpp"
-#include "orderband/phase.hpp"
+#include "orderband/phase_cif.hpp"
 #include "orderband/scattering.hpp"
 
 namespace orderband {

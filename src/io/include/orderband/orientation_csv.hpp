@@ -7,17 +7,10 @@
 #include <string>
 #include <vector>
 
-#include "orderband/rotation.hpp"
+#include "orderband/orientation_table.hpp"
 #include "orderband/scan_grid.hpp"
 
 namespace orderband {
-
-/// One orientation per scan point, in scan order. An absent orientation
-/// (unusable point) is written with empty angle fields.
-struct OrientationTable {
-  std::vector<std::optional<Rotation>> orientations;
-  std::vector<std::string> phases;  ///< optional phase label per point ("" if none)
-};
 
 /// Writes the CSV: a `#` provenance line (if given), the header
 /// `row,col,phi1_deg,Phi_deg,phi2_deg,phase` and one line per point, angles

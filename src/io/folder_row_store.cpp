@@ -1,5 +1,5 @@
-// Row-result persistence and hashing.
-#include "orderband/row_store.hpp"
+// Row results kept in a folder, one checked file per row.
+#include "orderband/folder_row_store.hpp"
 
 #include <algorithm>
 #include <cstdio>
@@ -12,8 +12,6 @@
 namespace fs = std::filesystem;
 
 namespace orderband {
-
-void ByteReader::throw_short() const { fail("resume data is truncated; delete the .resume folder and run again"); }
 
 FolderRowStore::FolderRowStore(std::string folder, const std::string& key) : folder_(std::move(folder)) {
   std::error_code ec;
@@ -72,46 +70,6 @@ void FolderRowStore::save(const std::string& stage, int row, const std::vector<u
 void FolderRowStore::clear() {
   std::error_code ec;
   fs::remove_all(folder_, ec);
-}
-
-namespace {
-constexpr uint64_t kFnvOffset = 1469598103934665603ull, kFnvPrime = 1099511628211ull;
-std::string hex(uint64_t h) {
-  char buf[17];
-  std::snprintf(buf, sizeof buf, "%016llx", static_cast<unsigned long long>(h));
-  return buf;
-}
-}  // namespace
-
-std::string file_hash_fnv1a64(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) fail("cannot read '", path, "' to hash it");
-  uint64_t h = kFnvOffset;
-  std::vector<char> buf(1 << 20);
-  while (in) {
-    in.read(buf.data(), static_cast<std::streamsize>(buf.size()));
-    for (std::streamsize k = 0; k < in.gcount(); ++k) h = (h ^ static_cast<uint8_t>(buf[k])) * kFnvPrime;
-  }
-  return hex(h);
-}
-
-std::string folder_hash_fnv1a64(const std::string& folder) {
-  std::vector<fs::path> files;
-  std::error_code ec;
-  for (const auto& e : fs::directory_iterator(folder, ec))
-    if (e.is_regular_file()) files.push_back(e.path());
-  if (ec) fail("cannot list '", folder, "' to hash it: ", ec.message());
-  std::sort(files.begin(), files.end());
-  std::string names_and_hashes;
-  for (const fs::path& f : files)
-    names_and_hashes += f.filename().string() + '\0' + file_hash_fnv1a64(f.string()) + '\n';
-  return text_hash_fnv1a64(names_and_hashes);
-}
-
-std::string text_hash_fnv1a64(const std::string& text) {
-  uint64_t h = kFnvOffset;
-  for (char c : text) h = (h ^ static_cast<uint8_t>(c)) * kFnvPrime;
-  return hex(h);
 }
 
 }  // namespace orderband

@@ -1,0 +1,22 @@
+// What follows from a scan description: the beam footprint, the geometry for the stored patterns.
+#include "orderband/scan_config.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+namespace orderband {
+
+BeamFootprint beam_footprint(const ScanConfig& config) {
+  const double tilt = config.geometry.sample_tilt_deg * M_PI / 180;
+  const double elongation = config.beam.elongation ? *config.beam.elongation : 1 / std::max(std::cos(tilt), 0.05);
+  return {config.beam.sigma_nm * 1e-3, config.beam.sigma_nm * 1e-3 * elongation};
+}
+
+DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px) {
+  DetectorGeometrySpec g = config.geometry;
+  g.width_px = width_px;
+  g.height_px = height_px;
+  return g;
+}
+
+}  // namespace orderband

@@ -1,0 +1,18 @@
+// One scan's inputs: what follows from them without reading a file.
+#include "orderband/scan_inputs.hpp"
+
+namespace orderband {
+
+DetectorGeometrySpec ScanInputs::geometry() const {
+  return geometry_for(config, patterns->width(), patterns->height());
+}
+
+Preprocessor ScanInputs::preprocessor(const ProgressFn& progress) const {
+  return preprocessor(config.preprocess, progress);
+}
+
+Preprocessor ScanInputs::preprocessor(const PreprocessSpec& spec, const ProgressFn& progress) const {
+  return make_preprocessor(spec, *patterns, preprocess_images, progress);
+}
+
+}  // namespace orderband

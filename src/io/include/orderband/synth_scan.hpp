@@ -1,0 +1,27 @@
+// Synthetic scans on disk: scenario files read, complete scans written.
+#pragma once
+
+#include <cstddef>
+#include <functional>
+#include <string>
+
+#include "orderband/synth.hpp"
+
+namespace orderband {
+
+/// Reads a scenario; one clear error line per problem (negative sizes,
+/// fractions above 1, unknown phase files, unknown keys).
+SynthScenario read_synth_scenario(const std::string& path);
+SynthScenario parse_synth_scenario(const std::string& toml_text, const std::string& path);
+
+using SynthProgress = std::function<void(size_t done, size_t total)>;
+
+/// Writes a complete synthetic scan into `folder` (created if needed):
+/// scan.toml, patterns.raw, truth.json, truth_fraction.npy, truth_grains.npy,
+/// truth_orientations.csv, truth_particles.csv. Multi-threaded over points;
+/// byte-identical for a seed whatever the thread count. `command_line` goes
+/// into the provenance.
+void write_synthetic_scan(const SynthScenario& scenario, const std::string& folder, const std::string& command_line,
+                          const SynthProgress& progress = {});
+
+}  // namespace orderband

@@ -1,0 +1,77 @@
+// Reading one scan's inputs from the files its description names.
+#include "orderband/scan_inputs_io.hpp"
+
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "orderband/error.hpp"
+#include "orderband/image_io.hpp"
+#include "orderband/input_hash.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/pair_catalog.hpp"
+#include "orderband/pattern_files.hpp"
+#include "orderband/point_mask.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+OrientationTable read_orientation_file(const std::string& path, const ScanGrid& grid) {
+  std::ifstream in(path);
+  if (!in) fail("cannot read orientation file '", path, "'");
+  return read_orientation_csv(in, grid, path);
+}
+
+PreprocessImages read_preprocess_images(const PreprocessSpec& spec) {
+  PreprocessImages images;
+  if (spec.mask == MaskKind::file) images.mask = read_gray_image(spec.mask_file);
+  if (spec.static_background == StaticBackgroundKind::file)
+    images.static_background = read_gray_image(spec.static_background_file);
+  return images;
+}
+
+/// The hash of a file, of a folder's files, or "" for no file; every field is separated so that
+/// moving a file from one role to another changes the whole.
+std::string hash_of(const std::string& path) {
+  if (path.empty()) return "-";
+  return fs::is_directory(path) ? folder_hash_fnv1a64(path) : file_hash_fnv1a64(path);
+}
+
+}  // namespace
+
+std::string scan_input_hash(const ScanConfig& config) {
+  std::ostringstream k;
+  const bool cif_files = config.phases.pair_name.empty();
+  const PreprocessSpec& p = config.preprocess;
+  k << hash_of(config.path) << '|' << hash_of(config.patterns.path) << '|'
+    << (cif_files ? hash_of(config.phases.ordered_cif) + hash_of(config.phases.disordered_cif)
+                  : config.phases.pair_name)
+    << '|'
+    << (config.orientations.source == OrientationSourceKind::file ? hash_of(config.orientations.file) : "find")
+    << '|' << hash_of(config.end_members.ordered_mask) << '|' << hash_of(config.end_members.disordered_mask) << '|'
+    << (p.mask == MaskKind::file ? hash_of(p.mask_file) : "-") << '|'
+    << (p.static_background == StaticBackgroundKind::file ? hash_of(p.static_background_file) : "-");
+  return text_hash_fnv1a64(k.str());
+}
+
+ScanInputs read_scan_inputs(const ScanConfig& config, InputHashing hashing) {
+  config.grid.validate();
+  ScanInputs in;
+  in.config = config;
+  in.patterns = open_pattern_source(config.patterns, config.grid);
+  in.config.geometry = in.geometry();
+  in.phases = load_phases(config.phases);
+  in.preprocess_images = read_preprocess_images(config.preprocess);
+  if (config.orientations.source == OrientationSourceKind::file)
+    in.given_orientations = read_orientation_file(config.orientations.file, config.grid);
+  if (!config.end_members.ordered_mask.empty())
+    in.ordered_mask = read_point_mask(config.end_members.ordered_mask, config.grid);
+  if (!config.end_members.disordered_mask.empty())
+    in.disordered_mask = read_point_mask(config.end_members.disordered_mask, config.grid);
+  if (hashing == InputHashing::hash) in.input_hash = scan_input_hash(config);
+  return in;
+}
+
+}  // namespace orderband
