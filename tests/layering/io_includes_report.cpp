@@ -1,0 +1,2 @@
+// Must not build: the io layer cannot see the report layer's headers.
+#include "orderband/svg_plot.hpp"
