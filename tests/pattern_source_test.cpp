@@ -170,7 +170,9 @@ TEST(PatternSource, AMissingOrCorruptImageIsAFaultOfItsPointOnly) {
   for (size_t k = 0; k < fx.grid.count(); ++k) {
     const bool bad = k == 19 || k == 7 || k == 11;
     EXPECT_EQ(std::isnan(read[k * pixels]), bad) << k;
-    if (!bad) EXPECT_EQ(read[k * pixels + 5], static_cast<float>(fx.data[k * pixels + 5])) << k;
+    if (!bad) {
+      EXPECT_EQ(read[k * pixels + 5], static_cast<float>(fx.data[k * pixels + 5])) << k;
+    }
   }
 }
 

@@ -251,4 +251,43 @@ DetectorGeometrySpec render_geometry(const SynthScenario& s) {
   return g;
 }
 
+namespace {
+
+std::uint64_t point_seed(std::uint64_t seed, size_t index) {
+  // splitmix64 of (seed, index): independent streams per point, whatever the thread schedule.
+  std::uint64_t z = seed + 0x9e3779b97f4a7c15ull * (index + 1);
+  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+  z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+  return z ^ (z >> 31);
+}
+
+}  // namespace
+
+SyntheticScan::SyntheticScan(const SynthScenario& scenario, const OrderingPair& pair)
+    : scenario_(scenario),
+      models_(render_models(scenario, pair)),
+      micro_(scenario.micro),
+      geometry_(render_geometry(scenario)),
+      renderer_(geometry_, models_.ordered, models_.disordered, scenario.counts_per_px, scenario.background_falloff,
+                scenario.variant.background, scenario.variant.detector_gamma),
+      beam_x_um_(scenario.beam_sigma_nm * 1e-3),
+      beam_y_um_(beam_x_um_ * scenario.variant.beam_elongation),
+      scale_8bit_(250.0 / (scenario.counts_per_px * 1.6 *
+                           *std::max_element(renderer_.background().begin(), renderer_.background().end()))) {}
+
+void SyntheticScan::render_row(int row, std::uint16_t* out) const {
+  const SynthScenario& s = scenario_;
+  const size_t px = pixels();
+#pragma omp parallel for schedule(dynamic)
+  for (int c = 0; c < s.grid.cols; ++c) {
+    const GridPoint p{row, c};
+    const Eigen::Vector2d pos = s.grid.position_um(p);
+    const DetectorGeometry g = s.pc_drift ? geometry_.at_beam_offset(pos.x(), pos.y()) : geometry_;
+    renderer_.render(point_mixture(micro_, pos, beam_x_um_, beam_y_um_), g, point_seed(s.seed, s.grid.index(p)),
+                     s.sample_type, scale_8bit_, out + static_cast<size_t>(c) * px);
+  }
+}
+
+SynthTruth SyntheticScan::truth() const { return compute_truth(micro_, scenario_.grid, beam_x_um_, beam_y_um_); }
+
 }  // namespace orderband

@@ -23,7 +23,6 @@ namespace orderband {
 
 static_assert(std::endian::native == std::endian::little, "raw pattern reading assumes a little-endian host");
 
-
 namespace {
 
 size_t sample_bytes(SampleType t) { return t == SampleType::uint8 ? 1 : t == SampleType::uint16 ? 2 : 4; }

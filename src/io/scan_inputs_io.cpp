@@ -48,8 +48,7 @@ std::string scan_input_hash(const ScanConfig& config) {
   k << hash_of(config.path) << '|' << hash_of(config.patterns.path) << '|'
     << (cif_files ? hash_of(config.phases.ordered_cif) + hash_of(config.phases.disordered_cif)
                   : config.phases.pair_name)
-    << '|'
-    << (config.orientations.source == OrientationSourceKind::file ? hash_of(config.orientations.file) : "find")
+    << '|' << (config.orientations.source == OrientationSourceKind::file ? hash_of(config.orientations.file) : "find")
     << '|' << hash_of(config.end_members.ordered_mask) << '|' << hash_of(config.end_members.disordered_mask) << '|'
     << (p.mask == MaskKind::file ? hash_of(p.mask_file) : "-") << '|'
     << (p.static_background == StaticBackgroundKind::file ? hash_of(p.static_background_file) : "-");

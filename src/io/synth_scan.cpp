@@ -1,6 +1,4 @@
 // Scenario files and writing a complete synthetic scan.
-#include <omp.h>
-
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -58,14 +56,6 @@ void read_class(TomlReader& r, const toml::table* t, const std::string& name, Pr
   else
     fail(r.path(), ": [", name, "] shape = \"", shape, "\" is not \"sphere\" or \"cuboid\"");
   c.own_orientation = r.get<bool>(t, name, "own_orientation").value_or(false);
-}
-
-std::uint64_t point_seed(std::uint64_t seed, size_t index) {
-  // splitmix64 of (seed, index): independent streams per point, whatever the thread schedule.
-  std::uint64_t z = seed + 0x9e3779b97f4a7c15ull * (index + 1);
-  z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
-  z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
-  return z ^ (z >> 31);
 }
 
 // Names in the order of the enums (BandShape, BackgroundShape).
@@ -292,17 +282,12 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
   const std::string dir = fs::absolute(folder).lexically_normal().string();
 
   const OrderingPair pair = load_phases(s.phases);
-  const RenderModels models = render_models(s, pair);
-  const Microstructure micro(s.micro);
-  const DetectorGeometry geometry(render_geometry(s));
-  const PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
-                                 s.variant.background, s.variant.detector_gamma);
-  const double beam_um = s.beam_sigma_nm * 1e-3, beam_y_um = beam_um * s.variant.beam_elongation;
-  const size_t px = static_cast<size_t>(geometry.width()) * geometry.height();
-  const double scale_8bit =
-      250.0 / (s.counts_per_px * 1.6 * *std::max_element(renderer.background().begin(), renderer.background().end()));
+  const SyntheticScan scan_render(s, pair);
+  const DetectorGeometry& geometry = scan_render.geometry();
+  const Microstructure& micro = scan_render.microstructure();
+  const size_t px = scan_render.pixels();
 
-  // Patterns, row by row; points of a row in parallel, each with its own random stream.
+  // Patterns, row by row.
   const std::string patterns_path = dir + "/patterns.raw";
   write_atomically(patterns_path, [&](const std::string& temp) {
     std::ofstream out(temp, std::ios::binary);
@@ -310,14 +295,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
     std::vector<std::uint16_t> row(static_cast<size_t>(s.grid.cols) * px);
     std::vector<std::uint8_t> row8;
     for (int r = 0; r < s.grid.rows; ++r) {
-#pragma omp parallel for schedule(dynamic)
-      for (int c = 0; c < s.grid.cols; ++c) {
-        const GridPoint p{r, c};
-        const Eigen::Vector2d pos = s.grid.position_um(p);
-        const DetectorGeometry g = s.pc_drift ? geometry.at_beam_offset(pos.x(), pos.y()) : geometry;
-        renderer.render(point_mixture(micro, pos, beam_um, beam_y_um), g, point_seed(s.seed, s.grid.index(p)),
-                        s.sample_type, scale_8bit, row.data() + static_cast<size_t>(c) * px);
-      }
+      scan_render.render_row(r, row.data());
       if (s.sample_type == SampleType::uint8) {
         row8.assign(row.begin(), row.end());
         out.write(reinterpret_cast<const char*>(row8.data()), static_cast<std::streamsize>(row8.size()));
@@ -329,7 +307,7 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
     finish_writing(out, patterns_path);
   });
 
-  const SynthTruth truth = compute_truth(micro, s.grid, beam_um, beam_y_um);
+  const SynthTruth truth = scan_render.truth();
   write_npy_float32(dir + "/truth_fraction.npy", s.grid.rows, s.grid.cols, truth.ordered_fraction);
   write_npy_int32(dir + "/truth_grains.npy", s.grid.rows, s.grid.cols, truth.grain);
   const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;

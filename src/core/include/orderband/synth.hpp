@@ -135,4 +135,28 @@ RenderModels render_models(const SynthScenario& scenario, const OrderingPair& pa
 /// The geometry the patterns are rendered with (the recorded one plus the variant's PC error).
 DetectorGeometrySpec render_geometry(const SynthScenario& scenario);
 
+/// A scenario's scan, rendered row by row: the microstructure, the models and the renderer,
+/// built once. Each point draws from its own random stream (seeded by the scenario's seed and
+/// the point's index), so a row is the same whatever the thread count.
+class SyntheticScan {
+ public:
+  SyntheticScan(const SynthScenario& scenario, const OrderingPair& pair);
+  /// Renders the patterns of one scan row into out (cols · pixels samples, uint8 values kept in
+  /// the 16-bit samples when the scenario stores uint8); points in parallel.
+  void render_row(int row, std::uint16_t* out) const;
+  const DetectorGeometry& geometry() const { return geometry_; }
+  const Microstructure& microstructure() const { return micro_; }
+  size_t pixels() const { return static_cast<size_t>(geometry_.width()) * geometry_.height(); }
+  /// The truth maps and statistics under the scenario's beam footprint.
+  SynthTruth truth() const;
+
+ private:
+  const SynthScenario& scenario_;
+  RenderModels models_;
+  Microstructure micro_;
+  DetectorGeometry geometry_;
+  PatternRenderer renderer_;
+  double beam_x_um_, beam_y_um_, scale_8bit_;
+};
+
 }  // namespace orderband
