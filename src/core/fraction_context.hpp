@@ -92,7 +92,7 @@ struct FractionScan {
   PatternSource* source;      ///< the inputs' (shared by the stages)
   DetectorGeometry geometry;  ///< the reference geometry (refined pattern centre once the frames are)
   DetectorRays rays;
-  Preprocessor pre;
+  const Preprocessor& pre;  ///< the inputs' shared preprocessor
   std::unique_ptr<FractionModel> model;
   CrystalSymmetry symmetry;
   /// Per point: the kernel mean of its grain's orientations nearby (optional where none).

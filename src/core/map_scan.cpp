@@ -137,7 +137,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
     PatternSource* source = inputs.patterns.get();
     const DetectorGeometry geometry(inputs.geometry());
     const DetectorRays rays(geometry);
-    const Preprocessor pre = inputs.preprocessor();
+    const Preprocessor& pre = inputs.preprocessor();
     const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
     SphereMap dis(sphere_grid), ord(sphere_grid);
     PreprocessedRows rows(*source, grid, pre);

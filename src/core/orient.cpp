@@ -54,7 +54,7 @@ OrientationResults orient_scan(const ScanInputs& inputs, const OrientSpec& spec,
   const Indexer indexer(parent, config.kv, spec.index);
   const std::optional<OrientationTable>& given = inputs.given_orientations;
 
-  const Preprocessor pre = inputs.preprocessor();
+  const Preprocessor& pre = inputs.preprocessor();
   const BandDetector detector(geometry, pre.mask(), spec.detect);
   const DetectorRays rays(geometry);
   const OrientationRefiner refiner(model, rays, pre.mask(), spec.refine);

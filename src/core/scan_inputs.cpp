@@ -7,8 +7,10 @@ DetectorGeometrySpec ScanInputs::geometry() const {
   return geometry_for(config, patterns->width(), patterns->height());
 }
 
-Preprocessor ScanInputs::preprocessor(const ProgressFn& progress) const {
-  return preprocessor(config.preprocess, progress);
+const Preprocessor& ScanInputs::preprocessor(const ProgressFn& progress) const {
+  if (!shared_preprocessor)
+    shared_preprocessor = std::make_shared<const Preprocessor>(preprocessor(config.preprocess, progress));
+  return *shared_preprocessor;
 }
 
 Preprocessor ScanInputs::preprocessor(const PreprocessSpec& spec, const ProgressFn& progress) const {

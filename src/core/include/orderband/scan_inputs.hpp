@@ -32,10 +32,15 @@ struct ScanInputs {
   const ScanGrid& grid() const { return config.grid; }
   /// The detector geometry for the stored patterns.
   DetectorGeometrySpec geometry() const;
-  /// The preprocessor the description asks for (a scan-mean background is one pass over the stack).
-  Preprocessor preprocessor(const ProgressFn& progress = {}) const;
-  /// The same with the given spec in place of the description's.
+  /// The preprocessor the description asks for, built on first use and then shared by every
+  /// stage: a scan-mean background costs one pass over the stack per run, not one per stage.
+  /// The first call must not race another (the stages call it from the calling thread).
+  const Preprocessor& preprocessor(const ProgressFn& progress = {}) const;
+  /// A preprocessor with the given spec in place of the description's (built anew each call).
   Preprocessor preprocessor(const PreprocessSpec& spec, const ProgressFn& progress = {}) const;
+
+  /// Internal: the shared preprocessor, once built.
+  mutable std::shared_ptr<const Preprocessor> shared_preprocessor;
 };
 
 }  // namespace orderband
