@@ -24,6 +24,10 @@ std::string crystal_data_dir() {
     const fs::path installed = exe.parent_path().parent_path() / "share" / "orderband" / "crystal-data";
     if (fs::exists(installed / "pairs.toml")) return installed.string();
   }
+#ifdef ORDERBAND_INSTALL_DATA_DIR
+  // A program of its own linked against the installed library.
+  if (fs::exists(fs::path(ORDERBAND_INSTALL_DATA_DIR) / "pairs.toml")) return ORDERBAND_INSTALL_DATA_DIR;
+#endif
   fail("cannot find the crystal-data folder; set ORDERBAND_CRYSTAL_DATA to its path");
 }
 
