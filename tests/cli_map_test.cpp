@@ -209,6 +209,14 @@ TEST_F(MapRun, SameResultsWithOneAndTwoThreads) {
   }
 }
 
+TEST_F(MapRun, ResultsFileTablesAndTiffsReadBackInOtherTools) {
+  // h5py reads every array of results.h5 equal to its .npy file, scikit-image every float TIFF;
+  // the tables have the CSV files' rows and points.csv one row per point.
+  const auto r = test::run_reference_script("results_check.py", *dir_ + "/out");
+  EXPECT_EQ(r.exit_code, 0) << r.out << r.err;
+  EXPECT_NE(r.out.find("ok 12 1600"), std::string::npos) << r.out;  // 12 arrays, 40 x 40 points
+}
+
 TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {
   // Debian's chromium (installed by scripts/install-deps.sh): every image of report.html loads and
   // the page logs no console error; a screenshot is taken.

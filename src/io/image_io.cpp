@@ -4,6 +4,7 @@
 #include <png.h>
 #include <tiffio.h>
 
+#include <algorithm>
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
@@ -234,6 +235,28 @@ void write_tiff_gray(const std::string& path, const GrayImage& image) {
         else
           line[j] = static_cast<uint8_t>(v);
       }
+      if (TIFFWriteScanline(tif.get(), line.data(), i, 0) < 0) fail("error while writing TIFF '", path, "'");
+    }
+  });
+}
+
+void write_tiff_float32(const std::string& path, int width, int height, const std::vector<float>& values) {
+  if (width <= 0 || height <= 0 || values.size() != static_cast<size_t>(width) * height)
+    fail("float TIFF '", path, "': ", values.size(), " values for ", width, " x ", height, " pixels");
+  write_atomically(path, [&](const std::string& temp) {
+    std::unique_ptr<TIFF, decltype(&TIFFClose)> tif(TIFFOpen(temp.c_str(), "w"), &TIFFClose);
+    if (!tif) fail("cannot create TIFF '", temp, "'");
+    TIFFSetField(tif.get(), TIFFTAG_IMAGEWIDTH, width);
+    TIFFSetField(tif.get(), TIFFTAG_IMAGELENGTH, height);
+    TIFFSetField(tif.get(), TIFFTAG_BITSPERSAMPLE, 32);
+    TIFFSetField(tif.get(), TIFFTAG_SAMPLEFORMAT, SAMPLEFORMAT_IEEEFP);
+    TIFFSetField(tif.get(), TIFFTAG_SAMPLESPERPIXEL, 1);
+    TIFFSetField(tif.get(), TIFFTAG_PHOTOMETRIC, PHOTOMETRIC_MINISBLACK);
+    TIFFSetField(tif.get(), TIFFTAG_PLANARCONFIG, PLANARCONFIG_CONTIG);
+    std::vector<float> line(static_cast<size_t>(width));
+    for (int i = 0; i < height; ++i) {
+      std::copy(values.begin() + static_cast<std::ptrdiff_t>(i) * width,
+                values.begin() + static_cast<std::ptrdiff_t>(i + 1) * width, line.begin());
       if (TIFFWriteScanline(tif.get(), line.data(), i, 0) < 0) fail("error while writing TIFF '", path, "'");
     }
   });

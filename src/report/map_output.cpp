@@ -17,6 +17,7 @@
 #include "orderband/npy_io.hpp"
 #include "orderband/orient_output.hpp"
 #include "orderband/orientation_csv.hpp"
+#include "orderband/results_file.hpp"
 #include "orderband/svg_plot.hpp"
 #include "orderband/text_file.hpp"
 #include "orderband/truth_comparison.hpp"
@@ -412,6 +413,88 @@ void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapRe
   h << "</table>\n";
 }
 
+/// The fraction stage's and the particles' per-point arrays with units and descriptions.
+std::vector<PointArray> fraction_arrays(const MapResults& r) {
+  const FractionResults& f = r.fraction;
+  std::vector<PointArray> a;
+  a.push_back({"ordered_fraction",
+               "1",
+               "ordered area fraction under the beam, clipped to [0, 1] (NaN: not measured)",
+               f.fraction,
+               {}});
+  a.push_back({"ordered_fraction_unclipped", "1", "ordered fraction before clipping (unbiased means)", f.raw, {}});
+  a.push_back({"fraction_uncertainty", "1", "standard error of the ordered fraction", f.uncertainty, {}});
+  a.push_back({"pattern_quality", "1", "contrast of the fundamental bands", f.band_contrast, {}});
+  a.push_back({"fraction_reason",
+               "",
+               "0 measured, 1 unusable pattern, 2 no orientation, 3 no band contrast, 4 grain too small to place",
+               {},
+               std::vector<int32_t>(f.reason.begin(), f.reason.end())});
+  a.push_back({"particle_labels", "", "particle id of the point (0: matrix, -1: unusable)", {}, r.segmentation.label});
+  return a;
+}
+
+std::string particle_table_csv(const MapResults& r, const std::string& provenance) {
+  std::ostringstream os;
+  os << "# " << provenance << "\n"
+     << "id,class,points,area_um2,ecd_um,centroid_x_um,centroid_y_um,aspect_ratio,major_axis_deg,mean_fraction,"
+        "host_grain,on_grain_boundary,touches_border,class_diameter_um\n";
+  for (const Particle2D& p : r.segmentation.particles) {
+    char b[400];
+    std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d,%.6f\n", p.id,
+                  p.size_class.c_str(), p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um,
+                  p.aspect_ratio, p.major_axis_deg, p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0,
+                  p.touches_border ? 1 : 0, p.class_diameter_um);
+    os << b;
+  }
+  return os.str();
+}
+
+std::string class_table_csv(const MapResults& r, const std::string& provenance) {
+  std::ostringstream os;
+  os << "# " << provenance << "\n"
+     << "class,lower_ecd_um,upper_ecd_um,count,area_fraction,number_density_per_um2,mean_ecd_um,median_ecd_um,"
+        "lognormal_mu_ln_um,lognormal_sigma,counted\n";
+  for (const ClassStats& c : r.classes) {
+    char b[400];
+    std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f,%d\n", c.name.c_str(), c.lower_um,
+                  std::isfinite(c.upper_um) ? fmt("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
+                  c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma,
+                  c.counted ? 1 : 0);
+    os << b;
+  }
+  return os.str();
+}
+
+/// One row per point: position, orientation (Bunge, °), ordered fraction and its standard error,
+/// pattern quality, grain, particle and why a point was not measured. Empty cells: not known.
+std::string point_table_csv(const ScanGrid& grid, const MapResults& r, const std::string& provenance) {
+  static const char* const kReasons[] = {"measured", "unusable_pattern", "no_orientation", "no_band_contrast",
+                                         "small_grain"};
+  auto cell = [](float v, const char* format) { return std::isfinite(v) ? fmt(format, v) : std::string(); };
+  std::ostringstream os;
+  os << "# " << provenance << "\n"
+     << "row,col,x_um,y_um,phi1_deg,Phi_deg,phi2_deg,ordered_fraction,fraction_se,pattern_quality,grain,particle,"
+        "reason\n";
+  for (size_t k = 0; k < grid.count(); ++k) {
+    const GridPoint p = grid.point(k);
+    const Eigen::Vector2d x = grid.position_um(p);
+    os << p.row << ',' << p.col << ',' << fmt("%.6f", x.x()) << ',' << fmt("%.6f", x.y()) << ',';
+    if (const auto& o = r.orientations.orientation[k]) {
+      const Eigen::Vector3d e = o->bunge();
+      os << fmt("%.6f", rad_to_deg(e[0])) << ',' << fmt("%.6f", rad_to_deg(e[1])) << ','
+         << fmt("%.6f", rad_to_deg(e[2])) << ',';
+    } else {
+      os << ",,,";
+    }
+    const uint8_t reason = r.fraction.reason[k];
+    os << cell(r.fraction.fraction[k], "%.6f") << ',' << cell(r.fraction.uncertainty[k], "%.6f") << ','
+       << cell(r.fraction.band_contrast[k], "%.6f") << ',' << r.orientations.grains.id[k] << ','
+       << r.segmentation.label[k] << ',' << (reason < 5 ? kReasons[reason] : "other") << '\n';
+  }
+  return os.str();
+}
+
 }  // namespace
 
 void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
@@ -426,13 +509,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
   write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
 
-  write_npy_float32(folder + "/ordered_fraction.npy", grid.rows, grid.cols, r.fraction.fraction);
-  write_npy_float32(folder + "/ordered_fraction_unclipped.npy", grid.rows, grid.cols, r.fraction.raw);
-  write_npy_float32(folder + "/fraction_uncertainty.npy", grid.rows, grid.cols, r.fraction.uncertainty);
-  write_npy_float32(folder + "/pattern_quality.npy", grid.rows, grid.cols, r.fraction.band_contrast);
-  std::vector<int32_t> reason(r.fraction.reason.begin(), r.fraction.reason.end());
-  write_npy_int32(folder + "/fraction_reason.npy", grid.rows, grid.cols, reason);
-  write_npy_int32(folder + "/particle_labels.npy", grid.rows, grid.cols, r.segmentation.label);
+  std::vector<PointArray> all_arrays = orientation_arrays(r.orientations);
+  for (PointArray& a : fraction_arrays(r)) all_arrays.push_back(std::move(a));
+  write_point_arrays_npy(folder, grid.rows, grid.cols, fraction_arrays(r));
   write_png_rgb(folder + "/fraction_map.png", fraction_map_image(grid, r.fraction.fraction), text);
   write_png_rgb(folder + "/ordered_mask.png", mask_image(grid, r), text);
   if (r.mean_disordered && r.mean_ordered) {
@@ -448,36 +527,9 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   }
 
   // Tables.
-  {
-    std::ostringstream os;
-    os << "# " << provenance << "\n"
-       << "id,class,points,area_um2,ecd_um,centroid_x_um,centroid_y_um,aspect_ratio,major_axis_deg,mean_fraction,"
-          "host_grain,on_grain_boundary,touches_border,class_diameter_um\n";
-    for (const Particle2D& p : r.segmentation.particles) {
-      char b[400];
-      std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d,%.6f\n", p.id,
-                    p.size_class.c_str(), p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um,
-                    p.aspect_ratio, p.major_axis_deg, p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0,
-                    p.touches_border ? 1 : 0, p.class_diameter_um);
-      os << b;
-    }
-    write_text_atomically(folder + "/particles.csv", os.str());
-  }
-  {
-    std::ostringstream os;
-    os << "# " << provenance << "\n"
-       << "class,lower_ecd_um,upper_ecd_um,count,area_fraction,number_density_per_um2,mean_ecd_um,median_ecd_um,"
-          "lognormal_mu_ln_um,lognormal_sigma,counted\n";
-    for (const ClassStats& c : r.classes) {
-      char b[400];
-      std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f,%d\n", c.name.c_str(), c.lower_um,
-                    std::isfinite(c.upper_um) ? fmt("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
-                    c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma,
-                    c.counted ? 1 : 0);
-      os << b;
-    }
-    write_text_atomically(folder + "/classes.csv", os.str());
-  }
+  write_text_atomically(folder + "/particles.csv", particle_table_csv(r, provenance));
+  write_text_atomically(folder + "/classes.csv", class_table_csv(r, provenance));
+  write_text_atomically(folder + "/points.csv", point_table_csv(grid, r, provenance));
 
   // Summary.
   nlohmann::json j;
@@ -691,8 +743,20 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
                 "mean_sphere_disordered.png",
                 "mean_sphere_ordered.png",
                 "mean_sphere_difference.png",
-                "report.html"};
+                "report.html",
+                "points.csv",
+                "results.h5"};
+  for (const PointArray& a : all_arrays)
+    if (a.is_float()) j["files"].push_back(a.name + ".tif");
   write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
+
+  // The same for other tools: float TIFFs and one HDF5 file with every array, table and the summary.
+  write_point_arrays_tiff(folder, grid.rows, grid.cols, all_arrays);
+  write_results_h5(folder + "/results.h5", grid.rows, grid.cols, all_arrays,
+                   {{"particles", particle_table_csv(r, provenance)},
+                    {"classes", class_table_csv(r, provenance)},
+                    {"points", point_table_csv(grid, r, provenance)}},
+                   j.dump(2), provenance);
 
   // Plots.
   const std::vector<std::string> profile_charts = band_profile_charts(r, options.fraction);

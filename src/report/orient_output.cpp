@@ -28,6 +28,30 @@ RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& r
   return side_by_side(with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um), ipf_key(140));
 }
 
+std::vector<PointArray> orientation_arrays(const OrientationResults& r) {
+  std::vector<PointArray> a;
+  a.push_back({"point_status",
+               "",
+               "orientation stage per point: 0 ok, 1 unusable pattern, 2 too few bands, 3 fit failed, 4 missing in "
+               "the orientation file",
+               {},
+               std::vector<int32_t>(r.status.begin(), r.status.end())});
+  a.push_back({"grain_ids", "", "grain of the point (1, 2, ...; 0: none)", {}, r.grains.id});
+  a.push_back({"bands_matched",
+               "",
+               "bands matched by the found orientation (-1: not indexed)",
+               {},
+               std::vector<int32_t>(r.bands_matched.begin(), r.bands_matched.end())});
+  a.push_back({"fit_residual_deg", "deg", "indexing residual (NaN where not indexed)", r.fit_residual_deg, {}});
+  a.push_back({"model_correlation",
+               "1",
+               "correlation of the pattern with the model at the refined orientation",
+               r.correlation,
+               {}});
+  a.push_back({"kam_deg", "deg", "kernel average misorientation to the neighbours of the same grain", r.kam_deg, {}});
+  return a;
+}
+
 void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& r,
                                const OrientSpec& spec, const std::string& phase_name, const std::string& command_line) {
   std::error_code ec;
@@ -43,13 +67,7 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
     write_orientation_csv(os, grid, t, provenance);
     write_text_atomically(folder + "/orientations.csv", os.str());
   }
-  std::vector<int32_t> status(r.status.begin(), r.status.end()), bands(r.bands_matched.begin(), r.bands_matched.end());
-  write_npy_int32(folder + "/point_status.npy", grid.rows, grid.cols, status);
-  write_npy_int32(folder + "/grain_ids.npy", grid.rows, grid.cols, r.grains.id);
-  write_npy_int32(folder + "/bands_matched.npy", grid.rows, grid.cols, bands);
-  write_npy_float32(folder + "/fit_residual_deg.npy", grid.rows, grid.cols, r.fit_residual_deg);
-  write_npy_float32(folder + "/model_correlation.npy", grid.rows, grid.cols, r.correlation);
-  write_npy_float32(folder + "/kam_deg.npy", grid.rows, grid.cols, r.kam_deg);
+  write_point_arrays_npy(folder, grid.rows, grid.cols, orientation_arrays(r));
 
   const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
   write_png_rgb(folder + "/orientation_map.png", orientation_map_image(grid, r), text);

@@ -20,6 +20,8 @@ void write_png_gray(const std::string& path, const GrayImage& image);
 /// (tool version, parameters).
 void write_png_rgb(const std::string& path, const RgbImage& image,
                    const std::vector<std::pair<std::string, std::string>>& text = {});
+/// Writes a 32-bit float greyscale TIFF atomically (width × height values, row-major; NaN kept).
+void write_tiff_float32(const std::string& path, int width, int height, const std::vector<float>& values);
 /// Writes a 16-bit greyscale TIFF atomically (for tests and users' tools).
 void write_tiff_gray(const std::string& path, const GrayImage& image);
 

@@ -4,6 +4,7 @@
 #include <string>
 
 #include "orderband/orient.hpp"
+#include "orderband/results_file.hpp"
 
 namespace orderband {
 
@@ -15,6 +16,10 @@ namespace orderband {
 /// grain_map.png and orient_summary.json (counts, grains, parameters).
 void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& results,
                                const OrientSpec& spec, const std::string& phase_name, const std::string& command_line);
+
+/// The orientation stage's per-point arrays with units and descriptions (point_status, grain_ids,
+/// bands_matched, fit_residual_deg, model_correlation, kam_deg).
+std::vector<PointArray> orientation_arrays(const OrientationResults& results);
 
 /// The inverse-pole-figure map with its key and scale bar (white where no orientation).
 RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& results);
