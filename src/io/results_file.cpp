@@ -69,7 +69,8 @@ void write_map(hid_t group, int rows, int cols, const PointArray& a) {
   const hsize_t dims[2] = {static_cast<hsize_t>(rows), static_cast<hsize_t>(cols)};
   const H5Handle space(H5Screate_simple(2, dims, nullptr), H5Sclose, "a map space");
   const bool f = a.is_float();
-  const H5Handle set(H5Dcreate2(group, a.name.c_str(), f ? H5T_IEEE_F32LE : H5T_STD_I32LE, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
+  const H5Handle set(H5Dcreate2(group, a.name.c_str(), f ? H5T_IEEE_F32LE : H5T_STD_I32LE, space, H5P_DEFAULT,
+                                untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
                      H5Dclose, "dataset " + a.name);
   const herr_t status = f ? H5Dwrite(set, H5T_NATIVE_FLOAT, H5S_ALL, H5S_ALL, H5P_DEFAULT, a.f32.data())
                           : H5Dwrite(set, H5T_NATIVE_INT32, H5S_ALL, H5S_ALL, H5P_DEFAULT, a.i32.data());
@@ -112,15 +113,17 @@ void write_column(hid_t group, const std::string& name, const std::vector<std::s
   bool numeric = true;
   for (size_t i = 0; i < cells.size() && numeric; ++i) numeric = parse_number(cells[i], numbers[i]);
   if (numeric) {
-    const H5Handle set(H5Dcreate2(group, name.c_str(), H5T_IEEE_F64LE, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
-                       H5Dclose, "column " + name);
+    const H5Handle set(
+        H5Dcreate2(group, name.c_str(), H5T_IEEE_F64LE, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
+        H5Dclose, "column " + name);
     if (H5Dwrite(set, H5T_NATIVE_DOUBLE, H5S_ALL, H5S_ALL, H5P_DEFAULT, numbers.data()) < 0)
       fail("HDF5: cannot write column ", name);
     return;
   }
   const H5Handle type = utf8_string_type();
-  const H5Handle set(H5Dcreate2(group, name.c_str(), type, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT), H5Dclose,
-                     "column " + name);
+  const H5Handle set(
+      H5Dcreate2(group, name.c_str(), type, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT), H5Dclose,
+      "column " + name);
   std::vector<const char*> p;
   for (const std::string& c : cells) p.push_back(c.c_str());
   if (H5Dwrite(set, type, H5S_ALL, H5S_ALL, H5P_DEFAULT, p.data()) < 0) fail("HDF5: cannot write column ", name);
@@ -129,8 +132,8 @@ void write_column(hid_t group, const std::string& name, const std::vector<std::s
 void write_table(hid_t tables, const CsvTable& t) {
   const auto rows = csv_rows(t.csv);
   if (rows.empty()) fail("table ", t.name, " has no header");
-  const H5Handle group(H5Gcreate2(tables, t.name.c_str(), H5P_DEFAULT, untimed(H5P_GROUP_CREATE), H5P_DEFAULT), H5Gclose,
-                       "group " + t.name);
+  const H5Handle group(H5Gcreate2(tables, t.name.c_str(), H5P_DEFAULT, untimed(H5P_GROUP_CREATE), H5P_DEFAULT),
+                       H5Gclose, "group " + t.name);
   const std::vector<std::string>& header = rows[0];
   for (size_t c = 0; c < header.size(); ++c) {
     std::vector<std::string> cells;
@@ -165,13 +168,15 @@ void write_results_h5(const std::string& path, int rows, int cols, const std::ve
                       const std::string& provenance) {
   H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
   write_atomically(path, [&](const std::string& temp) {
-    const H5Handle file(H5Fcreate(temp.c_str(), H5F_ACC_TRUNC, untimed(H5P_FILE_CREATE), H5P_DEFAULT), H5Fclose, "'" + temp + "'");
+    const H5Handle file(H5Fcreate(temp.c_str(), H5F_ACC_TRUNC, untimed(H5P_FILE_CREATE), H5P_DEFAULT), H5Fclose,
+                        "'" + temp + "'");
     string_attribute(file, "tool", "orderband");
     string_attribute(file, "version_line", provenance);
     int_attribute(file, "rows", rows);
     int_attribute(file, "cols", cols);
     {
-      const H5Handle maps(H5Gcreate2(file, "maps", H5P_DEFAULT, untimed(H5P_GROUP_CREATE), H5P_DEFAULT), H5Gclose, "group maps");
+      const H5Handle maps(H5Gcreate2(file, "maps", H5P_DEFAULT, untimed(H5P_GROUP_CREATE), H5P_DEFAULT), H5Gclose,
+                          "group maps");
       for (const PointArray& a : arrays) {
         if ((a.is_float() ? a.f32.size() : a.i32.size()) != static_cast<size_t>(rows) * cols)
           fail("map ", a.name, " does not have ", rows, " x ", cols, " values");
@@ -186,8 +191,9 @@ void write_results_h5(const std::string& path, int rows, int cols, const std::ve
     {
       const H5Handle type = utf8_string_type();
       const H5Handle space(H5Screate(H5S_SCALAR), H5Sclose, "a scalar space");
-      const H5Handle set(H5Dcreate2(file, "summary_json", type, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
-                         H5Dclose, "dataset summary_json");
+      const H5Handle set(
+          H5Dcreate2(file, "summary_json", type, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
+          H5Dclose, "dataset summary_json");
       const char* p = summary_json.c_str();
       if (H5Dwrite(set, type, H5S_ALL, H5S_ALL, H5P_DEFAULT, &p) < 0) fail("HDF5: cannot write the summary");
     }

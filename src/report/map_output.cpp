@@ -495,57 +495,13 @@ std::string point_table_csv(const ScanGrid& grid, const MapResults& r, const std
   return os.str();
 }
 
-}  // namespace
+/// The charts the report shows inline (also written as SVG files).
+struct ReportFigures {
+  std::string profiles, diagnostics, histogram;
+};
 
-void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
-                       const MapOptions& options, const std::string& command_line) {
-  std::error_code ec;
-  fs::create_directories(folder, ec);
-  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
-  const ScanGrid& grid = config.grid;
-  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
-  const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
-
-  // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
-  write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
-
-  std::vector<PointArray> all_arrays = orientation_arrays(r.orientations);
-  for (PointArray& a : fraction_arrays(r)) all_arrays.push_back(std::move(a));
-  write_point_arrays_npy(folder, grid.rows, grid.cols, fraction_arrays(r));
-  write_png_rgb(folder + "/fraction_map.png", fraction_map_image(grid, r.fraction.fraction), text);
-  write_png_rgb(folder + "/ordered_mask.png", mask_image(grid, r), text);
-  if (r.mean_disordered && r.mean_ordered) {
-    write_png_rgb(folder + "/mean_sphere_disordered.png", stereographic_image(*r.mean_disordered, 360), text);
-    write_png_rgb(folder + "/mean_sphere_ordered.png", stereographic_image(*r.mean_ordered, 360), text);
-    SphereMap diff(r.mean_ordered->grid);
-    for (long p = 0; p < diff.grid.npix(); ++p) {
-      if (r.mean_ordered->weight[p] <= 0 || r.mean_disordered->weight[p] <= 0) continue;
-      diff.sum[p] = r.mean_ordered->value(p) - r.mean_disordered->value(p);
-      diff.weight[p] = 1;
-    }
-    write_png_rgb(folder + "/mean_sphere_difference.png", stereographic_image_signed(diff, 360), text);
-  }
-
-  // Tables.
-  write_text_atomically(folder + "/particles.csv", particle_table_csv(r, provenance));
-  write_text_atomically(folder + "/classes.csv", class_table_csv(r, provenance));
-  write_text_atomically(folder + "/points.csv", point_table_csv(grid, r, provenance));
-
-  // Summary.
-  nlohmann::json j;
-  j["tool"] = "orderband";
-  j["version"] = kVersion;
-  j["warnings"] = map_warnings(r);
-  // Faulty patterns (at most the first 100 listed; the count is whole).
-  j["faulty_patterns"] = r.orientations.pattern_faults.size();
-  nlohmann::json faulty = nlohmann::json::array();
-  for (const auto& [index, reason] : r.orientations.pattern_faults) {
-    if (faulty.size() >= 100) break;
-    faulty.push_back({{"index", index}, {"reason", reason}});
-  }
-  j["faulty_pattern_list"] = faulty;
-  j["command_line"] = command_line;
-  j["scan"] = config.path;
+/// FNV-1a hashes of the input files, as the summary records them.
+nlohmann::json input_hashes_json(const ScanConfig& config) {
   nlohmann::json hashes;
   hashes["scan_description"] = {{"file", config.path}, {"fnv1a64", file_hash_fnv1a64(config.path)}};
   hashes["patterns"] = {{"file", config.patterns.path},
@@ -558,8 +514,13 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
        {std::pair<const char*, const std::string&>{"ordered_mask", config.end_members.ordered_mask},
         {"disordered_mask", config.end_members.disordered_mask}})
     if (!file.empty()) hashes[key] = {{"file", file}, {"fnv1a64", file_hash_fnv1a64(file)}};
-  j["input_hashes"] = hashes;
-  const size_t n = grid.count();
+  return hashes;
+}
+
+/// The summary's counts, the area fraction with its intervals, the sub-resolution fraction, the
+/// pattern centre, the end members and the learned estimator's findings.
+void add_fraction_summary(nlohmann::json& j, const ScanConfig& config, const MapResults& r, const MapOptions& options) {
+  const size_t n = config.grid.count();
   j["points"] = n;
   j["points_measured"] = r.fraction.measured();
   j["points_unusable"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 1);
@@ -603,6 +564,10 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
         {"component_separation_dprime", r.fraction.learned_separation},
         {"second_component_delta_bic", r.fraction.learned_evidence},
         {"iterations", r.fraction.learned_iterations}};
+}
+
+/// The summary's grains, classes, 3-D sizes, truth, unfolding and families.
+void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const MapResults& r) {
   nlohmann::json grain_rows = nlohmann::json::array();
   for (size_t g = 0; g < r.fraction.grains.size(); ++g) {
     const GrainFraction& s = r.fraction.grains[g];
@@ -656,123 +621,139 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   j["grain_checks"] = {{"pseudo_symmetric_grains", r.orientations.pseudo_symmetric_grains},
                        {"pseudo_symmetric_points", r.orientations.pseudo_symmetric_points},
                        {"points_joined_to_grain", r.orientations.points_joined_to_grain}};
-  j["parameters"] = {
-      {"kv", config.kv},
-      {"phases", {{"ordered", r.ordered_phase}, {"disordered", r.disordered_phase}}},
-      {"preprocess",
-       {{"static_background", config.preprocess.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
-                              : config.preprocess.static_background == StaticBackgroundKind::none    ? "none"
-                                                                                                     : "file"},
-        {"static_background_sigma_px", config.preprocess.static_background_sigma_px},
-        {"dynamic_background_sigma_px", config.preprocess.dynamic_background_sigma_px},
-        {"neighbour_sigma_steps", config.preprocess.neighbour_sigma_steps},
-        {"hot_pixel_filter", config.preprocess.hot_pixel_filter}}},
-      {"orientation",
-       {{"source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
-        {"refine", config.orientations.refine},
-        {"grain_threshold_deg", options.orient.grains.threshold_deg},
-        {"grain_min_points", options.orient.grains.min_points},
-        {"grain_split_bimodal", options.orient.grains.split_bimodal},
-        {"candidates", options.orient.candidates},
-        {"pseudo_symmetry_samples", options.orient.pseudo_symmetry_samples},
-        {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},
-        {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
-      {"fraction",
-       {{"estimator", options.fraction.estimator == FractionEstimator::learned   ? "learned"
-                      : options.fraction.estimator == FractionEstimator::profile ? "profile"
-                                                                                 : "windows"},
-        {"sensitivity_threshold", options.fraction.sensitivity_threshold},
-        {"d_min_A", options.fraction.d_min_A},
-        {"profile_u_max", options.fraction.profile.u_max},
-        {"profile_bin_u", options.fraction.profile.bin_u},
-        {"window_interior_max", options.fraction.windows.interior_max},
-        {"window_flank_min", options.fraction.windows.flank_min},
-        {"window_flank_max", options.fraction.windows.flank_max},
-        {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
-        {"orientation_kernel_radius", options.fraction.orientation_kernel_radius},
-        {"refine_pattern_centre", options.fraction.refine_pattern_centre},
-        {"grain_reference_max_deg", rad_to_deg(options.fraction.grain_reference_max_rad)},
-        {"ordered_mask_points",
-         std::count(options.fraction.ordered_mask.begin(), options.fraction.ordered_mask.end(), 1)},
-        {"disordered_mask_points",
-         std::count(options.fraction.disordered_mask.begin(), options.fraction.disordered_mask.end(), 1)},
-        {"ordered_regions",
-         [&] {
-           nlohmann::json a = nlohmann::json::array();
-           for (const PointRect& q : options.fraction.ordered_regions) a.push_back({q.row0, q.col0, q.row1, q.col1});
-           return a;
-         }()},
-        {"disordered_regions",
-         [&] {
-           nlohmann::json a = nlohmann::json::array();
-           for (const PointRect& q : options.fraction.disordered_regions) a.push_back({q.row0, q.col0, q.row1, q.col1});
-           return a;
-         }()},
-        {"end_members", options.fraction.end_members == EndMemberMode::model     ? "model"
-                        : options.fraction.end_members == EndMemberMode::mixture ? "mixture"
-                                                                                 : "regions"}}},
-      {"particles",
-       {{"threshold_method", options.segment.method == ThresholdMethod::otsu ? "otsu" : "fixed"},
-        {"threshold", options.segment.threshold},
-        {"connectivity", grid.kind == GridKind::hexagonal ? 6 : options.segment.square_connectivity},
-        {"min_points", options.segment.min_points},
-        {"smooth", options.segment.smooth},
-        {"exclude_border", options.segment.exclude_border},
-        {"class_names", options.classes.names},
-        {"class_lower_um", options.classes.lower_um},
-        {"e562_tiles", options.e562_tiles},
-        {"bootstrap_block", options.bootstrap_block},
-        {"bootstrap_resamples", options.bootstrap_resamples}}}};
-  j["files"] = {"fraction_map.png",
-                "ordered_mask.png",
-                "orientation_map.png",
-                "grain_map.png",
-                "ordered_fraction.npy",
-                "ordered_fraction_unclipped.npy",
-                "fraction_uncertainty.npy",
-                "pattern_quality.npy",
-                "fraction_reason.npy",
-                "particle_labels.npy",
-                "grain_ids.npy",
-                "orientations.csv",
-                "particles.csv",
-                "classes.csv",
-                "band_profiles.svg",
-                "family_diagnostics.svg",
-                "size_histogram.svg",
-                "mean_sphere_disordered.png",
-                "mean_sphere_ordered.png",
-                "mean_sphere_difference.png",
-                "report.html",
-                "points.csv",
-                "results.h5"};
-  for (const PointArray& a : all_arrays)
-    if (a.is_float()) j["files"].push_back(a.name + ".tif");
-  write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
+}
 
-  // The same for other tools: float TIFFs and one HDF5 file with every array, table and the summary.
-  write_point_arrays_tiff(folder, grid.rows, grid.cols, all_arrays);
-  write_results_h5(folder + "/results.h5", grid.rows, grid.cols, all_arrays,
-                   {{"particles", particle_table_csv(r, provenance)},
-                    {"classes", class_table_csv(r, provenance)},
-                    {"points", point_table_csv(grid, r, provenance)}},
-                   j.dump(2), provenance);
+/// Every parameter of the run, as the summary records them.
+nlohmann::json parameters_json(const ScanConfig& config, const MapResults& r, const MapOptions& options) {
+  const ScanGrid& grid = config.grid;
+  return {{"kv", config.kv},
+          {"phases", {{"ordered", r.ordered_phase}, {"disordered", r.disordered_phase}}},
+          {"preprocess",
+           {{"static_background", config.preprocess.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
+                                  : config.preprocess.static_background == StaticBackgroundKind::none    ? "none"
+                                                                                                         : "file"},
+            {"static_background_sigma_px", config.preprocess.static_background_sigma_px},
+            {"dynamic_background_sigma_px", config.preprocess.dynamic_background_sigma_px},
+            {"neighbour_sigma_steps", config.preprocess.neighbour_sigma_steps},
+            {"hot_pixel_filter", config.preprocess.hot_pixel_filter}}},
+          {"orientation",
+           {{"source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
+            {"refine", config.orientations.refine},
+            {"grain_threshold_deg", options.orient.grains.threshold_deg},
+            {"grain_min_points", options.orient.grains.min_points},
+            {"grain_split_bimodal", options.orient.grains.split_bimodal},
+            {"candidates", options.orient.candidates},
+            {"pseudo_symmetry_samples", options.orient.pseudo_symmetry_samples},
+            {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},
+            {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
+          {"fraction",
+           {{"estimator", options.fraction.estimator == FractionEstimator::learned   ? "learned"
+                          : options.fraction.estimator == FractionEstimator::profile ? "profile"
+                                                                                     : "windows"},
+            {"sensitivity_threshold", options.fraction.sensitivity_threshold},
+            {"d_min_A", options.fraction.d_min_A},
+            {"profile_u_max", options.fraction.profile.u_max},
+            {"profile_bin_u", options.fraction.profile.bin_u},
+            {"window_interior_max", options.fraction.windows.interior_max},
+            {"window_flank_min", options.fraction.windows.flank_min},
+            {"window_flank_max", options.fraction.windows.flank_max},
+            {"orientation_uncertainty_deg", rad_to_deg(options.fraction.orientation_uncertainty_rad)},
+            {"orientation_kernel_radius", options.fraction.orientation_kernel_radius},
+            {"refine_pattern_centre", options.fraction.refine_pattern_centre},
+            {"grain_reference_max_deg", rad_to_deg(options.fraction.grain_reference_max_rad)},
+            {"ordered_mask_points",
+             std::count(options.fraction.ordered_mask.begin(), options.fraction.ordered_mask.end(), 1)},
+            {"disordered_mask_points",
+             std::count(options.fraction.disordered_mask.begin(), options.fraction.disordered_mask.end(), 1)},
+            {"ordered_regions",
+             [&] {
+               nlohmann::json a = nlohmann::json::array();
+               for (const PointRect& q : options.fraction.ordered_regions)
+                 a.push_back({q.row0, q.col0, q.row1, q.col1});
+               return a;
+             }()},
+            {"disordered_regions",
+             [&] {
+               nlohmann::json a = nlohmann::json::array();
+               for (const PointRect& q : options.fraction.disordered_regions)
+                 a.push_back({q.row0, q.col0, q.row1, q.col1});
+               return a;
+             }()},
+            {"end_members", options.fraction.end_members == EndMemberMode::model     ? "model"
+                            : options.fraction.end_members == EndMemberMode::mixture ? "mixture"
+                                                                                     : "regions"}}},
+          {"particles",
+           {{"threshold_method", options.segment.method == ThresholdMethod::otsu ? "otsu" : "fixed"},
+            {"threshold", options.segment.threshold},
+            {"connectivity", grid.kind == GridKind::hexagonal ? 6 : options.segment.square_connectivity},
+            {"min_points", options.segment.min_points},
+            {"smooth", options.segment.smooth},
+            {"exclude_border", options.segment.exclude_border},
+            {"class_names", options.classes.names},
+            {"class_lower_um", options.classes.lower_um},
+            {"e562_tiles", options.e562_tiles},
+            {"bootstrap_block", options.bootstrap_block},
+            {"bootstrap_resamples", options.bootstrap_resamples}}}};
+}
 
-  // Plots.
-  const std::vector<std::string> profile_charts = band_profile_charts(r, options.fraction);
-  const std::vector<std::string> diagnostic_charts = diagnostics_charts(r);
-  const std::string profiles = as_div(profile_charts), diagnostics = as_div(diagnostic_charts);
-  const std::string histogram = histogram_svg(r, options.classes);
-  write_text_atomically(folder + "/band_profiles.svg", svg_grid(profile_charts, 2, 430, 270));
-  write_text_atomically(folder + "/family_diagnostics.svg", svg_grid(diagnostic_charts, 1, 900, 270));
-  write_text_atomically(folder + "/size_histogram.svg", histogram);
+/// The files a run writes.
+nlohmann::json files_json(const std::vector<PointArray>& arrays) {
+  nlohmann::json files = {"fraction_map.png",
+                          "ordered_mask.png",
+                          "orientation_map.png",
+                          "grain_map.png",
+                          "ordered_fraction.npy",
+                          "ordered_fraction_unclipped.npy",
+                          "fraction_uncertainty.npy",
+                          "pattern_quality.npy",
+                          "fraction_reason.npy",
+                          "particle_labels.npy",
+                          "grain_ids.npy",
+                          "orientations.csv",
+                          "particles.csv",
+                          "classes.csv",
+                          "band_profiles.svg",
+                          "family_diagnostics.svg",
+                          "size_histogram.svg",
+                          "mean_sphere_disordered.png",
+                          "mean_sphere_ordered.png",
+                          "mean_sphere_difference.png",
+                          "report.html",
+                          "points.csv",
+                          "results.h5"};
+  for (const PointArray& a : arrays)
+    if (a.is_float()) files.push_back(a.name + ".tif");
+  return files;
+}
 
-  // Report: one self-contained page.
-  auto img = [&](const std::string& file, const std::string& alt) {
-    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," +
-           base64(read_text_file(folder + "/" + file, "image")) + "\">";
-  };
-  std::ostringstream h;
+/// The summary (summary.json).
+nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const MapOptions& options,
+                           const std::string& command_line, const std::vector<PointArray>& arrays) {
+  nlohmann::json j;
+  j["tool"] = "orderband";
+  j["version"] = kVersion;
+  j["warnings"] = map_warnings(r);
+  // Faulty patterns (at most the first 100 listed; the count is whole).
+  j["faulty_patterns"] = r.orientations.pattern_faults.size();
+  nlohmann::json faulty = nlohmann::json::array();
+  for (const auto& [index, reason] : r.orientations.pattern_faults) {
+    if (faulty.size() >= 100) break;
+    faulty.push_back({{"index", index}, {"reason", reason}});
+  }
+  j["faulty_pattern_list"] = faulty;
+  j["command_line"] = command_line;
+  j["scan"] = config.path;
+  j["input_hashes"] = input_hashes_json(config);
+  add_fraction_summary(j, config, r, options);
+  add_particle_summary(j, config, r);
+  j["parameters"] = parameters_json(config, r, options);
+  j["files"] = files_json(arrays);
+  return j;
+}
+
+/// The report page's head: style, title, the scan in one line, the warnings.
+void write_report_head(std::ostream& h, const ScanConfig& config, const MapResults& r) {
+  const ScanGrid& grid = config.grid;
   h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>orderband report: "
     << xml_escape(fs::path(config.path).parent_path().filename().string())
     << "</title>\n<style>"
@@ -788,6 +769,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   for (const std::string& w : map_warnings(r))
     h << "<p style=\"border:1px solid #c60;background:#fff4e5;padding:6px\"><b>Warning:</b> " << xml_escape(w)
       << "</p>\n";
+}
+
+/// The report's numbers: the area fraction with its intervals, the classes, the truth beside them.
+void write_report_results(std::ostream& h, const ScanConfig& config, const MapResults& r, const MapOptions& options,
+                          const nlohmann::json& truth) {
+  const size_t n = config.grid.count();
   h << "<table><tr><th>quantity</th><th>value</th></tr>"
     << "<tr><td>ordered area fraction</td><td>" << fmt("%.4f", r.ordered_area_fraction()) << "</td></tr>"
     << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << fmt("%.4f", r.e562.low) << " – "
@@ -802,6 +789,10 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   write_class_tables(h, r, config, options.classes);
   write_truth_table(h, truth, r);
+}
+
+/// The report's table of the largest grains (the orientation-bias check).
+void write_report_grains(std::ostream& h, const MapResults& r) {
   {
     // The largest grains: their matrix away from particles should agree (orientation bias check).
     std::vector<size_t> order;
@@ -825,6 +816,12 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
            "<code>grain_fractions</code>).</p>\n";
     }
   }
+}
+
+/// The report's maps and the figures that show why the tool concluded what it did.
+void write_report_figures(std::ostream& h, const MapResults& r, const ReportFigures& figures,
+                          const std::function<std::string(const std::string&, const std::string&)>& img) {
+  const std::string &profiles = figures.profiles, &diagnostics = figures.diagnostics, &histogram = figures.histogram;
   h << "<h2>Maps</h2>\n<figure>" << img("fraction_map.png", "ordered fraction map")
     << "<figcaption>Ordered fraction f per point (0: disordered, 1: ordered), with colour bar and scale bar; grey: no "
        "measurement.</figcaption></figure>\n";
@@ -860,6 +857,11 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
          "as disordered (f &lt; 0.2) and ordered (f &gt; 0.8), and their difference (red: brighter in the ordered "
          "phase).</figcaption></figure>\n";
   }
+}
+
+/// The report's end: the geometry of the references, provenance, cautions.
+void write_report_footer(std::ostream& h, const ScanConfig& config, const MapResults& r,
+                         const std::string& provenance) {
   {
     const FractionResults& f = r.fraction;
     h << "<p>Detector geometry of the references: pattern centre (" << fmt("%.2f", f.geometry.pc_px.x()) << ", "
@@ -885,7 +887,88 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
        "{if(im[i].complete&&im[i].naturalWidth>0)ok++;}document.body.setAttribute('data-images-loaded',ok+'/"
        "'+im.length);"
        "});</script>\n</body></html>\n";
+}
+
+/// The map pictures: fraction map, ordered mask, and the mean spheres with their difference.
+void write_map_images(const std::string& folder, const ScanGrid& grid, const MapResults& r,
+                      const std::vector<std::pair<std::string, std::string>>& text) {
+  write_png_rgb(folder + "/fraction_map.png", fraction_map_image(grid, r.fraction.fraction), text);
+  write_png_rgb(folder + "/ordered_mask.png", mask_image(grid, r), text);
+  if (r.mean_disordered && r.mean_ordered) {
+    write_png_rgb(folder + "/mean_sphere_disordered.png", stereographic_image(*r.mean_disordered, 360), text);
+    write_png_rgb(folder + "/mean_sphere_ordered.png", stereographic_image(*r.mean_ordered, 360), text);
+    SphereMap diff(r.mean_ordered->grid);
+    for (long p = 0; p < diff.grid.npix(); ++p) {
+      if (r.mean_ordered->weight[p] <= 0 || r.mean_disordered->weight[p] <= 0) continue;
+      diff.sum[p] = r.mean_ordered->value(p) - r.mean_disordered->value(p);
+      diff.weight[p] = 1;
+    }
+    write_png_rgb(folder + "/mean_sphere_difference.png", stereographic_image_signed(diff, 360), text);
+  }
+}
+
+/// The report: one self-contained page (images inlined) that reads from the results to the reasons.
+void write_report_page(const std::string& folder, const ScanConfig& config, const MapResults& r,
+                       const MapOptions& options, const ReportFigures& figures, const std::string& provenance) {
+  auto img = [&](const std::string& file, const std::string& alt) {
+    return "<img alt=\"" + xml_escape(alt) + "\" src=\"data:image/png;base64," +
+           base64(read_text_file(folder + "/" + file, "image")) + "\">";
+  };
+  std::ostringstream h;
+  write_report_head(h, config, r);
+  write_report_results(h, config, r, options, truth_beside(config, r));
+  write_report_grains(h, r);
+  write_report_figures(h, r, figures, img);
+  write_report_footer(h, config, r, provenance);
   write_text_atomically(folder + "/report.html", h.str());
+}
+
+}  // namespace
+
+void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
+                       const MapOptions& options, const std::string& command_line) {
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const ScanGrid& grid = config.grid;
+  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
+  const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
+
+  // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
+  write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
+
+  const std::vector<PointArray> fraction_maps = fraction_arrays(r);
+  write_point_arrays_npy(folder, grid.rows, grid.cols, fraction_maps);
+  std::vector<PointArray> all_arrays = orientation_arrays(r.orientations);
+  all_arrays.insert(all_arrays.end(), fraction_maps.begin(), fraction_maps.end());
+  write_map_images(folder, grid, r, text);
+
+  // Tables.
+  write_text_atomically(folder + "/particles.csv", particle_table_csv(r, provenance));
+  write_text_atomically(folder + "/classes.csv", class_table_csv(r, provenance));
+  write_text_atomically(folder + "/points.csv", point_table_csv(grid, r, provenance));
+
+  // Summary.
+  const nlohmann::json j = map_summary(config, r, options, command_line, all_arrays);
+  write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
+
+  // The same for other tools: float TIFFs and one HDF5 file with every array, table and the summary.
+  write_point_arrays_tiff(folder, grid.rows, grid.cols, all_arrays);
+  write_results_h5(folder + "/results.h5", grid.rows, grid.cols, all_arrays,
+                   {{"particles", particle_table_csv(r, provenance)},
+                    {"classes", class_table_csv(r, provenance)},
+                    {"points", point_table_csv(grid, r, provenance)}},
+                   j.dump(2), provenance);
+
+  // Plots.
+  const std::vector<std::string> profile_charts = band_profile_charts(r, options.fraction);
+  const std::vector<std::string> diagnostic_charts = diagnostics_charts(r);
+  const ReportFigures figures{as_div(profile_charts), as_div(diagnostic_charts), histogram_svg(r, options.classes)};
+  write_text_atomically(folder + "/band_profiles.svg", svg_grid(profile_charts, 2, 430, 270));
+  write_text_atomically(folder + "/family_diagnostics.svg", svg_grid(diagnostic_charts, 1, 900, 270));
+  write_text_atomically(folder + "/size_histogram.svg", figures.histogram);
+
+  write_report_page(folder, config, r, options, figures, provenance);
 }
 
 }  // namespace orderband

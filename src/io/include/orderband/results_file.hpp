@@ -9,10 +9,10 @@ namespace orderband {
 
 /// One per-point array of a map, row-major over the scan's rows × cols.
 struct PointArray {
-  std::string name;         ///< file stem and dataset name, e.g. "ordered_fraction"
-  std::string unit;         ///< e.g. "1" (a fraction), "deg", "" (labels and codes)
-  std::string description;  ///< one line for a reader of the file
-  std::vector<float> f32;   ///< the values of a float array …
+  std::string name;          ///< file stem and dataset name, e.g. "ordered_fraction"
+  std::string unit;          ///< e.g. "1" (a fraction), "deg", "" (labels and codes)
+  std::string description;   ///< one line for a reader of the file
+  std::vector<float> f32;    ///< the values of a float array …
   std::vector<int32_t> i32;  ///< … or of an integer one (exactly one of the two is filled)
   bool is_float() const { return i32.empty(); }
 };
