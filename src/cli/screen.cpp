@@ -200,16 +200,15 @@ std::vector<Ranked> rank_truth(const std::vector<std::optional<TrialNumbers>>& t
   return rank_trials(exact, target);
 }
 
-}  // namespace
-
-ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
+/// Maps every trial it can (reusing a trial whose inputs and options are unchanged); a failed trial
+/// is logged and left out. The trials description comes back with the mapped trials only.
+TrialsConfig map_trials(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet,
+                        ScreenOutcome& outcome, std::vector<nlohmann::json>& summaries) {
   TrialsConfig tc = read_trials_config(trials_path);
   std::error_code ec;
   fs::create_directories(out, ec);
   if (ec) fail("cannot create output folder '", out, "': ", ec.message());
-  ScreenOutcome outcome;
   std::ostringstream log;
-  std::vector<nlohmann::json> summaries;
   std::vector<Trial> mapped;  // the trials whose map succeeded; a failed one is reported and skipped
   for (const Trial& t : tc.trials) {
     try {
@@ -241,19 +240,40 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   write_text_atomically(out + "/screen_log.txt", log.str());
   if (mapped.empty()) fail("every trial failed (see ", out, "/screen_log.txt)");
   tc.trials = mapped;  // the comparison covers the trials that were mapped
+  return tc;
+}
 
-  // Numbers per trial.
+/// A screen's mapped trials with everything compared: numbers, kinetics, ranking, truth.
+struct ScreenData {
+  TrialsConfig tc;
+  std::vector<nlohmann::json> summaries;
   std::vector<TrialNumbers> numbers;
-  std::vector<double> radius_3d;  // per trial: half the fitted 3-D mean diameter (0: not determined)
-  for (const auto& s : summaries) numbers.push_back(trial_numbers(s, radius_3d));
-  const Kinetics kin = fit_kinetics(tc, summaries, radius_3d);
-  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = kin;
-  const std::vector<Ranked> ranking = rank_trials(numbers, tc.target);
+  std::vector<double> radius_3d;  ///< per trial: half the fitted 3-D mean diameter (0: not determined)
+  Kinetics kin;
+  std::vector<Ranked> ranking;
   std::vector<std::optional<TrialNumbers>> truth;
-  for (const auto& s : summaries) truth.push_back(truth_numbers(s));
-  const std::vector<Ranked> truth_ranking = rank_truth(truth, tc.target);
+  std::vector<Ranked> truth_ranking;
+};
 
-  // Comparison table.
+ScreenData compare_trials(TrialsConfig tc, std::vector<nlohmann::json> summaries) {
+  ScreenData d{std::move(tc), std::move(summaries), {}, {}, {}, {}, {}, {}};
+  for (const auto& s : d.summaries) d.numbers.push_back(trial_numbers(s, d.radius_3d));
+  d.kin = fit_kinetics(d.tc, d.summaries, d.radius_3d);
+  d.ranking = rank_trials(d.numbers, d.tc.target);
+  for (const auto& s : d.summaries) d.truth.push_back(truth_numbers(s));
+  d.truth_ranking = rank_truth(d.truth, d.tc.target);
+  return d;
+}
+
+/// comparison.csv and comparison.json.
+void write_comparison(const std::string& out, const ScreenData& d, const ScreenOutcome& outcome) {
+  const TrialsConfig& tc = d.tc;
+  const std::vector<nlohmann::json>& summaries = d.summaries;
+  const std::vector<TrialNumbers>& numbers = d.numbers;
+  const std::vector<Ranked>& ranking = d.ranking;
+  const auto& truth = d.truth;
+  const auto& truth_ranking = d.truth_ranking;
+  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = d.kin;
   std::ostringstream csv;
   csv << "# orderband " << kVersion << ": " << command_line() << "\n"
       << "label,temperature_c,time_h,ordered_area_fraction,ci95_low,ci95_high,subresolution_ordered_fraction,"
@@ -321,8 +341,17 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   for (const auto& [label, error] : outcome.failed) failed.push_back({{"label", label}, {"error", error}});
   j["failed_trials"] = failed;
   write_text_atomically(out + "/comparison.json", j.dump(2) + "\n");
+}
 
-  // Plots.
+/// The screen's charts, rendered (also written as SVG files).
+struct ScreenPlots {
+  std::string fraction, classes, sizes, coarsening;
+};
+
+ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
+  const TrialsConfig& tc = d.tc;
+  const std::vector<nlohmann::json>& summaries = d.summaries;
+  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = d.kin;
   const char* colours[] = {"#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#8c564b"};
   SvgPlot frac(560, 320, "ordered area fraction vs ageing time (95 % CI)", "ageing time (h)", "ordered area fraction");
   int ci = 0;
@@ -397,7 +426,18 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
   write_text_atomically(out + "/size_distributions.svg", sizes.render());
   write_text_atomically(out + "/coarsening.svg", power.render());
 
-  // Report.
+  return {frac.render(), bars.render(), sizes.render(), power.render()};
+}
+
+/// The screen's report page: failures, the ranking, the truth beside it, the kinetics, the charts.
+void write_screen_report(const std::string& out, const ScreenData& d, const ScreenOutcome& outcome,
+                         const ScreenPlots& plots) {
+  const TrialsConfig& tc = d.tc;
+  const std::vector<TrialNumbers>& numbers = d.numbers;
+  const std::vector<Ranked>& ranking = d.ranking;
+  const auto& truth = d.truth;
+  const auto& truth_ranking = d.truth_ranking;
+  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = d.kin;
   std::ostringstream h;
   h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>" << xml_escape(tc.title)
     << "</title><style>body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
@@ -453,13 +493,25 @@ ScreenOutcome run_screen(const std::string& trials_path, const std::string& out,
        "carries the 1/T prefactor and the solubility terms).</p>\n";
   if (!arrhenius.is_null())
     h << "<p>Arrhenius: Q = " << fmt("%.4g", arrhenius["activation_energy_kj_mol"].get<double>()) << " kJ/mol.</p>";
-  h << "<div class=\"plots\">" << frac.render() << bars.render() << sizes.render() << power.render() << "</div>\n";
+  h << "<div class=\"plots\">" << plots.fraction << plots.classes << plots.sizes << plots.coarsening << "</div>\n";
   h << "<p>Tables: <code>comparison.csv</code>, <code>comparison.json</code>. Each trial's own report is linked in the "
        "ranking.</p><p class=\"caution\">Results are for research and screening. Qualification of safety-critical "
        "parts "
        "follows the applicable material specifications, accredited testing and licensed "
        "practice.</p>\n</body></html>\n";
   write_text_atomically(out + "/report.html", h.str());
+}
+
+}  // namespace
+
+ScreenOutcome run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet) {
+  ScreenOutcome outcome;
+  std::vector<nlohmann::json> summaries;
+  TrialsConfig tc = map_trials(trials_path, out, run, quiet, outcome, summaries);
+  const ScreenData d = compare_trials(std::move(tc), std::move(summaries));
+  write_comparison(out, d, outcome);
+  const ScreenPlots plots = write_screen_plots(out, d);
+  write_screen_report(out, d, outcome, plots);
   outcome.report = out + "/report.html";
   return outcome;
 }
