@@ -25,23 +25,8 @@ double within(const std::string& path, const char* table, const char* key, doubl
   return v;
 }
 
-}  // namespace
-
-ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
-  const toml::table root = parse_toml_or_fail(text, path);
-  TomlReader r(root, path);
-  for (const auto& [k, v] : root) {
-    static const std::set<std::string> tables{"scan",         "patterns",   "geometry", "microscope", "phases",
-                                              "orientations", "preprocess", "fraction", "output"};
-    if (!tables.count(std::string(k.str())))
-      fail(path, ": unknown table [", k.str(),
-           "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, fraction, output)");
-  }
-  ScanConfig c;
-  c.path = fs::absolute(path).lexically_normal().string();
-  c.folder = r.folder();
-
-  // [scan]
+/// [scan]: the grid and the beam.
+void read_scan_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* scan = r.table("scan", true);
   r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um", "beam_sigma_nm", "beam_elongation"});
   const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
@@ -64,8 +49,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   c.beam.elongation = r.get<double>(scan, "scan", "beam_elongation");
   if (c.beam.elongation && !(*c.beam.elongation >= 1 && *c.beam.elongation <= 20))
     fail(path, ": [scan] beam_elongation must be within [1, 20], got ", *c.beam.elongation);
+}
 
-  // [patterns]
+/// [patterns]: where the patterns are and how they are stored.
+void read_patterns_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* pat = r.table("patterns", true);
   r.check_keys(pat, "patterns",
                {"format", "file", "sample_type", "header_bytes", "trailer_bytes", "width_px", "height_px", "dataset",
@@ -105,8 +92,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   c.patterns.name_pattern = r.get<std::string>(pat, "patterns", "name_pattern").value_or("");
   if (c.patterns.format == PatternFormat::images && c.patterns.name_pattern.empty())
     fail(path, ": [patterns] an image folder needs 'name_pattern', e.g. \"p_{row:03}_{col:03}.png\"");
+}
 
-  // [geometry]
+/// [geometry]: the detector geometry.
+void read_geometry_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* geo = r.table("geometry", true);
   r.check_keys(geo, "geometry",
                {"pc_px", "distance_px", "sample_tilt_deg", "detector_tilt_deg", "binning", "screen_pixel_um"});
@@ -126,14 +115,18 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   if (auto px = r.get<double>(geo, "geometry", "screen_pixel_um")) c.geometry.screen_pixel_um = *px;
   c.geometry.width_px = c.patterns.width_px;
   c.geometry.height_px = c.patterns.height_px;
+}
 
-  // [microscope]
+/// [microscope]: the voltage.
+void read_microscope_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* mic = r.table("microscope", false);
   r.check_keys(mic, "microscope", {"kv"});
   c.kv = r.get<double>(mic, "microscope", "kv").value_or(20.0);
   within(path, "microscope", "kv", c.kv, 1, 1000, "kV");
+}
 
-  // [phases]
+/// [phases]: the phase pair: a named pair or two CIF files.
+void read_phases_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* ph = r.table("phases", false);
   r.check_keys(ph, "phases", {"pair", "ordered", "disordered"});
   c.phases.pair_name = r.get<std::string>(ph, "phases", "pair").value_or("");
@@ -148,8 +141,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   } else if (c.phases.pair_name.empty()) {
     c.phases.pair_name = "ni";
   }
+}
 
-  // [orientations]
+/// [orientations]: found, or read from a file.
+void read_orientations_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* ori = r.table("orientations", false);
   r.check_keys(ori, "orientations", {"source", "file", "refine"});
   const std::string source = r.get<std::string>(ori, "orientations", "source").value_or("find");
@@ -163,8 +158,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   if (c.orientations.source == OrientationSourceKind::file && c.orientations.file.empty())
     fail(path, ": [orientations] source = \"file\" needs 'file' (a CSV of orientations)");
   c.orientations.refine = r.get<bool>(ori, "orientations", "refine").value_or(true);
+}
 
-  // [preprocess]
+/// [preprocess]: backgrounds, mask, hot pixels, neighbour averaging.
+void read_preprocess_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* pre = r.table("preprocess", false);
   r.check_keys(pre, "preprocess",
                {"static_background", "static_background_sigma_px", "dynamic_background_sigma_px", "mask",
@@ -207,9 +204,10 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
   within(path, "preprocess", "hot_pixel_threshold", p.hot_pixel_threshold, 1e-3, 1e6, "MADs");
   p.neighbour_sigma_steps = r.get<double>(pre, "preprocess", "neighbour_sigma_steps").value_or(0.0);
   within(path, "preprocess", "neighbour_sigma_steps", p.neighbour_sigma_steps, 0, 100, "steps");
+}
 
-  // [output]
-  // [fraction]
+/// [fraction]: how the end members are fixed (model, mixture, reference regions or masks).
+void read_fraction_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* fr = r.table("fraction", false);
   r.check_keys(fr, "fraction",
                {"end_members", "ordered_regions", "disordered_regions", "ordered_mask", "disordered_mask",
@@ -253,7 +251,30 @@ ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
     fail(path,
          ": [fraction] end_members = \"regions\" needs ordered_regions or ordered_mask, and disordered_regions or "
          "disordered_mask");
+}
+}  // namespace
 
+ScanConfig parse_scan_config(const std::string& text, const std::string& path) {
+  const toml::table root = parse_toml_or_fail(text, path);
+  TomlReader r(root, path);
+  for (const auto& [k, v] : root) {
+    static const std::set<std::string> tables{"scan",         "patterns",   "geometry", "microscope", "phases",
+                                              "orientations", "preprocess", "fraction", "output"};
+    if (!tables.count(std::string(k.str())))
+      fail(path, ": unknown table [", k.str(),
+           "] (known: scan, patterns, geometry, microscope, phases, orientations, preprocess, fraction, output)");
+  }
+  ScanConfig c;
+  c.path = fs::absolute(path).lexically_normal().string();
+  c.folder = r.folder();
+  read_scan_table(r, path, c);
+  read_patterns_table(r, path, c);
+  read_geometry_table(r, path, c);
+  read_microscope_table(r, path, c);
+  read_phases_table(r, path, c);
+  read_orientations_table(r, path, c);
+  read_preprocess_table(r, path, c);
+  read_fraction_table(r, path, c);
   const toml::table* out = r.table("output", false);
   r.check_keys(out, "output", {"folder"});
   c.output_folder = r.resolve(r.get<std::string>(out, "output", "folder").value_or("orderband-out"));
