@@ -272,22 +272,10 @@ nlohmann::json variant_json(const SynthScenario& s) {
   return j;
 }
 
-}  // namespace
-
-void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
-                          const SynthProgress& progress) {
-  std::error_code ec;
-  fs::create_directories(folder, ec);
-  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
-  const std::string dir = fs::absolute(folder).lexically_normal().string();
-
-  const OrderingPair pair = load_phases(s.phases);
-  const SyntheticScan scan_render(s, pair);
-  const DetectorGeometry& geometry = scan_render.geometry();
-  const Microstructure& micro = scan_render.microstructure();
+/// patterns.raw: the scan's patterns, rendered row by row and written as they come.
+std::string write_patterns(const SynthScenario& s, const SyntheticScan& scan_render, const std::string& dir,
+                           const SynthProgress& progress) {
   const size_t px = scan_render.pixels();
-
-  // Patterns, row by row.
   const std::string patterns_path = dir + "/patterns.raw";
   write_atomically(patterns_path, [&](const std::string& temp) {
     std::ofstream out(temp, std::ios::binary);
@@ -306,42 +294,47 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
     }
     finish_writing(out, patterns_path);
   });
+  return patterns_path;
+}
 
-  const SynthTruth truth = scan_render.truth();
-  write_npy_float32(dir + "/truth_fraction.npy", s.grid.rows, s.grid.cols, truth.ordered_fraction);
-  write_npy_int32(dir + "/truth_grains.npy", s.grid.rows, s.grid.cols, truth.grain);
-  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
-  {
-    OrientationTable t;
-    for (size_t k = 0; k < s.grid.count(); ++k) {
-      t.orientations.emplace_back(truth.orientation[k]);
-      t.phases.push_back(truth.ordered_at_centre[k] ? pair.ordered.name : pair.disordered.name);
-    }
-    std::ostringstream os;
-    write_orientation_csv(os, s.grid, t, provenance);
-    write_text_atomically(dir + "/truth_orientations.csv", os.str());
+/// truth_orientations.csv: every point's lattice orientation and the phase at its centre.
+void write_truth_orientations(const SynthScenario& s, const SynthTruth& truth, const OrderingPair& pair,
+                              const std::string& dir, const std::string& provenance) {
+  OrientationTable t;
+  for (size_t k = 0; k < s.grid.count(); ++k) {
+    t.orientations.emplace_back(truth.orientation[k]);
+    t.phases.push_back(truth.ordered_at_centre[k] ? pair.ordered.name : pair.disordered.name);
   }
-  {
-    std::ostringstream os;
-    os << "# " << provenance << "\n"
-       << "id,class,shape,x_um,y_um,z_um,diameter_3d_um,section_ecd_um,host_grain,own_orientation,phi1_deg,Phi_deg,"
-          "phi2_deg,in_field\n";
-    const double dx = s.grid.step_um, dy = s.grid.row_spacing_um();
-    char buf[400];
-    for (const Particle& q : micro.particles()) {
-      const Eigen::Vector3d e = q.orientation.bunge();
-      const bool in_field = q.centre_um.x() >= -0.5 * dx && q.centre_um.x() < s.grid.field_width_um() - 0.5 * dx &&
-                            q.centre_um.y() >= -0.5 * dy && q.centre_um.y() < s.grid.field_height_um() - 0.5 * dy;
-      std::snprintf(buf, sizeof buf, "%d,%s,%s,%.6f,%.6f,%.6f,%.6f,%.6f,%d,%d,%.6f,%.6f,%.6f,%d\n", q.id,
-                    particle_class_name(q.cls), q.shape == ParticleShape::sphere ? "sphere" : "cuboid", q.centre_um.x(),
-                    q.centre_um.y(), q.centre_um.z(), q.diameter_um, q.section_ecd_um(), q.host_grain,
-                    q.own_orientation ? 1 : 0, rad_to_deg(e[0]), rad_to_deg(e[1]), rad_to_deg(e[2]), in_field ? 1 : 0);
-      os << buf;
-    }
-    write_text_atomically(dir + "/truth_particles.csv", os.str());
-  }
+  std::ostringstream os;
+  write_orientation_csv(os, s.grid, t, provenance);
+  write_text_atomically(dir + "/truth_orientations.csv", os.str());
+}
 
-  // The scan description a user's scan would have.
+/// truth_particles.csv: every particle of the microstructure with its section in the field.
+void write_truth_particles(const SynthScenario& s, const Microstructure& micro, const std::string& dir,
+                           const std::string& provenance) {
+  std::ostringstream os;
+  os << "# " << provenance << "\n"
+     << "id,class,shape,x_um,y_um,z_um,diameter_3d_um,section_ecd_um,host_grain,own_orientation,phi1_deg,Phi_deg,"
+        "phi2_deg,in_field\n";
+  const double dx = s.grid.step_um, dy = s.grid.row_spacing_um();
+  char buf[400];
+  for (const Particle& q : micro.particles()) {
+    const Eigen::Vector3d e = q.orientation.bunge();
+    const bool in_field = q.centre_um.x() >= -0.5 * dx && q.centre_um.x() < s.grid.field_width_um() - 0.5 * dx &&
+                          q.centre_um.y() >= -0.5 * dy && q.centre_um.y() < s.grid.field_height_um() - 0.5 * dy;
+    std::snprintf(buf, sizeof buf, "%d,%s,%s,%.6f,%.6f,%.6f,%.6f,%.6f,%d,%d,%.6f,%.6f,%.6f,%d\n", q.id,
+                  particle_class_name(q.cls), q.shape == ParticleShape::sphere ? "sphere" : "cuboid", q.centre_um.x(),
+                  q.centre_um.y(), q.centre_um.z(), q.diameter_um, q.section_ecd_um(), q.host_grain,
+                  q.own_orientation ? 1 : 0, rad_to_deg(e[0]), rad_to_deg(e[1]), rad_to_deg(e[2]), in_field ? 1 : 0);
+    os << buf;
+  }
+  write_text_atomically(dir + "/truth_particles.csv", os.str());
+}
+
+/// scan.toml: the scan description a user's scan would have.
+void write_scan_description(const SynthScenario& s, const DetectorGeometry& geometry, const std::string& dir,
+                            const std::string& patterns_path, const std::string& provenance) {
   ScanConfig scan;
   scan.grid = s.grid;
   scan.patterns.format = PatternFormat::raw;
@@ -367,7 +360,11 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
                           "\nkinematic band model, not a dynamical simulation; truth in truth.json");
     write_text_atomically(dir + "/scan.toml", os.str());
   }
+}
 
+/// truth.json: the scenario, the renderer variant and the true fractions and classes.
+void write_truth_json(const SynthScenario& s, const SynthTruth& truth, const OrderingPair& pair,
+                      const DetectorGeometry& geometry, const std::string& dir, const std::string& command_line) {
   nlohmann::json j;
   j["tool"] = "orderband";
   j["version"] = kVersion;
@@ -419,6 +416,30 @@ void write_synthetic_scan(const SynthScenario& s, const std::string& folder, con
                 {"orientations", "truth_orientations.csv"},
                 {"particles", "truth_particles.csv"}};
   write_text_atomically(dir + "/truth.json", j.dump(2) + "\n");
+}
+}  // namespace
+
+void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
+                          const SynthProgress& progress) {
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  const std::string dir = fs::absolute(folder).lexically_normal().string();
+
+  const OrderingPair pair = load_phases(s.phases);
+  const SyntheticScan scan_render(s, pair);
+  const DetectorGeometry& geometry = scan_render.geometry();
+  const Microstructure& micro = scan_render.microstructure();
+
+  const std::string patterns_path = write_patterns(s, scan_render, dir, progress);
+  const SynthTruth truth = scan_render.truth();
+  write_npy_float32(dir + "/truth_fraction.npy", s.grid.rows, s.grid.cols, truth.ordered_fraction);
+  write_npy_int32(dir + "/truth_grains.npy", s.grid.rows, s.grid.cols, truth.grain);
+  const std::string provenance = std::string("orderband ") + kVersion + ": " + command_line;
+  write_truth_orientations(s, truth, pair, dir, provenance);
+  write_truth_particles(s, micro, dir, provenance);
+  write_scan_description(s, geometry, dir, patterns_path, provenance);
+  write_truth_json(s, truth, pair, geometry, dir, command_line);
 }
 
 }  // namespace orderband
