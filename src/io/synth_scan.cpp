@@ -104,21 +104,8 @@ void read_renderer_variant(TomlReader& r, const toml::table* t, BandModelParams&
     fail(path, ": [renderer] pc_error_px components must be within 10 px");
 }
 
-}  // namespace
-
-SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
-  const toml::table root = parse_toml_or_fail(text, path);
-  TomlReader r(root, path);
-  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases",   "patterns",
-                                            "grains",   "primary", "secondary", "tertiary",   "renderer", "output"};
-  for (const auto& [k, v] : root)
-    if (!tables.count(std::string(k.str())))
-      fail(path, ": unknown table [", k.str(),
-           "] (known: scenario, scan, detector, microscope, phases, patterns, grains, primary, secondary, tertiary, "
-           "renderer, output)");
-  SynthScenario s;
-  s.path = fs::absolute(path).lexically_normal().string();
-
+/// [scenario] and [scan]: name, seed, the grid.
+void read_scenario_and_grid(TomlReader& r, const std::string& path, SynthScenario& s) {
   const toml::table* sc = r.table("scenario", false);
   r.check_keys(sc, "scenario", {"name", "description", "seed"});
   s.name = r.get<std::string>(sc, "scenario", "name").value_or(fs::path(path).stem().string());
@@ -138,7 +125,10 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   s.grid.step_um = r.require<double>(scan, "scan", "step_um");
   if (s.grid.rows <= 0 || s.grid.cols <= 0) fail(path, ": [scan] rows and cols must be positive");
   if (!(s.grid.step_um > 0)) fail(path, ": [scan] step_um must be a positive step in µm, got ", s.grid.step_um);
+}
 
+/// [detector]: the geometry the patterns are rendered with.
+void read_detector(TomlReader& r, const std::string& path, SynthScenario& s) {
   const toml::table* det = r.table("detector", true);
   r.check_keys(det, "detector",
                {"width_px", "height_px", "pc_px", "distance_px", "sample_tilt_deg", "detector_tilt_deg", "binning",
@@ -158,7 +148,10 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   if (s.pc_drift && !s.geometry.screen_pixel_um)
     fail(path, ": [detector] pc_drift = true needs screen_pixel_um (the unbinned screen pixel size in µm)");
   DetectorGeometry check(s.geometry);  // validates ranges
+}
 
+/// [microscope] and [phases]: the voltage and the phase pair.
+void read_voltage_and_phases(TomlReader& r, const std::string& path, SynthScenario& s) {
   const toml::table* mic = r.table("microscope", false);
   r.check_keys(mic, "microscope", {"kv"});
   s.kv = r.get<double>(mic, "microscope", "kv").value_or(20.0);
@@ -177,7 +170,10 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   } else if (s.phases.pair_name.empty()) {
     s.phases.pair_name = "ni";
   }
+}
 
+/// [patterns]: counts, sample type and the band model's parameters.
+void read_pattern_model(TomlReader& r, const std::string& path, SynthScenario& s) {
   const toml::table* pat = r.table("patterns", false);
   r.check_keys(pat, "patterns",
                {"sample_type", "counts_per_px", "band_amplitude", "band_exponent", "edge_contrast", "edge_width",
@@ -207,9 +203,10 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   s.background_falloff = r.get<double>(pat, "patterns", "background_falloff").value_or(0.5);
   if (!(s.background_falloff >= 0 && s.background_falloff < 1))
     fail(path, ": [patterns] background_falloff must be within [0, 1)");
+}
 
-  read_renderer_variant(r, r.table("renderer", false), s.band, s.variant);
-
+/// [grains], [primary], [secondary], [tertiary]: the microstructure.
+void read_microstructure(TomlReader& r, const std::string& path, SynthScenario& s) {
   MicrostructureSpec& m = s.micro;
   m.width_um = s.grid.field_width_um();
   m.height_um = s.grid.field_height_um();
@@ -237,7 +234,27 @@ SynthScenario parse_synth_scenario(const std::string& text, const std::string& p
   m.tertiary_fraction = r.get<double>(ter, "tertiary", "fraction").value_or(0.0);
   if (!(m.tertiary_fraction >= 0 && m.tertiary_fraction <= 1))
     fail(path, ": [tertiary] fraction must be within [0, 1], got ", m.tertiary_fraction);
+}
+}  // namespace
 
+SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
+  const toml::table root = parse_toml_or_fail(text, path);
+  TomlReader r(root, path);
+  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases",   "patterns",
+                                            "grains",   "primary", "secondary", "tertiary",   "renderer", "output"};
+  for (const auto& [k, v] : root)
+    if (!tables.count(std::string(k.str())))
+      fail(path, ": unknown table [", k.str(),
+           "] (known: scenario, scan, detector, microscope, phases, patterns, grains, primary, secondary, tertiary, "
+           "renderer, output)");
+  SynthScenario s;
+  s.path = fs::absolute(path).lexically_normal().string();
+  read_scenario_and_grid(r, path, s);
+  read_detector(r, path, s);
+  read_voltage_and_phases(r, path, s);
+  read_pattern_model(r, path, s);
+  read_renderer_variant(r, r.table("renderer", false), s.band, s.variant);
+  read_microstructure(r, path, s);
   const toml::table* out = r.table("output", false);
   r.check_keys(out, "output", {"orientations"});
   const std::string ori = r.get<std::string>(out, "output", "orientations").value_or("find");
