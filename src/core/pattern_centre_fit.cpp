@@ -22,41 +22,48 @@ std::vector<double> standardised_in_mask(const float* values, const std::vector<
   return out;
 }
 
-}  // namespace
+/// The least-squares problem: parameters δ(PC x, PC y, distance) in px, then a rotation vector
+/// per grain applied before the grain's start orientation; residuals model − data inside the mask.
+struct PatternCentreProblem {
+  const DetectorGeometrySpec& start;
+  const std::vector<GrainPattern>& grains;
+  const std::vector<uint8_t>& mask;
+  const ProcessedModel& model;
+  size_t n_grains, px, m;
+  int n_par;
+  std::vector<std::vector<double>> data;  ///< per grain: its mean pattern, standardised in the mask
 
-PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std::vector<GrainPattern>& grains,
-                                    const std::vector<uint8_t>& mask, const ProcessedModel& model,
-                                    const PatternCentreFitSpec& spec) {
-  const size_t n_grains = grains.size();
-  if (n_grains == 0) fail("pattern-centre fit: no grain to fit");
-  const size_t px = static_cast<size_t>(start.width_px) * start.height_px;
-  if (mask.size() != px) fail("pattern-centre fit: mask of ", mask.size(), " pixels for ", px);
-  std::vector<std::vector<double>> data(n_grains);
-  for (size_t g = 0; g < n_grains; ++g) data[g] = standardised_in_mask(grains[g].mean.data(), mask);
-  const size_t m = data[0].size();
-  const int n_par = 3 + 3 * static_cast<int>(n_grains);
+  PatternCentreProblem(const DetectorGeometrySpec& s, const std::vector<GrainPattern>& g,
+                       const std::vector<uint8_t>& mk, const ProcessedModel& md)
+      : start(s), grains(g), mask(mk), model(md), n_grains(g.size()) {
+    if (n_grains == 0) fail("pattern-centre fit: no grain to fit");
+    px = static_cast<size_t>(start.width_px) * start.height_px;
+    if (mask.size() != px) fail("pattern-centre fit: mask of ", mask.size(), " pixels for ", px);
+    data.resize(n_grains);
+    for (size_t k = 0; k < n_grains; ++k) data[k] = standardised_in_mask(grains[k].mean.data(), mask);
+    m = data[0].size();
+    n_par = 3 + 3 * static_cast<int>(n_grains);
+  }
 
-  // Parameters: δ(PC x, PC y, distance) in px, then a rotation vector per grain applied before
-  // the grain's start orientation.
-  auto geometry_of = [&](const Eigen::VectorXd& p) {
+  DetectorGeometrySpec geometry_of(const Eigen::VectorXd& p) const {
     DetectorGeometrySpec s = start;
     s.pc_px += Eigen::Vector2d(p[0], p[1]);
     s.distance_px += p[2];
     return s;
-  };
-  auto rotation_of = [&](const Eigen::VectorXd& p, size_t g) {
+  }
+  Rotation rotation_of(const Eigen::VectorXd& p, size_t g) const {
     const Eigen::Vector3d v = p.segment<3>(3 + 3 * g);
     return v.norm() > 0 ? Rotation::from_axis_angle(v, v.norm()) * grains[g].orientation : grains[g].orientation;
-  };
-  // Residuals of one grain (model − data inside the mask) at parameters p.
-  auto residual = [&](const Eigen::VectorXd& p, size_t g, const DetectorGeometry& geometry) {
+  }
+  /// Residuals of one grain at parameters p.
+  std::vector<double> residual(const Eigen::VectorXd& p, size_t g, const DetectorGeometry& geometry) const {
     std::vector<float> img(px);
     model(geometry, rotation_of(p, g), img.data());
     std::vector<double> r = standardised_in_mask(img.data(), mask);
     for (size_t i = 0; i < m; ++i) r[i] -= data[g][i];
     return r;
-  };
-  auto cost_of = [&](const Eigen::VectorXd& p, std::vector<std::vector<double>>* keep) {
+  }
+  double cost(const Eigen::VectorXd& p, std::vector<std::vector<double>>* keep) const {
     const DetectorGeometry geometry(geometry_of(p));
     std::vector<std::vector<double>> r(n_grains);
 #pragma omp parallel for schedule(dynamic)
@@ -66,23 +73,16 @@ PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std
       for (double v : rg) c += v * v;
     if (keep) *keep = std::move(r);
     return c;
-  };
-  // Mean correlation over grains from the cost: Σ(m − d)² = 2 m (1 − r) per grain.
-  auto correlation_of = [&](double cost) { return 1 - cost / (2.0 * m * n_grains); };
+  }
+  /// Mean correlation over grains from the cost: Σ(m − d)² = 2 m (1 − r) per grain.
+  double correlation_of(double c) const { return 1 - c / (2.0 * m * n_grains); }
 
-  PatternCentreFit out;
-  out.geometry = start;
-  for (const GrainPattern& g : grains) out.orientation.push_back(g.orientation);
-  Eigen::VectorXd p = Eigen::VectorXd::Zero(n_par);
-  std::vector<std::vector<double>> r0;
-  double cost = cost_of(p, &r0);
-  out.correlation_before = correlation_of(cost);
-  double lambda = 1e-3;
-  for (int it = 0; it < spec.max_iterations; ++it) {
-    out.iterations = it + 1;
-    // Jacobian by forward differences: PC parameters touch every grain, rotations their own.
-    Eigen::MatrixXd jtj = Eigen::MatrixXd::Zero(n_par, n_par);
-    Eigen::VectorXd jtr = Eigen::VectorXd::Zero(n_par);
+  /// JᵀJ and Jᵀr at p (residuals r0 there), the Jacobian by forward differences: PC parameters
+  /// touch every grain, rotations their own.
+  void normal_equations(const Eigen::VectorXd& p, const std::vector<std::vector<double>>& r0,
+                        const PatternCentreFitSpec& spec, Eigen::MatrixXd& jtj, Eigen::VectorXd& jtr) const {
+    jtj = Eigen::MatrixXd::Zero(n_par, n_par);
+    jtr = Eigen::VectorXd::Zero(n_par);
     std::vector<std::vector<std::vector<double>>> columns(n_grains, std::vector<std::vector<double>>(6));
     for (int k = 0; k < 3; ++k) {
       Eigen::VectorXd q = p;
@@ -121,13 +121,36 @@ PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std
         }
       }
     }
+  }
+};
+
+}  // namespace
+
+PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std::vector<GrainPattern>& grains,
+                                    const std::vector<uint8_t>& mask, const ProcessedModel& model,
+                                    const PatternCentreFitSpec& spec) {
+  const PatternCentreProblem problem(start, grains, mask, model);
+  PatternCentreFit out;
+  out.geometry = start;
+  for (const GrainPattern& g : grains) out.orientation.push_back(g.orientation);
+  Eigen::VectorXd p = Eigen::VectorXd::Zero(problem.n_par);
+  std::vector<std::vector<double>> r0;
+  double cost = problem.cost(p, &r0);
+  out.correlation_before = problem.correlation_of(cost);
+  double lambda = 1e-3;
+  for (int it = 0; it < spec.max_iterations; ++it) {
+    out.iterations = it + 1;
+    Eigen::MatrixXd jtj;
+    Eigen::VectorXd jtr;
+    problem.normal_equations(p, r0, spec, jtj, jtr);
+    // Levenberg–Marquardt: the damping grows until a step lowers the cost.
     bool accepted = false;
     for (int attempt = 0; attempt < 8 && !accepted; ++attempt) {
       Eigen::MatrixXd a = jtj;
-      for (int k = 0; k < n_par; ++k) a(k, k) *= 1 + lambda;
+      for (int k = 0; k < problem.n_par; ++k) a(k, k) *= 1 + lambda;
       const Eigen::VectorXd step = a.ldlt().solve(-jtr);
       std::vector<std::vector<double>> r1;
-      const double c1 = cost_of(p + step, &r1);
+      const double c1 = problem.cost(p + step, &r1);
       if (c1 < cost) {
         p += step;
         cost = c1;
@@ -141,12 +164,12 @@ PatternCentreFit fit_pattern_centre(const DetectorGeometrySpec& start, const std
     }
     if (!accepted) break;
   }
-  out.correlation_after = correlation_of(cost);
+  out.correlation_after = problem.correlation_of(cost);
   const double limit = spec.max_change_px > 0 ? spec.max_change_px : 0.05 * start.width_px;
   if (out.correlation_after > out.correlation_before && p.head<3>().cwiseAbs().maxCoeff() <= limit) {
     out.accepted = true;
-    out.geometry = geometry_of(p);
-    for (size_t g = 0; g < n_grains; ++g) out.orientation[g] = rotation_of(p, g);
+    out.geometry = problem.geometry_of(p);
+    for (size_t g = 0; g < problem.n_grains; ++g) out.orientation[g] = problem.rotation_of(p, g);
   } else {
     out.correlation_after = out.correlation_before;
   }
