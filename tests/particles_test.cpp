@@ -7,6 +7,7 @@
 #include <random>
 #include <sstream>
 
+#include "orderband/distributions.hpp"
 #include "orderband/microstructure.hpp"
 #include "orderband/npy_io.hpp"
 #include "test_support.hpp"

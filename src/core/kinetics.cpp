@@ -4,6 +4,7 @@
 #include <cmath>
 #include <limits>
 
+#include "orderband/distributions.hpp"
 #include "orderband/error.hpp"
 
 namespace orderband {
@@ -31,40 +32,7 @@ Line fit_line(const std::vector<double>& x, const std::vector<double>& y, std::v
   return l;
 }
 
-// Regularised incomplete beta (continued fraction) for the F quantile.
-double ibeta(double a, double b, double x) {
-  if (x <= 0) return 0;
-  if (x >= 1) return 1;
-  if (x > (a + 1) / (a + b + 2)) return 1 - ibeta(b, a, 1 - x);
-  const double front =
-      std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
-  double f = 1, c = 1, d = 0;
-  for (int i = 0; i <= 400; ++i) {
-    const int m = i / 2;
-    double num = i == 0 ? 1
-                        : (i % 2 == 0 ? m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m))
-                                      : -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1)));
-    d = 1 + num * d;
-    d = 1 / (std::abs(d) < 1e-30 ? 1e-30 : d);
-    c = 1 + num / c;
-    c = std::abs(c) < 1e-30 ? 1e-30 : c;
-    f *= c * d;
-    if (std::abs(1 - c * d) < 1e-14) break;
-  }
-  return front * (f - 1) / a;
-}
-
 }  // namespace
-
-double f_quantile(double p, int d1, int d2) {
-  double lo = 0, hi = 1e4;
-  for (int it = 0; it < 200; ++it) {
-    const double mid = 0.5 * (lo + hi);
-    const double cdf = ibeta(0.5 * d1, 0.5 * d2, d1 * mid / (d1 * mid + d2));
-    (cdf < p ? lo : hi) = mid;
-  }
-  return 0.5 * (lo + hi);
-}
 
 CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<double>& r, double n) {
   if (t.size() != r.size() || t.size() < 2) fail("kinetics: need at least two (time, radius) points");

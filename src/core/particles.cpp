@@ -11,6 +11,7 @@
 #include <random>
 #include <set>
 
+#include "orderband/distributions.hpp"
 #include "orderband/error.hpp"
 #include "orderband/particle_split.hpp"
 #include "orderband/units.hpp"
@@ -271,52 +272,6 @@ std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg
     s.lognormal_sigma = std::sqrt(std::max(0.0, sl2 / e.size() - s.lognormal_mu * s.lognormal_mu));
   }
   return out;
-}
-
-namespace {
-// Regularised incomplete beta function I_x(a, b) by Lentz's continued fraction.
-double incomplete_beta(double a, double b, double x) {
-  if (x <= 0) return 0;
-  if (x >= 1) return 1;
-  const double front =
-      std::exp(std::lgamma(a + b) - std::lgamma(a) - std::lgamma(b) + a * std::log(x) + b * std::log(1 - x));
-  if (x > (a + 1) / (a + b + 2)) return 1 - incomplete_beta(b, a, 1 - x);
-  double f = 1, c = 1, d = 0;
-  for (int i = 0; i <= 400; ++i) {
-    const int m = i / 2;
-    double num;
-    if (i == 0)
-      num = 1;
-    else if (i % 2 == 0)
-      num = m * (b - m) * x / ((a + 2 * m - 1) * (a + 2 * m));
-    else
-      num = -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 2 * m + 1));
-    d = 1 + num * d;
-    d = std::abs(d) < 1e-30 ? 1e-30 : d;
-    d = 1 / d;
-    c = 1 + num / c;
-    c = std::abs(c) < 1e-30 ? 1e-30 : c;
-    const double cd = c * d;
-    f *= cd;
-    if (std::abs(1 - cd) < 1e-14) break;
-  }
-  return front * (f - 1) / a;
-}
-double student_t_cdf(double t, int dof) {
-  const double x = dof / (dof + t * t);
-  const double tail = 0.5 * incomplete_beta(0.5 * dof, 0.5, x);
-  return t >= 0 ? 1 - tail : tail;
-}
-}  // namespace
-
-double student_t_quantile(double p, int dof) {
-  if (dof < 1) fail("Student t needs at least 1 degree of freedom");
-  double lo = -1e3, hi = 1e3;
-  for (int it = 0; it < 200; ++it) {
-    const double mid = 0.5 * (lo + hi);
-    (student_t_cdf(mid, dof) < p ? lo : hi) = mid;
-  }
-  return 0.5 * (lo + hi);
 }
 
 FractionCI astm_e562_ci(const std::vector<double>& v) {

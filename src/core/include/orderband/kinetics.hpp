@@ -35,9 +35,4 @@ struct ArrheniusFit {
 /// ln k = ln k0 − Q / (R T), T in kelvin from °C; R = 8.314462618 J/(mol K) (CODATA 2018).
 ArrheniusFit fit_arrhenius(const std::vector<double>& temperature_c, const std::vector<double>& k);
 
-/// Student t quantile (declared in particles.hpp; repeated here for the kinetics users).
-double student_t_quantile(double p, int dof);
-/// F-distribution quantile F_{p; d1, d2}.
-double f_quantile(double p, int d1, int d2);
-
 }  // namespace orderband

@@ -108,9 +108,6 @@ struct FractionCI {
   int fields = 0;
 };
 
-/// Student t quantile t_{p, ν} (e.g. p = 0.975 for a two-sided 95 % interval).
-double student_t_quantile(double p, int dof);
-
 /// ASTM E562 (systematic manual point count, 2019): the map cut into tiles as fields, P_P(i)
 /// the mean fraction of field i, s their standard deviation, 95 % CI = t_{0.975, n−1} · s / √n.
 FractionCI astm_e562_ci(const ScanGrid& grid, const std::vector<float>& fraction, int tiles_per_side = 4);
