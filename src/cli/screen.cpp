@@ -14,6 +14,7 @@
 #include "map_runner.hpp"
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
+#include "orderband/html_page.hpp"
 #include "orderband/input_hash.hpp"
 #include "orderband/kinetics.hpp"
 #include "orderband/scan_config_toml.hpp"
@@ -32,12 +33,6 @@ namespace fs = std::filesystem;
 
 namespace orderband::cli {
 namespace {
-
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
 
 std::string cache_root() {
   if (const char* c = std::getenv("ORDERBAND_CACHE"); c && *c) return c;
@@ -118,11 +113,13 @@ void write_truth_table(std::ostream& h, const TrialsConfig& tc, const std::vecto
     if (!truth[i]) continue;
     const auto [t_rank, t_verdict] = place(truth_ranking, i);
     const auto [m_rank, m_verdict] = place(ranking, i);
-    h << "<tr><td>" << xml_escape(tc.trials[i].label) << "</td><td>" << fmt("%.3f", truth[i]->ordered_fraction.value)
-      << " / " << fmt("%.3f", numbers[i].ordered_fraction.value) << "</td><td>"
-      << fmt("%.3f", truth[i]->secondary_mean_ecd_um.value) << " / "
-      << fmt("%.3f", numbers[i].secondary_mean_ecd_um.value) << "</td><td>" << fmt("%.3f", truth[i]->primary_fraction)
-      << " / " << fmt("%.3f", numbers[i].primary_fraction) << "</td><td>" << to_string(t_verdict) << " / "
+    h << "<tr><td>" << xml_escape(tc.trials[i].label) << "</td><td>"
+      << format_number("%.3f", truth[i]->ordered_fraction.value) << " / "
+      << format_number("%.3f", numbers[i].ordered_fraction.value) << "</td><td>"
+      << format_number("%.3f", truth[i]->secondary_mean_ecd_um.value) << " / "
+      << format_number("%.3f", numbers[i].secondary_mean_ecd_um.value) << "</td><td>"
+      << format_number("%.3f", truth[i]->primary_fraction) << " / "
+      << format_number("%.3f", numbers[i].primary_fraction) << "</td><td>" << to_string(t_verdict) << " / "
       << to_string(m_verdict) << "</td><td>" << t_rank << " / " << m_rank << "</td></tr>";
   }
   h << "</table>\n";
@@ -290,13 +287,14 @@ void write_comparison(const std::string& out, const ScreenData& d, const ScreenO
       if (ranking[k].trial == i)
         rank = k + 1, dist = ranking[k].distance, verdict = to_string(ranking[k].verdict), flags = ranking[k].flags;
     csv << tc.trials[i].label << ',' << tc.trials[i].temperature_c << ',' << tc.trials[i].time_h << ','
-        << fmt("%.5f", s["ordered_area_fraction"]) << ',' << fmt("%.5f", s["ci95"]["low"]) << ','
-        << fmt("%.5f", s["ci95"]["high"]) << ',' << fmt("%.5f", s["subresolution_ordered_fraction"]) << ','
-        << fmt("%.5f", s["classes"]["primary"]["area_fraction"]) << ','
-        << fmt("%.5f", s["classes"]["secondary"]["area_fraction"]) << ','
-        << s["classes"]["secondary"]["count"].get<int>() << ',' << fmt("%.5f", s["classes"]["secondary"]["mean_ecd_um"])
-        << ',' << fmt("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ','
-        << fmt("%.4f", dist) << ',' << verdict << '\n';
+        << format_number("%.5f", s["ordered_area_fraction"]) << ',' << format_number("%.5f", s["ci95"]["low"]) << ','
+        << format_number("%.5f", s["ci95"]["high"]) << ',' << format_number("%.5f", s["subresolution_ordered_fraction"])
+        << ',' << format_number("%.5f", s["classes"]["primary"]["area_fraction"]) << ','
+        << format_number("%.5f", s["classes"]["secondary"]["area_fraction"]) << ','
+        << s["classes"]["secondary"]["count"].get<int>() << ','
+        << format_number("%.5f", s["classes"]["secondary"]["mean_ecd_um"]) << ','
+        << format_number("%.5f", s["classes"]["secondary"]["number_density_per_um2"]) << ',' << rank << ','
+        << format_number("%.4f", dist) << ',' << verdict << '\n';
     table.push_back({{"label", tc.trials[i].label},
                      {"temperature_c", tc.trials[i].temperature_c},
                      {"time_h", tc.trials[i].time_h},
@@ -362,7 +360,7 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
       lo.push_back(summaries[i]["ci95"]["low"]), hi.push_back(summaries[i]["ci95"]["high"]);
     }
     frac.error_bars(t, lo, hi, colours[ci % 6]);
-    frac.markers(t, f, colours[ci % 6], fmt("%g °C", temp));
+    frac.markers(t, f, colours[ci % 6], format_number("%g °C", temp));
     ++ci;
   }
   SvgPlot bars(560, 320, "area fraction per size class", "trial", "area fraction");
@@ -417,7 +415,7 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
       t.push_back(tc.trials[i].time_h), y.push_back(std::pow(r, f.exponent));
       tmax = std::max(tmax, tc.trials[i].time_h);
     }
-    power.markers(t, y, colours[ci % 6], fmt("%g °C", temp) + ", n = " + fmt("%.3g", f.exponent));
+    power.markers(t, y, colours[ci % 6], format_number("%g °C", temp) + ", n = " + format_number("%.3g", f.exponent));
     power.line({0, tmax}, {f.r0_pow_n, f.r0_pow_n + f.k * tmax}, colours[ci % 6], "", true);
     ++ci;
   }
@@ -439,12 +437,7 @@ void write_screen_report(const std::string& out, const ScreenData& d, const Scre
   const auto& truth_ranking = d.truth_ranking;
   const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = d.kin;
   std::ostringstream h;
-  h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>" << xml_escape(tc.title)
-    << "</title><style>body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
-       "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
-       "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
-       ".caution{font-size:0.85em;color:#555}</style></head><body>\n<h1>"
-    << xml_escape(tc.title) << "</h1>\n";
+  h << html_page_head(tc.title) << "<h1>" << xml_escape(tc.title) << "</h1>\n";
   for (const auto& [label, error] : outcome.failed)
     h << "<p style=\"border:1px solid #c60;background:#fff4e5;padding:6px\"><b>Trial " << xml_escape(label)
       << " failed and is not compared:</b> " << xml_escape(error) << "</p>\n";
@@ -460,12 +453,13 @@ void write_screen_report(const std::string& out, const ScreenData& d, const Scre
     for (const auto& flag : ranking[k].flags) verdict += " [" + flag + "]";
     const Measured& ecd = numbers[i].secondary_mean_ecd_um;
     h << "<tr><td>" << k + 1 << "</td><td><a href=\"" << xml_escape(tc.trials[i].label) << "/report.html\">"
-      << xml_escape(tc.trials[i].label) << "</a></td><td>" << fmt("%.3f", numbers[i].ordered_fraction.value) << " ("
-      << fmt("%.3f", numbers[i].ordered_fraction.low) << " – " << fmt("%.3f", numbers[i].ordered_fraction.high)
-      << ")</td><td>" << fmt("%.3f", ecd.value)
-      << (numbers[i].secondary_size_from_fit ? " (" + fmt("%.3f", ecd.low) + " – " + fmt("%.3f", ecd.high) + ")"
-                                             : std::string(" (resolved sections only)"))
-      << "</td><td>" << fmt("%.3f", numbers[i].primary_fraction) << " (" << numbers[i].primary_count
+      << xml_escape(tc.trials[i].label) << "</a></td><td>" << format_number("%.3f", numbers[i].ordered_fraction.value)
+      << " (" << format_number("%.3f", numbers[i].ordered_fraction.low) << " – "
+      << format_number("%.3f", numbers[i].ordered_fraction.high) << ")</td><td>" << format_number("%.3f", ecd.value)
+      << (numbers[i].secondary_size_from_fit
+              ? " (" + format_number("%.3f", ecd.low) + " – " + format_number("%.3f", ecd.high) + ")"
+              : std::string(" (resolved sections only)"))
+      << "</td><td>" << format_number("%.3f", numbers[i].primary_fraction) << " (" << numbers[i].primary_count
       << " counted)</td><td>" << xml_escape(verdict) << "</td></tr>";
   }
   h << "</table><p class=\"caution\">Undecided: a quantity's 95 % interval crosses an edge of the window; undecided "
@@ -475,10 +469,12 @@ void write_screen_report(const std::string& out, const ScreenData& d, const Scre
   h << "<h2>Coarsening kinetics</h2><table><tr><th>temperature (°C)</th><th>n</th>"
        "<th>k (µmⁿ/h)</th><th>k 95 % CI</th><th>radius</th></tr>";
   for (const auto& [temp, f] : fits)
-    h << "<tr><td>" << fmt("%g", temp) << "</td><td>" << fmt("%.3g", f.exponent)
-      << (tc.exponent ? " (set)" : " (fitted " + fmt("%.3g", f.exponent_low) + "–" + fmt("%.3g", f.exponent_high) + ")")
-      << "</td><td>" << fmt("%.4g", f.k) << "</td><td>"
-      << (std::isfinite(f.k_low) ? fmt("%.4g", f.k_low) + " – " + fmt("%.4g", f.k_high)
+    h << "<tr><td>" << format_number("%g", temp) << "</td><td>" << format_number("%.3g", f.exponent)
+      << (tc.exponent ? " (set)"
+                      : " (fitted " + format_number("%.3g", f.exponent_low) + "–" +
+                            format_number("%.3g", f.exponent_high) + ")")
+      << "</td><td>" << format_number("%.4g", f.k) << "</td><td>"
+      << (std::isfinite(f.k_low) ? format_number("%.4g", f.k_low) + " – " + format_number("%.4g", f.k_high)
                                  : std::string("needs 3 or more trials"))
       << "</td><td>" << (fits_3d.at(temp) ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)")
       << "</td></tr>";
@@ -492,7 +488,8 @@ void write_screen_report(const std::string& out, const ScreenData& d, const Scre
        "for your alloy. With two or more temperatures an Arrhenius fit gives an apparent activation energy (k also "
        "carries the 1/T prefactor and the solubility terms).</p>\n";
   if (!arrhenius.is_null())
-    h << "<p>Arrhenius: Q = " << fmt("%.4g", arrhenius["activation_energy_kj_mol"].get<double>()) << " kJ/mol.</p>";
+    h << "<p>Arrhenius: Q = " << format_number("%.4g", arrhenius["activation_energy_kj_mol"].get<double>())
+      << " kJ/mol.</p>";
   h << "<div class=\"plots\">" << plots.fraction << plots.classes << plots.sizes << plots.coarsening << "</div>\n";
   h << "<p>Tables: <code>comparison.csv</code>, <code>comparison.json</code>. Each trial's own report is linked in the "
        "ranking.</p><p class=\"caution\">Results are for research and screening. Qualification of safety-critical "

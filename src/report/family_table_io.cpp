@@ -5,26 +5,22 @@
 #include <nlohmann/json.hpp>
 
 #include "orderband/electron.hpp"
+#include "orderband/html_page.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
 namespace {
 
-std::string fmt(const char* f, double v) {
-  char buf[64];
-  std::snprintf(buf, sizeof buf, f, v);
-  return buf;
-}
-
 void provenance_lines(std::ostream& os, const TableProvenance& p) {
   os << "# orderband " << p.version << ": " << p.command_line << "\n";
-  os << "# accelerating voltage " << fmt("%g", p.kilovolts) << " kV, electron wavelength "
-     << fmt("%.4f", electron_wavelength_A(p.kilovolts) * 100.0) << " pm, d >= " << fmt("%g", p.d_min_A) << " A\n";
+  os << "# accelerating voltage " << format_number("%g", p.kilovolts) << " kV, electron wavelength "
+     << format_number("%.4f", electron_wavelength_A(p.kilovolts) * 100.0)
+     << " pm, d >= " << format_number("%g", p.d_min_A) << " A\n";
 }
 
 std::string phase_line(const char* role, const Phase& ph) {
   return std::string("# ") + role + ph.name + " (" + ph.space_group_hm + ", Laue class " + ph.laue_class +
-         ", a = " + fmt("%.4f", ph.cell.a_A) + " A) from " + ph.source + "\n";
+         ", a = " + format_number("%.4f", ph.cell.a_A) + " A) from " + ph.source + "\n";
 }
 
 nlohmann::json provenance_json(const TableProvenance& p) {
@@ -63,7 +59,7 @@ void write_pair_families_text(std::ostream& os, const OrderingPair& pair, const 
   os << "# pair " << pair.name << "\n"
      << phase_line("ordered:    ", pair.ordered) << phase_line("disordered: ", pair.disordered);
   os << "# sensitivity = (|F_ord|^2 - |F_dis|^2) / (|F_ord|^2 + |F_dis|^2); superlattice if >= "
-     << fmt("%g", prov.sensitivity_threshold) << "\n";
+     << format_number("%g", prov.sensitivity_threshold) << "\n";
   char line[256];
   std::snprintf(line, sizeof line, "%-9s %4s  %9s %9s %9s  %9s %9s %9s  %11s  %s\n", "family", "mult", "d_ord/A",
                 "bragg/deg", "|F_ord|/A", "d_dis/A", "bragg/deg", "|F_dis|/A", "sensitivity", "role");
@@ -84,11 +80,11 @@ void write_pair_families_csv(std::ostream& os, const std::vector<PairFamily>& ro
   for (const PairFamily& r : rows) {
     const auto& h = r.family.hkl;
     os << '"' << r.family.label() << "\"," << h[0] << ',' << h[1] << ',' << h[2] << ',' << r.family.multiplicity << ','
-       << fmt("%.6f", r.d_ordered_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_ordered_rad)) << ','
-       << fmt("%.6f", r.f_abs_ordered_A) << ',' << fmt("%.6g", r.rel_intensity_ordered) << ','
-       << fmt("%.6f", r.d_disordered_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_disordered_rad)) << ','
-       << fmt("%.6f", r.f_abs_disordered_A) << ',' << fmt("%.6g", r.rel_intensity_disordered) << ','
-       << fmt("%.6f", r.sensitivity) << ',' << role_of(r, prov.sensitivity_threshold) << '\n';
+       << format_number("%.6f", r.d_ordered_A) << ',' << format_number("%.6f", rad_to_deg(r.bragg_ordered_rad)) << ','
+       << format_number("%.6f", r.f_abs_ordered_A) << ',' << format_number("%.6g", r.rel_intensity_ordered) << ','
+       << format_number("%.6f", r.d_disordered_A) << ',' << format_number("%.6f", rad_to_deg(r.bragg_disordered_rad))
+       << ',' << format_number("%.6f", r.f_abs_disordered_A) << ',' << format_number("%.6g", r.rel_intensity_disordered)
+       << ',' << format_number("%.6f", r.sensitivity) << ',' << role_of(r, prov.sensitivity_threshold) << '\n';
   }
 }
 
@@ -140,8 +136,9 @@ void write_phase_families_csv(std::ostream& os, const std::vector<Phase>& phases
     for (const PhaseFamily& r : tables[p]) {
       const auto& h = r.family.hkl;
       os << phases[p].name << ",\"" << r.family.label() << "\"," << h[0] << ',' << h[1] << ',' << h[2] << ','
-         << r.family.multiplicity << ',' << fmt("%.6f", r.family.d_A) << ',' << fmt("%.6f", rad_to_deg(r.bragg_rad))
-         << ',' << fmt("%.6f", r.f_abs_A) << ',' << fmt("%.6g", r.rel_intensity) << '\n';
+         << r.family.multiplicity << ',' << format_number("%.6f", r.family.d_A) << ','
+         << format_number("%.6f", rad_to_deg(r.bragg_rad)) << ',' << format_number("%.6f", r.f_abs_A) << ','
+         << format_number("%.6g", r.rel_intensity) << '\n';
     }
 }
 

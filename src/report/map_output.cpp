@@ -10,6 +10,7 @@
 #include "orderband/atomic_file.hpp"
 #include "orderband/electron.hpp"
 #include "orderband/error.hpp"
+#include "orderband/html_page.hpp"
 #include "orderband/input_hash.hpp"
 #include "orderband/map_image.hpp"
 #include "orderband/map_output.hpp"
@@ -55,12 +56,6 @@ std::string base64(const std::string& bytes) {
   return out;
 }
 
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
-
 /// The model-mismatch systematic of the area fraction for the estimator in use (none where
 /// reference regions or a mixture fit set the end members, or for the window estimator).
 MismatchSystematic systematic_of(const MapOptions& o) {
@@ -73,14 +68,14 @@ MismatchSystematic systematic_of(const MapOptions& o) {
 std::string systematic_row(const MapOptions& o) {
   const MismatchSystematic sys = systematic_of(o);
   if (!std::isfinite(sys.rms)) return "";
-  return "<tr><td>systematic uncertainty (model mismatch)</td><td>± " + fmt("%.3f", sys.rms) +
+  return "<tr><td>systematic uncertainty (model mismatch)</td><td>± " + format_number("%.3f", sys.rms) +
          " (RMS area error over " + std::to_string(sys.variants) + " renderer variants the estimator is not told; " +
-         "largest " + fmt("%.3f", sys.largest) + "; within ±0.03 on " + std::to_string(sys.within_003) +
+         "largest " + format_number("%.3f", sys.largest) + "; within ±0.03 on " + std::to_string(sys.within_003) +
          "). Common to every scan analysed alike; real, dynamical patterns may differ more." +
          (o.fraction.estimator == FractionEstimator::learned
               ? std::string()
               : " The learned estimator (--estimator learned) holds ± " +
-                    fmt("%.3f", mismatch_systematic("learned").rms) + " over the same variants.") +
+                    format_number("%.3f", mismatch_systematic("learned").rms) + " over the same variants.") +
          "</td></tr>";
 }
 
@@ -252,11 +247,12 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
 /// The class table (with the detection limit) and the secondary class's 3-D sizes.
 void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& config, const SizeClasses& classes) {
   const BeamFootprint beam = beam_footprint(config);
-  h << "<h2>Size classes</h2><p>Detection limit: sections of at least <b>" << fmt("%.3f", r.detection.diameter_um)
-    << " µm</b> ECD are counted (components of at least " << r.detection.min_points << " points; the matrix's noise, σ "
-    << fmt("%.3f", r.detection.noise_sd) << " per point about " << fmt("%.3f", r.detection.matrix_level) << ", makes "
-    << fmt("%.2f", r.detection.false_particles) << " such components per map; beam footprint σ "
-    << fmt("%.0f", beam.sigma_x_um * 1e3) << " × " << fmt("%.0f", beam.sigma_y_um * 1e3)
+  h << "<h2>Size classes</h2><p>Detection limit: sections of at least <b>"
+    << format_number("%.3f", r.detection.diameter_um) << " µm</b> ECD are counted (components of at least "
+    << r.detection.min_points << " points; the matrix's noise, σ " << format_number("%.3f", r.detection.noise_sd)
+    << " per point about " << format_number("%.3f", r.detection.matrix_level) << ", makes "
+    << format_number("%.2f", r.detection.false_particles) << " such components per map; beam footprint σ "
+    << format_number("%.0f", beam.sigma_x_um * 1e3) << " × " << format_number("%.0f", beam.sigma_y_um * 1e3)
     << " nm). At the limit about half the sections are found.</p>"
     << "<table><tr><th>class</th><th>rule</th><th>count</th><th>area fraction</th>"
        "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
@@ -265,15 +261,15 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
     const bool last = k + 1 == r.classes.size();
     const std::string rule = !c.counted ? "ordering below the detection limit (area only)"
                              : last     ? "own orientation, on a grain boundary from " +
-                                          fmt("%g", classes.boundary_share * c.lower_um) + " µm, or from " +
-                                          fmt("%g", c.lower_um) + " µm"
+                                          format_number("%g", classes.boundary_share * c.lower_um) + " µm, or from " +
+                                          format_number("%g", c.lower_um) + " µm"
                                     : "every other resolved section";
     const bool few = c.counted && c.count < kFewParticles;
     h << "<tr><td>" << c.name << "</td><td>" << rule << "</td><td>" << (c.counted ? std::to_string(c.count) : "–")
-      << (few ? " (too few for statistics)" : "") << "</td><td>" << fmt("%.4f", c.area_fraction) << "</td><td>"
-      << (c.counted ? fmt("%.3f", c.number_density_per_um2) : "–") << "</td><td>"
-      << (c.counted ? fmt("%.4f", c.mean_ecd_um) : "–") << "</td><td>"
-      << (c.counted ? fmt("%.4f", c.median_ecd_um) : "–") << "</td></tr>";
+      << (few ? " (too few for statistics)" : "") << "</td><td>" << format_number("%.4f", c.area_fraction)
+      << "</td><td>" << (c.counted ? format_number("%.3f", c.number_density_per_um2) : "–") << "</td><td>"
+      << (c.counted ? format_number("%.4f", c.mean_ecd_um) : "–") << "</td><td>"
+      << (c.counted ? format_number("%.4f", c.median_ecd_um) : "–") << "</td></tr>";
   }
   h << "</table><p class=\"caution\">Particles touching the map border are counted in the area fractions but left "
        "out of counts, densities and sizes (guard frame). Section means are means of the resolved sections only; "
@@ -286,10 +282,11 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
     h << "<tr><td>" << to_string(f->model) << (preferred ? " (preferred: lower AIC)" : "") << "</td><td>" << f->sections
       << "</td>";
     if (f->determined)
-      h << "<td>" << fmt("%.4f", f->mean_diameter_um) << " (" << fmt("%.4f", f->mean_low_um) << " – "
-        << fmt("%.4f", f->mean_high_um) << ")</td><td>" << fmt("%.1f", f->number_density_per_um3) << " ("
-        << fmt("%.1f", f->density_low_per_um3) << " – " << fmt("%.1f", f->density_high_per_um3) << ")</td><td>"
-        << fmt("%.2f", f->seen_share) << "</td></tr>";
+      h << "<td>" << format_number("%.4f", f->mean_diameter_um) << " (" << format_number("%.4f", f->mean_low_um)
+        << " – " << format_number("%.4f", f->mean_high_um) << ")</td><td>"
+        << format_number("%.1f", f->number_density_per_um3) << " (" << format_number("%.1f", f->density_low_per_um3)
+        << " – " << format_number("%.1f", f->density_high_per_um3) << ")</td><td>"
+        << format_number("%.2f", f->seen_share) << "</td></tr>";
     else
       h << "<td colspan=\"3\">not determined: " << xml_escape(f->reason) << "</td></tr>";
   }
@@ -378,37 +375,43 @@ void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapRe
   auto row = [&](const std::string& q, const std::string& t, const std::string& m) {
     h << "<tr><td>" << q << "</td><td>" << t << "</td><td>" << m << "</td></tr>";
   };
-  row("ordered area fraction", fmt("%.4f", truth["ordered_area_fraction"].get<double>()),
-      fmt("%.4f", r.ordered_area_fraction()) + " (" + fmt("%.4f", r.e562.low) + " – " + fmt("%.4f", r.e562.high) + ")");
-  row("sub-resolution ordered fraction", fmt("%.4f", truth["subresolution_ordered_fraction"].get<double>()),
-      fmt("%.4f", r.fraction.subresolution_fraction) + " ± " + fmt("%.4f", r.fraction.subresolution_se) +
+  row("ordered area fraction", format_number("%.4f", truth["ordered_area_fraction"].get<double>()),
+      format_number("%.4f", r.ordered_area_fraction()) + " (" + format_number("%.4f", r.e562.low) + " – " +
+          format_number("%.4f", r.e562.high) + ")");
+  row("sub-resolution ordered fraction", format_number("%.4f", truth["subresolution_ordered_fraction"].get<double>()),
+      format_number("%.4f", r.fraction.subresolution_fraction) + " ± " +
+          format_number("%.4f", r.fraction.subresolution_se) +
           (subresolution_measured(r) ? "" : " (not measured: learned estimator)"));
   if (pri)
     row("primary: area fraction; sections off the border",
-        fmt("%.4f", cls("primary", "area_fraction")) + "; " + fmt("%.0f", cls("primary", "sections_all")),
-        fmt("%.4f", pri->area_fraction) + "; " + std::to_string(pri->count));
+        format_number("%.4f", cls("primary", "area_fraction")) + "; " +
+            format_number("%.0f", cls("primary", "sections_all")),
+        format_number("%.4f", pri->area_fraction) + "; " + std::to_string(pri->count));
   if (sec) {
     row("secondary sections at or above the limit: count (per µm²)",
-        fmt("%.0f", cls("secondary", "sections_resolved")) + " (" +
-            fmt("%.2f", cls("secondary", "density_resolved_per_um2")) + ")",
-        std::to_string(sec->count) + " (" + fmt("%.2f", sec->number_density_per_um2) + ")");
-    row("secondary mean ECD of those sections (µm)", fmt("%.4f", cls("secondary", "mean_ecd_resolved_um")),
-        fmt("%.4f", sec->mean_ecd_um));
+        format_number("%.0f", cls("secondary", "sections_resolved")) + " (" +
+            format_number("%.2f", cls("secondary", "density_resolved_per_um2")) + ")",
+        std::to_string(sec->count) + " (" + format_number("%.2f", sec->number_density_per_um2) + ")");
+    row("secondary mean ECD of those sections (µm)", format_number("%.4f", cls("secondary", "mean_ecd_resolved_um")),
+        format_number("%.4f", sec->mean_ecd_um));
     row("secondary sections, all: count; mean ECD (µm)",
-        fmt("%.0f", cls("secondary", "sections_all")) + "; " + fmt("%.4f", cls("secondary", "mean_ecd_all_um")),
-        fit ? "– ; " + fmt("%.4f", fit->mean_section_um) + " (" + fmt("%.4f", fit->mean_section_low_um) + " – " +
-                  fmt("%.4f", fit->mean_section_high_um) + ", 3-D fit)"
+        format_number("%.0f", cls("secondary", "sections_all")) + "; " +
+            format_number("%.4f", cls("secondary", "mean_ecd_all_um")),
+        fit ? "– ; " + format_number("%.4f", fit->mean_section_um) + " (" +
+                  format_number("%.4f", fit->mean_section_low_um) + " – " +
+                  format_number("%.4f", fit->mean_section_high_um) + ", 3-D fit)"
             : std::string("not determined"));
   }
-  row("secondary 3-D mean diameter (µm)", fmt("%.4f", truth["secondary_mean_diameter_3d_um"].get<double>()),
-      fit ? fmt("%.4f", fit->mean_diameter_um) + " (" + fmt("%.4f", fit->mean_low_um) + " – " +
-                fmt("%.4f", fit->mean_high_um) + ", " + to_string(fit->model) + ")"
+  row("secondary 3-D mean diameter (µm)", format_number("%.4f", truth["secondary_mean_diameter_3d_um"].get<double>()),
+      fit ? format_number("%.4f", fit->mean_diameter_um) + " (" + format_number("%.4f", fit->mean_low_um) + " – " +
+                format_number("%.4f", fit->mean_high_um) + ", " + to_string(fit->model) + ")"
           : std::string("not determined"));
   if (truth.contains("secondary_number_density_per_um3"))
     row("secondary number density (µm⁻³; truth: all sections over the 3-D mean)",
-        fmt("%.1f", truth["secondary_number_density_per_um3"].get<double>()),
-        fit ? fmt("%.1f", fit->number_density_per_um3) + " (" + fmt("%.1f", fit->density_low_per_um3) + " – " +
-                  fmt("%.1f", fit->density_high_per_um3) + ")"
+        format_number("%.1f", truth["secondary_number_density_per_um3"].get<double>()),
+        fit ? format_number("%.1f", fit->number_density_per_um3) + " (" +
+                  format_number("%.1f", fit->density_low_per_um3) + " – " +
+                  format_number("%.1f", fit->density_high_per_um3) + ")"
             : std::string("not determined"));
   h << "</table>\n";
 }
@@ -458,7 +461,7 @@ std::string class_table_csv(const MapResults& r, const std::string& provenance) 
   for (const ClassStats& c : r.classes) {
     char b[400];
     std::snprintf(b, sizeof b, "%s,%.4f,%s,%d,%.6f,%.6f,%.6f,%.6f,%.6f,%.6f,%d\n", c.name.c_str(), c.lower_um,
-                  std::isfinite(c.upper_um) ? fmt("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
+                  std::isfinite(c.upper_um) ? format_number("%.4f", c.upper_um).c_str() : "", c.count, c.area_fraction,
                   c.number_density_per_um2, c.mean_ecd_um, c.median_ecd_um, c.lognormal_mu, c.lognormal_sigma,
                   c.counted ? 1 : 0);
     os << b;
@@ -471,7 +474,7 @@ std::string class_table_csv(const MapResults& r, const std::string& provenance) 
 std::string point_table_csv(const ScanGrid& grid, const MapResults& r, const std::string& provenance) {
   static const char* const kReasons[] = {"measured", "unusable_pattern", "no_orientation", "no_band_contrast",
                                          "small_grain"};
-  auto cell = [](float v, const char* format) { return std::isfinite(v) ? fmt(format, v) : std::string(); };
+  auto cell = [](float v, const char* format) { return std::isfinite(v) ? format_number(format, v) : std::string(); };
   std::ostringstream os;
   os << "# " << provenance << "\n"
      << "row,col,x_um,y_um,phi1_deg,Phi_deg,phi2_deg,ordered_fraction,fraction_se,pattern_quality,grain,particle,"
@@ -479,11 +482,11 @@ std::string point_table_csv(const ScanGrid& grid, const MapResults& r, const std
   for (size_t k = 0; k < grid.count(); ++k) {
     const GridPoint p = grid.point(k);
     const Eigen::Vector2d x = grid.position_um(p);
-    os << p.row << ',' << p.col << ',' << fmt("%.6f", x.x()) << ',' << fmt("%.6f", x.y()) << ',';
+    os << p.row << ',' << p.col << ',' << format_number("%.6f", x.x()) << ',' << format_number("%.6f", x.y()) << ',';
     if (const auto& o = r.orientations.orientation[k]) {
       const Eigen::Vector3d e = o->bunge();
-      os << fmt("%.6f", rad_to_deg(e[0])) << ',' << fmt("%.6f", rad_to_deg(e[1])) << ','
-         << fmt("%.6f", rad_to_deg(e[2])) << ',';
+      os << format_number("%.6f", rad_to_deg(e[0])) << ',' << format_number("%.6f", rad_to_deg(e[1])) << ','
+         << format_number("%.6f", rad_to_deg(e[2])) << ',';
     } else {
       os << ",,,";
     }
@@ -754,18 +757,10 @@ nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const 
 /// The report page's head: style, title, the scan in one line, the warnings.
 void write_report_head(std::ostream& h, const ScanConfig& config, const MapResults& r) {
   const ScanGrid& grid = config.grid;
-  h << "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>orderband report: "
-    << xml_escape(fs::path(config.path).parent_path().filename().string())
-    << "</title>\n<style>"
-       "body{font-family:sans-serif;max-width:1150px;margin:24px auto;color:#222}"
-       "table{border-collapse:collapse;margin:8px 0}td,th{border:1px solid #ccc;padding:4px 8px;text-align:right}"
-       "th{background:#f3f3f3}td:first-child,th:first-child{text-align:left}.plots{display:flex;flex-wrap:wrap;gap:8px}"
-       "figure{margin:10px "
-       "0}figcaption{font-size:0.9em;color:#444;max-width:900px}.caution{font-size:0.85em;color:#555}"
-       "</style></head><body>\n";
+  h << html_page_head("orderband report: " + fs::path(config.path).parent_path().filename().string());
   h << "<h1>Ordered-phase analysis</h1>\n<p>Scan <code>" << xml_escape(config.path) << "</code>: " << grid.rows << " x "
-    << grid.cols << " points, step " << fmt("%g", grid.step_um) << " µm; pair " << xml_escape(r.ordered_phase) << " / "
-    << xml_escape(r.disordered_phase) << " at " << fmt("%g", config.kv) << " kV.</p>\n";
+    << grid.cols << " points, step " << format_number("%g", grid.step_um) << " µm; pair " << xml_escape(r.ordered_phase)
+    << " / " << xml_escape(r.disordered_phase) << " at " << format_number("%g", config.kv) << " kV.</p>\n";
   for (const std::string& w : map_warnings(r))
     h << "<p style=\"border:1px solid #c60;background:#fff4e5;padding:6px\"><b>Warning:</b> " << xml_escape(w)
       << "</p>\n";
@@ -776,13 +771,14 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
                           const nlohmann::json& truth) {
   const size_t n = config.grid.count();
   h << "<table><tr><th>quantity</th><th>value</th></tr>"
-    << "<tr><td>ordered area fraction</td><td>" << fmt("%.4f", r.ordered_area_fraction()) << "</td></tr>"
-    << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << fmt("%.4f", r.e562.low) << " – "
-    << fmt("%.4f", r.e562.high) << "</td></tr>"
-    << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << fmt("%.4f", r.bootstrap.low) << " – "
-    << fmt("%.4f", r.bootstrap.high) << "</td></tr>" << systematic_row(options)
+    << "<tr><td>ordered area fraction</td><td>" << format_number("%.4f", r.ordered_area_fraction()) << "</td></tr>"
+    << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << format_number("%.4f", r.e562.low) << " – "
+    << format_number("%.4f", r.e562.high) << "</td></tr>"
+    << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << format_number("%.4f", r.bootstrap.low)
+    << " – " << format_number("%.4f", r.bootstrap.high) << "</td></tr>" << systematic_row(options)
     << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
-    << fmt("%.4f", r.fraction.subresolution_fraction) << " ± " << fmt("%.4f", r.fraction.subresolution_se)
+    << format_number("%.4f", r.fraction.subresolution_fraction) << " ± "
+    << format_number("%.4f", r.fraction.subresolution_se)
     << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
     << "</td></tr>"
     << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
@@ -806,9 +802,9 @@ void write_report_grains(std::ostream& h, const MapResults& r) {
            "<th>matrix mean f</th><th>matrix sd</th></tr>";
       for (size_t g : order) {
         const GrainFraction& s = r.fraction.grains[g];
-        h << "<tr><td>" << g + 1 << "</td><td>" << s.points << "</td><td>" << fmt("%.4f", s.mean) << "</td><td>"
-          << s.matrix_points << "</td><td>" << fmt("%.4f", s.matrix_mean) << "</td><td>" << fmt("%.4f", s.matrix_sd)
-          << "</td></tr>";
+        h << "<tr><td>" << g + 1 << "</td><td>" << s.points << "</td><td>" << format_number("%.4f", s.mean)
+          << "</td><td>" << s.matrix_points << "</td><td>" << format_number("%.4f", s.matrix_mean) << "</td><td>"
+          << format_number("%.4f", s.matrix_sd) << "</td></tr>";
       }
       h << "</table><p>The matrix of every grain, away from particles, holds the same phases, so its mean f should "
            "agree between grains whatever their orientation; a grain far from the others points to a mismatch of the "
@@ -826,7 +822,7 @@ void write_report_figures(std::ostream& h, const MapResults& r, const ReportFigu
     << "<figcaption>Ordered fraction f per point (0: disordered, 1: ordered), with colour bar and scale bar; grey: no "
        "measurement.</figcaption></figure>\n";
   h << "<figure>" << img("ordered_mask.png", "ordered mask") << "<figcaption>Particles (f ≥ "
-    << fmt("%.2f", r.segmentation.threshold)
+    << format_number("%.2f", r.segmentation.threshold)
     << ", amber, outlined red) over the pattern quality (grey: fundamental band contrast); blue: unusable points."
        "</figcaption></figure>\n";
   h << "<figure>" << img("orientation_map.png", "orientation map")
@@ -864,14 +860,16 @@ void write_report_footer(std::ostream& h, const ScanConfig& config, const MapRes
                          const std::string& provenance) {
   {
     const FractionResults& f = r.fraction;
-    h << "<p>Detector geometry of the references: pattern centre (" << fmt("%.2f", f.geometry.pc_px.x()) << ", "
-      << fmt("%.2f", f.geometry.pc_px.y()) << ") px, distance " << fmt("%.2f", f.geometry.distance_px) << " px ";
+    h << "<p>Detector geometry of the references: pattern centre (" << format_number("%.2f", f.geometry.pc_px.x())
+      << ", " << format_number("%.2f", f.geometry.pc_px.y()) << ") px, distance "
+      << format_number("%.2f", f.geometry.distance_px) << " px ";
     if (f.pattern_centre_refined)
-      h << "(refined from the given (" << fmt("%.2f", config.geometry.pc_px.x()) << ", "
-        << fmt("%.2f", config.geometry.pc_px.y()) << ") px, " << fmt("%.2f", config.geometry.distance_px)
-        << " px on the mean patterns of " << f.pattern_centre_grains << " grains; model–pattern correlation "
-        << fmt("%.4f", f.pattern_centre_correlation_before) << " → " << fmt("%.4f", f.pattern_centre_correlation_after)
-        << ").</p>\n";
+      h << "(refined from the given (" << format_number("%.2f", config.geometry.pc_px.x()) << ", "
+        << format_number("%.2f", config.geometry.pc_px.y()) << ") px, "
+        << format_number("%.2f", config.geometry.distance_px) << " px on the mean patterns of "
+        << f.pattern_centre_grains << " grains; model–pattern correlation "
+        << format_number("%.4f", f.pattern_centre_correlation_before) << " → "
+        << format_number("%.4f", f.pattern_centre_correlation_after) << ").</p>\n";
     else
       h << (f.pattern_centre_grains > 0 ? "(as given: refining did not improve the match).</p>\n"
                                         : "(as given).</p>\n");

@@ -7,6 +7,8 @@
 #include <limits>
 #include <sstream>
 
+#include "orderband/html_page.hpp"
+
 namespace orderband {
 
 std::string xml_escape(const std::string& t) {
@@ -81,11 +83,6 @@ std::vector<double> ticks(double lo, double hi, int target = 6) {
     t.push_back(std::abs(v) < 1e-12 * step ? 0 : v);
   return t;
 }
-std::string num(double v) {
-  char b[32];
-  std::snprintf(b, sizeof b, "%.4g", v);
-  return b;
-}
 }  // namespace
 
 std::string SvgPlot::render() const {
@@ -137,15 +134,15 @@ std::string SvgPlot::render() const {
     for (double t : ticks(x0, x1))
       s << "<line x1=\"" << X(t) << "\" x2=\"" << X(t) << "\" y1=\"" << T + ph << "\" y2=\"" << T + ph + 4
         << "\" stroke=\"#444\"/><text x=\"" << X(t) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
-        << num(t) << "</text>\n";
+        << format_number("%.4g", t) << "</text>\n";
   for (size_t k = 0; k < categories_.size(); ++k)
     s << "<text x=\"" << X(double(k)) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
       << xml_escape(categories_[k]) << "</text>\n";
   for (double t : ticks(y0, y1))
     s << "<line x1=\"" << L - 4 << "\" x2=\"" << L << "\" y1=\"" << Y(t) << "\" y2=\"" << Y(t)
       << "\" stroke=\"#444\"/><line x1=\"" << L << "\" x2=\"" << L + pw << "\" y1=\"" << Y(t) << "\" y2=\"" << Y(t)
-      << "\" stroke=\"#eee\"/><text x=\"" << L - 7 << "\" y=\"" << Y(t) + 4 << "\" text-anchor=\"end\">" << num(t)
-      << "</text>\n";
+      << "\" stroke=\"#eee\"/><text x=\"" << L - 7 << "\" y=\"" << Y(t) + 4 << "\" text-anchor=\"end\">"
+      << format_number("%.4g", t) << "</text>\n";
   s << "<text x=\"" << L + pw / 2 << "\" y=\"" << height_ - 12 << "\" text-anchor=\"middle\">" << xml_escape(x_label_)
     << "</text>\n";
   s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">"
