@@ -14,6 +14,9 @@
 #include <system_error>
 #include <thread>
 
+#include "orderband/npy_io.hpp"
+#include "orderband/orientation_csv.hpp"
+#include "orderband/scan_config_toml.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/synth_scan.hpp"
 #include "orderband/version.hpp"
@@ -215,6 +218,25 @@ TEST_F(MapRun, ResultsFileTablesAndTiffsReadBackInOtherTools) {
   const auto r = test::run_reference_script("results_check.py", *dir_ + "/out");
   EXPECT_EQ(r.exit_code, 0) << r.out << r.err;
   EXPECT_NE(r.out.find("ok 12 1600"), std::string::npos) << r.out;  // 12 arrays, 40 x 40 points
+}
+
+TEST_F(MapRun, OrientationTableNamesThePhaseTheFractionShows) {
+  const ScanConfig config = read_scan_config(*scan_);
+  std::ifstream in(*dir_ + "/out/orientations.csv");
+  const OrientationTable table = read_orientation_csv(in, config.grid, "orientations.csv");
+  const std::vector<float> f = read_npy(*dir_ + "/out/ordered_fraction.npy").values;
+  const nlohmann::json summary = nlohmann::json::parse(slurp(*dir_ + "/out/summary.json"));
+  const std::string ordered = summary["parameters"]["phases"]["ordered"],
+                    disordered = summary["parameters"]["phases"]["disordered"];
+  size_t ordered_points = 0, checked = 0;
+  for (size_t k = 0; k < f.size(); ++k) {
+    if (!table.orientations[k]) continue;
+    EXPECT_EQ(table.phases[k], f[k] >= 0.5f ? ordered : disordered) << k;
+    ordered_points += table.phases[k] == ordered;
+    ++checked;
+  }
+  EXPECT_GT(checked, f.size() / 2);
+  EXPECT_GT(ordered_points, checked / 10);  // the scan has 30 % secondary particles: both phases appear
 }
 
 TEST_F(MapRun, ReportLoadsInAHeadlessBrowser) {

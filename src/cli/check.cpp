@@ -4,6 +4,7 @@
 #include <memory>
 
 #include "command.hpp"
+#include "orderband/ordered_fraction.hpp"
 #include "orderband/scan_check.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
@@ -16,7 +17,7 @@ std::function<int()> setup_check(CLI::App& sub) {
   struct Options {
     std::string scan;
     size_t sample = 64;
-    double d_min = 0.9;
+    double d_min = FractionSpec{}.d_min_A;  // the families map uses
   };
   auto o = std::make_shared<Options>();
   sub.add_option("scan", o->scan, "scan description (TOML)")->required();

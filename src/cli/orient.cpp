@@ -43,7 +43,9 @@ std::function<int()> setup_orient(CLI::App& sub) {
     ProgressReporter progress("orient", "points", o->quiet);
     const OrientationResults r = orient_scan(inputs, spec, [&](size_t d, size_t t) { progress(d, t); });
     progress.finish();
-    write_orientation_outputs(folder, config, r, spec, inputs.phases.disordered.name, command_line());
+    // Orientations alone cannot tell the phases apart: every point carries the indexed parent.
+    const std::vector<std::string> phases(config.grid.count(), inputs.phases.disordered.name);
+    write_orientation_outputs(folder, config, r, spec, phases, command_line());
     if (!o->quiet)
       std::fprintf(stderr, "orientations for %zu of %zu points (%zu usable), %d grains; written to %s\n",
                    r.with_orientation(), config.grid.count(), r.usable(), r.grains.count(), folder.c_str());

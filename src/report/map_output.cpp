@@ -416,6 +416,14 @@ void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapRe
   h << "</table>\n";
 }
 
+/// Each point's phase as its measured ordered fraction shows it (f ≥ 0.5: ordered); a point
+/// without a fraction carries the indexed parent (the disordered phase).
+std::vector<std::string> measured_phases(const MapResults& r) {
+  std::vector<std::string> phases;
+  for (float f : r.fraction.fraction) phases.push_back(f >= 0.5f ? r.ordered_phase : r.disordered_phase);
+  return phases;
+}
+
 /// The fraction stage's and the particles' per-point arrays with units and descriptions.
 std::vector<PointArray> fraction_arrays(const MapResults& r) {
   const FractionResults& f = r.fraction;
@@ -933,7 +941,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
 
   // Orientation-stage files (orientations.csv, grain map, IPF map, npy maps).
-  write_orientation_outputs(folder, config, r.orientations, options.orient, r.disordered_phase, command_line);
+  write_orientation_outputs(folder, config, r.orientations, options.orient, measured_phases(r), command_line);
 
   const std::vector<PointArray> fraction_maps = fraction_arrays(r);
   write_point_arrays_npy(folder, grid.rows, grid.cols, fraction_maps);

@@ -53,7 +53,8 @@ std::vector<PointArray> orientation_arrays(const OrientationResults& r) {
 }
 
 void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& r,
-                               const OrientSpec& spec, const std::string& phase_name, const std::string& command_line) {
+                               const OrientSpec& spec, const std::vector<std::string>& phases,
+                               const std::string& command_line) {
   std::error_code ec;
   std::filesystem::create_directories(folder, ec);
   if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
@@ -62,7 +63,9 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
   {
     OrientationTable t;
     t.orientations = r.orientation;
-    for (size_t k = 0; k < grid.count(); ++k) t.phases.push_back(r.orientation[k] ? phase_name : "");
+    if (phases.size() != grid.count())
+      fail("orientation outputs: ", phases.size(), " phases for ", grid.count(), " points");
+    for (size_t k = 0; k < grid.count(); ++k) t.phases.push_back(r.orientation[k] ? phases[k] : "");
     std::ostringstream os;
     write_orientation_csv(os, grid, t, provenance);
     write_text_atomically(folder + "/orientations.csv", os.str());

@@ -34,6 +34,6 @@ struct ScanCheck {
 /// From the scan's inputs (read_scan_inputs has already read and checked every file `map` reads):
 /// the geometry, the pair's families, and up to `sample_points` patterns preprocessed (timed).
 /// Throws orderband::Error with one clear line for the first problem found.
-ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points = 64, double d_min_A = 0.9);
+ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points = 64, double d_min_A = 0.8);
 
 }  // namespace orderband

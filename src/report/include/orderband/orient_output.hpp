@@ -2,6 +2,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 #include "orderband/orient.hpp"
 #include "orderband/results_file.hpp"
@@ -13,9 +14,12 @@ namespace orderband {
 /// fit_residual_deg.npy, model_correlation.npy, kam_deg.npy,
 /// orientation_map.png (inverse-pole-figure colours along the sample
 /// normal z_S, with the key beside the map and a µm scale bar),
-/// grain_map.png and orient_summary.json (counts, grains, parameters).
+/// grain_map.png and orient_summary.json (counts, grains, parameters). The phase column of
+/// orientations.csv is `phases[k]` for every point with an orientation (`orient`: the indexed
+/// parent; `map`: the phase the point's measured ordered fraction shows).
 void write_orientation_outputs(const std::string& folder, const ScanConfig& config, const OrientationResults& results,
-                               const OrientSpec& spec, const std::string& phase_name, const std::string& command_line);
+                               const OrientSpec& spec, const std::vector<std::string>& phases,
+                               const std::string& command_line);
 
 /// The orientation stage's per-point arrays with units and descriptions (point_status, grain_ids,
 /// bands_matched, fit_residual_deg, model_correlation, kam_deg).
