@@ -6,10 +6,8 @@
 
 #include "command.hpp"
 #include "orderband/error.hpp"
-#include "orderband/folder_lock.hpp"
-#include "orderband/folder_row_store.hpp"
 #include "orderband/input_hash.hpp"
-#include "orderband/map_output.hpp"
+#include "orderband/map_folder.hpp"
 #include "orderband/version.hpp"
 #include "progress.hpp"
 
@@ -40,9 +38,6 @@ std::string map_key(const ScanInputs& inputs, const MapRunOptions& o) {
 }
 
 MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet) {
-  const MapOptions options = to_map_options(o);
-  const FolderLock lock(folder);
-  FolderRowStore store(folder + "/.resume", map_key(inputs, o));
   std::unique_ptr<ProgressReporter> bar;
   std::string current;
   auto progress = [&](const std::string& stage, size_t done, size_t total) {
@@ -53,16 +48,15 @@ MapResults run_map(const ScanInputs& inputs, const std::string& folder, const Ma
     }
     (*bar)(done, total);
   };
-  MapResults r = map_scan(inputs, options, progress, &store);
+  MapFolderRun run = map_to_folder(inputs, folder, to_map_options(o), map_key(inputs, o), command_line(), progress);
   if (bar) bar->finish();
-  if (!quiet && store.rows_found() > 0)
-    std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", store.rows_found());
-  if (!quiet && store.rows_damaged() > 0)
-    std::fprintf(stderr, "resume: %zu damaged row results computed again\n", store.rows_damaged());
-  for (const std::string& w : map_warnings(r)) std::fprintf(stderr, "orderband map: warning: %s\n", w.c_str());
-  write_map_outputs(folder, inputs.config, r, r.options, command_line());
-  store.clear();
-  return r;
+  if (!quiet && run.rows_resumed > 0)
+    std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", run.rows_resumed);
+  if (!quiet && run.rows_damaged > 0)
+    std::fprintf(stderr, "resume: %zu damaged row results computed again\n", run.rows_damaged);
+  for (const std::string& w : map_warnings(run.results))
+    std::fprintf(stderr, "orderband map: warning: %s\n", w.c_str());
+  return std::move(run.results);
 }
 
 }  // namespace orderband::cli

@@ -1,0 +1,26 @@
+// One scan mapped into an output folder, as `orderband map` does it: locked, resumable, complete.
+#pragma once
+
+#include <cstddef>
+#include <string>
+
+#include "orderband/map_scan.hpp"
+
+namespace orderband {
+
+struct MapFolderRun {
+  MapResults results;
+  size_t rows_resumed = 0;  ///< row results taken from an interrupted run
+  size_t rows_damaged = 0;  ///< row results found damaged and computed again
+};
+
+/// Maps a scan into `folder`: one run at a time per folder (a lock held while it runs), every
+/// finished row kept in folder/.resume under `key` (a different key starts afresh), so that an
+/// interrupted run continues where it stopped with byte-identical outputs; every output of `map`
+/// written (write_map_outputs, with `command_line` as provenance); the resume rows removed at
+/// the end. `key` must change with anything that changes the results (inputs, options, version).
+MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, const MapOptions& options,
+                           const std::string& key, const std::string& command_line,
+                           const StageProgress& progress = {});
+
+}  // namespace orderband
