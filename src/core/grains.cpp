@@ -3,9 +3,9 @@
 
 #include <algorithm>
 #include <cmath>
-#include <deque>
 #include <map>
 
+#include "orderband/grid_regions.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
@@ -122,36 +122,11 @@ int split_bimodal_grains(const ScanGrid& grid, const std::vector<std::optional<R
   return count;
 }
 
-/// Connected regions over the grid's neighbours: a point where `member(k)` holds and no label is
-/// yet set starts a region; a neighbour j that is a member joins k's region where `joins(k, j)`
-/// holds. Labels 1…n in scan order of the regions' first points, 0 elsewhere; returns n.
-template <class Member, class Joins>
-int label_regions(const ScanGrid& grid, Member member, Joins joins, std::vector<int32_t>& label) {
-  label.assign(grid.count(), 0);
-  int next = 0;
-  for (size_t start = 0; start < label.size(); ++start) {
-    if (label[start] || !member(start)) continue;
-    label[start] = ++next;
-    std::deque<size_t> queue{start};
-    while (!queue.empty()) {
-      const size_t k = queue.front();
-      queue.pop_front();
-      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
-        const size_t j = grid.index(nb);
-        if (label[j] || !member(j) || !joins(k, j)) continue;
-        label[j] = next;
-        queue.push_back(j);
-      }
-    }
-  }
-  return next;
-}
-
 /// Relabels so that every grain is one connected region (a split can leave a group in pieces).
 int connected_relabel(const ScanGrid& grid, std::vector<int32_t>& label) {
   const std::vector<int32_t> groups = label;
   return label_regions(
-      grid, [&](size_t k) { return groups[k] != 0; }, [&](size_t k, size_t j) { return groups[j] == groups[k]; },
+      grid, 8, [&](size_t k) { return groups[k] != 0; }, [&](size_t k, size_t j) { return groups[j] == groups[k]; },
       label);
 }
 
@@ -163,7 +138,7 @@ GrainMap segment_grains(const ScanGrid& grid, const std::vector<std::optional<Ro
   const double threshold = deg_to_rad(spec.threshold_deg);
   std::vector<int32_t> label;
   int next = label_regions(
-      grid, [&](size_t k) { return ori[k].has_value(); },
+      grid, 8, [&](size_t k) { return ori[k].has_value(); },
       [&](size_t k, size_t j) { return sym.misorientation_angle(*ori[k], *ori[j]) < threshold; }, label);
   if (spec.split_bimodal) {
     split_bimodal_grains(grid, ori, sym, spec, label, next);

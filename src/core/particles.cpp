@@ -13,6 +13,7 @@
 
 #include "orderband/distributions.hpp"
 #include "orderband/error.hpp"
+#include "orderband/grid_regions.hpp"
 #include "orderband/particle_split.hpp"
 #include "orderband/units.hpp"
 
@@ -114,7 +115,8 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
     const double max_saddle = 0.5 * (seg.threshold + 1);
     label = split_by_markers(grid, smooth_map(grid, f, sigma), inside, depth, max_saddle, conn);
   } else {
-    label = split_by_markers(grid, f, inside, HUGE_VAL, 0.0, conn);  // the connected parts as they are
+    label_regions(
+        grid, conn, [&](size_t k) { return inside[k] != 0; }, [](size_t, size_t) { return true; }, label);
   }
   // Collected in scan order of each part's first point.
   std::map<int32_t, size_t> order;

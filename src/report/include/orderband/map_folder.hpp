@@ -20,7 +20,6 @@ struct MapFolderRun {
 /// written (write_map_outputs, with `command_line` as provenance); the resume rows removed at
 /// the end. `key` must change with anything that changes the results (inputs, options, version).
 MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, const MapOptions& options,
-                           const std::string& key, const std::string& command_line,
-                           const StageProgress& progress = {});
+                           const std::string& key, const std::string& command_line, const StageProgress& progress = {});
 
 }  // namespace orderband
