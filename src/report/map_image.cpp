@@ -129,6 +129,23 @@ Colour label_colour(int label) {
 }
 
 namespace {
+/// The glyph key of µ (UTF-8 C2 B5 in the text).
+constexpr char kMicro = static_cast<char>(0xB5);
+
+/// The glyph keys of a text: one per character, µ (two bytes in UTF-8) as one.
+std::string glyph_keys(const std::string& text) {
+  std::string keys;
+  for (size_t k = 0; k < text.size(); ++k) {
+    if (text[k] == static_cast<char>(0xC2) && k + 1 < text.size() && text[k + 1] == kMicro) {
+      keys += kMicro;
+      ++k;
+    } else {
+      keys += text[k];
+    }
+  }
+  return keys;
+}
+
 // 5 × 7 glyphs, one string per row, '#' = ink.
 const std::map<char, std::array<const char*, 7>>& glyphs() {
   static const std::map<char, std::array<const char*, 7>> g = {
@@ -154,14 +171,23 @@ const std::map<char, std::array<const char*, 7>>& glyphs() {
       {'g', {"     ", " ####", "#   #", "#   #", " ####", "    #", " ### "}},
       {'f', {"  ## ", " #  #", " #   ", "###  ", " #   ", " #   ", " #   "}},
       {'x', {"     ", "     ", "#   #", " # # ", "  #  ", " # # ", "#   #"}},
+      {'o', {"     ", "     ", " ### ", "#   #", "#   #", "#   #", " ### "}},
+      {'r', {"     ", "     ", "# ## ", "##  #", "#    ", "#    ", "#    "}},
+      {'a', {"     ", "     ", " ### ", "    #", " ####", "#   #", " ####"}},
+      {'c', {"     ", "     ", " ### ", "#    ", "#    ", "#   #", " ### "}},
+      {'t', {" #   ", " #   ", "###  ", " #   ", " #   ", " #  #", "  ## "}},
+      {'i', {"  #  ", "     ", " ##  ", "  #  ", "  #  ", "  #  ", " ### "}},
+      {'n', {"     ", "     ", "# ## ", "##  #", "#   #", "#   #", "#   #"}},
+      {kMicro, {"     ", "     ", "#   #", "#   #", "#   #", "#### ", "#    "}},
   };
   return g;
 }
 }  // namespace
 
-int text_width(const std::string& text, int scale) { return static_cast<int>(text.size()) * 6 * scale; }
+int text_width(const std::string& text, int scale) { return static_cast<int>(glyph_keys(text).size()) * 6 * scale; }
 
-void draw_text(RgbImage& img, int x, int y, const std::string& text, Colour colour, int scale) {
+void draw_text(RgbImage& img, int x, int y, const std::string& utf8_text, Colour colour, int scale) {
+  const std::string text = glyph_keys(utf8_text);
   for (size_t k = 0; k < text.size(); ++k) {
     const auto it = glyphs().find(text[k]);
     if (it == glyphs().end()) fail("draw_text: no glyph for '", text[k], "'");
@@ -213,17 +239,18 @@ RgbImage with_scale_bar(const RgbImage& map, double pixels_per_um) {
     for (int j = 4; j < 4 + bar_px && j < out.width; ++j)
       std::copy(black.begin(), black.end(), out.rgb.begin() + (static_cast<size_t>(i) * out.width + j) * 3);
   char label[32];
-  std::snprintf(label, sizeof label, "%g um", len);
+  std::snprintf(label, sizeof label, "%g µm", len);
   draw_text(out, 8 + bar_px, map.height + 6, label, black, 1);
   return out;
 }
 
-RgbImage colour_bar(int height, double lo, double hi, int ticks) {
+RgbImage colour_bar(int height, double lo, double hi, int ticks, const std::string& quantity) {
   RgbImage img;
-  img.width = 70;
+  img.width = std::max(70, text_width(quantity) + 8);
   img.height = height;
   img.rgb.assign(static_cast<size_t>(img.width) * img.height * 3, 255);
-  const int top = 6, bottom = height - 6;
+  const int top = quantity.empty() ? 6 : 18, bottom = height - 6;
+  if (!quantity.empty()) draw_text(img, 4, 3, quantity, {0, 0, 0});
   for (int i = top; i <= bottom; ++i) {
     const Colour c = sequential_colour(double(bottom - i) / (bottom - top));
     for (int j = 4; j < 20; ++j)

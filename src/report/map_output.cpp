@@ -85,7 +85,7 @@ RgbImage fraction_map_image(const ScanGrid& grid, const std::vector<float>& f) {
   for (size_t k = 0; k < grid.count(); ++k)
     colours[k] = std::isfinite(f[k]) ? sequential_colour(f[k]) : Colour{128, 128, 128};
   const RgbImage map = with_scale_bar(draw_point_colours(canvas, colours), canvas.pixels_per_um);
-  return side_by_side(map, colour_bar(std::min(map.height - 28, 300), 0.0, 1.0, 5));
+  return side_by_side(map, colour_bar(std::min(map.height - 28, 300), 0.0, 1.0, 5, "ordered fraction"));
 }
 
 RgbImage mask_image(const ScanGrid& grid, const MapResults& r) {

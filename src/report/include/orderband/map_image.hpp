@@ -41,8 +41,8 @@ RgbImage ipf_key(int size);
 /// A distinct colour per integer label (0: black).
 Colour label_colour(int label);
 
-/// Text in a 5 × 7 pixel font (digits, '.', '-', '+', '%', ' ', and the
-/// letters of "um", "deg", "f", "x"), scaled by an integer factor.
+/// Text in a 5 × 7 pixel font (digits, '.', '-', '+', '%', ' ', µ given as UTF-8, and the
+/// letters a c d e f g i m n o r t u x), scaled by an integer factor; another character is an error.
 void draw_text(RgbImage& img, int x, int y, const std::string& text, Colour colour, int scale = 1);
 /// Width in pixels of a text at a scale.
 int text_width(const std::string& text, int scale = 1);
@@ -51,7 +51,8 @@ int text_width(const std::string& text, int scale = 1);
 RgbImage side_by_side(const RgbImage& a, const RgbImage& b, int gap = 10);
 /// Adds a white margin below the image with a scale bar of a round length in µm.
 RgbImage with_scale_bar(const RgbImage& map, double pixels_per_um);
-/// A vertical colour bar for the sequential map with tick labels from lo to hi.
-RgbImage colour_bar(int height, double lo, double hi, int ticks = 5);
+/// A vertical colour bar for the sequential map with tick labels from lo to hi, and the quantity's
+/// name above it when given.
+RgbImage colour_bar(int height, double lo, double hi, int ticks = 5, const std::string& quantity = "");
 
 }  // namespace orderband
