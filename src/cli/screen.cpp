@@ -383,6 +383,12 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
   }
   bars.x_categories(labels);
   bars.x_range(-0.7, tc.trials.size() - 0.3);
+  // Headroom above the tallest bar for the legend (top right), so that it never covers a bar.
+  double tallest = 0;
+  for (const auto& summary : summaries)
+    for (const std::string& name : class_names)
+      tallest = std::max(tallest, summary["classes"][name]["area_fraction"].get<double>());
+  bars.y_range(0, tallest > 0 ? 1.3 * tallest : 1);
   SvgPlot sizes(560, 320, "secondary particle sizes (ECD) per trial", "ECD (µm)", "share of particles per bin");
   for (size_t i = 0; i < tc.trials.size(); ++i) {
     std::ifstream in(out + "/" + tc.trials[i].label + "/particles.csv");
