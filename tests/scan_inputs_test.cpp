@@ -10,7 +10,6 @@
 #include "orderband/map_scan.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
-#include "orderband/synth_scan.hpp"
 #include "test_support.hpp"
 
 using namespace orderband;
@@ -36,16 +35,7 @@ class CountingSource final : public PatternSource {
   std::shared_ptr<PatternSource> inner_;
 };
 
-std::string small_scan(const std::string& stem) {
-  const std::string dir = test::make_temp_dir(stem);
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 5\n[scan]\nrows = 16\ncols = 16\nstep_um = 0.03\n"
-                                    "[detector]\nwidth_px = 48\nheight_px = 48\npc_px = [24.0, 15.0]\n"
-                                    "distance_px = 36.0\n[patterns]\ncounts_per_px = 5000\n[grains]\ncount = 2\n"
-                                    "[secondary]\narea_fraction = 0.3\ndistribution = \"lognormal\"\n"
-                                    "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
-  write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
-  return dir + "/scan/scan.toml";
-}
+std::string small_scan(const std::string& stem) { return test::write_small_scan(test::make_temp_dir(stem), 16, 5); }
 
 }  // namespace
 

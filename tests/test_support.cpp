@@ -9,6 +9,8 @@
 #include <random>
 #include <sstream>
 
+#include "orderband/synth_scan.hpp"
+
 namespace orderband::test {
 namespace {
 std::string slurp(const std::string& path) {
@@ -17,6 +19,7 @@ std::string slurp(const std::string& path) {
   s << in.rdbuf();
   return s.str();
 }
+}  // namespace
 
 RunResult run_command(const std::string& command) {
   const std::string dir = make_temp_dir("run");
@@ -30,7 +33,6 @@ RunResult run_command(const std::string& command) {
   std::filesystem::remove_all(dir);
   return r;
 }
-}  // namespace
 
 std::string make_temp_dir(const std::string& stem) {
   std::random_device rd;
@@ -46,6 +48,17 @@ RunResult run_orderband(const std::string& args) { return run_command(std::strin
 
 RunResult run_reference_script(const std::string& script, const std::string& args) {
   return run_command(std::string(ORDERBAND_PYTHON) + " " + ORDERBAND_REFERENCE_DIR + "/" + script + " " + args);
+}
+
+std::string write_small_scan(const std::string& dir, int side, int seed) {
+  std::ofstream(dir + "/s.toml")
+      << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
+      << "\nstep_um = 0.03\n[detector]\nwidth_px = 48\nheight_px = 48\npc_px = [24.0, 15.0]\n"
+         "distance_px = 36.0\n[patterns]\ncounts_per_px = 5000\n[grains]\ncount = 2\n"
+         "[secondary]\narea_fraction = 0.3\ndistribution = \"lognormal\"\n"
+         "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
+  write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
+  return dir + "/scan/scan.toml";
 }
 
 }  // namespace orderband::test

@@ -15,6 +15,9 @@ struct RunResult {
   std::string err;  ///< stderr
 };
 
+/// Runs a shell command, capturing its exit code, stdout and stderr.
+RunResult run_command(const std::string& command);
+
 /// Runs the orderband program with `args` (a shell-quoted string).
 RunResult run_orderband(const std::string& args);
 
@@ -23,5 +26,9 @@ RunResult run_reference_script(const std::string& script, const std::string& arg
 
 /// A fresh empty temporary folder, removed by the caller.
 std::string make_temp_dir(const std::string& stem);
+
+/// A small synthetic scan in `dir`/scan (side × side points of 48 × 48 px, 5,000 counts, two grains,
+/// 30 % secondary particles of median 0.12 µm, 30 nm steps); returns its scan.toml.
+std::string write_small_scan(const std::string& dir, int side, int seed);
 
 }  // namespace orderband::test

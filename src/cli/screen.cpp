@@ -346,11 +346,14 @@ struct ScreenPlots {
   std::string fraction, classes, sizes, coarsening;
 };
 
-ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
+/// Series colours of the screen's charts.
+const char* const kColours[] = {"#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#8c564b"};
+
+/// The ordered area fraction against ageing time, one series per temperature.
+std::string fraction_plot(const ScreenData& d) {
   const TrialsConfig& tc = d.tc;
   const std::vector<nlohmann::json>& summaries = d.summaries;
-  const auto& [by_temperature, kinetics, arrhenius, fits, fits_3d, kinetic_radius] = d.kin;
-  const char* colours[] = {"#1f77b4", "#d62728", "#2ca02c", "#9467bd", "#ff7f0e", "#8c564b"};
+  const auto& by_temperature = d.kin.by_temperature;
   SvgPlot frac(560, 320, "ordered area fraction vs ageing time (95 % CI)", "ageing time (h)", "ordered area fraction");
   int ci = 0;
   for (const auto& [temp, idx] : by_temperature) {
@@ -359,10 +362,17 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
       t.push_back(tc.trials[i].time_h), f.push_back(summaries[i]["ordered_area_fraction"]);
       lo.push_back(summaries[i]["ci95"]["low"]), hi.push_back(summaries[i]["ci95"]["high"]);
     }
-    frac.error_bars(t, lo, hi, colours[ci % 6]);
-    frac.markers(t, f, colours[ci % 6], format_number("%g °C", temp));
+    frac.error_bars(t, lo, hi, kColours[ci % 6]);
+    frac.markers(t, f, kColours[ci % 6], format_number("%g °C", temp));
     ++ci;
   }
+  return frac.render();
+}
+
+/// The area fraction per size class, bars per trial.
+std::string class_plot(const ScreenData& d) {
+  const TrialsConfig& tc = d.tc;
+  const std::vector<nlohmann::json>& summaries = d.summaries;
   SvgPlot bars(560, 320, "area fraction per size class", "trial", "area fraction");
   std::vector<std::string> labels;
   const std::vector<std::string> class_names{"secondary", "primary"};
@@ -372,7 +382,7 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
       left.push_back(i - 0.35 + 0.35 * c), width.push_back(0.33);
       height.push_back(summaries[i]["classes"][class_names[c]]["area_fraction"]);
     }
-    bars.bars(left, width, height, colours[c], class_names[c]);
+    bars.bars(left, width, height, kColours[c], class_names[c]);
   }
   {
     std::vector<double> left, width, height;
@@ -389,6 +399,12 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
     for (const std::string& name : class_names)
       tallest = std::max(tallest, summary["classes"][name]["area_fraction"].get<double>());
   bars.y_range(0, tallest > 0 ? 1.3 * tallest : 1);
+  return bars.render();
+}
+
+/// The secondary sections' ECD distribution per trial (from each trial's particles.csv).
+std::string size_plot(const std::string& out, const ScreenData& d) {
+  const TrialsConfig& tc = d.tc;
   SvgPlot sizes(560, 320, "secondary particle sizes (ECD) per trial", "ECD (µm)", "share of particles per bin");
   for (size_t i = 0; i < tc.trials.size(); ++i) {
     std::ifstream in(out + "/" + tc.trials[i].label + "/particles.csv");
@@ -406,10 +422,19 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
     std::vector<double> x, y(bins, 0.0);
     for (int b = 0; b < bins; ++b) x.push_back((b + 0.5) * w);
     for (double v : d) y[std::min(bins - 1, static_cast<int>(v / w))] += 1.0 / d.size();
-    sizes.line(x, y, colours[i % 6], tc.trials[i].label);
+    sizes.line(x, y, kColours[i % 6], tc.trials[i].label);
   }
+  return sizes.render();
+}
+
+/// The coarsening fit per temperature: mean radiusⁿ against time with the fit lines.
+std::string coarsening_plot(const ScreenData& d) {
+  const TrialsConfig& tc = d.tc;
+  const auto& by_temperature = d.kin.by_temperature;
+  const auto& fits = d.kin.fits;
+  const auto& kinetic_radius = d.kin.kinetic_radius;
   SvgPlot power(560, 320, "coarsening: mean radiusⁿ against time (fit lines)", "ageing time (h)", "⟨r⟩ⁿ (µmⁿ)");
-  ci = 0;
+  int ci = 0;
   for (const auto& [temp, idx] : by_temperature) {
     if (!fits.count(temp)) continue;
     const CoarseningFit& f = fits.at(temp);
@@ -421,16 +446,20 @@ ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
       t.push_back(tc.trials[i].time_h), y.push_back(std::pow(r, f.exponent));
       tmax = std::max(tmax, tc.trials[i].time_h);
     }
-    power.markers(t, y, colours[ci % 6], format_number("%g °C", temp) + ", n = " + format_number("%.3g", f.exponent));
-    power.line({0, tmax}, {f.r0_pow_n, f.r0_pow_n + f.k * tmax}, colours[ci % 6], "", true);
+    power.markers(t, y, kColours[ci % 6], format_number("%g °C", temp) + ", n = " + format_number("%.3g", f.exponent));
+    power.line({0, tmax}, {f.r0_pow_n, f.r0_pow_n + f.k * tmax}, kColours[ci % 6], "", true);
     ++ci;
   }
-  write_text_atomically(out + "/fraction_vs_time.svg", frac.render());
-  write_text_atomically(out + "/class_fractions.svg", bars.render());
-  write_text_atomically(out + "/size_distributions.svg", sizes.render());
-  write_text_atomically(out + "/coarsening.svg", power.render());
+  return power.render();
+}
 
-  return {frac.render(), bars.render(), sizes.render(), power.render()};
+ScreenPlots write_screen_plots(const std::string& out, const ScreenData& d) {
+  const ScreenPlots plots{fraction_plot(d), class_plot(d), size_plot(out, d), coarsening_plot(d)};
+  write_text_atomically(out + "/fraction_vs_time.svg", plots.fraction);
+  write_text_atomically(out + "/class_fractions.svg", plots.classes);
+  write_text_atomically(out + "/size_distributions.svg", plots.sizes);
+  write_text_atomically(out + "/coarsening.svg", plots.coarsening);
+  return plots;
 }
 
 /// The screen's report page: failures, the ranking, the truth beside it, the kinetics, the charts.

@@ -105,6 +105,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
                     RowStore* store) {
   MapResults r;
   r.options = options_for_scan(requested, inputs);
+  r.input_file_hashes = inputs.file_hashes;
   const MapOptions& options = r.options;
   const ScanConfig& config = inputs.config;
   const OrderingPair& pair = inputs.phases;

@@ -3,7 +3,9 @@
 
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <sstream>
+#include <vector>
 
 #include "orderband/error.hpp"
 #include "orderband/image_io.hpp"
@@ -32,16 +34,23 @@ PreprocessImages read_preprocess_images(const PreprocessSpec& spec) {
   return images;
 }
 
-/// The hash of a file, of a folder's files, or "" for no file; every field is separated so that
-/// moving a file from one role to another changes the whole.
-std::string hash_of(const std::string& path) {
-  if (path.empty()) return "-";
-  return fs::is_directory(path) ? folder_hash_fnv1a64(path) : file_hash_fnv1a64(path);
+/// The files a description names (a path that is empty names no file).
+std::vector<std::string> input_files(const ScanConfig& config) {
+  const PreprocessSpec& p = config.preprocess;
+  std::vector<std::string> files{config.path, config.patterns.path};
+  if (config.phases.pair_name.empty())
+    files.insert(files.end(), {config.phases.ordered_cif, config.phases.disordered_cif});
+  if (config.orientations.source == OrientationSourceKind::file) files.push_back(config.orientations.file);
+  files.insert(files.end(), {config.end_members.ordered_mask, config.end_members.disordered_mask});
+  if (p.mask == MaskKind::file) files.push_back(p.mask_file);
+  if (p.static_background == StaticBackgroundKind::file) files.push_back(p.static_background_file);
+  return files;
 }
 
-}  // namespace
-
-std::string scan_input_hash(const ScanConfig& config) {
+/// The combined hash from the files' own; every field is separated so that moving a file from one
+/// role to another changes the whole.
+std::string combined_hash(const ScanConfig& config, const std::map<std::string, std::string>& files) {
+  auto hash_of = [&](const std::string& path) { return path.empty() ? std::string("-") : files.at(path); };
   std::ostringstream k;
   const bool cif_files = config.phases.pair_name.empty();
   const PreprocessSpec& p = config.preprocess;
@@ -54,6 +63,18 @@ std::string scan_input_hash(const ScanConfig& config) {
     << (p.static_background == StaticBackgroundKind::file ? hash_of(p.static_background_file) : "-");
   return text_hash_fnv1a64(k.str());
 }
+
+}  // namespace
+
+std::map<std::string, std::string> input_file_hashes(const ScanConfig& config) {
+  std::map<std::string, std::string> hashes;
+  for (const std::string& path : input_files(config))
+    if (!path.empty() && !hashes.count(path))
+      hashes[path] = fs::is_directory(path) ? folder_hash_fnv1a64(path) : file_hash_fnv1a64(path);
+  return hashes;
+}
+
+std::string scan_input_hash(const ScanConfig& config) { return combined_hash(config, input_file_hashes(config)); }
 
 ScanInputs read_scan_inputs(const ScanConfig& config, InputHashing hashing) {
   config.grid.validate();
@@ -69,7 +90,10 @@ ScanInputs read_scan_inputs(const ScanConfig& config, InputHashing hashing) {
     in.ordered_mask = read_point_mask(config.end_members.ordered_mask, config.grid);
   if (!config.end_members.disordered_mask.empty())
     in.disordered_mask = read_point_mask(config.end_members.disordered_mask, config.grid);
-  if (hashing == InputHashing::hash) in.input_hash = scan_input_hash(config);
+  if (hashing == InputHashing::hash) {
+    in.file_hashes = input_file_hashes(config);
+    in.input_hash = combined_hash(config, in.file_hashes);
+  }
   return in;
 }
 

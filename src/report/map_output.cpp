@@ -512,19 +512,23 @@ struct ReportFigures {
 };
 
 /// FNV-1a hashes of the input files, as the summary records them.
-nlohmann::json input_hashes_json(const ScanConfig& config) {
+nlohmann::json input_hashes_json(const ScanConfig& config, const MapResults& r) {
+  // The hashes read with the inputs; a file read without them is hashed here.
+  auto hash = [&](const std::string& path) {
+    const auto it = r.input_file_hashes.find(path);
+    return it != r.input_file_hashes.end() ? it->second : file_hash_fnv1a64(path);
+  };
   nlohmann::json hashes;
-  hashes["scan_description"] = {{"file", config.path}, {"fnv1a64", file_hash_fnv1a64(config.path)}};
-  hashes["patterns"] = {{"file", config.patterns.path},
-                        {"fnv1a64", fs::is_directory(config.patterns.path) ? std::string("(folder)")
-                                                                           : file_hash_fnv1a64(config.patterns.path)}};
+  hashes["scan_description"] = {{"file", config.path}, {"fnv1a64", hash(config.path)}};
+  hashes["patterns"] = {
+      {"file", config.patterns.path},
+      {"fnv1a64", fs::is_directory(config.patterns.path) ? std::string("(folder)") : hash(config.patterns.path)}};
   if (config.orientations.source == OrientationSourceKind::file)
-    hashes["orientations"] = {{"file", config.orientations.file},
-                              {"fnv1a64", file_hash_fnv1a64(config.orientations.file)}};
+    hashes["orientations"] = {{"file", config.orientations.file}, {"fnv1a64", hash(config.orientations.file)}};
   for (const auto& [key, file] :
        {std::pair<const char*, const std::string&>{"ordered_mask", config.end_members.ordered_mask},
         {"disordered_mask", config.end_members.disordered_mask}})
-    if (!file.empty()) hashes[key] = {{"file", file}, {"fnv1a64", file_hash_fnv1a64(file)}};
+    if (!file.empty()) hashes[key] = {{"file", file}, {"fnv1a64", hash(file)}};
   return hashes;
 }
 
@@ -754,7 +758,7 @@ nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const 
   j["faulty_pattern_list"] = faulty;
   j["command_line"] = command_line;
   j["scan"] = config.path;
-  j["input_hashes"] = input_hashes_json(config);
+  j["input_hashes"] = input_hashes_json(config, r);
   add_fraction_summary(j, config, r, options);
   add_particle_summary(j, config, r);
   j["parameters"] = parameters_json(config, r, options);
@@ -950,9 +954,10 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
   write_map_images(folder, grid, r, text);
 
   // Tables.
-  write_text_atomically(folder + "/particles.csv", particle_table_csv(r, provenance));
-  write_text_atomically(folder + "/classes.csv", class_table_csv(r, provenance));
-  write_text_atomically(folder + "/points.csv", point_table_csv(grid, r, provenance));
+  const std::vector<CsvTable> tables{{"particles", particle_table_csv(r, provenance)},
+                                     {"classes", class_table_csv(r, provenance)},
+                                     {"points", point_table_csv(grid, r, provenance)}};
+  for (const CsvTable& t : tables) write_text_atomically(folder + "/" + t.name + ".csv", t.csv);
 
   // Summary.
   const nlohmann::json j = map_summary(config, r, options, command_line, all_arrays);
@@ -960,11 +965,7 @@ void write_map_outputs(const std::string& folder, const ScanConfig& config, cons
 
   // The same for other tools: float TIFFs and one HDF5 file with every array, table and the summary.
   write_point_arrays_tiff(folder, grid.rows, grid.cols, all_arrays);
-  write_results_h5(folder + "/results.h5", grid.rows, grid.cols, all_arrays,
-                   {{"particles", particle_table_csv(r, provenance)},
-                    {"classes", class_table_csv(r, provenance)},
-                    {"points", point_table_csv(grid, r, provenance)}},
-                   j.dump(2), provenance);
+  write_results_h5(folder + "/results.h5", grid.rows, grid.cols, all_arrays, tables, j.dump(2), provenance);
 
   // Plots.
   const std::vector<std::string> profile_charts = band_profile_charts(r, options.fraction);

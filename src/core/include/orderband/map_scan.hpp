@@ -2,6 +2,7 @@
 #pragma once
 
 #include <functional>
+#include <map>
 #include <string>
 
 #include "orderband/detection_limit.hpp"
@@ -27,6 +28,8 @@ struct MapOptions {
 
 struct MapResults {
   MapOptions options;  ///< as applied: the scan description's choices included (options_for_scan)
+  /// The input files' hashes by path, as read with the inputs (ScanInputs::file_hashes).
+  std::map<std::string, std::string> input_file_hashes;
   std::string ordered_phase, disordered_phase;
   OrientationResults orientations;
   FractionResults fraction;

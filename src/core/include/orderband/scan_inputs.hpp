@@ -2,6 +2,7 @@
 #pragma once
 
 #include <cstdint>
+#include <map>
 #include <memory>
 #include <optional>
 #include <string>
@@ -28,6 +29,9 @@ struct ScanInputs {
   /// 64-bit FNV-1a over every input file (description, patterns, CIFs or pair name, orientation
   /// table, point masks, pattern mask, background image) as 16 hex digits; empty when not hashed.
   std::string input_hash;
+  /// Each input file's own FNV-1a hash by path (empty when not hashed): the summary records them
+  /// without reading the files again.
+  std::map<std::string, std::string> file_hashes;
 
   const ScanGrid& grid() const { return config.grid; }
   /// The detector geometry for the stored patterns.

@@ -1,6 +1,7 @@
 // Reading one scan's inputs from the files its description names.
 #pragma once
 
+#include <map>
 #include <string>
 
 #include "orderband/scan_inputs.hpp"
@@ -17,5 +18,7 @@ ScanInputs read_scan_inputs(const ScanConfig& config, InputHashing hashing = Inp
 
 /// The hash of every input file of a description (ScanInputs::input_hash).
 std::string scan_input_hash(const ScanConfig& config);
+/// Each input file's own hash by path (ScanInputs::file_hashes; a folder: its files' hash).
+std::map<std::string, std::string> input_file_hashes(const ScanConfig& config);
 
 }  // namespace orderband
