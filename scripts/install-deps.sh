@@ -10,7 +10,7 @@ packages=(
   libhdf5-dev libtomlplusplus-dev nlohmann-json3-dev libpng-dev libtiff-dev
   python3-numpy python3-scipy python3-healpy python3-skimage python3-h5py
   chromium
-  clang libclang-rt-14-dev libomp-dev
+  clang clang-tidy libclang-rt-14-dev libomp-dev
 )
 
 missing=()

@@ -1,7 +1,9 @@
 #!/usr/bin/env bash
 # Installs what is missing, builds orderband and runs the whole test suite.
 #   bash scripts/run-tests.sh             release build in build/
-#   bash scripts/run-tests.sh --sanitize  AddressSanitizer + UndefinedBehaviorSanitizer build in build-sanitize/
+#   bash scripts/run-tests.sh --sanitize  AddressSanitizer + UndefinedBehaviorSanitizer build in build-sanitize/,
+#                                         with clang and every warning an error (its compile database
+#                                         serves scripts/run-tidy.sh)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 bash scripts/install-deps.sh
@@ -17,7 +19,8 @@ if [ "${1:-}" = "--sanitize" ]; then
   # tests run) run in the release build only, which keeps CI well inside its time.
   ctest_args=(-E "SameResultsWithOneAndTwoThreads|CobaltAndB2PairsFromTheirCifFilesAlone|ClassifiesWhereTheModelsWeightsAreWrong|AreaFractionWhereTheOrderedFundamentalsAreWeaker|ReferenceRegionsSetTheEndMembers|SubResolutionTertiaryFraction|LowCountsWithNeighbourAveraging|NoOrientationBiasPureGammaGrainsAndAPrimaryParticle|OrientScan.GrainsMatchTheTruth|MapSizes|HoldsOnRendererVariantsItIsNotTold|HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBroke|OnePhaseIsReportedAsOnePhase")
   build_dir=build-sanitize
-  cmake_args=(-DCMAKE_BUILD_TYPE=RelWithDebInfo -DORDERBAND_SANITIZE=ON -DORDERBAND_BUILD_BENCH=OFF)
+  cmake_args=(-DCMAKE_BUILD_TYPE=RelWithDebInfo -DORDERBAND_SANITIZE=ON -DORDERBAND_BUILD_BENCH=OFF
+    -DORDERBAND_WERROR=ON -DCMAKE_EXPORT_COMPILE_COMMANDS=ON -DCMAKE_C_COMPILER=clang -DCMAKE_CXX_COMPILER=clang++)
   export ASAN_OPTIONS=detect_leaks=1:abort_on_error=1
   export UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
 fi

@@ -17,6 +17,7 @@
 #include "orderband/npy_io.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/scan_config_toml.hpp"
+#include "orderband/screen_folder.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/synth_scan.hpp"
 #include "orderband/version.hpp"
@@ -311,6 +312,40 @@ TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
   EXPECT_EQ(j["trials"].size(), 2u);
   EXPECT_EQ(j["ranking"].size(), 2u);
   EXPECT_TRUE(fs::exists(dir + "/out/report.html"));
+  fs::remove_all(dir);
+}
+
+TEST(CliScreen, TheLibraryScreensAsTheCommandLineDoes) {
+  // screen_to_folder with default options against `orderband screen` with default options: the
+  // same run keys, the same comparison table (but for the command line in its first line), and
+  // the structs hold what the files say.
+  const std::string dir = test::make_temp_dir("screen-lib");
+  fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
+  write_two_trials(dir + "/trials.toml", make_scan(dir + "/a", 16, 43), make_scan(dir + "/b", 16, 44));
+  const auto r = test::run_orderband("screen " + dir + "/trials.toml -o " + dir + "/cli --quiet");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::vector<std::string> messages;
+  ScreenProgress progress;
+  progress.message = [&](const std::string& line) { messages.push_back(line); };
+  const ScreenRun run = screen_to_folder(dir + "/trials.toml", dir + "/lib", MapOptions{}, "library", progress);
+  EXPECT_EQ(run.computed, (std::vector<std::string>{"A", "B"}));
+  EXPECT_TRUE(run.failed.empty());
+  ASSERT_EQ(messages.size(), 2u);
+  EXPECT_NE(messages[0].find("trial A: mapping"), std::string::npos) << messages[0];
+  for (const char* label : {"A", "B"})
+    EXPECT_EQ(slurp(dir + "/lib/" + label + "/run_key.txt"), slurp(dir + "/cli/" + label + "/run_key.txt"));
+  auto without_first_line = [](const std::string& text) { return text.substr(text.find('\n') + 1); };
+  const std::string table = without_first_line(slurp(dir + "/lib/comparison.csv"));
+  EXPECT_EQ(table, without_first_line(slurp(dir + "/cli/comparison.csv")));
+  const auto j = nlohmann::json::parse(slurp(dir + "/lib/comparison.json"));
+  ASSERT_EQ(run.summaries.size(), 2u);
+  ASSERT_EQ(run.comparison.ranking.size(), 2u);
+  for (size_t i = 0; i < 2; ++i) {
+    EXPECT_EQ(j["trials"][i]["ordered_area_fraction"].get<double>(), run.summaries[i].ordered_fraction.value);
+    EXPECT_EQ(j["trials"][i]["classes"]["secondary"]["count"].get<int>(), run.summaries[i].secondary.count);
+    EXPECT_EQ(j["trials"][i]["rank"].get<size_t>(), place_in(run.comparison.ranking, i).first);
+  }
+  EXPECT_EQ(run.report, dir + "/lib/report.html");
   fs::remove_all(dir);
 }
 

@@ -40,7 +40,7 @@ std::function<int()> setup_demo(CLI::App& sub) {
       "($ORDERBAND_CACHE, else ~/.cache/orderband) if they are not there yet, maps each and screens them.");
   return [o]() {
     apply_threads(o->threads);
-    const ScreenOutcome r = run_screen(demo_data_dir() + "/trials.toml", o->out, MapRunOptions{}, o->quiet);
+    const ScreenRun r = run_screen(demo_data_dir() + "/trials.toml", o->out, MapRunOptions{}, o->quiet);
     std::printf("demo report: %s\n", fs::absolute(r.report).lexically_normal().c_str());
     return r.failed.empty() ? 0 : 1;
   };

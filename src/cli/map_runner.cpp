@@ -1,14 +1,11 @@
 // Shared `map` runner.
 #include "map_runner.hpp"
 
-#include <memory>
-#include <sstream>
+#include <functional>
 
 #include "command.hpp"
 #include "orderband/error.hpp"
-#include "orderband/input_hash.hpp"
 #include "orderband/map_folder.hpp"
-#include "orderband/version.hpp"
 #include "progress.hpp"
 
 namespace orderband::cli {
@@ -29,27 +26,13 @@ MapOptions to_map_options(const MapRunOptions& o) {
   return m;
 }
 
-std::string map_key(const ScanInputs& inputs, const MapRunOptions& o) {
-  if (inputs.input_hash.empty()) fail("internal: the scan's inputs were read without their hash");
-  std::ostringstream k;
-  k << kVersion << '|' << inputs.input_hash << '|' << o.threshold << o.otsu << o.connectivity << o.min_particle
-    << o.class_bounds[0] << o.class_bounds[1] << o.grain_threshold << o.end_members << o.estimator << o.no_mean_spheres;
-  return text_hash_fnv1a64(k.str());
-}
+std::string map_key(const ScanInputs& inputs, const MapRunOptions& o) { return map_run_key(inputs, to_map_options(o)); }
 
 MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet) {
-  std::unique_ptr<ProgressReporter> bar;
-  std::string current;
-  auto progress = [&](const std::string& stage, size_t done, size_t total) {
-    if (stage != current) {
-      if (bar) bar->finish();
-      current = stage;
-      bar = std::make_unique<ProgressReporter>(stage, "points", quiet);
-    }
-    (*bar)(done, total);
-  };
-  MapFolderRun run = map_to_folder(inputs, folder, to_map_options(o), map_key(inputs, o), command_line(), progress);
-  if (bar) bar->finish();
+  StageBars bars("points", quiet);
+  MapFolderRun run =
+      map_to_folder(inputs, folder, to_map_options(o), map_key(inputs, o), command_line(), std::ref(bars));
+  bars.finish();
   if (!quiet && run.rows_resumed > 0)
     std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", run.rows_resumed);
   if (!quiet && run.rows_damaged > 0)

@@ -24,8 +24,7 @@ struct MapRunOptions {
 
 void add_map_options(CLI::App& sub, MapRunOptions& o);
 MapOptions to_map_options(const MapRunOptions& o);
-/// A key of everything that determines the results: tool version, the hash of every input file
-/// (ScanInputs::input_hash), options.
+/// The run key of these options on these inputs (map_run_key).
 std::string map_key(const ScanInputs& inputs, const MapRunOptions& o);
 /// Runs every stage with a progress bar and a resume store in folder/.resume; writes the outputs.
 MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet);

@@ -43,4 +43,18 @@ void ProgressReporter::finish() {
   std::fprintf(stderr, "%s: done in %.1f s\n", label_.c_str(), elapsed);
 }
 
+void StageBars::operator()(const std::string& stage, size_t done, size_t total) {
+  if (!bar_ || stage != current_) {
+    finish();
+    current_ = stage;
+    bar_ = std::make_unique<ProgressReporter>(stage, unit_, quiet_);
+  }
+  (*bar_)(done, total);
+}
+
+void StageBars::finish() {
+  if (bar_) bar_->finish();
+  bar_.reset();
+}
+
 }  // namespace orderband::cli

@@ -3,7 +3,6 @@
 #include "fraction_grain_frames.hpp"
 
 #include <algorithm>
-#include <array>
 #include <cmath>
 
 #include <Eigen/Dense>
@@ -14,57 +13,6 @@
 namespace orderband {
 
 namespace {
-
-/// Nelder–Mead minimisation over a 3-vector from the origin (initial simplex size `step`),
-/// until the simplex is smaller than `tolerance` or after `max_evaluations`.
-template <class F>
-Eigen::Vector3d nelder_mead_3(F&& f, double step, double tolerance, int max_evaluations) {
-  std::array<Eigen::Vector3d, 4> x{Eigen::Vector3d::Zero(), Eigen::Vector3d(step, 0, 0), Eigen::Vector3d(0, step, 0),
-                                   Eigen::Vector3d(0, 0, step)};
-  std::array<double, 4> y;
-  for (int i = 0; i < 4; ++i) y[i] = f(x[i]);
-  int evaluations = 4;
-  while (evaluations < max_evaluations) {
-    std::array<int, 4> order{0, 1, 2, 3};
-    std::sort(order.begin(), order.end(), [&](int a, int b) { return y[a] < y[b]; });
-    const int best = order[0], worst = order[3], second = order[2];
-    double size = 0;
-    for (int i = 1; i < 4; ++i) size = std::max(size, (x[order[i]] - x[best]).norm());
-    if (size < tolerance) break;
-    const Eigen::Vector3d centroid = (x[order[0]] + x[order[1]] + x[order[2]]) / 3;
-    const Eigen::Vector3d reflected = centroid + (centroid - x[worst]);
-    const double yr = f(reflected);
-    ++evaluations;
-    if (yr < y[best]) {
-      const Eigen::Vector3d expanded = centroid + 2 * (centroid - x[worst]);
-      const double ye = f(expanded);
-      ++evaluations;
-      if (ye < yr)
-        x[worst] = expanded, y[worst] = ye;
-      else
-        x[worst] = reflected, y[worst] = yr;
-    } else if (yr < y[second]) {
-      x[worst] = reflected, y[worst] = yr;
-    } else {
-      const Eigen::Vector3d contracted = centroid + 0.5 * (x[worst] - centroid);
-      const double yc = f(contracted);
-      ++evaluations;
-      if (yc < y[worst]) {
-        x[worst] = contracted, y[worst] = yc;
-      } else {
-        for (int i = 1; i < 4; ++i) {
-          x[order[i]] = x[best] + 0.5 * (x[order[i]] - x[best]);
-          y[order[i]] = f(x[order[i]]);
-          ++evaluations;
-        }
-      }
-    }
-  }
-  int best = 0;
-  for (int i = 1; i < 4; ++i)
-    if (y[i] < y[best]) best = i;
-  return x[best];
-}
 
 /// Per grain id: the sum of its points' preprocessed patterns and their count (points with an
 /// orientation and a usable pattern).
@@ -130,25 +78,16 @@ void refine_pattern_centre(FractionScan& scan, const GrainSums& sums, FractionRe
   for (size_t i = 0; i < order.size(); ++i) scan.grain_orientation[order[i]] = fit.orientation[i];
 }
 
+/// Each grain's orientation fitted to its mean pattern (the centre fixed), by the same
+/// least-squares fit as the pattern centre's.
 void refine_grain_orientations(FractionScan& scan, const GrainSums& sums) {
   const ProcessedModel model = processed_disordered(scan);
   const std::vector<uint8_t>& mask = scan.pre.mask();
+  const DetectorGeometrySpec geometry = scan.geometry.spec();
 #pragma omp parallel for schedule(dynamic)
   for (int g = 1; g <= scan.grains; ++g) {
     if (sums.count[g] < scan.spec.min_points_for_grain_fit) continue;
-    const std::vector<float> mean = sums.mean(g);
-    std::vector<float> img(scan.pixels());
-    const Rotation start = scan.grain_orientation[g];
-    auto cost = [&](const Eigen::Vector3d& v) {
-      const Rotation trial = v.norm() > 0 ? Rotation::from_axis_angle(v, v.norm()) * start : start;
-      model(scan.geometry, trial, img.data());
-      double sxy = 0, sxx = 0, syy = 0;
-      for (size_t q = 0; q < img.size(); ++q)
-        if (mask[q]) sxy += img[q] * mean[q], sxx += img[q] * img[q], syy += mean[q] * mean[q];
-      return -sxy / std::sqrt(std::max(sxx * syy, 1e-300));
-    };
-    const Eigen::Vector3d best = nelder_mead_3(cost, deg_to_rad(0.1), deg_to_rad(0.0005), 600);
-    if (best.norm() > 0) scan.grain_orientation[g] = Rotation::from_axis_angle(best, best.norm()) * start;
+    scan.grain_orientation[g] = fit_grain_orientation(geometry, {sums.mean(g), scan.grain_orientation[g]}, mask, model);
   }
 }
 

@@ -9,7 +9,7 @@ namespace orderband {
 /// centre and distance on the largest grains' mean patterns jointly with their orientations (a
 /// calibration error of a few tenths of a pixel distorts the model against the data and shifts f by
 /// a few hundredths), and (2) refines each grain's orientation against the processed model
-/// (Nelder–Mead on a rotation vector, correlation with the grain's mean pattern). Every point of
+/// (least squares on a rotation vector against the grain's mean pattern, fit_grain_orientation). Every point of
 /// a grain then takes the same correction, which keeps its own deviation from the grain mean
 /// (intragranular gradients) but removes a bias that fitting the unprocessed model leaves in the
 /// orientation stage. Updates scan.geometry, scan.rays, scan.grain_orientation and

@@ -1,8 +1,11 @@
-// Gauss–Newton orientation refinement against the kinematic model.
+// Orientation refinement against the kinematic model (the shared Levenberg–Marquardt).
 #include "orderband/refine.hpp"
 
 #include <Eigen/Dense>
 #include <cmath>
+#include <functional>
+
+#include "orderband/least_squares.hpp"
 
 #include "orderband/units.hpp"
 
@@ -75,49 +78,121 @@ double OrientationRefiner::correlation(const float* pattern, const Rotation& g, 
   return var > 0 ? cov / std::sqrt(var) : 0.0;
 }
 
-RefineResult OrientationRefiner::refine(const float* pattern, const Rotation& start) const {
-  RefineResult r;
-  r.orientation = start;
-  std::vector<double> m;
-  std::vector<Eigen::Vector3d> grad;
-  double a = 1, b = 0;
-  for (int it = 0; it < spec_.max_iterations; ++it) {
-    evaluate(r.orientation, m, &grad);
-    // Linear parameters first (closed form), then the Gauss–Newton step for all five.
-    double sm = 0, smm = 0, sp = 0, spm = 0;
+namespace {
+
+/// P ≈ a·M(g) + b with g = exp(δ)·g_current: the rotation δ is the parameter, a and b are solved in
+/// closed form at every point (variable projection), so the normal equations are those of the
+/// five-parameter fit reduced to the rotation by the Schur complement. Each accepted point becomes
+/// the next linearisation point, so the steps are exactly the small rotations the model's
+/// derivative describes.
+class RefineProblem : public LeastSquaresProblem {
+ public:
+  using Evaluate = std::function<void(const Rotation&, std::vector<double>&, std::vector<Eigen::Vector3d>*)>;
+  RefineProblem(const float* pattern, const std::vector<uint32_t>& index, const Rotation& start, Evaluate evaluate)
+      : pattern_(pattern), index_(index), evaluate_(std::move(evaluate)) {
+    current_.orientation = start;
+  }
+
+  int parameters() const override { return 3; }
+  double cost(const Eigen::VectorXd& p) override {
+    trial_.orientation = rotation_at(p);
+    evaluate_(trial_.orientation, trial_.model, &trial_.gradient);
+    return fit_linear(trial_);
+  }
+  void accept(const Eigen::VectorXd& p) override {
+    std::swap(current_, trial_);
+    current_p_ = p;
+  }
+  void normal_equations(const Eigen::VectorXd&, Eigen::MatrixXd& jtj, Eigen::VectorXd& jtr) override {
+    Eigen::Matrix<double, 5, 5> full = Eigen::Matrix<double, 5, 5>::Zero();
+    Eigen::Matrix<double, 5, 1> g = Eigen::Matrix<double, 5, 1>::Zero();
+    const State& s = current_;
+    for (size_t q = 0; q < s.model.size(); ++q) {
+      Eigen::Matrix<double, 5, 1> j;
+      j << s.a * s.gradient[q], s.model[q], 1.0;
+      full.selfadjointView<Eigen::Lower>().rankUpdate(j);
+      g -= j * (pattern_[index_[q]] - (s.a * s.model[q] + s.b));  // Jᵀr with r = model − pattern
+    }
+    full = full.selfadjointView<Eigen::Lower>();
+    const Eigen::Matrix2d d = full.bottomRightCorner<2, 2>();
+    const Eigen::Matrix<double, 3, 2> b = full.topRightCorner<3, 2>();
+    const Eigen::Matrix<double, 2, 3> d_inv_bt = d.ldlt().solve(b.transpose());
+    jtj = full.topLeftCorner<3, 3>() - b * d_inv_bt;
+    jtr = g.head<3>() - d_inv_bt.transpose() * g.tail<2>();
+  }
+  const Rotation& orientation() const { return current_.orientation; }
+  /// Pearson r between the pattern and the model at the current point.
+  double correlation() const {
+    double sp = 0, sm = 0, spp = 0, smm = 0, spm = 0;
+    const std::vector<double>& m = current_.model;
     const double n = static_cast<double>(m.size());
     for (size_t q = 0; q < m.size(); ++q) {
-      const double p = pattern[index_[q]];
-      sm += m[q], smm += m[q] * m[q], sp += p, spm += p * m[q];
+      const double p = pattern_[index_[q]];
+      sp += p, sm += m[q], spp += p * p, smm += m[q] * m[q], spm += p * m[q];
+    }
+    const double cov = spm / n - sp / n * sm / n;
+    const double var = (spp / n - sp * sp / n / n) * (smm / n - sm * sm / n / n);
+    return var > 0 ? cov / std::sqrt(var) : 0.0;
+  }
+
+ private:
+  struct State {
+    Rotation orientation;
+    std::vector<double> model;
+    std::vector<Eigen::Vector3d> gradient;
+    double a = 1, b = 0;
+  };
+  /// c′ = c + ε × c: the current crystal frame turned by |ε| about ε, ε = p − p_current.
+  Rotation rotation_at(const Eigen::VectorXd& p) const {
+    const Eigen::Vector3d eps = (p - current_p_).head<3>();
+    if (!(eps.norm() > 0)) return current_.orientation;
+    return Rotation::from_matrix(Eigen::AngleAxisd(eps.norm(), eps.normalized()).toRotationMatrix() *
+                                 current_.orientation.matrix());
+  }
+  /// a and b by linear least squares at the state's model values; returns Σ (P − a M − b)².
+  double fit_linear(State& s) const {
+    double sm = 0, smm = 0, sp = 0, spm = 0;
+    const double n = static_cast<double>(s.model.size());
+    for (size_t q = 0; q < s.model.size(); ++q) {
+      const double p = pattern_[index_[q]], m = s.model[q];
+      sm += m, smm += m * m, sp += p, spm += p * m;
     }
     const double det = n * smm - sm * sm;
-    if (det > 0) a = (n * spm - sm * sp) / det, b = (sp - a * sm) / n;
-    Eigen::Matrix<double, 5, 5> JtJ = Eigen::Matrix<double, 5, 5>::Zero();
-    Eigen::Matrix<double, 5, 1> Jtr = Eigen::Matrix<double, 5, 1>::Zero();
-    for (size_t q = 0; q < m.size(); ++q) {
-      Eigen::Matrix<double, 5, 1> j;
-      j << a * grad[q], m[q], 1.0;
-      const double res = pattern[index_[q]] - (a * m[q] + b);
-      JtJ.selfadjointView<Eigen::Lower>().rankUpdate(j);
-      Jtr += j * res;
+    s.a = det > 0 ? (n * spm - sm * sp) / det : 1.0;
+    s.b = (sp - s.a * sm) / n;
+    double cost = 0;  // summed directly: the expanded sums would cancel near the minimum
+    for (size_t q = 0; q < s.model.size(); ++q) {
+      const double r = pattern_[index_[q]] - s.a * s.model[q] - s.b;
+      cost += r * r;
     }
-    const Eigen::Matrix<double, 5, 5> full = JtJ.selfadjointView<Eigen::Lower>();
-    const Eigen::Matrix<double, 5, 1> step = full.ldlt().solve(Jtr);
-    Eigen::Vector3d eps = step.head<3>();
-    if (!eps.allFinite()) break;
-    const double angle = eps.norm(), max_step = deg_to_rad(spec_.max_step_deg);
-    if (angle > max_step) eps *= max_step / angle;
-    // c' = c + ε × c: a rotation of the crystal frame by |ε| about ε.
-    if (eps.norm() > 0)
-      r.orientation = Rotation::from_matrix(Eigen::AngleAxisd(eps.norm(), eps.normalized()).toRotationMatrix() *
-                                            r.orientation.matrix());
-    r.iterations = it + 1;
-    if (rad_to_deg(eps.norm()) < spec_.converged_deg) {
-      r.converged = true;
-      break;
-    }
+    return cost;
   }
-  r.correlation = correlation(pattern, r.orientation);
+
+  const float* pattern_;
+  const std::vector<uint32_t>& index_;
+  Evaluate evaluate_;
+  State current_, trial_;
+  Eigen::VectorXd current_p_ = Eigen::VectorXd::Zero(3);
+};
+
+}  // namespace
+
+RefineResult OrientationRefiner::refine(const float* pattern, const Rotation& start) const {
+  RefineProblem problem(pattern, index_, start,
+                        [this](const Rotation& g, std::vector<double>& m, std::vector<Eigen::Vector3d>* gradient) {
+                          evaluate(g, m, gradient);
+                        });
+  LevenbergMarquardtSpec lm;
+  lm.max_iterations = spec_.max_iterations;
+  lm.max_step = deg_to_rad(spec_.max_step_deg);
+  const double converged_rad = deg_to_rad(spec_.converged_deg);
+  lm.converged = [converged_rad](const Eigen::VectorXd& step) { return step.norm() < converged_rad; };
+  const LeastSquaresResult fit = levenberg_marquardt(problem, Eigen::VectorXd::Zero(3), lm);
+  RefineResult r;
+  r.orientation = problem.orientation();
+  r.iterations = fit.iterations;
+  r.converged = fit.converged;
+  r.correlation = problem.correlation();
   return r;
 }
 

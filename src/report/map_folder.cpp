@@ -1,11 +1,20 @@
 // One scan mapped into an output folder: locked, resumable, complete.
 #include "orderband/map_folder.hpp"
 
+#include "orderband/error.hpp"
 #include "orderband/folder_lock.hpp"
 #include "orderband/folder_row_store.hpp"
+#include "orderband/input_hash.hpp"
 #include "orderband/map_output.hpp"
+#include "orderband/version.hpp"
 
 namespace orderband {
+
+std::string map_run_key(const ScanInputs& inputs, const MapOptions& options) {
+  if (inputs.input_hash.empty()) fail("internal: the scan's inputs were read without their hash");
+  return text_hash_fnv1a64(std::string(kVersion) + '|' + inputs.input_hash + '|' +
+                           map_parameters_text(inputs, options_for_scan(options, inputs)));
+}
 
 MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, const MapOptions& options,
                            const std::string& key, const std::string& command_line, const StageProgress& progress) {

@@ -639,10 +639,11 @@ void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const Map
 }
 
 /// Every parameter of the run, as the summary records them.
-nlohmann::json parameters_json(const ScanConfig& config, const MapResults& r, const MapOptions& options) {
+nlohmann::json parameters_json(const ScanConfig& config, const std::string& ordered_phase,
+                               const std::string& disordered_phase, const MapOptions& options) {
   const ScanGrid& grid = config.grid;
   return {{"kv", config.kv},
-          {"phases", {{"ordered", r.ordered_phase}, {"disordered", r.disordered_phase}}},
+          {"phases", {{"ordered", ordered_phase}, {"disordered", disordered_phase}}},
           {"preprocess",
            {{"static_background", config.preprocess.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
                                   : config.preprocess.static_background == StaticBackgroundKind::none    ? "none"
@@ -667,6 +668,17 @@ nlohmann::json parameters_json(const ScanConfig& config, const MapResults& r, co
                                                                                      : "windows"},
             {"sensitivity_threshold", options.fraction.sensitivity_threshold},
             {"d_min_A", options.fraction.d_min_A},
+            {"fundamental_families", options.fraction.fundamental_families},
+            {"min_points_for_grain_fit", options.fraction.min_points_for_grain_fit},
+            {"learned_profile_u_max", options.fraction.learned_profile.u_max},
+            {"learned_profile_bin_u", options.fraction.learned_profile.bin_u},
+            {"learned_iterations", options.fraction.learned.iterations},
+            {"learned_shrinkage", options.fraction.learned.shrinkage},
+            {"learned_min_evidence", options.fraction.learned.min_evidence},
+            {"learned_min_second_weight", options.fraction.learned.min_second_weight},
+            {"learned_min_class_points", options.fraction.learned.min_class_points},
+            {"learned_min_grain_points", options.fraction.learned.min_grain_points},
+            {"learned_spatial_start", options.fraction.learned.spatial_start},
             {"profile_u_max", options.fraction.profile.u_max},
             {"profile_bin_u", options.fraction.profile.bin_u},
             {"window_interior_max", options.fraction.windows.interior_max},
@@ -708,8 +720,24 @@ nlohmann::json parameters_json(const ScanConfig& config, const MapResults& r, co
             {"class_lower_um", options.classes.lower_um},
             {"e562_tiles", options.e562_tiles},
             {"bootstrap_block", options.bootstrap_block},
-            {"bootstrap_resamples", options.bootstrap_resamples}}}};
+            {"bootstrap_resamples", options.bootstrap_resamples},
+            {"split_touching", options.segment.split_touching},
+            {"split_sigma_steps", options.segment.split_sigma_steps},
+            {"split_depth_sd", options.segment.split_depth_sd},
+            {"detection_max_false_particles", options.detection.max_false_particles},
+            {"detection_noise_maps", options.detection.noise_maps},
+            {"detection_seed", options.detection.seed},
+            {"unfold_classes", options.unfold_classes}}},
+          {"mean_spheres", options.mean_spheres}};
 }
+
+}  // namespace
+
+std::string map_parameters_text(const ScanInputs& inputs, const MapOptions& options) {
+  return parameters_json(inputs.config, inputs.phases.ordered.name, inputs.phases.disordered.name, options).dump();
+}
+
+namespace {
 
 /// The files a run writes.
 nlohmann::json files_json(const std::vector<PointArray>& arrays) {
@@ -761,7 +789,7 @@ nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const 
   j["input_hashes"] = input_hashes_json(config, r);
   add_fraction_summary(j, config, r, options);
   add_particle_summary(j, config, r);
-  j["parameters"] = parameters_json(config, r, options);
+  j["parameters"] = parameters_json(config, r.ordered_phase, r.disordered_phase, options);
   j["files"] = files_json(arrays);
   return j;
 }

@@ -16,7 +16,12 @@ namespace orderband {
 struct MapOptions {
   OrientSpec orient;
   FractionSpec fraction;
-  SegmentSpec segment;  ///< min_points 0: from the detection limit
+  /// min_points 0 (the default here): from the detection limit, as the command line does it.
+  SegmentSpec segment = [] {
+    SegmentSpec s;
+    s.min_points = 0;
+    return s;
+  }();
   DetectionLimitSpec detection;
   SizeClasses classes;
   int e562_tiles = 4;       ///< fields per side for the ASTM E562 interval

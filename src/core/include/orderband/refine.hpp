@@ -1,4 +1,4 @@
-// Orientation refinement: Gauss–Newton fit of the kinematic band model to the pattern.
+// Orientation refinement: least-squares fit of the kinematic band model to the pattern.
 #pragma once
 
 #include <vector>
@@ -22,8 +22,9 @@ struct RefineResult {
 };
 
 /// Fits P ≈ a·M(g) + b over the mask, M the model intensity of the parent
-/// phase (band_model.hpp) at the pixels' crystal directions, by Gauss–Newton
-/// in (δg, a, b) with δg a small rotation of the crystal frame: the
+/// phase (band_model.hpp) at the pixels' crystal directions, by Levenberg–Marquardt
+/// (least_squares.hpp; nearly Gauss–Newton, but a step must lower the misfit) in δg with a and b
+/// solved in closed form at each point, with δg a small rotation of the crystal frame: the
 /// derivative of a band term w·p(α/θ_B) is w·p′(u)/θ_B · (c × n)/cos α.
 /// Band centres are symmetric under the pattern's background division, so
 /// fitting the unfiltered model to the preprocessed pattern leaves the

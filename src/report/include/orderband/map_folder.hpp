@@ -14,6 +14,12 @@ struct MapFolderRun {
   size_t rows_damaged = 0;  ///< row results found damaged and computed again
 };
 
+/// A key of everything that determines a map's results: the tool version, the hash of every
+/// input file (ScanInputs::input_hash, which must have been computed) and every parameter as the
+/// summary records it (options_for_scan applied). A folder whose key is unchanged holds results
+/// that a new run would reproduce.
+std::string map_run_key(const ScanInputs& inputs, const MapOptions& options);
+
 /// Maps a scan into `folder`: one run at a time per folder (a lock held while it runs), every
 /// finished row kept in folder/.resume under `key` (a different key starts afresh), so that an
 /// interrupted run continues where it stopped with byte-identical outputs; every output of `map`

@@ -5,6 +5,7 @@
 
 #include "orderband/map_scan.hpp"
 #include "orderband/scan_config.hpp"
+#include "orderband/scan_inputs.hpp"
 
 namespace orderband {
 
@@ -12,5 +13,9 @@ namespace orderband {
 /// with the tool version, the command line, the input files' hashes and the parameters.
 void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& results,
                        const MapOptions& options, const std::string& command_line);
+
+/// Every parameter of a run on these inputs, as the summary records them (JSON text): the
+/// options as applied (options_for_scan) and the description's own settings.
+std::string map_parameters_text(const ScanInputs& inputs, const MapOptions& options);
 
 }  // namespace orderband

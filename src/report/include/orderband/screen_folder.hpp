@@ -1,0 +1,46 @@
+// Heat-treatment trials screened into an output folder, as `orderband screen` does it: every trial
+// mapped (or reused when nothing changed), compared, ranked and reported.
+#pragma once
+
+#include <cstddef>
+#include <functional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "orderband/map_scan.hpp"
+#include "orderband/screen_comparison.hpp"
+#include "orderband/trials.hpp"
+
+namespace orderband {
+
+/// What a screen tells while it runs (every member may be empty).
+struct ScreenProgress {
+  std::function<void(const std::string& line)> message;      ///< one line per event: trial mapped or reused
+  std::function<void(const std::string& line)> warning;      ///< a trial's map warnings and failures
+  std::function<void(size_t done, size_t total)> synthesis;  ///< a scenario's scan being made
+  StageProgress map;                                         ///< a trial's map
+};
+
+struct ScreenRun {
+  TrialsConfig trials;                                      ///< the trials mapped and compared
+  std::vector<TrialSummary> summaries;                      ///< per compared trial
+  ScreenComparison comparison;                              ///< numbers, kinetics, rankings
+  std::vector<std::string> computed;                        ///< trials mapped in this run (others were reused)
+  std::vector<std::pair<std::string, std::string>> failed;  ///< (label, error) of trials whose map failed
+  std::string report;                                       ///< the report page's path
+};
+
+/// Screens the trials of `trials_path` into `out`: each trial's map in out/LABEL (map_to_folder;
+/// reused when its run key, map_run_key, is unchanged; a scenario's scan made once in the cache,
+/// scenario_cache_folder), then comparison.csv, comparison.json, the charts and report.html. A
+/// trial that fails is logged (screen_log.txt), listed in the report and left out of the
+/// comparison; the others go on (an Error only if every trial fails).
+ScreenRun screen_to_folder(const std::string& trials_path, const std::string& out, const MapOptions& options,
+                           const std::string& command_line, const ScreenProgress& progress = {});
+
+/// The cache of synthetic scans: $ORDERBAND_CACHE, else $XDG_CACHE_HOME/orderband, else
+/// ~/.cache/orderband, else a folder under the system's temporary folder.
+std::string scenario_cache_folder();
+
+}  // namespace orderband
