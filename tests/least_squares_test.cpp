@@ -88,7 +88,7 @@ TEST(LevenbergMarquardt, StepsAreShortenedToTheLimitAndTheCostNeverRises) {
   LevenbergMarquardtSpec spec;
   spec.max_step = 0.5, spec.limited = 2, spec.max_iterations = 4;
   LeastSquaresResult r = levenberg_marquardt(shift, Eigen::Vector2d::Zero(), spec);
-  EXPECT_NEAR(r.p.norm(), 2.0, 1e-12);  // four steps of 0.5
+  EXPECT_NEAR(r.p.norm(), 2.0, 1e-12);        // four steps of 0.5
   EXPECT_NEAR(r.p[0] / r.p[1], 0.75, 1e-12);  // along the steepest direction
   spec.max_iterations = 20;
   spec.converged = [](const Eigen::VectorXd& step) { return step.norm() < 1e-9; };

@@ -38,9 +38,8 @@ std::vector<Eigen::Vector3d> cubic_normals(const std::vector<Eigen::Vector3i>& f
       for (int s = 0; s < 8; ++s) {
         const Eigen::Vector3d v((s & 1 ? -1 : 1) * p[0], (s & 2 ? -1 : 1) * p[1], (s & 4 ? -1 : 1) * p[2]);
         const Eigen::Vector3d n = v.normalized();
-        const bool seen = std::any_of(out.begin(), out.end(), [&](const Eigen::Vector3d& m) {
-          return std::abs(std::abs(m.dot(n)) - 1) < 1e-12;
-        });
+        const bool seen = std::any_of(
+            out.begin(), out.end(), [&](const Eigen::Vector3d& m) { return std::abs(std::abs(m.dot(n)) - 1) < 1e-12; });
         if (!seen) out.push_back(n);
       }
     } while (std::next_permutation(p.begin(), p.end()));
@@ -69,8 +68,8 @@ TEST(BandDetection, FindsTheNormalsOfStraightStripesDrawnOnTheScreen) {
     for (int j = 0; j < 60; ++j) {
       const Eigen::Vector3d d = geometry.pixel_direction(j, i).vec();
       const double a1 = std::asin(n1.dot(d)) / width, a2 = std::asin(n2.dot(d)) / width;
-      pattern[i * 60 + j] = static_cast<float>(1 + 0.2 * std::exp(-0.5 * a1 * a1) + 0.15 * std::exp(-0.5 * a2 * a2) +
-                                               noise(rng));
+      pattern[i * 60 + j] =
+          static_cast<float>(1 + 0.2 * std::exp(-0.5 * a1 * a1) + 0.15 * std::exp(-0.5 * a2 * a2) + noise(rng));
     }
   const BandDetector detector(geometry, {});
   const std::vector<DetectedBand> bands = detector.detect(pattern.data());
@@ -93,8 +92,8 @@ TEST(Indexing, RecoversAnOrientationFromExactNormalsWithNoiseAndASpuriousBand) {
   std::vector<DetectedBand> bands;
   for (size_t k : {0u, 1u, 4u, 5u, 7u, 10u, 13u, 20u}) {
     const Eigen::Vector3d axis(gauss(rng), gauss(rng), gauss(rng));
-    const Eigen::Vector3d n = Eigen::AngleAxisd(deg_to_rad(0.3), axis.normalized()) *
-                              (truth.matrix().transpose() * normals[k]);
+    const Eigen::Vector3d n =
+        Eigen::AngleAxisd(deg_to_rad(0.3), axis.normalized()) * (truth.matrix().transpose() * normals[k]);
     bands.push_back({SampleDirection(n), 1.0 - 0.05 * bands.size(), 0, 0});
   }
   bands.push_back({SampleDirection(Eigen::Vector3d(0.61, -0.23, 0.77)), 0.5, 0, 0});

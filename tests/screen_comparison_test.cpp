@@ -41,7 +41,8 @@ TEST(ScreenComparison, RecoversTheRateConstantsAndTheActivationEnergyOfExactCubi
   auto k_at = [&](double c) { return 2e-5 * std::exp(-Q / R * (1 / (c + 273.15) - 1 / (760 + 273.15))); };
   const TrialsConfig tc = trials_at({{760, 4}, {760, 16}, {760, 64}, {840, 4}, {840, 16}, {840, 64}});
   std::vector<TrialSummary> s;
-  for (const Trial& t : tc.trials) s.push_back(trial_with_radius(std::cbrt(r0 * r0 * r0 + k_at(t.temperature_c) * t.time_h)));
+  for (const Trial& t : tc.trials)
+    s.push_back(trial_with_radius(std::cbrt(r0 * r0 * r0 + k_at(t.temperature_c) * t.time_h)));
   const ScreenComparison c = compare_trials(tc, s);
   ASSERT_EQ(c.kinetics.size(), 2u);
   EXPECT_EQ(c.kinetics[0].temperature_c, 760);
@@ -73,7 +74,8 @@ TEST(ScreenComparison, FallsBackToResolvedSectionsWhenOneTrialOfATemperatureHasN
 
 TEST(ScreenComparison, OneTrialAtATemperatureGetsANoteAndNoArrhenius) {
   const TrialsConfig tc = trials_at({{760, 4}, {760, 16}, {840, 4}});
-  const ScreenComparison c = compare_trials(tc, {trial_with_radius(0.05), trial_with_radius(0.06), trial_with_radius(0.07)});
+  const ScreenComparison c =
+      compare_trials(tc, {trial_with_radius(0.05), trial_with_radius(0.06), trial_with_radius(0.07)});
   ASSERT_EQ(c.kinetics.size(), 2u);
   EXPECT_TRUE(c.kinetics[0].fit.has_value());
   EXPECT_FALSE(c.kinetics[1].fit.has_value());

@@ -11,17 +11,63 @@
 
 namespace orderband::cli {
 
+namespace {
+
+struct FamiliesOptions {
+  std::vector<std::string> cifs;
+  std::string pair_name;
+  std::string ordered, disordered;
+  double kv = 20.0;
+  double d_min = 0.8;
+  double threshold = 0.5;
+  TableFormat format = TableFormat::text;
+};
+
+/// One table per phase of the given CIF files.
+void print_phase_tables(const FamiliesOptions& o, const TableProvenance& prov) {
+  std::vector<Phase> phases;
+  std::vector<std::vector<PhaseFamily>> tables;
+  for (const std::string& path : o.cifs) {
+    phases.push_back(load_phase_cif(path));
+    tables.push_back(phase_family_table(phases.back(), o.kv, o.d_min));
+  }
+  switch (o.format) {
+    case TableFormat::csv:
+      write_phase_families_csv(std::cout, phases, tables, prov);
+      break;
+    case TableFormat::json:
+      write_phase_families_json(std::cout, phases, tables, prov);
+      break;
+    case TableFormat::text:
+      for (size_t i = 0; i < phases.size(); ++i) {
+        if (i) std::cout << '\n';
+        write_phase_families_text(std::cout, phases[i], tables[i], prov);
+      }
+  }
+}
+
+/// The table of a pair: given by its two CIF files, or by name (default ni).
+void print_pair_table(const FamiliesOptions& o, const TableProvenance& prov, bool explicit_pair) {
+  const OrderingPair pair =
+      explicit_pair ? load_pair(o.ordered, o.disordered) : load_named_pair(o.pair_name.empty() ? "ni" : o.pair_name);
+  const std::vector<PairFamily> rows = pair_family_table(pair, o.kv, o.d_min);
+  switch (o.format) {
+    case TableFormat::csv:
+      write_pair_families_csv(std::cout, rows, prov);
+      break;
+    case TableFormat::json:
+      write_pair_families_json(std::cout, pair, rows, prov);
+      break;
+    case TableFormat::text:
+      write_pair_families_text(std::cout, pair, rows, prov);
+      break;
+  }
+}
+
+}  // namespace
+
 std::function<int()> setup_families(CLI::App& sub) {
-  struct Options {
-    std::vector<std::string> cifs;
-    std::string pair_name;
-    std::string ordered, disordered;
-    double kv = 20.0;
-    double d_min = 0.8;
-    double threshold = 0.5;
-    TableFormat format = TableFormat::text;
-  };
-  auto o = std::make_shared<Options>();
+  auto o = std::make_shared<FamiliesOptions>();
   sub.add_option("cif", o->cifs, "CIF files: one table per phase (without these, a pair is shown)");
   sub.add_option("--pair", o->pair_name, "named pair from crystal-data/pairs.toml (ni, co, feal); default ni");
   sub.add_option("--ordered", o->ordered, "CIF of the ordered phase of a pair (with --disordered)");
@@ -52,43 +98,11 @@ std::function<int()> setup_families(CLI::App& sub) {
       fail("give either CIF files (one table per phase) or a pair, not both");
     if (explicit_pair && !o->pair_name.empty()) fail("give either --pair or --ordered/--disordered, not both");
 
-    TableProvenance prov{kVersion, command_line(), o->kv, o->d_min, o->threshold};
-    if (!o->cifs.empty()) {
-      std::vector<Phase> phases;
-      std::vector<std::vector<PhaseFamily>> tables;
-      for (const std::string& path : o->cifs) {
-        phases.push_back(load_phase_cif(path));
-        tables.push_back(phase_family_table(phases.back(), o->kv, o->d_min));
-      }
-      switch (o->format) {
-        case TableFormat::csv:
-          write_phase_families_csv(std::cout, phases, tables, prov);
-          break;
-        case TableFormat::json:
-          write_phase_families_json(std::cout, phases, tables, prov);
-          break;
-        case TableFormat::text:
-          for (size_t i = 0; i < phases.size(); ++i) {
-            if (i) std::cout << '\n';
-            write_phase_families_text(std::cout, phases[i], tables[i], prov);
-          }
-      }
-      return 0;
-    }
-    const OrderingPair pair = explicit_pair ? load_pair(o->ordered, o->disordered)
-                                            : load_named_pair(o->pair_name.empty() ? "ni" : o->pair_name);
-    const std::vector<PairFamily> rows = pair_family_table(pair, o->kv, o->d_min);
-    switch (o->format) {
-      case TableFormat::csv:
-        write_pair_families_csv(std::cout, rows, prov);
-        break;
-      case TableFormat::json:
-        write_pair_families_json(std::cout, pair, rows, prov);
-        break;
-      case TableFormat::text:
-        write_pair_families_text(std::cout, pair, rows, prov);
-        break;
-    }
+    const TableProvenance prov{kVersion, command_line(), o->kv, o->d_min, o->threshold};
+    if (!o->cifs.empty())
+      print_phase_tables(*o, prov);
+    else
+      print_pair_table(*o, prov, explicit_pair);
     return 0;
   };
 }

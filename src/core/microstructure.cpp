@@ -46,7 +46,9 @@ double Particle::section_ecd_um() const {
   return 2 * std::sqrt(area / kPi);
 }
 
-Microstructure::Microstructure(const MicrostructureSpec& spec) : spec_(spec) {
+namespace {
+
+void check_spec(const MicrostructureSpec& spec) {
   if (!(spec.width_um > 0 && spec.height_um > 0)) fail("microstructure field must have a positive size");
   if (spec.grain_count < 1) fail("grain count must be at least 1, got ", spec.grain_count);
   for (const auto* c : {&spec.primary, &spec.secondary})
@@ -57,12 +59,24 @@ Microstructure::Microstructure(const MicrostructureSpec& spec) : spec_(spec) {
          " leave no matrix; keep their sum below 0.9");
   if (!(spec.tertiary_fraction >= 0 && spec.tertiary_fraction <= 1))
     fail("tertiary fraction must be within [0, 1], got ", spec.tertiary_fraction);
+}
 
+}  // namespace
+
+Microstructure::Microstructure(const MicrostructureSpec& spec) : spec_(spec) {
+  check_spec(spec);
   std::mt19937_64 rng(spec.seed);
+  place_grains(rng);
+  make_spatial_hash();
+  place_primary(rng);
+  place_secondary(rng);
+}
+
+/// Grains: Voronoi seeds over the field with a margin, so grains continue past its edges.
+void Microstructure::place_grains(std::mt19937_64& rng) {
+  const MicrostructureSpec& spec = spec_;
   std::uniform_real_distribution<double> u01(0, 1);
   const double W = spec.width_um, H = spec.height_um;
-
-  // Grains: Voronoi seeds over the field with a margin, so grains continue past its edges.
   const auto orientations = random_rotations(spec.grain_count, spec.seed ^ 0x9e3779b97f4a7c15ull);
   for (int g = 0; g < spec.grain_count; ++g) {
     Grain grain;
@@ -75,76 +89,89 @@ Microstructure::Microstructure(const MicrostructureSpec& spec) : spec_(spec) {
     }
     grains_.push_back(grain);
   }
+}
 
+/// Cells of the spatial hash: at least the largest particle, at least 2 % of the field.
+void Microstructure::make_spatial_hash() {
+  const MicrostructureSpec& spec = spec_;
+  const double W = spec.width_um, H = spec.height_um;
   const double max_d = std::max(spec.primary.area_fraction > 0 ? spec.primary.size.max_um() : 0.0,
                                 spec.secondary.area_fraction > 0 ? spec.secondary.size.max_um() : 0.0);
   cell_um_ = std::max(max_d, 0.02 * std::max(W, H));
   cells_x_ = static_cast<int>(std::ceil((W + 2 * cell_um_) / cell_um_)) + 1;
   cells_y_ = static_cast<int>(std::ceil((H + 2 * cell_um_) / cell_um_)) + 1;
   cells_.assign(static_cast<size_t>(cells_x_) * cells_y_, {});
+}
 
-  // Primary particles on grain boundaries, sectioned near their equator (|z| ≤ D/4).
-  const auto own = random_rotations(1000, spec.seed ^ 0x51ed2705ull);
-  if (spec.primary.area_fraction > 0) {
-    if (spec.grain_count < 2) fail("primary particles sit on grain boundaries: give at least 2 grains");
-    const double target = spec.primary.area_fraction * W * H;
-    double placed_area = 0;
-    for (int attempt = 0; attempt < 20000 && placed_area < target; ++attempt) {
-      Particle p;
-      p.cls = ParticleClass::primary;
-      p.shape = spec.primary.shape;
-      p.diameter_um = spec.primary.size.sample(rng);
-      // A random point moved onto the boundary between its two nearest grains.
-      Eigen::Vector2d x(u01(rng) * W, u01(rng) * H);
-      std::vector<std::pair<double, int>> d;
-      for (int g = 0; g < spec.grain_count; ++g) d.emplace_back((grains_[g].seed_um - x).squaredNorm(), g);
-      std::partial_sort(d.begin(), d.begin() + 2, d.end());
-      const Eigen::Vector2d a = grains_[d[0].second].seed_um, b = grains_[d[1].second].seed_um;
-      const Eigen::Vector2d n = (b - a).normalized();
-      x -= ((x - 0.5 * (a + b)).dot(n)) * n;
-      if (x.x() < 0 || x.x() > W || x.y() < 0 || x.y() > H) continue;
+/// Primary particles on grain boundaries, sectioned near their equator (|z| ≤ D/4).
+void Microstructure::place_primary(std::mt19937_64& rng) {
+  const MicrostructureSpec& spec = spec_;
+  std::uniform_real_distribution<double> u01(0, 1);
+  const double W = spec.width_um, H = spec.height_um;
+  if (!(spec.primary.area_fraction > 0)) return;
+  if (spec.grain_count < 2) fail("primary particles sit on grain boundaries: give at least 2 grains");
+  const auto own = random_rotations(1000, spec.seed ^ 0x51ed2705ull);  // own orientations, a sequence of their own
+  const double target = spec.primary.area_fraction * W * H;
+  double placed_area = 0;
+  for (int attempt = 0; attempt < 20000 && placed_area < target; ++attempt) {
+    Particle p;
+    p.cls = ParticleClass::primary;
+    p.shape = spec.primary.shape;
+    p.diameter_um = spec.primary.size.sample(rng);
+    // A random point moved onto the boundary between its two nearest grains.
+    Eigen::Vector2d x(u01(rng) * W, u01(rng) * H);
+    std::vector<std::pair<double, int>> d;
+    for (int g = 0; g < spec.grain_count; ++g) d.emplace_back((grains_[g].seed_um - x).squaredNorm(), g);
+    std::partial_sort(d.begin(), d.begin() + 2, d.end());
+    const Eigen::Vector2d a = grains_[d[0].second].seed_um, b = grains_[d[1].second].seed_um;
+    const Eigen::Vector2d n = (b - a).normalized();
+    x -= ((x - 0.5 * (a + b)).dot(n)) * n;
+    if (x.x() < 0 || x.x() > W || x.y() < 0 || x.y() > H) continue;
+    p.host_grain = grain_at(x);
+    p.centre_um = {x.x(), x.y(), (u01(rng) - 0.5) * 0.5 * p.diameter_um};
+    p.own_orientation = spec.primary.own_orientation;
+    p.orientation = p.own_orientation ? own[particles_.size() % own.size()] : grains_[p.host_grain].orientation;
+    if (overlaps(p)) continue;
+    p.id = static_cast<int>(particles_.size()) + 1;
+    particles_.push_back(p);
+    index_particle(static_cast<int>(particles_.size()) - 1);
+    placed_area += kPi / 4 * p.section_ecd_um() * p.section_ecd_um();
+  }
+}
+
+/// Secondary particles: a 3-D population of number density N_V = V_V / ⟨π D³/6⟩ in a slab
+/// of thickness T = D_max around the section plane, over the field plus a margin; only
+/// particles cut by the plane are kept (so larger ones are cut more often, as in a real section).
+void Microstructure::place_secondary(std::mt19937_64& rng) {
+  const MicrostructureSpec& spec = spec_;
+  std::uniform_real_distribution<double> u01(0, 1);
+  const double W = spec.width_um, H = spec.height_um;
+  if (!(spec.secondary.area_fraction > 0)) return;
+  const SizeDistribution& sd = spec.secondary.size;
+  const double T = sd.max_um(), margin = 0.5 * T;
+  const double n_v = spec.secondary.area_fraction / (kPi / 6 * sd.mean_cube_um3());
+  const double volume = (W + 2 * margin) * (H + 2 * margin) * T;
+  // The expected number, not a Poisson draw: the specimen's volume fraction is the target
+  // (up to the sampled sizes), so that sections of it test the stereology, not the count.
+  const long n = std::lround(n_v * volume);
+  if (n > 5'000'000) fail("secondary particles too small for the field: ", n, " would be generated");
+  for (long k = 0; k < n; ++k) {
+    Particle p;
+    p.cls = ParticleClass::secondary;
+    p.shape = spec.secondary.shape;
+    p.diameter_um = sd.sample(rng);
+    const double z = (u01(rng) - 0.5) * T;
+    for (int attempt = 0; attempt < 100; ++attempt) {
+      const Eigen::Vector2d x(-margin + u01(rng) * (W + 2 * margin), -margin + u01(rng) * (H + 2 * margin));
       p.host_grain = grain_at(x);
-      p.centre_um = {x.x(), x.y(), (u01(rng) - 0.5) * 0.5 * p.diameter_um};
-      p.own_orientation = spec.primary.own_orientation;
-      p.orientation = p.own_orientation ? own[particles_.size() % own.size()] : grains_[p.host_grain].orientation;
+      p.orientation = grains_[p.host_grain].orientation;
+      p.centre_um = {x.x(), x.y(), z};
+      if (std::abs(z) >= p.half_depth_um()) break;  // not cut by the section plane
       if (overlaps(p)) continue;
       p.id = static_cast<int>(particles_.size()) + 1;
       particles_.push_back(p);
       index_particle(static_cast<int>(particles_.size()) - 1);
-      placed_area += kPi / 4 * p.section_ecd_um() * p.section_ecd_um();
-    }
-  }
-
-  // Secondary particles: a 3-D population of number density N_V = V_V / ⟨π D³/6⟩ in a slab
-  // of thickness T = D_max around the section plane, over the field plus a margin; only
-  // particles cut by the plane are kept (so larger ones are cut more often, as in a real section).
-  if (spec.secondary.area_fraction > 0) {
-    const SizeDistribution& sd = spec.secondary.size;
-    const double T = sd.max_um(), margin = 0.5 * T;
-    const double n_v = spec.secondary.area_fraction / (kPi / 6 * sd.mean_cube_um3());
-    const double volume = (W + 2 * margin) * (H + 2 * margin) * T;
-    // The expected number, not a Poisson draw: the specimen's volume fraction is the target
-    // (up to the sampled sizes), so that sections of it test the stereology, not the count.
-    const long n = std::lround(n_v * volume);
-    if (n > 5'000'000) fail("secondary particles too small for the field: ", n, " would be generated");
-    for (long k = 0; k < n; ++k) {
-      Particle p;
-      p.cls = ParticleClass::secondary;
-      p.shape = spec.secondary.shape;
-      p.diameter_um = sd.sample(rng);
-      const double z = (u01(rng) - 0.5) * T;
-      for (int attempt = 0; attempt < 100; ++attempt) {
-        const Eigen::Vector2d x(-margin + u01(rng) * (W + 2 * margin), -margin + u01(rng) * (H + 2 * margin));
-        p.host_grain = grain_at(x);
-        p.orientation = grains_[p.host_grain].orientation;
-        p.centre_um = {x.x(), x.y(), z};
-        if (std::abs(z) >= p.half_depth_um()) break;  // not cut by the section plane
-        if (overlaps(p)) continue;
-        p.id = static_cast<int>(particles_.size()) + 1;
-        particles_.push_back(p);
-        index_particle(static_cast<int>(particles_.size()) - 1);
-        break;
-      }
+      break;
     }
   }
 }

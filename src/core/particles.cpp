@@ -130,6 +130,91 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
   return parts;
 }
 
+/// The 3 × 3 (hexagonal: 7-point) mean of f over its finite values, when the spec asks for it.
+std::vector<float> smoothed_fraction(const ScanGrid& grid, const std::vector<float>& fraction,
+                                     const SegmentSpec& spec) {
+  std::vector<float> f = fraction;
+  if (!spec.smooth) return f;
+  for (size_t k = 0; k < grid.count(); ++k) {
+    if (!std::isfinite(fraction[k])) continue;
+    double s = fraction[k];
+    int c = 1;
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+      const float v = fraction[grid.index(nb)];
+      if (std::isfinite(v)) s += v, ++c;
+    }
+    f[k] = static_cast<float>(s / c);
+  }
+  return f;
+}
+
+/// Second moments about the centroid, aspect ratio and major axis (each point a cell: the cell's
+/// own moment step²/12 is added).
+void add_shape(const ScanGrid& grid, const std::vector<size_t>& members, Particle2D& p) {
+  double mxx = 0, myy = 0, mxy = 0;
+  for (size_t k : members) {
+    const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+    const double dx = pos.x() - p.centroid_x_um, dy = pos.y() - p.centroid_y_um;
+    mxx += dx * dx, myy += dy * dy, mxy += dx * dy;
+  }
+  p.mxx_um2 = mxx / p.points, p.myy_um2 = myy / p.points, p.mxy_um2 = mxy / p.points;
+  mxx = mxx / p.points + grid.step_um * grid.step_um / 12;
+  myy = myy / p.points + grid.row_spacing_um() * grid.row_spacing_um() / 12;
+  mxy /= p.points;
+  const double tr = mxx + myy, det = mxx * myy - mxy * mxy;
+  const double disc = std::sqrt(std::max(0.0, tr * tr / 4 - det));
+  const double l1 = tr / 2 + disc, l2 = std::max(tr / 2 - disc, 1e-30);
+  p.aspect_ratio = std::sqrt(l1 / l2);
+  p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
+}
+
+/// The particle's host grain (most of its points), whether it holds most of that grain (its own
+/// orientation), and whether it touches two or more other grains (on a grain boundary).
+void add_grain_context(const ScanGrid& grid, const std::vector<int32_t>& grain, const std::map<int, int>& grain_points,
+                       const std::vector<int32_t>& provisional, const std::vector<size_t>& members, Particle2D& p) {
+  std::map<int, int> grains;
+  for (size_t k : members) grains[grain[k]]++;
+  const auto host =
+      std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; });
+  p.host_grain = host->first;
+  p.own_orientation = p.host_grain > 0 && 2 * host->second >= grain_points.at(p.host_grain);
+  std::set<int> outside;
+  for (size_t k : members)
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+      const size_t j = grid.index(nb);
+      if (provisional[j] != p.id && grain[j] > 0) outside.insert(grain[j]);
+    }
+  p.on_grain_boundary = outside.size() >= 2;
+}
+
+/// One particle from its points: size, centroid, mean fraction, border contact (and then the
+/// diameter of the circle its free boundary fits), shape and grain context.
+Particle2D measure_particle(const ScanGrid& grid, const std::vector<float>& fraction, const std::vector<int32_t>& grain,
+                            const std::map<int, int>& grain_points, const std::vector<int32_t>& provisional,
+                            const std::vector<size_t>& members, int id) {
+  Particle2D p;
+  p.id = id;
+  p.points = static_cast<int>(members.size());
+  p.area_um2 = p.points * (grid.step_um * grid.row_spacing_um());  // points × one point's cell
+  p.ecd_um = 2 * std::sqrt(p.area_um2 / kPi);
+  double sx = 0, sy = 0, sf = 0;
+  for (size_t k : members) {
+    const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+    sx += pos.x(), sy += pos.y(), sf += fraction[k];
+    const GridPoint q = grid.point(k);
+    if (q.row == 0 || q.col == 0 || q.row == grid.rows - 1 || q.col == grid.cols - 1) p.touches_border = true;
+  }
+  p.centroid_x_um = sx / p.points, p.centroid_y_um = sy / p.points, p.mean_fraction = sf / p.points;
+  p.class_diameter_um = p.ecd_um;
+  if (p.touches_border) {
+    const double fitted = free_boundary_circle_diameter(grid, members, [&](size_t j) { return provisional[j] != id; });
+    if (fitted > p.class_diameter_um) p.class_diameter_um = fitted;
+  }
+  add_shape(grid, members, p);
+  if (!grain.empty()) add_grain_context(grid, grain, grain_points, provisional, members, p);
+  return p;
+}
+
 }  // namespace
 
 Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& fraction,
@@ -140,19 +225,7 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
   if (spec.square_connectivity != 4 && spec.square_connectivity != 8)
     fail("square-grid connectivity must be 4 or 8, got ", spec.square_connectivity);
   const int conn = grid.kind == GridKind::hexagonal ? 6 : spec.square_connectivity;
-  std::vector<float> f = fraction;
-  if (spec.smooth) {
-    for (size_t k = 0; k < n; ++k) {
-      if (!std::isfinite(fraction[k])) continue;
-      double s = fraction[k];
-      int c = 1;
-      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
-        const float v = fraction[grid.index(nb)];
-        if (std::isfinite(v)) s += v, ++c;
-      }
-      f[k] = static_cast<float>(s / c);
-    }
-  }
+  const std::vector<float> f = smoothed_fraction(grid, fraction, spec);
   Segmentation seg;
   seg.threshold = spec.method == ThresholdMethod::otsu ? otsu_threshold(f) : spec.threshold;
   seg.label.assign(n, 0);
@@ -162,7 +235,6 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
     else
       ++seg.usable_points;
   }
-  const double cell = grid.step_um * grid.row_spacing_um();  // area of one point's cell (µm²)
   std::map<int, int> grain_points;
   for (int32_t g : grain) grain_points[g]++;
   const std::vector<std::vector<size_t>> parts = particle_parts(grid, f, seg, spec, conn);
@@ -175,57 +247,7 @@ Segmentation segment_particles(const ScanGrid& grid, const std::vector<float>& f
     }
     ++next;
     for (size_t k : members) provisional[k] = next;
-    Particle2D p;
-    p.id = next;
-    p.points = static_cast<int>(members.size());
-    p.area_um2 = p.points * cell;
-    p.ecd_um = 2 * std::sqrt(p.area_um2 / kPi);
-    double sx = 0, sy = 0, sf = 0;
-    std::map<int, int> grains;
-    for (size_t k : members) {
-      const Eigen::Vector2d pos = grid.position_um(grid.point(k));
-      sx += pos.x(), sy += pos.y(), sf += fraction[k];
-      if (!grain.empty()) grains[grain[k]]++;
-      const GridPoint q = grid.point(k);
-      if (q.row == 0 || q.col == 0 || q.row == grid.rows - 1 || q.col == grid.cols - 1) p.touches_border = true;
-    }
-    p.centroid_x_um = sx / p.points, p.centroid_y_um = sy / p.points, p.mean_fraction = sf / p.points;
-    p.class_diameter_um = p.ecd_um;
-    if (p.touches_border) {
-      const double fitted =
-          free_boundary_circle_diameter(grid, members, [&](size_t j) { return provisional[j] != next; });
-      if (fitted > p.class_diameter_um) p.class_diameter_um = fitted;
-    }
-    // Second moments about the centroid (each point a cell: add the cell's own moment step²/12).
-    double mxx = 0, myy = 0, mxy = 0;
-    for (size_t k : members) {
-      const Eigen::Vector2d pos = grid.position_um(grid.point(k));
-      const double dx = pos.x() - p.centroid_x_um, dy = pos.y() - p.centroid_y_um;
-      mxx += dx * dx, myy += dy * dy, mxy += dx * dy;
-    }
-    p.mxx_um2 = mxx / p.points, p.myy_um2 = myy / p.points, p.mxy_um2 = mxy / p.points;
-    mxx = mxx / p.points + grid.step_um * grid.step_um / 12;
-    myy = myy / p.points + grid.row_spacing_um() * grid.row_spacing_um() / 12;
-    mxy /= p.points;
-    const double tr = mxx + myy, det = mxx * myy - mxy * mxy;
-    const double disc = std::sqrt(std::max(0.0, tr * tr / 4 - det));
-    const double l1 = tr / 2 + disc, l2 = std::max(tr / 2 - disc, 1e-30);
-    p.aspect_ratio = std::sqrt(l1 / l2);
-    p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
-    if (!grains.empty()) {
-      const auto host =
-          std::max_element(grains.begin(), grains.end(), [](auto& a, auto& b) { return a.second < b.second; });
-      p.host_grain = host->first;
-      p.own_orientation = p.host_grain > 0 && 2 * host->second >= grain_points[p.host_grain];
-      std::set<int> outside;
-      for (size_t k : members)
-        for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
-          const size_t j = grid.index(nb);
-          if (provisional[j] != next && grain[j] > 0) outside.insert(grain[j]);
-        }
-      p.on_grain_boundary = outside.size() >= 2;
-    }
-    seg.particles.push_back(p);
+    seg.particles.push_back(measure_particle(grid, fraction, grain, grain_points, provisional, members, next));
   }
   for (size_t k = 0; k < n; ++k)
     if (seg.label[k] >= 0) seg.label[k] = provisional[k] > 0 ? provisional[k] : 0;

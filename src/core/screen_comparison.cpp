@@ -81,7 +81,8 @@ void fit_kinetics(const TrialsConfig& tc, const std::vector<TrialSummary>& summa
 }  // namespace
 
 ScreenComparison compare_trials(const TrialsConfig& tc, const std::vector<TrialSummary>& summaries) {
-  if (summaries.size() != tc.trials.size()) fail("internal: ", summaries.size(), " summaries for ", tc.trials.size(), " trials");
+  if (summaries.size() != tc.trials.size())
+    fail("internal: ", summaries.size(), " summaries for ", tc.trials.size(), " trials");
   ScreenComparison c;
   for (const TrialSummary& s : summaries) c.numbers.push_back(trial_numbers(s));
   fit_kinetics(tc, summaries, c);

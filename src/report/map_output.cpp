@@ -638,7 +638,8 @@ void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const Map
                        {"points_joined_to_grain", r.orientations.points_joined_to_grain}};
 }
 
-/// Every parameter of the run, as the summary records them.
+/// Every parameter of the run, as the summary records them. Longer than the ~80 lines a function
+/// should have only because it is one declarative table, one parameter per line.
 nlohmann::json parameters_json(const ScanConfig& config, const std::string& ordered_phase,
                                const std::string& disordered_phase, const MapOptions& options) {
   const ScanGrid& grid = config.grid;

@@ -59,8 +59,8 @@ std::string map_trial(const Trial& t, const std::string& out, const MapOptions& 
   const std::string folder = out + "/" + t.label;
   const std::string key = map_run_key(inputs, options);
   const std::string key_file = folder + "/run_key.txt";
-  const bool reuse = fs::exists(key_file) && fs::exists(folder + "/summary.json") &&
-                     read_text_file(key_file, "run key") == key + "\n";
+  const bool reuse =
+      fs::exists(key_file) && fs::exists(folder + "/summary.json") && read_text_file(key_file, "run key") == key + "\n";
   if (reuse) {
     log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
     tell(progress, "trial " + t.label + ": results reused (inputs unchanged)");

@@ -39,8 +39,8 @@ void write_truth_table(std::ostream& h, const ScreenView& v) {
       << format_number("%.3f", t.ordered_fraction.value) << " / " << format_number("%.3f", m.ordered_fraction.value)
       << "</td><td>" << format_number("%.3f", t.secondary_mean_ecd_um.value) << " / "
       << format_number("%.3f", m.secondary_mean_ecd_um.value) << "</td><td>"
-      << format_number("%.3f", t.primary_fraction) << " / " << format_number("%.3f", m.primary_fraction)
-      << "</td><td>" << to_string(t_entry ? t_entry->verdict : Verdict::outside) << " / "
+      << format_number("%.3f", t.primary_fraction) << " / " << format_number("%.3f", m.primary_fraction) << "</td><td>"
+      << to_string(t_entry ? t_entry->verdict : Verdict::outside) << " / "
       << to_string(m_entry ? m_entry->verdict : Verdict::outside) << "</td><td>" << t_rank << " / " << m_rank
       << "</td></tr>";
   }
@@ -73,17 +73,17 @@ nlohmann::json kinetics_json(const ScreenComparison& c, const TrialsConfig& tc) 
 
 nlohmann::json arrhenius_json(const ScreenComparison& c) {
   if (!c.arrhenius) return nullptr;
-  return {{"activation_energy_kj_mol", c.arrhenius->activation_kj_mol},
-          {"ci95", {finite_or_null(c.arrhenius->q_low), finite_or_null(c.arrhenius->q_high)}},
-          {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
+  return {
+      {"activation_energy_kj_mol", c.arrhenius->activation_kj_mol},
+      {"ci95", {finite_or_null(c.arrhenius->q_low), finite_or_null(c.arrhenius->q_high)}},
+      {"caution", "k also carries the 1/T prefactor and the solubility of the rate law, so Q is an apparent value"}};
 }
 
 /// One trial's row of comparison.csv.
 void write_csv_row(std::ostream& csv, const Trial& t, const TrialSummary& s, size_t rank, const Ranked* r) {
-  csv << t.label << ',' << t.temperature_c << ',' << t.time_h << ','
-      << format_number("%.5f", s.ordered_fraction.value) << ',' << format_number("%.5f", s.ordered_fraction.low) << ','
-      << format_number("%.5f", s.ordered_fraction.high) << ','
-      << format_number("%.5f", s.subresolution_ordered_fraction) << ','
+  csv << t.label << ',' << t.temperature_c << ',' << t.time_h << ',' << format_number("%.5f", s.ordered_fraction.value)
+      << ',' << format_number("%.5f", s.ordered_fraction.low) << ',' << format_number("%.5f", s.ordered_fraction.high)
+      << ',' << format_number("%.5f", s.subresolution_ordered_fraction) << ','
       << format_number("%.5f", s.primary.area_fraction) << ',' << format_number("%.5f", s.secondary.area_fraction)
       << ',' << s.secondary.count << ',' << format_number("%.5f", s.secondary.mean_ecd_um) << ','
       << format_number("%.5f", s.secondary.number_density_per_um2) << ',' << rank << ','
@@ -95,26 +95,25 @@ nlohmann::json trial_json(const ScreenView& v, size_t i, const nlohmann::json& s
   const Trial& t = v.tc.trials[i];
   const TrialNumbers& n = v.c.numbers[i];
   const auto [rank, r] = place_in(v.c.ranking, i);
-  nlohmann::json j = {
-      {"label", t.label},
-      {"temperature_c", t.temperature_c},
-      {"time_h", t.time_h},
-      {"notes", t.notes},
-      {"ordered_area_fraction", s["ordered_area_fraction"]},
-      {"ci95", s["ci95"]},
-      {"ci95_bootstrap", s["ci95_bootstrap"]},
-      {"subresolution_ordered_fraction", s["subresolution_ordered_fraction"]},
-      {"classes", s["classes"]},
-      {"rank", rank},
-      {"distance_to_target", r ? r->distance : 0.0},
-      {"verdict", r ? to_string(r->verdict) : ""},
-      {"flags", r ? nlohmann::json(r->flags) : nlohmann::json::array()},
-      {"secondary_mean_section_ecd_um",
-       {{"value", n.secondary_mean_ecd_um.value},
-        {"ci95", {n.secondary_mean_ecd_um.low, n.secondary_mean_ecd_um.high}},
-        {"from_3d_fit", n.secondary_size_from_fit}}},
-      {"secondary_3d", s["secondary_3d"]},
-      {"report", t.label + "/report.html"}};
+  nlohmann::json j = {{"label", t.label},
+                      {"temperature_c", t.temperature_c},
+                      {"time_h", t.time_h},
+                      {"notes", t.notes},
+                      {"ordered_area_fraction", s["ordered_area_fraction"]},
+                      {"ci95", s["ci95"]},
+                      {"ci95_bootstrap", s["ci95_bootstrap"]},
+                      {"subresolution_ordered_fraction", s["subresolution_ordered_fraction"]},
+                      {"classes", s["classes"]},
+                      {"rank", rank},
+                      {"distance_to_target", r ? r->distance : 0.0},
+                      {"verdict", r ? to_string(r->verdict) : ""},
+                      {"flags", r ? nlohmann::json(r->flags) : nlohmann::json::array()},
+                      {"secondary_mean_section_ecd_um",
+                       {{"value", n.secondary_mean_ecd_um.value},
+                        {"ci95", {n.secondary_mean_ecd_um.low, n.secondary_mean_ecd_um.high}},
+                        {"from_3d_fit", n.secondary_size_from_fit}}},
+                      {"secondary_3d", s["secondary_3d"]},
+                      {"report", t.label + "/report.html"}};
   if (v.c.truth[i]) {
     nlohmann::json tj = {{"ordered_area_fraction", v.c.truth[i]->ordered_fraction.value},
                          {"secondary_mean_section_ecd_um", v.c.truth[i]->secondary_mean_ecd_um.value},
@@ -141,9 +140,14 @@ void write_comparison(const std::string& out, const ScreenView& v, const ScreenR
     table.push_back(trial_json(v, i, nlohmann::json::parse(summary_texts[i])));
   }
   write_text_atomically(out + "/comparison.csv", csv.str());
-  nlohmann::json j = {{"tool", "orderband"},      {"version", kVersion},         {"command_line", command_line},
-                      {"trials_file", v.tc.path}, {"title", v.tc.title},         {"trials", table},
-                      {"kinetics", kinetics_json(v.c, v.tc)}, {"arrhenius", arrhenius_json(v.c)}};
+  nlohmann::json j = {{"tool", "orderband"},
+                      {"version", kVersion},
+                      {"command_line", command_line},
+                      {"trials_file", v.tc.path},
+                      {"title", v.tc.title},
+                      {"trials", table},
+                      {"kinetics", kinetics_json(v.c, v.tc)},
+                      {"arrhenius", arrhenius_json(v.c)}};
   nlohmann::json rk = nlohmann::json::array();
   for (const Ranked& r : v.c.ranking)
     rk.push_back({{"label", v.tc.trials[r.trial].label},

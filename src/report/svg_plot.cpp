@@ -85,37 +85,115 @@ std::vector<double> ticks(double lo, double hi, int target = 6) {
 }
 }  // namespace
 
-std::string SvgPlot::render() const {
-  double x0 = x0_, x1 = x1_, y0 = y0_, y1 = y1_;
-  if (!x_fixed_ || !y_fixed_) {
-    double ax = std::numeric_limits<double>::infinity(), bx = -ax, ay = ax, by = -ax;
-    for (const Item& it : items_) {
-      for (size_t k = 0; k < it.x.size(); ++k) {
-        if (!std::isfinite(it.x[k])) continue;
-        ax = std::min(ax, it.x[k]);
-        bx = std::max(bx, it.x[k] + (it.w.size() > k ? it.w[k] : 0));
-      }
-      for (const auto* v : {&it.y, &it.y2})
-        for (double y : *v)
-          if (std::isfinite(y)) ay = std::min(ay, y), by = std::max(by, y);
-      if (it.svg_kind == "bars") ay = std::min(ay, 0.0);
+/// The data range (fixed, or from the items with a margin) and the plotting box in pixels.
+struct SvgPlot::Frame {
+  double x0, x1, y0, y1;
+  double left = 70, right = 20, top = 34, bottom = 52;
+  double pw = 0, ph = 0;  ///< plotting box width and height
+  double X(double v) const { return left + (v - x0) / (x1 - x0) * pw; }
+  double Y(double v) const { return top + (1 - (v - y0) / (y1 - y0)) * ph; }
+};
+
+SvgPlot::Frame SvgPlot::frame() const {
+  Frame f{x0_, x1_, y0_, y1_};
+  f.pw = width_ - f.left - f.right, f.ph = height_ - f.top - f.bottom;
+  if (x_fixed_ && y_fixed_) return f;
+  double ax = std::numeric_limits<double>::infinity(), bx = -ax, ay = ax, by = -ax;
+  for (const Item& it : items_) {
+    for (size_t k = 0; k < it.x.size(); ++k) {
+      if (!std::isfinite(it.x[k])) continue;
+      ax = std::min(ax, it.x[k]);
+      bx = std::max(bx, it.x[k] + (it.w.size() > k ? it.w[k] : 0));
     }
-    if (!x_fixed_) {
-      x0 = std::isfinite(ax) ? ax : 0, x1 = std::isfinite(bx) && bx > ax ? bx : x0 + 1;
-      const double pad = 0.04 * (x1 - x0);  // markers at the ends stay inside the frame
-      x0 -= pad, x1 += pad;
-    }
-    if (!y_fixed_) {
-      y0 = std::isfinite(ay) ? ay : 0, y1 = std::isfinite(by) && by > ay ? by : y0 + 1;
-      const double pad = 0.06 * (y1 - y0);
-      y1 += pad;
-      if (y0 != 0) y0 -= pad;
-    }
+    for (const auto* v : {&it.y, &it.y2})
+      for (double y : *v)
+        if (std::isfinite(y)) ay = std::min(ay, y), by = std::max(by, y);
+    if (it.svg_kind == "bars") ay = std::min(ay, 0.0);
   }
-  const double L = 70, R = 20, T = 34, B = 52;
-  const double pw = width_ - L - R, ph = height_ - T - B;
-  auto X = [&](double v) { return L + (v - x0) / (x1 - x0) * pw; };
-  auto Y = [&](double v) { return T + (1 - (v - y0) / (y1 - y0)) * ph; };
+  if (!x_fixed_) {
+    f.x0 = std::isfinite(ax) ? ax : 0, f.x1 = std::isfinite(bx) && bx > ax ? bx : f.x0 + 1;
+    const double pad = 0.04 * (f.x1 - f.x0);  // markers at the ends stay inside the frame
+    f.x0 -= pad, f.x1 += pad;
+  }
+  if (!y_fixed_) {
+    f.y0 = std::isfinite(ay) ? ay : 0, f.y1 = std::isfinite(by) && by > ay ? by : f.y0 + 1;
+    const double pad = 0.06 * (f.y1 - f.y0);
+    f.y1 += pad;
+    if (f.y0 != 0) f.y0 -= pad;
+  }
+  return f;
+}
+
+void SvgPlot::write_axes(std::ostream& s, const Frame& f) const {
+  const double L = f.left, T = f.top, pw = f.pw, ph = f.ph;
+  s << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
+    << "\" fill=\"none\" stroke=\"#444\"/>\n";
+  if (categories_.empty())
+    for (double t : ticks(f.x0, f.x1))
+      s << "<line x1=\"" << f.X(t) << "\" x2=\"" << f.X(t) << "\" y1=\"" << T + ph << "\" y2=\"" << T + ph + 4
+        << "\" stroke=\"#444\"/><text x=\"" << f.X(t) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
+        << format_number("%.4g", t) << "</text>\n";
+  for (size_t k = 0; k < categories_.size(); ++k)
+    s << "<text x=\"" << f.X(double(k)) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
+      << xml_escape(categories_[k]) << "</text>\n";
+  for (double t : ticks(f.y0, f.y1))
+    s << "<line x1=\"" << L - 4 << "\" x2=\"" << L << "\" y1=\"" << f.Y(t) << "\" y2=\"" << f.Y(t)
+      << "\" stroke=\"#444\"/><line x1=\"" << L << "\" x2=\"" << L + pw << "\" y1=\"" << f.Y(t) << "\" y2=\"" << f.Y(t)
+      << "\" stroke=\"#eee\"/><text x=\"" << L - 7 << "\" y=\"" << f.Y(t) + 4 << "\" text-anchor=\"end\">"
+      << format_number("%.4g", t) << "</text>\n";
+  s << "<text x=\"" << L + pw / 2 << "\" y=\"" << height_ - 12 << "\" text-anchor=\"middle\">" << xml_escape(x_label_)
+    << "</text>\n";
+  s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">"
+    << xml_escape(y_label_) << "</text>\n";
+}
+
+void SvgPlot::write_item(std::ostream& s, const Item& it, const Frame& f) {
+  if (it.svg_kind == "vband") {
+    s << "<rect x=\"" << f.X(it.x[0]) << "\" y=\"" << f.top << "\" width=\"" << f.X(it.x[1]) - f.X(it.x[0])
+      << "\" height=\"" << f.ph << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
+  } else if (it.svg_kind == "vline") {
+    s << "<line x1=\"" << f.X(it.x[0]) << "\" x2=\"" << f.X(it.x[0]) << "\" y1=\"" << f.top << "\" y2=\""
+      << f.top + f.ph << "\" stroke=\"" << it.colour << "\" stroke-dasharray=\"4 3\"/>\n";
+  } else if (it.svg_kind == "bars") {
+    for (size_t k = 0; k < it.x.size(); ++k) {
+      if (!std::isfinite(it.y[k])) continue;
+      const double top = f.Y(std::max(it.y[k], 0.0)), base = f.Y(std::min(it.y[k], 0.0));
+      s << "<rect x=\"" << f.X(it.x[k]) << "\" y=\"" << top << "\" width=\""
+        << std::max(0.5, f.X(it.x[k] + it.w[k]) - f.X(it.x[k])) << "\" height=\"" << std::max(0.0, base - top)
+        << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
+    }
+  } else if (it.svg_kind == "line") {
+    s << "<polyline fill=\"none\" stroke=\"" << it.colour << "\" stroke-width=\"1.6\""
+      << (it.dashed ? " stroke-dasharray=\"5 3\"" : "") << " points=\"";
+    for (size_t k = 0; k < it.x.size(); ++k)
+      if (std::isfinite(it.x[k]) && std::isfinite(it.y[k])) s << f.X(it.x[k]) << ',' << f.Y(it.y[k]) << ' ';
+    s << "\"/>\n";
+  } else if (it.svg_kind == "markers") {
+    for (size_t k = 0; k < it.x.size(); ++k)
+      if (std::isfinite(it.x[k]) && std::isfinite(it.y[k]))
+        s << "<circle cx=\"" << f.X(it.x[k]) << "\" cy=\"" << f.Y(it.y[k]) << "\" r=\"3.5\" fill=\"" << it.colour
+          << "\"/>\n";
+  } else if (it.svg_kind == "errors") {
+    for (size_t k = 0; k < it.x.size(); ++k)
+      if (std::isfinite(it.y[k]) && std::isfinite(it.y2[k]))
+        s << "<line x1=\"" << f.X(it.x[k]) << "\" x2=\"" << f.X(it.x[k]) << "\" y1=\"" << f.Y(it.y[k]) << "\" y2=\""
+          << f.Y(it.y2[k]) << "\" stroke=\"" << it.colour << "\" stroke-width=\"1.2\"/>\n";
+  }
+}
+
+void SvgPlot::write_legend(std::ostream& s, const Frame& f) const {
+  int row = 0;
+  for (const Item& it : items_) {
+    if (it.label.empty()) continue;
+    const double y = f.top + 12 + 14 * row++, x = f.left + f.pw;
+    s << "<rect x=\"" << x - 150 << "\" y=\"" << y - 8 << "\" width=\"12\" height=\"8\" fill=\"" << it.colour
+      << "\" fill-opacity=\"" << std::max(0.4, it.opacity) << "\"/><text x=\"" << x - 134 << "\" y=\"" << y << "\">"
+      << xml_escape(it.label) << "</text>\n";
+  }
+}
+
+std::string SvgPlot::render() const {
+  const Frame f = frame();
   std::ostringstream s;
   s << "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"" << width_ << "\" height=\"" << height_
     << "\" viewBox=\"0 0 " << width_ << ' ' << height_ << "\" font-family=\"sans-serif\" font-size=\"11\">\n";
@@ -125,71 +203,13 @@ std::string SvgPlot::render() const {
   // One page may hold many charts: the clip path's id names the chart's size, so charts of another
   // size never borrow its box (charts of one size share an identical one).
   const std::string clip = "plot-" + std::to_string(width_) + "x" + std::to_string(height_);
-  s << "<defs><clipPath id=\"" << clip << "\"><rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw
-    << "\" height=\"" << ph << "\"/></clipPath></defs>\n";
-  // Axes and ticks.
-  s << "<rect x=\"" << L << "\" y=\"" << T << "\" width=\"" << pw << "\" height=\"" << ph
-    << "\" fill=\"none\" stroke=\"#444\"/>\n";
-  if (categories_.empty())
-    for (double t : ticks(x0, x1))
-      s << "<line x1=\"" << X(t) << "\" x2=\"" << X(t) << "\" y1=\"" << T + ph << "\" y2=\"" << T + ph + 4
-        << "\" stroke=\"#444\"/><text x=\"" << X(t) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
-        << format_number("%.4g", t) << "</text>\n";
-  for (size_t k = 0; k < categories_.size(); ++k)
-    s << "<text x=\"" << X(double(k)) << "\" y=\"" << T + ph + 16 << "\" text-anchor=\"middle\">"
-      << xml_escape(categories_[k]) << "</text>\n";
-  for (double t : ticks(y0, y1))
-    s << "<line x1=\"" << L - 4 << "\" x2=\"" << L << "\" y1=\"" << Y(t) << "\" y2=\"" << Y(t)
-      << "\" stroke=\"#444\"/><line x1=\"" << L << "\" x2=\"" << L + pw << "\" y1=\"" << Y(t) << "\" y2=\"" << Y(t)
-      << "\" stroke=\"#eee\"/><text x=\"" << L - 7 << "\" y=\"" << Y(t) + 4 << "\" text-anchor=\"end\">"
-      << format_number("%.4g", t) << "</text>\n";
-  s << "<text x=\"" << L + pw / 2 << "\" y=\"" << height_ - 12 << "\" text-anchor=\"middle\">" << xml_escape(x_label_)
-    << "</text>\n";
-  s << "<text transform=\"translate(16," << T + ph / 2 << ") rotate(-90)\" text-anchor=\"middle\">"
-    << xml_escape(y_label_) << "</text>\n<g clip-path=\"url(#" << clip << ")\">\n";
-  for (const Item& it : items_) {
-    if (it.svg_kind == "vband") {
-      s << "<rect x=\"" << X(it.x[0]) << "\" y=\"" << T << "\" width=\"" << X(it.x[1]) - X(it.x[0]) << "\" height=\""
-        << ph << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
-    } else if (it.svg_kind == "vline") {
-      s << "<line x1=\"" << X(it.x[0]) << "\" x2=\"" << X(it.x[0]) << "\" y1=\"" << T << "\" y2=\"" << T + ph
-        << "\" stroke=\"" << it.colour << "\" stroke-dasharray=\"4 3\"/>\n";
-    } else if (it.svg_kind == "bars") {
-      for (size_t k = 0; k < it.x.size(); ++k) {
-        if (!std::isfinite(it.y[k])) continue;
-        const double top = Y(std::max(it.y[k], 0.0)), base = Y(std::min(it.y[k], 0.0));
-        s << "<rect x=\"" << X(it.x[k]) << "\" y=\"" << top << "\" width=\""
-          << std::max(0.5, X(it.x[k] + it.w[k]) - X(it.x[k])) << "\" height=\"" << std::max(0.0, base - top)
-          << "\" fill=\"" << it.colour << "\" fill-opacity=\"" << it.opacity << "\"/>\n";
-      }
-    } else if (it.svg_kind == "line") {
-      s << "<polyline fill=\"none\" stroke=\"" << it.colour << "\" stroke-width=\"1.6\""
-        << (it.dashed ? " stroke-dasharray=\"5 3\"" : "") << " points=\"";
-      for (size_t k = 0; k < it.x.size(); ++k)
-        if (std::isfinite(it.x[k]) && std::isfinite(it.y[k])) s << X(it.x[k]) << ',' << Y(it.y[k]) << ' ';
-      s << "\"/>\n";
-    } else if (it.svg_kind == "markers") {
-      for (size_t k = 0; k < it.x.size(); ++k)
-        if (std::isfinite(it.x[k]) && std::isfinite(it.y[k]))
-          s << "<circle cx=\"" << X(it.x[k]) << "\" cy=\"" << Y(it.y[k]) << "\" r=\"3.5\" fill=\"" << it.colour
-            << "\"/>\n";
-    } else if (it.svg_kind == "errors") {
-      for (size_t k = 0; k < it.x.size(); ++k)
-        if (std::isfinite(it.y[k]) && std::isfinite(it.y2[k]))
-          s << "<line x1=\"" << X(it.x[k]) << "\" x2=\"" << X(it.x[k]) << "\" y1=\"" << Y(it.y[k]) << "\" y2=\""
-            << Y(it.y2[k]) << "\" stroke=\"" << it.colour << "\" stroke-width=\"1.2\"/>\n";
-    }
-  }
+  s << "<defs><clipPath id=\"" << clip << "\"><rect x=\"" << f.left << "\" y=\"" << f.top << "\" width=\"" << f.pw
+    << "\" height=\"" << f.ph << "\"/></clipPath></defs>\n";
+  write_axes(s, f);
+  s << "<g clip-path=\"url(#" << clip << ")\">\n";
+  for (const Item& it : items_) write_item(s, it, f);
   s << "</g>\n";
-  // Legend.
-  int row = 0;
-  for (const Item& it : items_) {
-    if (it.label.empty()) continue;
-    const double y = T + 12 + 14 * row++;
-    s << "<rect x=\"" << L + pw - 150 << "\" y=\"" << y - 8 << "\" width=\"12\" height=\"8\" fill=\"" << it.colour
-      << "\" fill-opacity=\"" << std::max(0.4, it.opacity) << "\"/><text x=\"" << L + pw - 134 << "\" y=\"" << y
-      << "\">" << xml_escape(it.label) << "</text>\n";
-  }
+  write_legend(s, f);
   s << "</svg>\n";
   return s.str();
 }

@@ -26,9 +26,9 @@ class LeastSquaresProblem {
 
 struct LevenbergMarquardtSpec {
   int max_iterations = 20;
-  double damping = 1e-3;      ///< initial λ; the step solves (JᵀJ + λ diag JᵀJ) δ = −Jᵀr (Marquardt's scaling)
-  double damping_down = 3;    ///< λ ÷ this after an accepted step
-  double damping_up = 4;      ///< λ × this after a rejected one
+  double damping = 1e-3;    ///< initial λ; the step solves (JᵀJ + λ diag JᵀJ) δ = −Jᵀr (Marquardt's scaling)
+  double damping_down = 3;  ///< λ ÷ this after an accepted step
+  double damping_up = 4;    ///< λ × this after a rejected one
   double min_damping = 1e-7;  ///< λ never falls below this
   int max_attempts = 8;       ///< rejected steps in a row before the fit stops
   /// Steps longer than this (Euclidean norm over the parameters in `limited`) are shortened to it

@@ -4,6 +4,7 @@
 #include <Eigen/Core>
 #include <cstdint>
 #include <optional>
+#include <random>
 #include <string>
 #include <vector>
 
@@ -76,6 +77,11 @@ class Microstructure {
   double ordered_at(const Eigen::Vector2d& p_um) const;
 
  private:
+  // The construction's steps, in this order on one random sequence.
+  void place_grains(std::mt19937_64& rng);
+  void make_spatial_hash();
+  void place_primary(std::mt19937_64& rng);
+  void place_secondary(std::mt19937_64& rng);
   bool overlaps(const Particle& p) const;
   void index_particle(int k);
   MicrostructureSpec spec_;

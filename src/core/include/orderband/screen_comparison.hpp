@@ -24,7 +24,7 @@ struct ClassSummary {
 /// The secondary class's preferred 3-D fit to its truncated sections (log-normal or LSW, by AIC).
 struct SecondarySizeFit {
   bool determined = false;
-  std::string model;                 ///< the preferred fit's name (empty: none)
+  std::string model;                  ///< the preferred fit's name (empty: none)
   Measured mean_section_diameter_um;  ///< all sections, resolved or not, with its 95 % interval
   double mean_diameter_um = 0;        ///< 3-D mean sphere diameter
 };
@@ -56,10 +56,10 @@ struct TemperatureKinetics {
 };
 
 struct ScreenComparison {
-  std::vector<TrialNumbers> numbers;        ///< per trial, for the ranking
-  std::vector<double> kinetic_radius;       ///< per trial: the radius the kinetics used (µm; 0: none)
+  std::vector<TrialNumbers> numbers;          ///< per trial, for the ranking
+  std::vector<double> kinetic_radius;         ///< per trial: the radius the kinetics used (µm; 0: none)
   std::vector<TemperatureKinetics> kinetics;  ///< ascending temperature
-  std::optional<ArrheniusFit> arrhenius;    ///< two or more temperatures with a positive k
+  std::optional<ArrheniusFit> arrhenius;      ///< two or more temperatures with a positive k
   std::vector<Ranked> ranking;
   std::vector<std::optional<TrialNumbers>> truth;  ///< per trial (synthetic trials)
   std::vector<Ranked> truth_ranking;               ///< only when every trial has a truth

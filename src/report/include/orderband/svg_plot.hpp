@@ -1,6 +1,7 @@
 // Small SVG charts for reports: lines, markers, bars, shaded bands, axes with ticks.
 #pragma once
 
+#include <iosfwd>
 #include <string>
 #include <vector>
 
@@ -35,6 +36,11 @@ class SvgPlot {
     bool dashed = false;
     double opacity = 1;
   };
+  struct Frame;  ///< the data range and the plotting box (svg_plot.cpp)
+  Frame frame() const;
+  void write_axes(std::ostream& s, const Frame& f) const;
+  static void write_item(std::ostream& s, const Item& it, const Frame& f);
+  void write_legend(std::ostream& s, const Frame& f) const;
   int width_, height_;
   std::string title_, x_label_, y_label_;
   std::vector<Item> items_;
