@@ -13,6 +13,6 @@ if [ ! -f "$build_dir/compile_commands.json" ]; then
 fi
 mapfile -t files < <(find src -name '*.cpp' | sort)
 echo "run-tidy: ${#files[@]} files"
-printf '%s\n' "${files[@]}" | xargs -P "$(nproc)" -n 4 clang-tidy -p "$build_dir" --quiet 2> build-tidy.log ||
-  { grep -E "error:|warning:" -A3 build-tidy.log || true; echo "run-tidy: findings above" >&2; exit 1; }
+printf '%s\n' "${files[@]}" | xargs -P "$(nproc)" -n 4 clang-tidy -p "$build_dir" --quiet > build-tidy.log 2>&1 ||
+  { grep -E "error:|warning:" -A3 build-tidy.log || cat build-tidy.log; echo "run-tidy: findings above" >&2; exit 1; }
 echo "run-tidy: no findings"

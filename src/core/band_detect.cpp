@@ -26,7 +26,8 @@ BandDetector::BandDetector(const DetectorGeometry& geometry, const std::vector<u
     const double t = kPi * a / spec.angle_steps, c = std::cos(t), s = std::sin(t);
     for (size_t k = 0; k < n; ++k) {
       const int q = static_cast<int>(pixels_[k]);
-      const double x = (q % width_) + 0.5 - 0.5 * width_, y = (q / width_) + 0.5 - 0.5 * height_;
+      const int col = q % width_, row = q / width_;  // pixel q's column and row
+      const double x = col + 0.5 - 0.5 * width_, y = row + 0.5 - 0.5 * height_;
       const double r = x * c + y * s + rho_max_;  // ≥ 0
       const int b = static_cast<int>(r);
       rho_bin_[a * n + k] = static_cast<uint16_t>(b);

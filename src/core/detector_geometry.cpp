@@ -81,7 +81,7 @@ std::optional<PixelPoint> DetectorGeometry::project(const SampleDirection& s) co
 
 std::vector<PixelPoint> DetectorGeometry::trace(const SampleDirection& plane_normal, double offset_rad,
                                                 int samples) const {
-  const Eigen::Vector3d n = plane_normal.vec();
+  const Eigen::Vector3d& n = plane_normal.vec();
   Eigen::Vector3d e1 = n.unitOrthogonal();
   const Eigen::Vector3d e2 = n.cross(e1);
   std::vector<PixelPoint> pts;
