@@ -32,9 +32,8 @@ std::function<int()> setup_check(CLI::App& sub) {
         check_scan(read_scan_inputs(read_scan_config(o->scan), InputHashing::skip), o->sample, o->d_min);
     const ScanConfig& s = c.config;
     std::printf("orderband %s check of %s\n", kVersion, s.path.c_str());
-    std::printf("scan:        %s grid, %d rows x %d cols = %zu points, step %.4g um\n",
-                s.grid.kind == GridKind::hexagonal ? "hexagonal" : "square", s.grid.rows, s.grid.cols, s.grid.count(),
-                s.grid.step_um);
+    std::printf("scan:        %s grid, %d rows x %d cols = %zu points, step %.4g um\n", name_of(s.grid.kind).data(),
+                s.grid.rows, s.grid.cols, s.grid.count(), s.grid.step_um);
     std::printf("field:       %.4g x %.4g um\n", c.field_width_um, c.field_height_um);
     std::printf("patterns:    %s, %d x %d px\n", c.source_description.c_str(), c.width_px, c.height_px);
     std::printf("geometry:    PC (%.3f, %.3f) px, distance %.3f px, sample tilt %.2f deg, detector tilt %.2f deg\n",

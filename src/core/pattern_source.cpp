@@ -9,23 +9,11 @@
 namespace orderband {
 
 SampleType parse_sample_type(const std::string& name) {
-  if (name == "uint8") return SampleType::uint8;
-  if (name == "uint16") return SampleType::uint16;
-  if (name == "float32") return SampleType::float32;
-  fail("unknown sample type '", name, "' (use uint8, uint16 or float32)");
+  if (const auto t = enum_from_name<SampleType>(name)) return *t;
+  fail("unknown sample type '", name, "' (use ", enum_name_list<SampleType>(), ")");
 }
 
-const char* sample_type_name(SampleType t) {
-  switch (t) {
-    case SampleType::uint8:
-      return "uint8";
-    case SampleType::uint16:
-      return "uint16";
-    case SampleType::float32:
-      return "float32";
-  }
-  return "?";
-}
+const char* sample_type_name(SampleType t) { return name_of(t).data(); }
 
 std::map<size_t, std::string> PatternSource::faults() const {
   std::lock_guard<std::mutex> lock(faults_mutex_);

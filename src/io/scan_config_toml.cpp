@@ -7,7 +7,9 @@
 #include <set>
 #include <sstream>
 
+#include "orderband/enum_names.hpp"
 #include "orderband/error.hpp"
+#include "orderband/ordered_fraction.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "toml_reader.hpp"
 
@@ -25,17 +27,22 @@ double within(const std::string& path, const char* table, const char* key, doubl
   return v;
 }
 
+/// A named choice: the default when the key is absent, else one of the enum's names (an Error
+/// names them all).
+template <class E>
+E read_choice(TomlReader& r, const toml::table* t, const std::string& path, const char* table, const char* key,
+              E fallback) {
+  const std::optional<std::string> name = r.get<std::string>(t, table, key);
+  if (!name) return fallback;
+  if (const auto v = enum_from_name<E>(*name)) return *v;
+  fail(path, ": [", table, "] ", key, " = \"", *name, "\" is not ", enum_name_list<E>());
+}
+
 /// [scan]: the grid and the beam.
 void read_scan_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* scan = r.table("scan", true);
   r.check_keys(scan, "scan", {"grid", "rows", "cols", "step_um", "beam_sigma_nm", "beam_elongation"});
-  const std::string grid = r.get<std::string>(scan, "scan", "grid").value_or("square");
-  if (grid == "square")
-    c.grid.kind = GridKind::square;
-  else if (grid == "hexagonal")
-    c.grid.kind = GridKind::hexagonal;
-  else
-    fail(path, ": [scan] grid = \"", grid, "\" is not \"square\" or \"hexagonal\"");
+  c.grid.kind = read_choice(r, scan, path, "scan", "grid", GridKind::square);
   const int64_t rows = r.require<int64_t>(scan, "scan", "rows"), cols = r.require<int64_t>(scan, "scan", "cols");
   if (rows <= 0 || cols <= 0 || rows > 100000 || cols > 100000)
     fail(path, ": [scan] rows and cols must be positive integers, got ", rows, " x ", cols);
@@ -57,15 +64,8 @@ void read_patterns_table(TomlReader& r, const std::string& path, ScanConfig& c) 
   r.check_keys(pat, "patterns",
                {"format", "file", "sample_type", "header_bytes", "trailer_bytes", "width_px", "height_px", "dataset",
                 "name_pattern"});
-  const std::string format = r.require<std::string>(pat, "patterns", "format");
-  if (format == "raw")
-    c.patterns.format = PatternFormat::raw;
-  else if (format == "hdf5")
-    c.patterns.format = PatternFormat::hdf5;
-  else if (format == "images")
-    c.patterns.format = PatternFormat::images;
-  else
-    fail(path, ": [patterns] format = \"", format, "\" is not \"raw\", \"hdf5\" or \"images\"");
+  r.require<std::string>(pat, "patterns", "format");
+  c.patterns.format = read_choice(r, pat, path, "patterns", "format", PatternFormat::raw);
   c.patterns.path = r.resolve(r.require<std::string>(pat, "patterns", "file"));
   if (auto t = r.get<std::string>(pat, "patterns", "sample_type")) {
     try {
@@ -147,13 +147,7 @@ void read_phases_table(TomlReader& r, const std::string& path, ScanConfig& c) {
 void read_orientations_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* ori = r.table("orientations", false);
   r.check_keys(ori, "orientations", {"source", "file", "refine"});
-  const std::string source = r.get<std::string>(ori, "orientations", "source").value_or("find");
-  if (source == "find")
-    c.orientations.source = OrientationSourceKind::find;
-  else if (source == "file")
-    c.orientations.source = OrientationSourceKind::file;
-  else
-    fail(path, ": [orientations] source = \"", source, "\" is not \"find\" or \"file\"");
+  c.orientations.source = read_choice(r, ori, path, "orientations", "source", OrientationSourceKind::find);
   if (auto f = r.get<std::string>(ori, "orientations", "file")) c.orientations.file = r.resolve(*f);
   if (c.orientations.source == OrientationSourceKind::file && c.orientations.file.empty())
     fail(path, ": [orientations] source = \"file\" needs 'file' (a CSV of orientations)");
@@ -168,10 +162,8 @@ void read_preprocess_table(TomlReader& r, const std::string& path, ScanConfig& c
                 "mask_radius_px", "hot_pixel_filter", "hot_pixel_threshold", "neighbour_sigma_steps"});
   PreprocessSpec& p = c.preprocess;
   const std::string sb = r.get<std::string>(pre, "preprocess", "static_background").value_or("scan_mean");
-  if (sb == "scan_mean")
-    p.static_background = StaticBackgroundKind::scan_mean;
-  else if (sb == "none")
-    p.static_background = StaticBackgroundKind::none;
+  if (const auto kind = enum_from_name<StaticBackgroundKind>(sb); kind && *kind != StaticBackgroundKind::file)
+    p.static_background = *kind;
   else {
     p.static_background = StaticBackgroundKind::file;
     p.static_background_file = r.resolve(sb);
@@ -187,10 +179,8 @@ void read_preprocess_table(TomlReader& r, const std::string& path, ScanConfig& c
       within(path, "preprocess", "dynamic_background_sigma_px",
              r.get<double>(pre, "preprocess", "dynamic_background_sigma_px").value_or(-1.0), -1, 1000, "px");
   const std::string mask = r.get<std::string>(pre, "preprocess", "mask").value_or("circle");
-  if (mask == "circle")
-    p.mask = MaskKind::circle;
-  else if (mask == "none")
-    p.mask = MaskKind::none;
+  if (const auto kind = enum_from_name<MaskKind>(mask); kind && *kind != MaskKind::file)
+    p.mask = *kind;
   else {
     p.mask = MaskKind::file;
     p.mask_file = r.resolve(mask);
@@ -214,8 +204,8 @@ void read_fraction_table(TomlReader& r, const std::string& path, ScanConfig& c) 
                 "refine_pattern_centre"});
   c.end_members.mode = r.get<std::string>(fr, "fraction", "end_members").value_or("model");
   c.refine_pattern_centre = r.get<bool>(fr, "fraction", "refine_pattern_centre").value_or(true);
-  if (c.end_members.mode != "model" && c.end_members.mode != "mixture" && c.end_members.mode != "regions")
-    fail(path, ": [fraction] end_members = \"", c.end_members.mode, "\" is not \"model\", \"mixture\" or \"regions\"");
+  if (!enum_from_name<EndMemberMode>(c.end_members.mode))
+    fail(path, ": [fraction] end_members = \"", c.end_members.mode, "\" is not ", enum_name_list<EndMemberMode>());
   for (const char* key : {"ordered_regions", "disordered_regions"}) {
     auto& list =
         std::string(key) == "ordered_regions" ? c.end_members.ordered_regions : c.end_members.disordered_regions;
@@ -299,16 +289,11 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
     for (std::string line; std::getline(lines, line);) os << "# " << line << "\n";
     os << "\n";
   }
-  os << "[scan]\ngrid = \"" << (c.grid.kind == GridKind::hexagonal ? "hexagonal" : "square")
-     << "\"\nrows = " << c.grid.rows << "\ncols = " << c.grid.cols << "\nstep_um = " << c.grid.step_um
-     << "\nbeam_sigma_nm = " << c.beam.sigma_nm << "\n";
+  os << "[scan]\ngrid = \"" << name_of(c.grid.kind) << "\"\nrows = " << c.grid.rows << "\ncols = " << c.grid.cols
+     << "\nstep_um = " << c.grid.step_um << "\nbeam_sigma_nm = " << c.beam.sigma_nm << "\n";
   if (c.beam.elongation) os << "beam_elongation = " << *c.beam.elongation << "\n";
   os << "\n";
-  os << "[patterns]\nformat = \""
-     << (c.patterns.format == PatternFormat::raw    ? "raw"
-         : c.patterns.format == PatternFormat::hdf5 ? "hdf5"
-                                                    : "images")
-     << "\"\nfile = " << q(rel(c.patterns.path)) << "\n";
+  os << "[patterns]\nformat = \"" << name_of(c.patterns.format) << "\"\nfile = " << q(rel(c.patterns.path)) << "\n";
   if (c.patterns.format == PatternFormat::raw)
     os << "sample_type = \"" << sample_type_name(c.patterns.sample_type)
        << "\"\nheader_bytes = " << c.patterns.header_bytes << "\n";
@@ -326,20 +311,16 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
     os << "pair = " << q(c.phases.pair_name) << "\n";
   else
     os << "ordered = " << q(rel(c.phases.ordered_cif)) << "\ndisordered = " << q(rel(c.phases.disordered_cif)) << "\n";
-  os << "\n[orientations]\nsource = \"" << (c.orientations.source == OrientationSourceKind::file ? "file" : "find")
-     << "\"\n";
+  os << "\n[orientations]\nsource = \"" << name_of(c.orientations.source) << "\"\n";
   if (!c.orientations.file.empty()) os << "file = " << q(rel(c.orientations.file)) << "\n";
   os << "refine = " << (c.orientations.refine ? "true" : "false") << "\n\n[preprocess]\n";
   const PreprocessSpec& p = c.preprocess;
   os << "static_background = "
-     << q(p.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
-          : p.static_background == StaticBackgroundKind::none    ? "none"
-                                                                 : rel(p.static_background_file))
+     << q(p.static_background == StaticBackgroundKind::file ? rel(p.static_background_file)
+                                                            : std::string(name_of(p.static_background)))
      << "\nstatic_background_sigma_px = " << p.static_background_sigma_px
-     << "\ndynamic_background_sigma_px = " << p.dynamic_background_sigma_px << "\nmask = "
-     << q(p.mask == MaskKind::circle ? "circle"
-          : p.mask == MaskKind::none ? "none"
-                                     : rel(p.mask_file))
+     << "\ndynamic_background_sigma_px = " << p.dynamic_background_sigma_px
+     << "\nmask = " << q(p.mask == MaskKind::file ? rel(p.mask_file) : std::string(name_of(p.mask)))
      << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
      << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
      << "\n\n[fraction]\nend_members = " << q(c.end_members.mode)

@@ -646,15 +646,13 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
   return {{"kv", config.kv},
           {"phases", {{"ordered", ordered_phase}, {"disordered", disordered_phase}}},
           {"preprocess",
-           {{"static_background", config.preprocess.static_background == StaticBackgroundKind::scan_mean ? "scan_mean"
-                                  : config.preprocess.static_background == StaticBackgroundKind::none    ? "none"
-                                                                                                         : "file"},
+           {{"static_background", name_of(config.preprocess.static_background)},
             {"static_background_sigma_px", config.preprocess.static_background_sigma_px},
             {"dynamic_background_sigma_px", config.preprocess.dynamic_background_sigma_px},
             {"neighbour_sigma_steps", config.preprocess.neighbour_sigma_steps},
             {"hot_pixel_filter", config.preprocess.hot_pixel_filter}}},
           {"orientation",
-           {{"source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
+           {{"source", name_of(config.orientations.source)},
             {"refine", config.orientations.refine},
             {"grain_threshold_deg", options.orient.grains.threshold_deg},
             {"grain_min_points", options.orient.grains.min_points},
@@ -664,9 +662,7 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
             {"pseudo_symmetry_candidates", options.orient.pseudo_symmetry_candidates},
             {"pseudo_symmetry_gain", options.orient.pseudo_symmetry_gain}}},
           {"fraction",
-           {{"estimator", options.fraction.estimator == FractionEstimator::learned   ? "learned"
-                          : options.fraction.estimator == FractionEstimator::profile ? "profile"
-                                                                                     : "windows"},
+           {{"estimator", name_of(options.fraction.estimator)},
             {"sensitivity_threshold", options.fraction.sensitivity_threshold},
             {"d_min_A", options.fraction.d_min_A},
             {"fundamental_families", options.fraction.fundamental_families},
@@ -707,11 +703,9 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
                  a.push_back({q.row0, q.col0, q.row1, q.col1});
                return a;
              }()},
-            {"end_members", options.fraction.end_members == EndMemberMode::model     ? "model"
-                            : options.fraction.end_members == EndMemberMode::mixture ? "mixture"
-                                                                                     : "regions"}}},
+            {"end_members", name_of(options.fraction.end_members)}}},
           {"particles",
-           {{"threshold_method", options.segment.method == ThresholdMethod::otsu ? "otsu" : "fixed"},
+           {{"threshold_method", name_of(options.segment.method)},
             {"threshold", options.segment.threshold},
             {"connectivity", grid.kind == GridKind::hexagonal ? 6 : options.segment.square_connectivity},
             {"min_points", options.segment.min_points},

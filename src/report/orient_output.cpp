@@ -103,20 +103,19 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
   j["grain_checks"] = {{"pseudo_symmetric_grains", r.pseudo_symmetric_grains},
                        {"pseudo_symmetric_points", r.pseudo_symmetric_points},
                        {"points_joined_to_grain", r.points_joined_to_grain}};
-  j["parameters"] = {
-      {"orientation_source", config.orientations.source == OrientationSourceKind::file ? "file" : "find"},
-      {"refine", config.orientations.refine},
-      {"grain_threshold_deg", spec.grains.threshold_deg},
-      {"grain_min_points", spec.grains.min_points},
-      {"grain_split_bimodal", spec.grains.split_bimodal},
-      {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
-      {"max_bands", spec.detect.max_bands},
-      {"candidates", spec.candidates},
-      {"min_correlation", spec.min_correlation},
-      {"pseudo_symmetry_samples", spec.pseudo_symmetry_samples},
-      {"pseudo_symmetry_candidates", spec.pseudo_symmetry_candidates},
-      {"pseudo_symmetry_gain", spec.pseudo_symmetry_gain},
-      {"refine_max_iterations", spec.refine.max_iterations}};
+  j["parameters"] = {{"orientation_source", name_of(config.orientations.source)},
+                     {"refine", config.orientations.refine},
+                     {"grain_threshold_deg", spec.grains.threshold_deg},
+                     {"grain_min_points", spec.grains.min_points},
+                     {"grain_split_bimodal", spec.grains.split_bimodal},
+                     {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},
+                     {"max_bands", spec.detect.max_bands},
+                     {"candidates", spec.candidates},
+                     {"min_correlation", spec.min_correlation},
+                     {"pseudo_symmetry_samples", spec.pseudo_symmetry_samples},
+                     {"pseudo_symmetry_candidates", spec.pseudo_symmetry_candidates},
+                     {"pseudo_symmetry_gain", spec.pseudo_symmetry_gain},
+                     {"refine_max_iterations", spec.refine.max_iterations}};
   j["status_codes"] = {
       {"0", "ok"}, {"1", "unusable_pattern"}, {"2", "too_few_bands"}, {"3", "fit_failed"}, {"4", "missing_in_file"}};
   write_text_atomically(folder + "/orient_summary.json", j.dump(2) + "\n");

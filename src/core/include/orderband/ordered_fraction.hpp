@@ -8,6 +8,7 @@
 
 #include "orderband/band_profile.hpp"
 #include "orderband/detector_geometry.hpp"
+#include "orderband/enum_names.hpp"
 #include "orderband/learned_fraction.hpp"
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
@@ -30,6 +31,11 @@ enum class EndMemberMode {
   mixture,  ///< then rescaled so that a two-component mixture fit of the scan puts them at 0 and 1
   regions,  ///< then rescaled so that user-given reference regions are at 0 and 1
 };
+template <>
+struct EnumNames<EndMemberMode> {
+  static constexpr std::array<std::pair<EndMemberMode, std::string_view>, 3> names{
+      {{EndMemberMode::model, "model"}, {EndMemberMode::mixture, "mixture"}, {EndMemberMode::regions, "regions"}}};
+};
 
 /// A rectangle of scan points (inclusive), for reference regions.
 struct PointRect {
@@ -42,6 +48,13 @@ enum class FractionEstimator {
   profile,  ///< model-led matched filter over every profile bin of the superlattice families (default)
   learned,  ///< data-led: the response to ordering learned from the scan (learned_fraction.hpp)
   windows,  ///< off-peak windows only: band interior minus flanks per family
+};
+template <>
+struct EnumNames<FractionEstimator> {
+  static constexpr std::array<std::pair<FractionEstimator, std::string_view>, 3> names{
+      {{FractionEstimator::profile, "profile"},
+       {FractionEstimator::learned, "learned"},
+       {FractionEstimator::windows, "windows"}}};
 };
 
 struct FractionSpec {

@@ -5,11 +5,17 @@
 #include <string>
 #include <vector>
 
+#include "orderband/enum_names.hpp"
 #include "orderband/scan_grid.hpp"
 
 namespace orderband {
 
 enum class ThresholdMethod { fixed, otsu };
+template <>
+struct EnumNames<ThresholdMethod> {
+  static constexpr std::array<std::pair<ThresholdMethod, std::string_view>, 2> names{
+      {{ThresholdMethod::fixed, "fixed"}, {ThresholdMethod::otsu, "otsu"}}};
+};
 
 struct SegmentSpec {
   ThresholdMethod method = ThresholdMethod::fixed;

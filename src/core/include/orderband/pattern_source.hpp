@@ -7,12 +7,23 @@
 #include <mutex>
 #include <string>
 
+#include "orderband/enum_names.hpp"
 #include "orderband/scan_grid.hpp"
 
 namespace orderband {
 
 enum class PatternFormat { raw, hdf5, images };
 enum class SampleType { uint8, uint16, float32 };
+template <>
+struct EnumNames<PatternFormat> {
+  static constexpr std::array<std::pair<PatternFormat, std::string_view>, 3> names{
+      {{PatternFormat::raw, "raw"}, {PatternFormat::hdf5, "hdf5"}, {PatternFormat::images, "images"}}};
+};
+template <>
+struct EnumNames<SampleType> {
+  static constexpr std::array<std::pair<SampleType, std::string_view>, 3> names{
+      {{SampleType::uint8, "uint8"}, {SampleType::uint16, "uint16"}, {SampleType::float32, "float32"}}};
+};
 
 /// Where the patterns are and how they are stored. Paths are absolute (the
 /// scan description resolves relative paths against its own folder).

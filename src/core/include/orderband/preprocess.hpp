@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "orderband/enum_names.hpp"
 #include "orderband/gaussian_blur.hpp"
 #include "orderband/image.hpp"
 #include "orderband/pattern_source.hpp"
@@ -17,6 +18,19 @@ namespace orderband {
 
 enum class StaticBackgroundKind { none, scan_mean, file };
 enum class MaskKind { none, circle, file };
+/// Names in scan descriptions and summaries ("file": the description gives the image's path instead).
+template <>
+struct EnumNames<StaticBackgroundKind> {
+  static constexpr std::array<std::pair<StaticBackgroundKind, std::string_view>, 3> names{
+      {{StaticBackgroundKind::none, "none"},
+       {StaticBackgroundKind::scan_mean, "scan_mean"},
+       {StaticBackgroundKind::file, "file"}}};
+};
+template <>
+struct EnumNames<MaskKind> {
+  static constexpr std::array<std::pair<MaskKind, std::string_view>, 3> names{
+      {{MaskKind::none, "none"}, {MaskKind::circle, "circle"}, {MaskKind::file, "file"}}};
+};
 
 /// Preprocessing parameters; every default is documented in the README.
 struct PreprocessSpec {

@@ -8,6 +8,7 @@
 
 #include "orderband/detection_limit.hpp"
 #include "orderband/detector_geometry.hpp"
+#include "orderband/enum_names.hpp"
 #include "orderband/pattern_source.hpp"
 #include "orderband/preprocess.hpp"
 #include "orderband/scan_grid.hpp"
@@ -22,6 +23,11 @@ struct PhaseSelection {
 };
 
 enum class OrientationSourceKind { find, file };
+template <>
+struct EnumNames<OrientationSourceKind> {
+  static constexpr std::array<std::pair<OrientationSourceKind, std::string_view>, 2> names{
+      {{OrientationSourceKind::find, "find"}, {OrientationSourceKind::file, "file"}}};
+};
 
 struct OrientationSelection {
   OrientationSourceKind source = OrientationSourceKind::find;

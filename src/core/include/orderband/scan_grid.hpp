@@ -5,9 +5,16 @@
 #include <cstddef>
 #include <vector>
 
+#include "orderband/enum_names.hpp"
+
 namespace orderband {
 
 enum class GridKind { square, hexagonal };
+template <>
+struct EnumNames<GridKind> {
+  static constexpr std::array<std::pair<GridKind, std::string_view>, 2> names{
+      {{GridKind::square, "square"}, {GridKind::hexagonal, "hexagonal"}}};
+};
 
 /// A point of the scan by row and column.
 struct GridPoint {
