@@ -19,7 +19,9 @@ for path in sorted((root / "src").rglob("*.[ch]pp")):
     start = None
     for i, line in enumerate(lines):
         if start is None:
-            if line and not line[0].isspace() and line[0] not in "#/}" and not not_function.match(line):
+            # "template <...>" alone on its line heads whatever the next line declares
+            head = lines[i + 1] if re.match(r"^template\s*<.*>\s*$", line) and i + 1 < len(lines) else line
+            if line and not line[0].isspace() and line[0] not in "#/}" and not not_function.match(head):
                 # a definition: the signature (possibly over several lines) ends with "{" before any ";"
                 j = i
                 while j < len(lines) and not lines[j].rstrip().endswith("{") and ";" not in lines[j]:
