@@ -79,14 +79,14 @@ TEST(LevenbergMarquardt, BardFunctionReachesItsPublishedMinimum) {
 }
 
 TEST(LevenbergMarquardt, StepsAreShortenedToTheLimitAndTheCostNeverRises) {
-  // r = p − (3, 4): the Gauss–Newton step is the whole way (length 5); with a limit of 0.5 on the
-  // first two parameters every step is 0.5 long along the direction to the target.
+  // r = p − (3, 4): the Gauss–Newton step is the whole way (length 5); with a limit of 0.5 every step is 0.5 long along
+  // the direction to the target.
   Residuals shift(2, [](const Eigen::VectorXd& x, Eigen::VectorXd& r, Eigen::MatrixXd& j) {
     r = x - Eigen::Vector2d(3, 4);
     j = Eigen::Matrix2d::Identity();
   });
   LevenbergMarquardtSpec spec;
-  spec.max_step = 0.5, spec.limited = 2, spec.max_iterations = 4;
+  spec.max_step = 0.5, spec.max_iterations = 4;
   LeastSquaresResult r = levenberg_marquardt(shift, Eigen::Vector2d::Zero(), spec);
   EXPECT_NEAR(r.p.norm(), 2.0, 1e-12);        // four steps of 0.5
   EXPECT_NEAR(r.p[0] / r.p[1], 0.75, 1e-12);  // along the steepest direction

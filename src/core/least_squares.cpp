@@ -12,11 +12,7 @@ Eigen::VectorXd damped_step(const Eigen::MatrixXd& jtj, const Eigen::VectorXd& j
   Eigen::MatrixXd a = jtj;
   for (Eigen::Index k = 0; k < a.rows(); ++k) a(k, k) *= 1 + lambda;
   Eigen::VectorXd step = a.ldlt().solve(-jtr);
-  if (spec.max_step > 0) {
-    const Eigen::Index n = spec.limited > 0 ? std::min<Eigen::Index>(spec.limited, step.size()) : step.size();
-    const double length = step.head(n).norm();
-    if (length > spec.max_step) step.head(n) *= spec.max_step / length;
-  }
+  if (const double length = step.norm(); spec.max_step > 0 && length > spec.max_step) step *= spec.max_step / length;
   return step;
 }
 

@@ -88,7 +88,7 @@ MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs)
   FractionSpec& f = applied.fraction;
   f.refine_pattern_centre = config.refine_pattern_centre;
   if (f.end_members != EndMemberMode::model || config.end_members.mode == "model") return applied;
-  f.end_members = config.end_members.mode == "mixture" ? EndMemberMode::mixture : EndMemberMode::regions;
+  f.end_members = enum_from_name<EndMemberMode>(config.end_members.mode).value_or(EndMemberMode::regions);
   auto rects = [](const std::vector<std::array<int, 4>>& in) {
     std::vector<PointRect> out;
     for (const auto& v : in) out.push_back({v[0], v[1], v[2], v[3]});

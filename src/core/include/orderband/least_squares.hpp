@@ -31,10 +31,9 @@ struct LevenbergMarquardtSpec {
   double damping_up = 4;    ///< λ × this after a rejected one
   double min_damping = 1e-7;  ///< λ never falls below this
   int max_attempts = 8;       ///< rejected steps in a row before the fit stops
-  /// Steps longer than this (Euclidean norm over the parameters in `limited`) are shortened to it
-  /// before they are tried (0: no limit); for rotation vectors, a trust region in radians.
+  /// Steps longer than this (Euclidean norm) are shortened to it before they are tried (0: no
+  /// limit); for rotation vectors, a trust region in radians.
   double max_step = 0;
-  int limited = 0;  ///< the first `limited` parameters are limited (0: all)
   /// A step that satisfies this ends the fit (converged): taken when it lowers the cost, else
   /// not (the misfit is then at its minimum within the step's size).
   std::function<bool(const Eigen::VectorXd& step)> converged;
