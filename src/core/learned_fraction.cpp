@@ -7,6 +7,7 @@
 
 #include <Eigen/Dense>
 
+#include "orderband/end_member_mixture.hpp"
 #include "orderband/error.hpp"
 #include "orderband/ordered_fraction.hpp"
 
@@ -256,13 +257,12 @@ bool cross_fitted_scores(const LearnedInputs& in, const std::vector<uint8_t>& la
 }
 
 /// The evidence for a second component in `v`: ΔBIC = 2 (ℓ₂ − ℓ₁) − 3 ln N between the fitted
-/// two Gaussians + uniform (`mix`, in the units of `v`) and one Gaussian + uniform fitted here by EM,
-/// both with the uniform over the central 99 % of the values as in two_component_mixture. Above 10
-/// is "very strong" evidence on the scale of Kass & Raftery, J. Am. Stat. Assoc. 90 (1995) 773
-/// (from memory). A distance measure cannot tell one phase from two at the separations real
-/// patterns give: at d′ ≈ 3.5 between pure points, the two halves of one phase's noise lie about
-/// as far apart, in their own spreads, as the two phases.
-double second_component_evidence(const std::vector<double>& v, const std::array<EndMember, 2>& mix) {
+/// end-member mixture (`mix`, in the units of `v`, MixedPoints::broad) and one Gaussian + a uniform
+/// share over the central 99 % of the values, fitted here by EM. Above 10 is "very strong" evidence on the scale of
+/// Kass & Raftery, J. Am. Stat. Assoc. 90 (1995) 773 (from memory). A distance measure cannot tell one phase from two
+/// at the separations real patterns give: at d′ ≈ 3.5 between pure points, the two halves of one phase's noise lie
+/// about as far apart, in their own spreads, as the two phases.
+double second_component_evidence(const std::vector<double>& v, const EndMemberMixture& mix) {
   const size_t n = v.size();
   if (n < 8) return 0;
   std::vector<double> sorted = v;
@@ -273,8 +273,7 @@ double second_component_evidence(const std::vector<double>& v, const std::array<
   };
   auto uniform = [&](double x, double w) { return x >= lo && x <= hi ? w / range : 0.0; };
   double l2 = 0;
-  const double u2 = std::max(1e-6, 1 - mix[0].weight - mix[1].weight);
-  for (double x : v) l2 += std::log(std::max(gauss(x, mix[0]) + gauss(x, mix[1]) + uniform(x, u2), 1e-300));
+  for (double x : v) l2 += std::log(std::max(mix.density(x), 1e-300));
   // One Gaussian + uniform, from the median and the scaled median absolute deviation.
   EndMember one{sorted[n / 2], 0, 0.9};
   std::vector<double> dev(n);
@@ -445,8 +444,9 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
     y.push_back(score[k] - matrix_t[g]);
   }
   Placement pl;
-  pl.mix = two_component_mixture(y);
-  pl.evidence = second_component_evidence(y, pl.mix);
+  const EndMemberMixture fitted = end_member_mixture(y, MixedPoints::broad);
+  pl.mix = fitted.end_members;
+  pl.evidence = second_component_evidence(y, fitted);
   const double zero = pl.mix[0].mean;
   pl.beta = pl.mix[1].mean - zero > 0 ? pl.mix[1].mean - zero : 1.0;
   // Start: each grain's zero from its matrix points and the pooled components; then refined jointly.
@@ -498,8 +498,9 @@ std::array<EndMember, 2> components(std::vector<double> v, double& evidence) {
   const double lo = sorted[sorted.size() / 20], hi = sorted[sorted.size() - 1 - sorted.size() / 20];
   const double range = hi > lo ? hi - lo : 1.0;
   for (double& x : v) x = (x - lo) / range;
-  mix = two_component_mixture(v);
-  evidence = second_component_evidence(v, mix);
+  const EndMemberMixture fitted = end_member_mixture(v, MixedPoints::broad);
+  mix = fitted.end_members;
+  evidence = second_component_evidence(v, fitted);
   for (EndMember& m : mix) m.mean = lo + range * m.mean, m.sd *= range;
   return mix;
 }

@@ -8,6 +8,7 @@
 
 #include "orderband/band_profile.hpp"
 #include "orderband/detector_geometry.hpp"
+#include "orderband/end_member_mixture.hpp"
 #include "orderband/enum_names.hpp"
 #include "orderband/learned_fraction.hpp"
 #include "orderband/ordering_pair.hpp"
@@ -86,11 +87,6 @@ struct FractionSpec {
   std::vector<uint8_t> ordered_mask, disordered_mask;          ///< per point, non-zero: in the region (empty: none)
 };
 
-struct EndMember {
-  double mean = 0, sd = 0;  ///< of the raw ordered signal (model units: 0 disordered, 1 ordered)
-  double weight = 0;        ///< mixture weight (share of points)
-};
-
 struct FamilyDiagnostic {
   std::string label;
   bool superlattice = false;
@@ -167,9 +163,5 @@ struct FractionResults {
 FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& orientations,
                                       const FractionSpec& spec = {}, const ProgressFn& progress = {},
                                       RowStore* store = nullptr);
-
-/// End members of the raw estimates by EM: two Gaussians plus a uniform component for the points
-/// that mix both phases (component 0 has the lower mean).
-std::array<EndMember, 2> two_component_mixture(const std::vector<double>& values);
 
 }  // namespace orderband
