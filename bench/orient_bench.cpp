@@ -18,28 +18,11 @@
 
 using namespace orderband;
 
-int main(int argc, char** argv) {
-  const int px = argc > 1 ? std::atoi(argv[1]) : 60;
-  const int side = argc > 2 ? std::atoi(argv[2]) : 40;
-  const double counts = argc > 3 ? std::atof(argv[3]) : 5000;
-  const std::string dir = (std::filesystem::temp_directory_path() / "orderband-orient-bench").string();
-  std::filesystem::create_directories(dir);
-  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 3\n[scan]\nrows = " << side << "\ncols = " << side
-                                 << "\nstep_um = 0.03\n[detector]\nwidth_px = " << px << "\nheight_px = " << px
-                                 << "\npc_px = [" << px / 2.0 << ", " << 0.3 * px << "]\ndistance_px = " << 0.75 * px
-                                 << "\n[phases]\npair = \""
-                                 << (std::getenv("ORDERBAND_BENCH_PAIR") ? std::getenv("ORDERBAND_BENCH_PAIR") : "ni")
-                                 << "\"\n[patterns]\ncounts_per_px = " << counts
-                                 << "\n[grains]\ncount = 4\n[secondary]\narea_fraction = 0.3\ndistribution = "
-                                    "\"lognormal\"\nmedian_diameter_um = 0.12\nsigma_ln = 0.2\n";
-  const SynthScenario s = read_synth_scenario(dir + "/s.toml");
-  write_synthetic_scan(s, dir + "/scan", "orient_bench");
-  const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-  const auto t0 = std::chrono::steady_clock::now();
-  const OrientationResults r = orient_scan(read_scan_inputs(config, InputHashing::skip));
-  const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-  std::ifstream truth_in(dir + "/scan/truth_orientations.csv");
-  const OrientationTable truth = read_orientation_csv(truth_in, config.grid, "truth");
+namespace {
+
+/// Accuracy against the truth, grains and the points' status.
+void report(const OrientationResults& r, const ScanConfig& config, const OrientationTable& truth,
+            const SynthScenario& s, int side, int px, double counts, double sec) {
   const CrystalSymmetry cubic = CrystalSymmetry::cubic();
   std::vector<double> err;
   size_t within2 = 0, usable = 0;
@@ -75,6 +58,45 @@ int main(int argc, char** argv) {
                     a[1], a[2], r.bands_matched[k], r.fit_residual_deg[k], r.correlation[k]);
       }
     }
+  }
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  const int px = argc > 1 ? std::atoi(argv[1]) : 60;
+  const int side = argc > 2 ? std::atoi(argv[2]) : 40;
+  const double counts = argc > 3 ? std::atof(argv[3]) : 5000;
+  const std::string dir = (std::filesystem::temp_directory_path() / "orderband-orient-bench").string();
+  std::filesystem::create_directories(dir);
+  std::ofstream(dir + "/s.toml") << "[scenario]\nseed = 3\n[scan]\nrows = " << side << "\ncols = " << side
+                                 << "\nstep_um = 0.03\n[detector]\nwidth_px = " << px << "\nheight_px = " << px
+                                 << "\npc_px = [" << px / 2.0 << ", " << 0.3 * px << "]\ndistance_px = " << 0.75 * px
+                                 << "\n[phases]\npair = \""
+                                 << (std::getenv("ORDERBAND_BENCH_PAIR") ? std::getenv("ORDERBAND_BENCH_PAIR") : "ni")
+                                 << "\"\n[patterns]\ncounts_per_px = " << counts
+                                 << "\n[grains]\ncount = 4\n[secondary]\narea_fraction = 0.3\ndistribution = "
+                                    "\"lognormal\"\nmedian_diameter_um = 0.12\nsigma_ln = 0.2\n";
+  const SynthScenario s = read_synth_scenario(dir + "/s.toml");
+  write_synthetic_scan(s, dir + "/scan", "orient_bench");
+  const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
+  const ScanInputs inputs = read_scan_inputs(config, InputHashing::skip);
+  std::ifstream truth_in(dir + "/scan/truth_orientations.csv");
+  const OrientationTable truth = read_orientation_csv(truth_in, config.grid, "truth");
+  double indexed_rate = 0;
+  // Every point indexed (the reference), then orientations from the row above first.
+  for (const bool from_neighbours : {false, true}) {
+    OrientSpec spec;
+    spec.from_neighbours = from_neighbours;
+    const auto t0 = std::chrono::steady_clock::now();
+    const OrientationResults r = orient_scan(inputs, spec);
+    const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    const double rate = config.grid.count() / sec;
+    if (!from_neighbours) indexed_rate = rate;
+    std::printf("\n%s: %.0f points/s (%.2f x every point indexed), %zu points refined from the row above\n",
+                from_neighbours ? "orientations from the row above first" : "every point indexed", rate,
+                rate / indexed_rate, r.points_from_neighbours);
+    report(r, config, truth, s, side, px, counts, sec);
   }
   if (!std::getenv("ORDERBAND_BENCH_KEEP")) std::filesystem::remove_all(dir);
   return 0;

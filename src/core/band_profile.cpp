@@ -109,16 +109,10 @@ BandProfiler::BandProfiler(std::vector<ProfileFamily> families, const ProfileSpe
   for (const auto& l : lists) candidates_.insert(candidates_.end(), l.begin(), l.end());
 }
 
-void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays,
-                           const Rotation& g, std::vector<FamilyProfile>& out) const {
-  // Accumulate into one contiguous block per (family, bin), then copy out.
-  struct Acc {
-    double sum, sum_sq, weight, weight_sq;
-    int count;
-  };
-  thread_local std::vector<Acc> acc;
-  acc.assign(families_.size() * bins_, Acc{0, 0, 0, 0, 0});
-  // Single precision for the geometry (errors ~1e-7 rad against bins of ~1e-3 rad), double sums.
+template <typename Hit>
+void BandProfiler::for_each_strip_pixel(const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                                        Hit&& hit) const {
+  // Single precision for the geometry (errors ~1e-7 rad against bins of ~1e-3 rad).
   const Eigen::Matrix3f m = g.matrix().cast<float>();
   const float scale = static_cast<float>(1.0 / spec_.bin_u), offset = static_cast<float>(spec_.u_max / spec_.bin_u);
   const float half_cells = 0.5f * cells_;
@@ -140,28 +134,80 @@ void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mas
     const int ci = std::min(last, static_cast<int>(a * inv + half_cells));
     const int cj = std::min(last, static_cast<int>(b * inv + half_cells));
     const int cell = (face * cells_ + ci) * cells_ + cj;
-    const double v = pattern[q], w = rays.solid_angle[q], wv = w * v, wvv = wv * v, ww = w * w;
     for (uint32_t e = offsets_[cell]; e < offsets_[cell + 1]; ++e) {
       const uint16_t k = candidates_[e];
       const float x = nx_[k] * c.x() + ny_[k] * c.y() + nz_[k] * c.z();
       // |x| ≤ sin(u_max θ_B) ≲ 0.1 here: asin x = x + x³/6 + O(x⁵) (error < 1e-6 rad).
       const float bf = (x + x * x * x * (1.0f / 6)) * inv_theta_[k] * scale + offset;
       if (!(bf >= 0 && bf < bins_)) continue;
-      Acc& acc_bin = acc[static_cast<size_t>(plane_family_[k]) * bins_ + static_cast<int>(bf)];
-      acc_bin.sum += wv, acc_bin.sum_sq += wvv, acc_bin.weight += w, acc_bin.weight_sq += ww, acc_bin.count += 1;
+      hit(q, static_cast<size_t>(plane_family_[k]) * bins_ + static_cast<int>(bf));
     }
   }
+}
+
+void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays,
+                           const Rotation& g, std::vector<FamilyProfile>& out) const {
+  // Accumulate into one contiguous block per (family, bin) slot in double, then copy out.
+  thread_local std::vector<ProfileSums> acc;
+  acc.assign(families_.size() * bins_, ProfileSums{});
+  for_each_strip_pixel(mask, rays, g, [&](size_t q, size_t slot) {
+    const double v = pattern[q], w = rays.solid_angle[q], wv = w * v;
+    ProfileSums& a = acc[slot];
+    a.sum += wv, a.sum_sq += wv * v, a.weight += w, a.weight_sq += w * w, a.count += 1;
+  });
+  copy_out(acc, out);
+}
+
+void BandProfiler::copy_out(const std::vector<ProfileSums>& acc, std::vector<FamilyProfile>& out) const {
   out.resize(families_.size());
   for (size_t f = 0; f < families_.size(); ++f) {
     FamilyProfile& p = out[f];
     p.sum.resize(bins_), p.sum_sq.resize(bins_), p.weight.resize(bins_), p.weight_sq.resize(bins_),
         p.count.resize(bins_);
     for (int b = 0; b < bins_; ++b) {
-      const Acc& a = acc[f * bins_ + b];
+      const ProfileSums& a = acc[f * bins_ + b];
       p.sum[b] = a.sum, p.sum_sq[b] = a.sum_sq, p.weight[b] = a.weight, p.weight_sq[b] = a.weight_sq,
       p.count[b] = a.count;
     }
   }
+}
+
+FixedOrientationProfiler BandProfiler::at_orientation(const std::vector<uint8_t>& mask, const DetectorRays& rays,
+                                                      const Rotation& g) const {
+  FixedOrientationProfiler plan;
+  plan.profiler_ = this;
+  const size_t slots = families_.size() * bins_;
+  plan.fixed_.assign(slots, ProfileSums{});
+  // Count the pixels per slot, then list them slot by slot in increasing pixel order: the same
+  // order in which profile() adds them, so both give the same sums to the last bit.
+  std::vector<uint32_t> per_slot(slots, 0);
+  for_each_strip_pixel(mask, rays, g, [&](size_t, size_t slot) { ++per_slot[slot]; });
+  plan.offsets_.assign(slots + 1, 0);
+  for (size_t s = 0; s < slots; ++s) plan.offsets_[s + 1] = plan.offsets_[s] + per_slot[s];
+  plan.pixel_.resize(plan.offsets_.back());
+  plan.weight_.resize(plan.offsets_.back());
+  std::vector<uint32_t> next(plan.offsets_.begin(), plan.offsets_.end() - 1);
+  for_each_strip_pixel(mask, rays, g, [&](size_t q, size_t slot) {
+    const double w = rays.solid_angle[q];
+    plan.pixel_[next[slot]] = static_cast<uint32_t>(q), plan.weight_[next[slot]] = w, ++next[slot];
+    ProfileSums& a = plan.fixed_[slot];
+    a.weight += w, a.weight_sq += w * w, a.count += 1;
+  });
+  return plan;
+}
+
+void FixedOrientationProfiler::profile(const float* pattern, std::vector<FamilyProfile>& out) const {
+  thread_local std::vector<ProfileSums> acc;
+  acc = fixed_;
+  for (size_t s = 0; s + 1 < offsets_.size(); ++s) {
+    double sum = 0, sum_sq = 0;
+    for (uint32_t e = offsets_[s]; e < offsets_[s + 1]; ++e) {
+      const double v = pattern[pixel_[e]], wv = weight_[e] * v;
+      sum += wv, sum_sq += wv * v;
+    }
+    acc[s].sum = sum, acc[s].sum_sq = sum_sq;
+  }
+  profiler_->copy_out(acc, out);
 }
 
 FamilyWindows BandProfiler::windows(const FamilyProfile& p, const WindowSpec& spec) const {

@@ -6,6 +6,7 @@
 #include <array>
 #include <cmath>
 
+#include "grain_profilers.hpp"
 #include "orderband/detection_limit.hpp"
 #include "orderband/learned_fraction.hpp"
 #include "row_loop.hpp"
@@ -171,6 +172,7 @@ struct LinearFeatures {
     const ScanGrid& grid = scan.grid;
     const size_t first_fundamental = scan.families.first_fundamental;
     PreprocessedRows rows(*scan.source, grid, data);
+    const GrainProfilers at_grain(features, scan.pre.mask(), scan.rays, scan.grain_orientation);
     for_each_scan_row(
         rows, grid, store, "fraction-learned", progress,
         [&](int row, ByteReader& bytes) {
@@ -198,7 +200,7 @@ struct LinearFeatures {
                 continue;
               }
               const float* pattern = patterns.data() + static_cast<size_t>(col) * scan.pixels();
-              features.profile(pattern, scan.pre.mask(), scan.rays, scan.grain_orientation[g], prof);
+              at_grain.at_grain(g)->profile(pattern, prof);
               profile_features(prof, bins, in.x.data() + k * p);
               const FamilyWindows fw = features.windows(prof[first_fundamental], scan.spec.windows);
               res.band_contrast[k] = static_cast<float>(fw.interior.mean - fw.flanks.mean);

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 
+#include "grain_profilers.hpp"
 #include "row_loop.hpp"
 
 namespace orderband {
@@ -96,6 +97,7 @@ struct PointEstimator {
   const FractionScan& scan;
   const std::vector<FractionReference>& refs;
   const CrossProfiles& cross_profiles;
+  const GrainProfilers& at_grain;  ///< profiles at a grain's orientation
   FractionResults& r;
 
   /// Off-peak windows only: interior minus flanks per family, over the fundamental contrast.
@@ -139,7 +141,7 @@ struct PointEstimator {
     }
     double f = fit.f, v = fit.var;
     if (cross != cross_profiles.end()) {
-      scan.profiler.profile(pattern, scan.pre.mask(), scan.rays, scan.grain_orientation[other], prof);
+      at_grain.at_grain(other)->profile(pattern, prof);
       const PointFit second = fit_point(scan, prof, refs[other], &cross_profiles.at({other, g}), pixel_sd);
       // Both patterns are standardised, so the two scale factors share the beam's volume.
       const double a = std::max(fit.q, 0.0), b = second.ok ? std::max(second.q, 0.0) : 0.0;
@@ -172,7 +174,10 @@ struct PointEstimator {
     FractionReference own_ref;
     if (own) own_ref = build_reference(scan, orientation);
     const FractionReference& ref = own ? own_ref : refs[g];
-    scan.profiler.profile(pattern, scan.pre.mask(), scan.rays, own ? orientation : scan.grain_orientation[g], prof);
+    if (own)
+      scan.profiler.profile(pattern, scan.pre.mask(), scan.rays, orientation, prof);
+    else
+      at_grain.at_grain(g)->profile(pattern, prof);
     if (scan.spec.estimator == FractionEstimator::windows)
       windows(k, prof, ref, fam_num, fam_den);
     else
@@ -187,7 +192,8 @@ FamilySeparation estimate_model_led(const FractionScan& scan, const std::vector<
   const ScanGrid& grid = scan.grid;
   const size_t nf = scan.families.count(), px = scan.pixels();
   const CrossProfiles cross_profiles = scan.cross_profiles(scan.profiler, scan.model->processing());
-  const PointEstimator estimator{scan, refs, cross_profiles, r};
+  const GrainProfilers at_grain(scan.profiler, scan.pre.mask(), scan.rays, scan.grain_orientation);
+  const PointEstimator estimator{scan, refs, cross_profiles, at_grain, r};
   FamilySeparation sep{std::vector<double>(nf, 0.0), std::vector<double>(nf, 0.0)};
   std::vector<double> row_num(nf, 0.0), row_den(nf, 0.0);  // this row's family separations
   PreprocessedRows rows(*scan.source, grid, scan.pre);

@@ -106,6 +106,46 @@ OrientationResults empty_results(size_t n) {
   return r;
 }
 
+/// A start for a point from the row above: an orientation and the model correlation it had there.
+struct NeighbourStart {
+  Rotation orientation;
+  float correlation = 0;
+};
+
+/// The orientations of the points (row − 1, col − 1 … col + 1) that have one, the one straight above
+/// first, each distinct from those before it by more than the grain threshold.
+std::vector<NeighbourStart> starts_from_row_above(const OrientStage& st, const OrientationResults& r, int row,
+                                                  int col) {
+  std::vector<NeighbourStart> starts;
+  if (row == 0) return starts;
+  for (const int c : {col, col - 1, col + 1}) {
+    if (c < 0 || c >= st.grid.cols) continue;
+    const size_t j = st.grid.index({row - 1, c});
+    if (!r.orientation[j]) continue;
+    const Rotation& o = *r.orientation[j];
+    const bool distinct = std::none_of(starts.begin(), starts.end(), [&](const NeighbourStart& s) {
+      return st.symmetry.misorientation_angle(s.orientation, o) <= st.threshold;
+    });
+    if (distinct) starts.push_back({o, r.correlation[j]});
+  }
+  return starts;
+}
+
+/// Point k refined from the row above's orientations (starts_from_row_above): the first fit within
+/// the margin of its start's own correlation is taken. False: none fits; index the point.
+bool orient_from_neighbours(const OrientStage& st, const float* p, size_t k, const std::vector<NeighbourStart>& starts,
+                            OrientationResults& r) {
+  for (const NeighbourStart& start : starts) {
+    const RefineResult fit = st.refiner.refine(p, start.orientation);
+    if (fit.correlation < st.spec.min_correlation || fit.correlation < start.correlation - st.spec.neighbour_margin)
+      continue;
+    r.orientation[k] = st.symmetry.reduce(fit.orientation);
+    r.correlation[k] = static_cast<float>(fit.correlation);
+    return true;
+  }
+  return false;
+}
+
 /// One point: its orientation found (the best-voted distinct solutions compete by how well the
 /// model matches the pattern) or taken from the given table, then refined.
 void orient_point(const OrientStage& st, const float* p, size_t k, OrientationResults& r) {
@@ -183,13 +223,17 @@ void orient_points(const OrientStage& st, const ProgressFn& progress, RowStore* 
   for_each_scan_row(
       rows, grid, store, "orient", progress, [&](int row, ByteReader& in) { restore_row(grid, row, in, r); },
       [&](int row, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
+        // Only the rows before are read, so the results do not depend on the number of threads.
+        const bool from_neighbours =
+            st.spec.from_neighbours && !st.inputs.given_orientations && st.inputs.config.orientations.refine;
 #pragma omp parallel for schedule(dynamic)
         for (int col = 0; col < grid.cols; ++col) {
           const size_t k = grid.index({row, col});
+          const float* p = patterns.data() + static_cast<size_t>(col) * px;
           if (!usable[col])
             r.status[k] = static_cast<uint8_t>(PointStatus::unusable_pattern);
-          else
-            orient_point(st, patterns.data() + static_cast<size_t>(col) * px, k, r);
+          else if (!from_neighbours || !orient_from_neighbours(st, p, k, starts_from_row_above(st, r, row, col), r))
+            orient_point(st, p, k, r);
         }
       },
       [&](int row, ByteWriter& out) { save_row(grid, row, out, r); });
@@ -313,6 +357,9 @@ OrientationResults orient_scan(const ScanInputs& inputs, const OrientSpec& spec,
   const OrientStage st(inputs, spec);
   OrientationResults r = empty_results(st.grid.count());
   orient_points(st, progress, store, r);
+  if (!inputs.given_orientations)
+    for (size_t k = 0; k < r.orientation.size(); ++k)
+      r.points_from_neighbours += r.orientation[k] && r.bands_matched[k] < 0;
   recheck_isolated_points(st, r);
   r.grains = segment_grains(st.grid, r.orientation, st.symmetry, spec.grains);
   if (!inputs.given_orientations && inputs.config.orientations.refine && spec.pseudo_symmetry_samples > 0)

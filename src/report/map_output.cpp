@@ -635,7 +635,8 @@ void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const Map
   j["grains"] = r.orientations.grains.count();
   j["grain_checks"] = {{"pseudo_symmetric_grains", r.orientations.pseudo_symmetric_grains},
                        {"pseudo_symmetric_points", r.orientations.pseudo_symmetric_points},
-                       {"points_joined_to_grain", r.orientations.points_joined_to_grain}};
+                       {"points_joined_to_grain", r.orientations.points_joined_to_grain},
+                       {"points_from_neighbours", r.orientations.points_from_neighbours}};
 }
 
 /// Every parameter of the run, as the summary records them. Longer than the ~80 lines a function

@@ -102,7 +102,8 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
   j["grains"] = grains;
   j["grain_checks"] = {{"pseudo_symmetric_grains", r.pseudo_symmetric_grains},
                        {"pseudo_symmetric_points", r.pseudo_symmetric_points},
-                       {"points_joined_to_grain", r.points_joined_to_grain}};
+                       {"points_joined_to_grain", r.points_joined_to_grain},
+                       {"points_from_neighbours", r.points_from_neighbours}};
   j["parameters"] = {{"orientation_source", name_of(config.orientations.source)},
                      {"refine", config.orientations.refine},
                      {"grain_threshold_deg", spec.grains.threshold_deg},

@@ -59,6 +59,36 @@ struct FamilyWindows {
   WindowStats interior, flanks;
 };
 
+/// One (family, bin) slot's sums over its pixels (FamilyProfile's terms).
+struct ProfileSums {
+  double sum = 0, sum_sq = 0, weight = 0, weight_sq = 0;
+  int count = 0;
+};
+
+class BandProfiler;
+
+/// Profiles of many patterns at one orientation (the points of one grain, profiled at the grain's
+/// orientation): which pixels fall in which (family, bin) slot is worked out once
+/// (BandProfiler::at_orientation), so a pattern costs one multiply-add per pixel and strip it lies
+/// in. Gives the same sums as BandProfiler::profile at that orientation, bit for bit.
+class FixedOrientationProfiler {
+ public:
+  void profile(const float* pattern, std::vector<FamilyProfile>& out) const;
+  size_t entries() const { return pixel_.size(); }
+  size_t bytes() const {
+    return pixel_.size() * (sizeof(uint32_t) + sizeof(double)) + fixed_.size() * sizeof(ProfileSums) +
+           offsets_.size() * sizeof(uint32_t);
+  }
+
+ private:
+  friend class BandProfiler;
+  const BandProfiler* profiler_ = nullptr;
+  std::vector<uint32_t> offsets_;  ///< per slot, into pixel_ / weight_ (CSR)
+  std::vector<uint32_t> pixel_;
+  std::vector<double> weight_;      ///< the pixel's solid angle (sr)
+  std::vector<ProfileSums> fixed_;  ///< the weights and counts, the same for every pattern
+};
+
 /// Computes band profiles of many patterns fast: a cube map of the sphere
 /// (6 × cells² cells) lists, for each cell, the planes whose profile strip
 /// (|α| ≤ u_max·θ_B) may reach it; each pattern then costs one rotation, one
@@ -78,10 +108,22 @@ class BandProfiler {
   void profile(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
                std::vector<FamilyProfile>& out) const;
 
+  /// The profiler of many patterns at orientation g (FixedOrientationProfiler); it refers to this
+  /// profiler, which must outlive it.
+  FixedOrientationProfiler at_orientation(const std::vector<uint8_t>& mask, const DetectorRays& rays,
+                                          const Rotation& g) const;
+
   FamilyWindows windows(const FamilyProfile& p, const WindowSpec& spec = {}) const;
 
  private:
+  friend class FixedOrientationProfiler;
   int cell_of(const Eigen::Vector3d& u) const;
+  /// Calls hit(pixel, slot) for every pixel in the mask and every (family, bin) slot whose strip it
+  /// lies in at orientation g, pixels in increasing order.
+  template <typename Hit>
+  void for_each_strip_pixel(const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                            Hit&& hit) const;
+  void copy_out(const std::vector<ProfileSums>& acc, std::vector<FamilyProfile>& out) const;
   std::vector<ProfileFamily> families_;
   ProfileSpec spec_;
   int bins_ = 0, cells_ = 0;

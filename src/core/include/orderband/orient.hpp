@@ -39,6 +39,12 @@ struct OrientSpec {
   int pseudo_symmetry_samples = 8;
   int pseudo_symmetry_candidates = 4;
   double pseudo_symmetry_gain = 0.05;
+  /// Orientations from the row above first: a point is refined from the orientations of its three
+  /// nearest points in the previous row and keeps the first fit whose model correlation is within
+  /// `neighbour_margin` of that point's own; only where none fits is it indexed from its bands. A
+  /// grain's first row pays for indexing, the rest for a refinement. Off: every point is indexed.
+  bool from_neighbours = true;
+  double neighbour_margin = 0.05;
 };
 
 struct OrientationResults {
@@ -52,6 +58,7 @@ struct OrientationResults {
   int pseudo_symmetric_grains = 0;     ///< grains found on a pseudo-symmetric solution and mapped
   size_t pseudo_symmetric_points = 0;  ///< points of those grains that took the mapped orientation
   size_t points_joined_to_grain = 0;   ///< points far from their grain's mean that took it
+  size_t points_from_neighbours = 0;   ///< points refined from the row above, not indexed (OrientSpec::from_neighbours)
   /// Patterns that could not be used as stored (PatternSource::faults): point index → reason.
   std::map<size_t, std::string> pattern_faults;
   size_t usable() const;
