@@ -3,10 +3,13 @@
 
 namespace orderband {
 
-GrainProfilers::GrainProfilers(const BandProfiler& profiler, const std::vector<uint8_t>& mask,
-                               const DetectorRays& rays, const std::vector<Rotation>& grain_orientation,
-                               size_t budget_bytes)
-    : profiler_(profiler), mask_(mask), rays_(rays), grain_orientation_(grain_orientation), budget_bytes_(budget_bytes) {}
+GrainProfilers::GrainProfilers(const BandProfiler& profiler, const std::vector<uint8_t>& mask, const DetectorRays& rays,
+                               const std::vector<Rotation>& grain_orientation, size_t budget_bytes)
+    : profiler_(profiler),
+      mask_(mask),
+      rays_(rays),
+      grain_orientation_(grain_orientation),
+      budget_bytes_(budget_bytes) {}
 
 std::shared_ptr<const FixedOrientationProfiler> GrainProfilers::at_grain(int g) const {
   {
