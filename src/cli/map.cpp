@@ -32,6 +32,9 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
   sub.add_option("--grain-threshold", o.grain_threshold, "misorientation that separates grains (°), in (0, 180]")
       ->check(finite_within(0, 180, true, false))
       ->capture_default_str();
+  sub.add_flag("--index-every-point", o.index_every_point,
+               "index every point from its bands (default: refine from the row above's orientations first and "
+               "index only where none fits)");
   sub.add_option("--end-members", o.end_members,
                  "model, or mixture (rescale to the scan's two modes); reference regions come from the scan's "
                  "[fraction] table")

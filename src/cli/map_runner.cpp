@@ -20,6 +20,7 @@ MapOptions to_map_options(const MapRunOptions& o) {
     fail("--class-bounds needs two increasing positive ECDs in µm (secondary from, primary from)");
   m.classes.lower_um = {0.0, o.class_bounds[0], o.class_bounds[1]};
   m.orient.grains.threshold_deg = o.grain_threshold;
+  m.orient.from_neighbours = !o.index_every_point;
   m.fraction.end_members = o.end_members == "mixture" ? EndMemberMode::mixture : EndMemberMode::model;
   m.fraction.estimator = o.estimator == "learned" ? FractionEstimator::learned : FractionEstimator::profile;
   m.mean_spheres = !o.no_mean_spheres;

@@ -17,6 +17,7 @@ struct MapRunOptions {
   int min_particle = 0;  ///< 0: from the detection limit
   std::vector<double> class_bounds{0.1, 1.0};
   double grain_threshold = 5.0;
+  bool index_every_point = false;  ///< no orientations from the row above (OrientSpec::from_neighbours)
   std::string end_members = "model";
   std::string estimator = "model";  ///< "model" (kinematic references) or "learned" (data-led)
   bool no_mean_spheres = false;

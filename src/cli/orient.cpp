@@ -18,6 +18,7 @@ std::function<int()> setup_orient(CLI::App& sub) {
     bool quiet = false;
     double grain_threshold = 5.0;
     int min_grain = 4;
+    bool index_every_point = false;
   };
   auto o = std::make_shared<Options>();
   sub.add_option("scan", o->scan, "scan description (TOML)")->required();
@@ -29,6 +30,9 @@ std::function<int()> setup_orient(CLI::App& sub) {
                  "smallest grain (points, at least 1); smaller ones merge into a neighbour")
       ->check(finite_within(1, 1e9, false, false))
       ->capture_default_str();
+  sub.add_flag("--index-every-point", o->index_every_point,
+               "index every point from its bands (default: refine from the row above's orientations first and "
+               "index only where none fits)");
   add_threads_option(sub, o->threads);
   sub.add_flag("--quiet", o->quiet, "no progress on stderr");
   return [o]() {
@@ -38,6 +42,7 @@ std::function<int()> setup_orient(CLI::App& sub) {
     OrientSpec spec;
     spec.grains.threshold_deg = o->grain_threshold;
     spec.grains.min_points = o->min_grain;
+    spec.from_neighbours = !o->index_every_point;
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
     const FolderLock lock(folder);
     ProgressReporter progress("orient", "points", o->quiet);

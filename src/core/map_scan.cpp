@@ -101,6 +101,53 @@ MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs)
   return applied;
 }
 
+namespace {
+
+/// The mean spheres of the clearly disordered (f < 0.2) and clearly ordered (f > 0.8) points, each
+/// pattern back-projected at its own orientation and folded by the parent's Laue group. The sphere
+/// pixels of a row's patterns are found in parallel; the sums are added in point order, so the
+/// spheres do not depend on the number of threads.
+void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair, const StageProgress& progress,
+                             MapResults& r) {
+  const ScanGrid& grid = inputs.config.grid;
+  PatternSource* source = inputs.patterns.get();
+  const DetectorGeometry geometry(inputs.geometry());
+  const DetectorRays rays(geometry);
+  const Preprocessor& pre = inputs.preprocessor();
+  const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
+  SphereMap dis(sphere_grid), ord(sphere_grid);
+  PreprocessedRows rows(*source, grid, pre);
+  std::vector<float> patterns;
+  std::vector<uint8_t> usable;
+  std::vector<long> sphere_pixel(static_cast<size_t>(grid.cols) * source->pixels());
+  const size_t px = source->pixels();
+  int row = 0;
+  while (rows.next(patterns, usable)) {
+    auto used = [&](int col) {
+      const size_t k = grid.index({row, col});
+      const float f = r.fraction.fraction[k];
+      return usable[col] && r.orientations.orientation[k] && std::isfinite(f) && (f < 0.2 || f > 0.8);
+    };
+#pragma omp parallel for schedule(dynamic)
+    for (int col = 0; col < grid.cols; ++col)
+      if (used(col))
+        sphere_pixels(pre.mask(), rays, *r.orientations.orientation[grid.index({row, col})], sphere_grid,
+                      sphere_pixel.data() + static_cast<size_t>(col) * px);
+    for (int col = 0; col < grid.cols; ++col)
+      if (used(col))
+        back_project(patterns.data() + static_cast<size_t>(col) * px, pre.mask(), rays,
+                     sphere_pixel.data() + static_cast<size_t>(col) * px,
+                     r.fraction.fraction[grid.index({row, col})] > 0.8 ? ord : dis);
+    ++row;
+    if (progress) progress("mean spheres", static_cast<size_t>(row) * grid.cols, grid.count());
+  }
+  const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
+  r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
+  r.mean_ordered.emplace(fold_by_symmetry(ord, symmetry));
+}
+
+}  // namespace
+
 MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const StageProgress& progress,
                     RowStore* store) {
   MapResults r;
@@ -134,32 +181,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);
   fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
-  if (options.mean_spheres) {
-    PatternSource* source = inputs.patterns.get();
-    const DetectorGeometry geometry(inputs.geometry());
-    const DetectorRays rays(geometry);
-    const Preprocessor& pre = inputs.preprocessor();
-    const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
-    SphereMap dis(sphere_grid), ord(sphere_grid);
-    PreprocessedRows rows(*source, grid, pre);
-    std::vector<float> patterns;
-    std::vector<uint8_t> usable;
-    int row = 0;
-    while (rows.next(patterns, usable)) {
-      for (int col = 0; col < grid.cols; ++col) {
-        const size_t k = grid.index({row, col});
-        const float f = r.fraction.fraction[k];
-        if (!usable[col] || !r.orientations.orientation[k] || !std::isfinite(f) || (f >= 0.2 && f <= 0.8)) continue;
-        back_project(patterns.data() + static_cast<size_t>(col) * source->pixels(), pre.mask(), rays,
-                     *r.orientations.orientation[k], f > 0.8 ? ord : dis);
-      }
-      ++row;
-      if (progress) progress("mean spheres", static_cast<size_t>(row) * grid.cols, grid.count());
-    }
-    const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
-    r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
-    r.mean_ordered.emplace(fold_by_symmetry(ord, symmetry));
-  }
+  if (options.mean_spheres) accumulate_mean_spheres(inputs, pair, progress, r);
   return r;
 }
 

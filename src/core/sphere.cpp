@@ -72,15 +72,28 @@ DetectorRays::DetectorRays(const DetectorGeometry& g) : width(g.width()), height
     }
 }
 
-void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
-                  SphereMap& into) {
+void sphere_pixels(const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                   const SphereGrid& grid, long* pixel) {
   const Eigen::Matrix3d m = g.matrix();
+  for (size_t q = 0; q < rays.direction.size(); ++q)
+    pixel[q] = !mask.empty() && !mask[q] ? -1 : grid.pixel_of(m * rays.direction[q]);
+}
+
+void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const long* pixel,
+                  SphereMap& into) {
   for (size_t q = 0; q < rays.direction.size(); ++q) {
     if (!mask.empty() && !mask[q]) continue;
-    const long p = into.grid.pixel_of(m * rays.direction[q]);
-    into.sum[p] += pattern[q] * rays.solid_angle[q];
-    into.weight[p] += rays.solid_angle[q];
+    into.sum[pixel[q]] += pattern[q] * rays.solid_angle[q];
+    into.weight[pixel[q]] += rays.solid_angle[q];
   }
+}
+
+void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                  SphereMap& into) {
+  thread_local std::vector<long> pixel;
+  pixel.resize(rays.direction.size());
+  sphere_pixels(mask, rays, g, into.grid, pixel.data());
+  back_project(pattern, mask, rays, pixel.data(), into);
 }
 
 SphereMap fold_by_symmetry(const SphereMap& map, const CrystalSymmetry& symmetry) {

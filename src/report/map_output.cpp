@@ -656,6 +656,8 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
            {{"source", name_of(config.orientations.source)},
             {"refine", config.orientations.refine},
             {"grain_threshold_deg", options.orient.grains.threshold_deg},
+            {"orientations_from_row_above", options.orient.from_neighbours},
+            {"row_above_correlation_margin", options.orient.neighbour_margin},
             {"grain_min_points", options.orient.grains.min_points},
             {"grain_split_bimodal", options.orient.grains.split_bimodal},
             {"candidates", options.orient.candidates},

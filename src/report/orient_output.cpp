@@ -107,6 +107,8 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
   j["parameters"] = {{"orientation_source", name_of(config.orientations.source)},
                      {"refine", config.orientations.refine},
                      {"grain_threshold_deg", spec.grains.threshold_deg},
+                     {"orientations_from_row_above", spec.from_neighbours},
+                     {"row_above_correlation_margin", spec.neighbour_margin},
                      {"grain_min_points", spec.grains.min_points},
                      {"grain_split_bimodal", spec.grains.split_bimodal},
                      {"index_angle_tolerance_deg", spec.index.angle_tolerance_deg},

@@ -66,6 +66,15 @@ struct DetectorRays {
 void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
                   SphereMap& into);
 
+/// The sphere pixel of each detector pixel's crystal direction at orientation g (−1 outside the
+/// mask): the costly half of back_project, which threads can share out.
+void sphere_pixels(const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
+                   const SphereGrid& grid, long* pixel);
+
+/// back_project with the sphere pixels given (sphere_pixels).
+void back_project(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const long* pixel,
+                  SphereMap& into);
+
 /// The map folded by the crystal symmetry: every pixel takes the
 /// weight-averaged value of its symmetric equivalents.
 SphereMap fold_by_symmetry(const SphereMap& map, const CrystalSymmetry& symmetry);
