@@ -112,8 +112,8 @@ struct NeighbourStart {
   float correlation = 0;
 };
 
-/// The orientations of the points (row − 1, col − 1 … col + 1) that have one, the one straight above
-/// first, each distinct from those before it by more than the grain threshold.
+/// The orientations of the points (row − 1, col − 1 … col + 1) that have one, each distinct from
+/// those before it (the one straight above first) by more than the grain threshold, best fit first.
 std::vector<NeighbourStart> starts_from_row_above(const OrientStage& st, const OrientationResults& r, int row,
                                                   int col) {
   std::vector<NeighbourStart> starts;
@@ -128,16 +128,22 @@ std::vector<NeighbourStart> starts_from_row_above(const OrientStage& st, const O
     });
     if (distinct) starts.push_back({o, r.correlation[j]});
   }
+  // The best fit first: a point on a grain boundary above (a mixed pattern, poorly fitted) must not
+  // lend its orientation before a good one.
+  std::stable_sort(starts.begin(), starts.end(),
+                   [](const NeighbourStart& a, const NeighbourStart& b) { return a.correlation > b.correlation; });
   return starts;
 }
 
-/// Point k refined from the row above's orientations (starts_from_row_above): the first fit within
-/// the margin of its start's own correlation is taken. False: none fits; index the point.
+/// Point k refined from the row above's orientations (starts_from_row_above): the first converged fit
+/// within the margin of its start's own correlation is taken. False: none fits; index the point.
 bool orient_from_neighbours(const OrientStage& st, const float* p, size_t k, const std::vector<NeighbourStart>& starts,
                             OrientationResults& r) {
   for (const NeighbourStart& start : starts) {
     const RefineResult fit = st.refiner.refine(p, start.orientation);
-    if (fit.correlation < st.spec.min_correlation || fit.correlation < start.correlation - st.spec.neighbour_margin)
+    // A fit that has not converged travelled far from its start (another grain's orientation).
+    if (!fit.converged || fit.correlation < st.spec.min_correlation ||
+        fit.correlation < start.correlation - st.spec.neighbour_margin)
       continue;
     r.orientation[k] = st.symmetry.reduce(fit.orientation);
     r.correlation[k] = static_cast<float>(fit.correlation);

@@ -40,8 +40,9 @@ struct OrientSpec {
   int pseudo_symmetry_candidates = 4;
   double pseudo_symmetry_gain = 0.05;
   /// Orientations from the row above first: a point is refined from the orientations of its three
-  /// nearest points in the previous row and keeps the first fit whose model correlation is within
-  /// `neighbour_margin` of that point's own; only where none fits is it indexed from its bands. A
+  /// nearest points in the previous row, best fitted first, and keeps the first converged fit whose
+  /// model correlation is within `neighbour_margin` of that point's own; only where none fits is it
+  /// indexed from its bands. A
   /// grain's first row pays for indexing, the rest for a refinement. Off: every point is indexed.
   bool from_neighbours = true;
   double neighbour_margin = 0.05;
