@@ -82,15 +82,22 @@ TEST_F(OrientScan, OrientationsFromTheRowAboveAgreeWithIndexingEveryPoint) {
   every.from_neighbours = false;
   const OrientationResults indexed = orient_scan(read_scan_inputs(*config_), every);
   const CrystalSymmetry cubic = CrystalSymmetry::cubic();
-  size_t compared = 0, agree = 0;
+  size_t compared = 0, agree = 0, worse = 0;
   for (size_t k = 0; k < config_->grid.count(); ++k) {
     if (!indexed.orientation[k] || !results_->orientation[k]) continue;
     ++compared;
+    // No point may fit its pattern worse than indexing makes it fit. (On the demo's 16 h trial a
+    // poorly fitted boundary point above once lent its orientation: correlation 0.33 where indexing
+    // gives 0.87. This scan, and six seeds of it with 12 grains, hold no such point with or without
+    // the fix, so here the check holds the property, not the case; the three demo trials were
+    // checked by hand: no point worse, one better by 0.36.)
+    worse += results_->correlation[k] < indexed.correlation[k] - 0.005;
     agree += rad_to_deg(cubic.misorientation_angle(*indexed.orientation[k], *results_->orientation[k])) < 0.005;
   }
   EXPECT_EQ(indexed.points_from_neighbours, 0u);
   EXPECT_GE(compared, 0.99 * config_->grid.count());
   EXPECT_GE(agree, 0.995 * compared);
+  EXPECT_EQ(worse, 0u);
   // Most points are refined from above: at least the grid less its first row and a grain start per
   // grain and row (4 grains, 40 rows).
   EXPECT_GE(results_->points_from_neighbours, config_->grid.count() - 40 - 4 * 40);
