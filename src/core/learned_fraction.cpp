@@ -265,9 +265,10 @@ bool cross_fitted_scores(const LearnedInputs& in, const std::vector<uint8_t>& la
 double second_component_evidence(const std::vector<double>& v, const EndMemberMixture& mix) {
   const size_t n = v.size();
   if (n < 8) return 0;
-  std::vector<double> sorted = v;
-  std::sort(sorted.begin(), sorted.end());
-  const double lo = sorted[n / 200], hi = sorted[n - 1 - n / 200], range = std::max(hi - lo, 1e-12);
+  std::vector<double> sorted = v;  // for the median below
+  std::nth_element(sorted.begin(), sorted.begin() + static_cast<std::ptrdiff_t>(n / 2), sorted.end());
+  // The alternative's uniform share spans the same central 99 % as the fitted mixture's.
+  const double lo = mix.central_lo, hi = mix.central_hi, range = std::max(hi - lo, 1e-12);
   auto gauss = [](double x, const EndMember& c) {
     return c.weight / (c.sd * std::sqrt(2 * M_PI)) * std::exp(-0.5 * std::pow((x - c.mean) / c.sd, 2));
   };
