@@ -24,6 +24,7 @@ std::function<int()> setup_orient(CLI::App& sub);
 std::function<int()> setup_map(CLI::App& sub);
 std::function<int()> setup_screen(CLI::App& sub);
 std::function<int()> setup_demo(CLI::App& sub);
+std::function<int()> setup_sphere(CLI::App& sub);
 
 /// The full command line, for provenance in every output.
 const std::string& command_line();

@@ -21,6 +21,8 @@ const std::vector<CommandEntry>& commands() {
       {"orient", "find or read and refine orientations; reconstruct grains", setup_orient},
       {"map", "the whole analysis of one scan: fraction map, precipitates, report", setup_map},
       {"screen", "compare heat-treatment trials: fractions, size classes, coarsening kinetics, ranking", setup_screen},
+      {"sphere", "a phase's backscattered intensity over every direction from many-beam (Bloch-wave) dynamics",
+       setup_sphere},
       {"demo", "the demo: three synthetic ageing trials mapped and screened (the quick start's main job)", setup_demo},
   };
   return table;

@@ -38,6 +38,13 @@ Eigen::Vector3d SphereGrid::centre_of(long pixel) const {
   return {v.x, v.y, v.z};
 }
 
+void SphereGrid::interpolation(const Eigen::Vector3d& u, long pixel[4], double weight[4]) const {
+  fix_arr<int, 4> pix;
+  fix_arr<double, 4> wgt;
+  impl_->base.get_interpol(pointing(vec3(u.x(), u.y(), u.z())), pix, wgt);
+  for (int i = 0; i < 4; ++i) pixel[i] = pix[i], weight[i] = wgt[i];
+}
+
 int SphereGrid::nside_for(double target_rad) {
   if (!(target_rad > 0)) fail("sphere resolution must be positive");
   int nside = 1;

@@ -38,8 +38,7 @@ std::vector<Candidate> reflections_within(const CrystalPotential& potential, dou
         if (hkl.isZero() || g.norm() > max_g) continue;
         const double coupling = std::abs(potential.elastic(hkl));
         // Systematically absent reflections (fcc mixed parity) couple to nothing.
-        if (coupling > 1e-12 * std::abs(potential.elastic(Eigen::Vector3i::Zero())))
-          out.push_back({hkl, g, coupling});
+        if (coupling > 1e-12 * std::abs(potential.elastic(Eigen::Vector3i::Zero()))) out.push_back({hkl, g, coupling});
       }
   return out;
 }
@@ -55,9 +54,7 @@ double backscatter_weight(const AtomSite& site) {
 
 }  // namespace
 
-int potential_index_for(const Phase& phase, const BeamSpec& spec) {
-  return 2 * largest_index(phase, spec.max_g_inv_A);
-}
+int potential_index_for(const Phase& phase, const BeamSpec& spec) { return 2 * largest_index(phase, spec.max_g_inv_A); }
 
 Eigen::VectorXcd BlochWaves::amplitudes(double depth_A) const {
   Eigen::VectorXcd phase(gamma.size());
@@ -72,8 +69,8 @@ BlochWaveSolver::BlochWaveSolver(const CrystalPotential& potential, const BeamSp
          spec.strong_limit, ", ", spec.weak_limit);
   const int needed = potential_index_for(potential.phase(), spec);
   if (needed > potential.max_index())
-    fail("beam set: reflections up to |g| = ", spec.max_g_inv_A, " Å⁻¹ need potential coefficients to index ",
-         needed, ", the table holds ", potential.max_index());
+    fail("beam set: reflections up to |g| = ", spec.max_g_inv_A, " Å⁻¹ need potential coefficients to index ", needed,
+         ", the table holds ", potential.max_index());
   candidates_ = reflections_within<Candidate>(potential, spec.max_g_inv_A);
 }
 
@@ -145,15 +142,23 @@ double backscatter_intensity(const BlochWaves& waves, const Phase& phase, const 
     for (Eigen::Index j = 0; j < n; ++j)
       depth_integral(i, j) = 1.0 / (1.0 - 2.0 * kPi * kI * ell * (waves.gamma[i] - std::conj(waves.gamma[j])));
   const auto& strong = waves.beams.strong;
+  const Eigen::Index beams = static_cast<Eigen::Index>(strong.size());
   double total = 0, weights = 0;
-  Eigen::VectorXcd site_phase(static_cast<Eigen::Index>(strong.size()));
+  Eigen::MatrixXcd at_site(beams, beams);
   for (const AtomSite& site : phase.unit_cell_sites) {
-    for (size_t b = 0; b < strong.size(); ++b)
-      site_phase[static_cast<Eigen::Index>(b)] =
-          std::exp(2.0 * kPi * kI * strong[b].hkl.cast<double>().dot(site.fract));
-    const Eigen::VectorXcd y = waves.alpha.cwiseProduct(waves.C.transpose() * site_phase);
+    // The beams' interference at the site, averaged over the nucleus's thermal displacement (an
+    // isotropic Gaussian of variance U per axis): ⟨e^{2πi q·δ}⟩ = e^{−2π² U q²} for q = g − h.
+    for (Eigen::Index g = 0; g < beams; ++g)
+      for (Eigen::Index h = 0; h < beams; ++h) {
+        const Eigen::Vector3d q = strong[g].g - strong[h].g;
+        const double phase_angle = 2.0 * kPi * (strong[g].hkl - strong[h].hkl).cast<double>().dot(site.fract);
+        at_site(g, h) = std::polar(std::exp(-2.0 * kPi * kPi * site.u_iso_A2 * q.squaredNorm()), phase_angle);
+      }
+    // Σ_ij α_i α_j* D_ij Σ_gh C_gi C_hj* S_gh with S the site's interference matrix.
+    const Eigen::MatrixXcd projected = waves.C.transpose() * at_site * waves.C.conjugate();
+    const Eigen::MatrixXcd weighted = (waves.alpha * waves.alpha.adjoint()).cwiseProduct(depth_integral);
     const double sigma = backscatter_weight(site);
-    total += sigma * (y.transpose() * depth_integral * y.conjugate())(0, 0).real();
+    total += sigma * weighted.cwiseProduct(projected).sum().real();
     weights += sigma;
   }
   return total / weights;

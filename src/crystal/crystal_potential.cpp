@@ -39,7 +39,8 @@ double lorentz_factor(double kilovolts) {
 
 CrystalPotential::CrystalPotential(const Phase& phase, double kilovolts, int max_index, AbsorptionSpec absorption)
     : phase_(phase), kilovolts_(kilovolts), wavelength_A_(electron_wavelength_A(kilovolts)), max_index_(max_index) {
-  if (max_index < 1 || max_index > 40) fail("potential table: the largest Miller index must be 1 to 40, got ", max_index);
+  if (max_index < 1 || max_index > 40)
+    fail("potential table: the largest Miller index must be 1 to 40, got ", max_index);
   if (!(absorption.proportional >= 0 && absorption.proportional < 1))
     fail("proportional absorption κ must lie in [0, 1), got ", absorption.proportional);
   if (phase.unit_cell_sites.empty()) fail("phase '", phase.name, "' has no atoms: no potential");
@@ -51,8 +52,8 @@ CrystalPotential::CrystalPotential(const Phase& phase, double kilovolts, int max
       for (int l = -max_index; l <= max_index; ++l) {
         const Eigen::Vector3i g(h, k, l);
         // U_g takes F(−g): V(r) = Σ V_g exp(2πi g·r) and F sums exp(+2πi g·x) over the atoms.
-        const std::complex<double> F = g.isZero() ? std::complex<double>(forward_structure_factor_A(phase), 0)
-                                                  : structure_factor_A(phase, -g);
+        const std::complex<double> F =
+            g.isZero() ? std::complex<double>(forward_structure_factor_A(phase), 0) : structure_factor_A(phase, -g);
         Entry& e = table_[slot(g)];
         e.elastic = scale * F;
         e.absorptive = absorption.proportional * e.elastic;

@@ -28,6 +28,9 @@ class SphereGrid {
   double resolution_rad() const;
   long pixel_of(const Eigen::Vector3d& unit) const;
   Eigen::Vector3d centre_of(long pixel) const;
+  /// The four pixels a direction is interpolated from and their bilinear weights (HEALPix's
+  /// ring interpolation; the weights sum to 1).
+  void interpolation(const Eigen::Vector3d& unit, long pixel[4], double weight[4]) const;
 
   /// Smallest power-of-two nside whose resolution is at most `target_rad`.
   static int nside_for(double target_rad);
