@@ -110,10 +110,9 @@ std::function<int()> setup_sphere(CLI::App& sub) {
     write_sphere_file(o->output, phase, *sphere, o->spec, provenance);
     const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     std::cout << "sphere of " << phase.name << " at " << o->spec.kilovolts << " kV: nside " << o->spec.nside << ", "
-              << sphere->intensity.grid.npix() << " directions, " << sphere->directions_solved
-              << " solved (mean " << sphere->mean_strong_beams << " strong beams), "
-              << (cached ? "loaded from the cache" : "computed") << " in " << seconds << " s -> " << o->output
-              << "\n";
+              << sphere->intensity.grid.npix() << " directions, " << sphere->directions_solved << " solved (mean "
+              << sphere->mean_strong_beams << " strong beams), " << (cached ? "loaded from the cache" : "computed")
+              << " in " << seconds << " s -> " << o->output << "\n";
     return 0;
   };
 }

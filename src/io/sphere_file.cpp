@@ -59,7 +59,8 @@ void write_sphere_file(const std::string& path, const Phase& phase, const Dynami
   j["content"] = "backscattered intensity from many-beam (Bloch-wave) dynamical diffraction";
   j["units"] = "relative to a crystal without diffraction or absorption (1)";
   j["frame"] = "crystal frame: x along a, z along c*; value at the direction the electrons leave along";
-  j["phase"] = {{"name", phase.name}, {"cif", provenance.cif_path}, {"cif_hash", file_hash_fnv1a64(provenance.cif_path)}};
+  j["phase"] = {
+      {"name", phase.name}, {"cif", provenance.cif_path}, {"cif_hash", file_hash_fnv1a64(provenance.cif_path)}};
   j["parameters"] = spec_json(spec);
   j["directions_solved"] = sphere.directions_solved;
   j["mean_strong_beams"] = sphere.mean_strong_beams;

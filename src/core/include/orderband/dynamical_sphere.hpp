@@ -38,7 +38,7 @@ class LaueSector {
 };
 
 struct DynamicalSphere {
-  SphereMap intensity;  ///< backscattered intensity leaving the crystal along each direction (weight 1)
+  SphereMap intensity;           ///< backscattered intensity leaving the crystal along each direction (weight 1)
   size_t directions_solved = 0;  ///< Bloch-wave solutions computed (the sector and its rim)
   double mean_strong_beams = 0;  ///< strong beams per solution
 };
