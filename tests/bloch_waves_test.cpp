@@ -114,7 +114,7 @@ TEST(BlochWaves, ManyBeamsConserveTheFluxWithoutAbsorptionAndLoseItWith) {
   const CrystalPotential elastic_only(ni, 20.0, index, {0.0}), absorbing(ni, 20.0, index, {0.1});
   // Near the [001] zone axis many beams are excited at once; a generous beam set.
   const Eigen::Vector3d dir = Eigen::Vector3d(0.02, 0.01, 1).normalized();
-  const BeamSpec many{1.6, 40, 80};
+  const BeamSetSpec many{1.6, 40, 80};
   const BlochWaves w = BlochWaveSolver(elastic_only, many).solve(dir);
   ASSERT_GE(w.beams.strong.size(), 25u);
   double previous = 1;

@@ -54,7 +54,8 @@ TEST(CliSphere, WritesTheSphereAndLoadsItFromTheCacheOnlyForTheSameInputs) {
 
 TEST(CliSphere, RejectsBadInputWithOneLine) {
   const std::string dir = test::make_temp_dir("cli-sphere-bad");
-  const auto nside = run_orderband("sphere " + crystal_data("ni-fcc.cif") + " --nside 12 --no-cache -o " + dir + "/x.npy");
+  const auto nside =
+      run_orderband("sphere " + crystal_data("ni-fcc.cif") + " --nside 12 --no-cache -o " + dir + "/x.npy");
   EXPECT_NE(nside.exit_code, 0);
   EXPECT_NE(nside.err.find("power of two"), std::string::npos) << nside.err;
   const auto limits = run_orderband("sphere " + crystal_data("ni-fcc.cif") +

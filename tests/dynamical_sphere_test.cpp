@@ -18,7 +18,7 @@ namespace {
 using test::crystal_data;
 
 /// A cheap beam set for tests that check geometry and symmetry, not convergence.
-constexpr BeamSpec kCheapBeams{1.2, 16, 80};
+constexpr BeamSetSpec kCheapBeams{1.2, 16, 80};
 
 double intensity_leaving_along(const BlochWaveSolver& solver, const Phase& phase, const Eigen::Vector3d& u) {
   return backscatter_intensity(solver.solve(-u), phase, {});
@@ -29,7 +29,7 @@ TEST(DynamicalSphere, KikuchiBandEdgesLieAtTheBraggAngle) {
   // the band and drops at its edges, at ±θ_B from the plane (θ_B = asin(λ / 2d) = 1.397°): the
   // Kikuchi band's defining geometry (Kikuchi, Jpn. J. Phys. 5 (1928) 83; common practice).
   const Phase ni = load_phase_cif(crystal_data("ni-fcc.cif"));
-  const BeamSpec beams{1.6, 64, 320};
+  const BeamSetSpec beams{1.6, 64, 320};
   const CrystalPotential u(ni, 20.0, potential_index_for(ni, beams), {0.1});
   const BlochWaveSolver solver(u, beams);
   const double theta_b = rad_to_deg(bragg_angle_rad(ni.cell.d_spacing_A({2, 0, 0}), electron_wavelength_A(20.0)));
@@ -58,7 +58,8 @@ TEST(DynamicalSphere, KikuchiBandEdgesLieAtTheBraggAngle) {
   EXPECT_GT(value[0], 1.3 * value[static_cast<size_t>(std::lround(1.5 * theta_b / step))]);
   // Symmetric about the plane: the other side gives the same profile (the crystal has the mirror).
   for (double p : {0.3, 1.2, 2.0}) {
-    const double a = intensity_leaving_along(solver, ni, std::cos(deg_to_rad(p)) * along + std::sin(deg_to_rad(p)) * normal);
+    const double a =
+        intensity_leaving_along(solver, ni, std::cos(deg_to_rad(p)) * along + std::sin(deg_to_rad(p)) * normal);
     const double b =
         intensity_leaving_along(solver, ni, std::cos(deg_to_rad(p)) * along - std::sin(deg_to_rad(p)) * normal);
     EXPECT_NEAR(a, b, 1e-9 * a) << p;
@@ -107,7 +108,8 @@ TEST(DynamicalSphere, SectorPixelsAreSolvedDirectlyAndTheUnfoldingIsSymmetric) {
   double largest = 0;
   for (long p = 0; p < grid.npix(); ++p) {
     const Eigen::Vector3d c = grid.centre_of(p);
-    for (const Eigen::Vector3d& image : {Eigen::Vector3d(-c.y(), c.x(), c.z()), Eigen::Vector3d(c.x(), c.y(), -c.z())}) {
+    for (const Eigen::Vector3d& image :
+         {Eigen::Vector3d(-c.y(), c.x(), c.z()), Eigen::Vector3d(c.x(), c.y(), -c.z())}) {
       const long q = grid.pixel_of(image);
       ASSERT_LT((grid.centre_of(q) - image).norm(), 1e-9);
       largest = std::max(largest, std::abs(s.intensity.value(q) - s.intensity.value(p)) / s.intensity.value(p));

@@ -24,21 +24,6 @@ struct SphereOptions {
   DynamicalSphereSpec spec;
 };
 
-/// The cache folder: --cache, else $XDG_CACHE_HOME/orderband/spheres, else ~/.cache/orderband/spheres.
-std::string cache_folder(const SphereOptions& o) {
-  if (!o.cache_dir.empty()) return o.cache_dir;
-  if (const char* xdg = std::getenv("XDG_CACHE_HOME"); xdg && *xdg) return std::string(xdg) + "/orderband/spheres";
-  if (const char* home = std::getenv("HOME"); home && *home) return std::string(home) + "/.cache/orderband/spheres";
-  return "";
-}
-
-/// The cached sphere of this CIF and spec, if the cache holds a current one.
-std::optional<DynamicalSphere> from_cache(const std::string& folder, const std::string& key) {
-  const std::string path = folder + "/" + key + ".npy";
-  if (folder.empty() || !std::filesystem::exists(path)) return std::nullopt;
-  return read_sphere_file(path, key);
-}
-
 void register_options(CLI::App& sub, SphereOptions& o) {
   sub.add_option("cif", o.cif, "CIF file of the phase")->required()->check(CLI::ExistingFile);
   sub.add_option("-o,--output", o.output, "output .npy file (a .json side-car and a .png picture go beside it)")
@@ -90,28 +75,21 @@ std::function<int()> setup_sphere(CLI::App& sub) {
     apply_threads(o->threads);
     o->spec.depth.mean_depth_A = 10 * o->mean_depth_nm;
     const Phase phase = load_phase_cif(o->cif);
-    const std::string key = sphere_cache_key(o->cif, o->spec);
-    const std::string folder = o->no_cache ? "" : cache_folder(*o);
+    const std::string folder = o->no_cache ? "" : o->cache_dir.empty() ? default_sphere_cache_folder() : o->cache_dir;
     const auto start = std::chrono::steady_clock::now();
-    std::optional<DynamicalSphere> sphere = from_cache(folder, key);
-    const bool cached = sphere.has_value();
     const SphereProvenance provenance{kVersion, command_line(), o->cif};
-    if (!cached) {
-      ProgressReporter bar("sphere", "directions", o->quiet);
-      sphere.emplace(dynamical_sphere(phase, o->spec, [&](size_t d, size_t t) { bar(d, t); }));
-      bar.finish();
-      if (!folder.empty()) {
-        std::filesystem::create_directories(folder);
-        write_sphere_file(folder + "/" + key + ".npy", phase, *sphere, o->spec, provenance);
-      }
-    }
+    bool cached = false;
+    ProgressReporter bar("sphere", "directions", o->quiet);
+    const DynamicalSphere sphere = cached_dynamical_sphere(
+        phase, o->spec, folder, provenance, [&](size_t d, size_t t) { bar(d, t); }, &cached);
+    bar.finish();
     if (const auto parent = std::filesystem::path(o->output).parent_path(); !parent.empty())
       std::filesystem::create_directories(parent);
-    write_sphere_file(o->output, phase, *sphere, o->spec, provenance);
+    write_sphere_file(o->output, phase, sphere, o->spec, provenance);
     const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
     std::cout << "sphere of " << phase.name << " at " << o->spec.kilovolts << " kV: nside " << o->spec.nside << ", "
-              << sphere->intensity.grid.npix() << " directions, " << sphere->directions_solved << " solved (mean "
-              << sphere->mean_strong_beams << " strong beams), " << (cached ? "loaded from the cache" : "computed")
+              << sphere.intensity.grid.npix() << " directions, " << sphere.directions_solved << " solved (mean "
+              << sphere.mean_strong_beams << " strong beams), " << (cached ? "loaded from the cache" : "computed")
               << " in " << seconds << " s -> " << o->output << "\n";
     return 0;
   };

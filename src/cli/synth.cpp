@@ -26,7 +26,17 @@ std::function<int()> setup_synth(CLI::App& sub) {
     apply_threads(o->threads);
     const SynthScenario s = read_synth_scenario(o->scenario);
     ProgressReporter progress("synth " + s.name, "patterns", o->quiet);
-    write_synthetic_scan(s, o->out, command_line(), [&](size_t d, size_t t) { progress(d, t); });
+    StageBars spheres("directions", o->quiet);
+    bool spheres_open = false;
+    write_synthetic_scan(
+        s, o->out, command_line(),
+        [&](size_t d, size_t t) {
+          if (spheres_open) spheres.finish(), spheres_open = false;
+          progress(d, t);
+        },
+        [&](const std::string& phase, size_t d, size_t t) {
+          spheres("many-beam sphere of " + phase, d, t), spheres_open = true;
+        });
     progress.finish();
     if (!o->quiet)
       std::fprintf(stderr, "synthetic scan written to %s (scan.toml, patterns.raw, truth.json)\n", o->out.c_str());

@@ -81,23 +81,24 @@ PatternRenderer::PatternRenderer(const DetectorGeometry& geometry, const Kinemat
   for (float& b : background_) b = static_cast<float>(b * background_.size() / sum);
 }
 
-void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const DetectorGeometry& geometry,
-                               float* out) const {
-  const size_t n = static_cast<size_t>(width_) * height_;
-  const int ss = sub_ * sub_;
-  const size_t m = n * ss;
-  // Sub-pixel directions (sub × sub per stored pixel) in the sample frame, as separate
-  // x, y, z arrays so that the dot products below vectorise.
-  std::vector<float> dx(m), dy(m), dz(m), dot(m);
-  size_t q = 0;
-  for (int i = 0; i < height_; ++i)
-    for (int j = 0; j < width_; ++j)
-      for (int a = 0; a < sub_; ++a)
-        for (int b = 0; b < sub_; ++b, ++q) {
-          const Eigen::Vector3d d = geometry.direction_sample({j + (b + 0.5) / sub_, i + (a + 0.5) / sub_}).vec();
-          dx[q] = static_cast<float>(d.x()), dy[q] = static_cast<float>(d.y()), dz[q] = static_cast<float>(d.z());
-        }
-  std::vector<double> acc(m, 0.0);
+void PatternRenderer::use_spheres(const PhaseSpheres& spheres, double contrast) {
+  if (!spheres.ordered || !spheres.disordered) fail("many-beam rendering needs the spheres of both phases");
+  if (!(contrast > 0 && contrast <= 1)) fail("many-beam contrast must be within (0, 1], got ", contrast);
+  spheres_ = spheres;
+  sphere_contrast_ = contrast;
+  for (int phase = 0; phase < 2; ++phase) {
+    const SphereMap& m = phase ? *spheres.disordered : *spheres.ordered;
+    double sum = 0;
+    for (long p = 0; p < m.grid.npix(); ++p) sum += m.value(p);
+    sphere_mean_[phase] = sum / m.grid.npix();
+    if (!(sphere_mean_[phase] > 0)) fail("a phase's sphere has no intensity");
+  }
+}
+
+void PatternRenderer::add_band_model(const std::vector<MixtureComponent>& mix, const Directions& d,
+                                     std::vector<double>& acc) const {
+  const size_t m = acc.size();
+  std::vector<float> dot(m);
   for (const MixtureComponent& c : mix) {
     const KinematicBandModel& model = c.ordered ? ordered_ : disordered_;
     const Eigen::Matrix3d g = c.orientation.matrix();
@@ -105,7 +106,7 @@ void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const D
       const Eigen::Vector3d ns = g.transpose() * band.normal;  // crystal → sample frame
       const float nx = static_cast<float>(ns.x()), ny = static_cast<float>(ns.y()), nz = static_cast<float>(ns.z());
       const float reach = static_cast<float>(std::sin(band.theta_b * model.profile_reach()));
-      for (size_t k = 0; k < m; ++k) dot[k] = nx * dx[k] + ny * dy[k] + nz * dz[k];
+      for (size_t k = 0; k < m; ++k) dot[k] = nx * d.x[k] + ny * d.y[k] + nz * d.z[k];
       const double w = c.weight * band.weight, inv_theta = 1.0 / band.theta_b;
       const int table = model.families()[band.family].table;
       for (size_t k = 0; k < m; ++k)
@@ -115,6 +116,66 @@ void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const D
         }
     }
   }
+}
+
+std::shared_ptr<const PatternRenderer::SphereModulation> PatternRenderer::sphere_modulation(
+    const MixtureComponent& c, const Directions& d, const DetectorGeometry& geometry) const {
+  const Eigen::Vector4d q = c.orientation.quaternion();
+  const Eigen::Vector3d pc(geometry.spec().pc_px.x(), geometry.spec().pc_px.y(), geometry.spec().distance_px);
+  const std::pair<int, bool> key{c.key, c.ordered};
+  {
+    std::lock_guard<std::mutex> lock(modulation_cache_->mutex);
+    const auto it = modulation_cache_->entries.find(key);
+    if (it != modulation_cache_->entries.end() && it->second->quaternion == q && it->second->pattern_centre == pc)
+      return it->second;
+  }
+  auto m = std::make_shared<SphereModulation>();
+  m->quaternion = q;
+  m->pattern_centre = pc;
+  m->value.resize(d.x.size());
+  const SphereMap& sphere = c.ordered ? *spheres_.ordered : *spheres_.disordered;
+  const double mean = sphere_mean_[c.ordered ? 0 : 1];
+  const Eigen::Matrix3d g = c.orientation.matrix();  // sample → crystal frame
+  long pixel[4];
+  double weight[4];
+  for (size_t k = 0; k < d.x.size(); ++k) {
+    sphere.grid.interpolation(g * Eigen::Vector3d(d.x[k], d.y[k], d.z[k]), pixel, weight);
+    double v = 0;
+    for (int i = 0; i < 4; ++i) v += weight[i] * sphere.value(pixel[i]);
+    m->value[k] = sphere_contrast_ * (v / mean - 1);
+  }
+  std::lock_guard<std::mutex> lock(modulation_cache_->mutex);
+  modulation_cache_->entries[key] = m;
+  return m;
+}
+
+void PatternRenderer::add_spheres(const std::vector<MixtureComponent>& mix, const Directions& d,
+                                  const DetectorGeometry& geometry, std::vector<double>& acc) const {
+  for (const MixtureComponent& c : mix) {
+    const std::shared_ptr<const SphereModulation> m = sphere_modulation(c, d, geometry);
+    for (size_t k = 0; k < acc.size(); ++k) acc[k] += c.weight * m->value[k];
+  }
+}
+
+void PatternRenderer::expected(const std::vector<MixtureComponent>& mix, const DetectorGeometry& geometry,
+                               float* out) const {
+  const size_t n = static_cast<size_t>(width_) * height_;
+  const int ss = sub_ * sub_;
+  const size_t m = n * ss;
+  Directions d{std::vector<float>(m), std::vector<float>(m), std::vector<float>(m)};
+  size_t q = 0;
+  for (int i = 0; i < height_; ++i)
+    for (int j = 0; j < width_; ++j)
+      for (int a = 0; a < sub_; ++a)
+        for (int b = 0; b < sub_; ++b, ++q) {
+          const Eigen::Vector3d v = geometry.direction_sample({j + (b + 0.5) / sub_, i + (a + 0.5) / sub_}).vec();
+          d.x[q] = static_cast<float>(v.x()), d.y[q] = static_cast<float>(v.y()), d.z[q] = static_cast<float>(v.z());
+        }
+  std::vector<double> acc(m, 0.0);
+  if (spheres_.ordered)
+    add_spheres(mix, d, geometry, acc);
+  else
+    add_band_model(mix, d, acc);
   double total_weight = 0;
   for (const MixtureComponent& c : mix) total_weight += c.weight;
   for (size_t p = 0; p < n; ++p) {
@@ -263,7 +324,7 @@ std::uint64_t point_seed(std::uint64_t seed, size_t index) {
 
 }  // namespace
 
-SyntheticScan::SyntheticScan(const SynthScenario& scenario, const OrderingPair& pair)
+SyntheticScan::SyntheticScan(const SynthScenario& scenario, const OrderingPair& pair, const PhaseSpheres& spheres)
     : scenario_(scenario),
       models_(render_models(scenario, pair)),
       micro_(scenario.micro),
@@ -273,7 +334,10 @@ SyntheticScan::SyntheticScan(const SynthScenario& scenario, const OrderingPair& 
       beam_x_um_(scenario.beam_sigma_nm * 1e-3),
       beam_y_um_(beam_x_um_ * scenario.variant.beam_elongation),
       scale_8bit_(250.0 / (scenario.counts_per_px * 1.6 *
-                           *std::max_element(renderer_.background().begin(), renderer_.background().end()))) {}
+                           *std::max_element(renderer_.background().begin(), renderer_.background().end()))) {
+  if (scenario.pattern_model == PatternModelKind::many_beam)
+    renderer_.use_spheres(spheres, scenario.many_beam.contrast);
+}
 
 void SyntheticScan::render_row(int row, std::uint16_t* out) const {
   const SynthScenario& s = scenario_;

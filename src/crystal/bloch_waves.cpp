@@ -54,7 +54,9 @@ double backscatter_weight(const AtomSite& site) {
 
 }  // namespace
 
-int potential_index_for(const Phase& phase, const BeamSpec& spec) { return 2 * largest_index(phase, spec.max_g_inv_A); }
+int potential_index_for(const Phase& phase, const BeamSetSpec& spec) {
+  return 2 * largest_index(phase, spec.max_g_inv_A);
+}
 
 Eigen::VectorXcd BlochWaves::amplitudes(double depth_A) const {
   Eigen::VectorXcd phase(gamma.size());
@@ -62,7 +64,7 @@ Eigen::VectorXcd BlochWaves::amplitudes(double depth_A) const {
   return C * phase;
 }
 
-BlochWaveSolver::BlochWaveSolver(const CrystalPotential& potential, const BeamSpec& spec)
+BlochWaveSolver::BlochWaveSolver(const CrystalPotential& potential, const BeamSetSpec& spec)
     : potential_(potential), spec_(spec), wavenumber_(potential.crystal_wavenumber()) {
   if (!(spec.max_g_inv_A > 0) || !(spec.strong_limit > 0) || !(spec.weak_limit >= spec.strong_limit))
     fail("beam set: need max |g| > 0 and 0 < strong limit ≤ weak limit, got ", spec.max_g_inv_A, " Å⁻¹, ",

@@ -3,6 +3,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include <cstdlib>
 #include <filesystem>
 #include <sstream>
 
@@ -32,6 +33,33 @@ nlohmann::json spec_json(const DynamicalSphereSpec& spec) {
 }
 
 }  // namespace
+
+std::string default_sphere_cache_folder() {
+  if (const char* xdg = std::getenv("XDG_CACHE_HOME"); xdg && *xdg) return std::string(xdg) + "/orderband/spheres";
+  if (const char* home = std::getenv("HOME"); home && *home) return std::string(home) + "/.cache/orderband/spheres";
+  return "";
+}
+
+DynamicalSphere cached_dynamical_sphere(const Phase& phase, const DynamicalSphereSpec& spec,
+                                        const std::string& cache_folder, const SphereProvenance& provenance,
+                                        const ProgressFn& progress, bool* from_cache) {
+  const std::string key = sphere_cache_key(provenance.cif_path, spec);
+  const std::string path = cache_folder + "/" + key + ".npy";
+  if (!cache_folder.empty() && std::filesystem::exists(path))
+    if (auto cached = read_sphere_file(path, key)) {
+      if (from_cache) *from_cache = true;
+      return std::move(*cached);
+    }
+  DynamicalSphere sphere = dynamical_sphere(phase, spec, progress);
+  if (!cache_folder.empty()) {
+    std::error_code ec;
+    std::filesystem::create_directories(cache_folder, ec);
+    if (ec) fail("cannot create the sphere cache folder '", cache_folder, "': ", ec.message());
+    write_sphere_file(path, phase, sphere, spec, provenance);
+  }
+  if (from_cache) *from_cache = false;
+  return sphere;
+}
 
 std::string sphere_sidecar_path(const std::string& path, const std::string& extension) {
   std::filesystem::path p(path);

@@ -12,6 +12,8 @@
 #include "orderband/pair_catalog.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/synth_scan.hpp"
+
+#include "orderband/sphere_file.hpp"
 #include "orderband/units.hpp"
 #include "orderband/version.hpp"
 #include "toml_reader.hpp"
@@ -172,12 +174,41 @@ void read_voltage_and_phases(TomlReader& r, const std::string& path, SynthScenar
   }
 }
 
+/// [patterns] model and the many-beam renderer's keys (ManyBeamSpec).
+void read_many_beam(TomlReader& r, const toml::table* pat, const std::string& path, SynthScenario& s) {
+  const std::string model = r.get<std::string>(pat, "patterns", "model").value_or("kinematic");
+  if (model == "many-beam")
+    s.pattern_model = PatternModelKind::many_beam;
+  else if (model != "kinematic")
+    fail(path, ": [patterns] model = \"", model, "\" is not \"kinematic\" or \"many-beam\"");
+  ManyBeamSpec& m = s.many_beam;
+  auto number = [&](const char* key, double& into, double lo, double hi) {
+    into = r.get<double>(pat, "patterns", key).value_or(into);
+    if (!(into > lo && into <= hi))
+      fail(path, ": [patterns] ", key, " must be within (", lo, ", ", hi, "], got ", into);
+  };
+  number("many_beam_contrast", m.contrast, 0, 1);
+  number("sphere_max_g", m.beams.max_g_inv_A, 0, 4);
+  number("sphere_strong_limit", m.beams.strong_limit, 0, 10000);
+  number("sphere_weak_limit", m.beams.weak_limit, m.beams.strong_limit - 1e-9, 100000);
+  number("sphere_mean_depth_nm", m.mean_depth_nm, 0, 1000);
+  m.proportional_absorption = r.get<double>(pat, "patterns", "sphere_absorption").value_or(m.proportional_absorption);
+  if (!(m.proportional_absorption >= 0 && m.proportional_absorption < 1))
+    fail(path, ": [patterns] sphere_absorption must be within [0, 1), got ", m.proportional_absorption);
+  m.nside = static_cast<int>(r.get<int64_t>(pat, "patterns", "sphere_nside").value_or(m.nside));
+  if (m.nside < 4 || m.nside > 1024 || (m.nside & (m.nside - 1)))
+    fail(path, ": [patterns] sphere_nside must be a power of two from 4 to 1024, got ", m.nside);
+  m.cache_folder = r.get<std::string>(pat, "patterns", "sphere_cache").value_or(default_sphere_cache_folder());
+}
+
 /// [patterns]: counts, sample type and the band model's parameters.
 void read_pattern_model(TomlReader& r, const std::string& path, SynthScenario& s) {
   const toml::table* pat = r.table("patterns", false);
-  r.check_keys(pat, "patterns",
-               {"sample_type", "counts_per_px", "band_amplitude", "band_exponent", "edge_contrast", "edge_width",
-                "d_min_A", "beam_sigma_nm", "background_falloff"});
+  r.check_keys(
+      pat, "patterns",
+      {"sample_type", "counts_per_px", "band_amplitude", "band_exponent", "edge_contrast", "edge_width", "d_min_A",
+       "beam_sigma_nm", "background_falloff", "model", "many_beam_contrast", "sphere_nside", "sphere_max_g",
+       "sphere_strong_limit", "sphere_weak_limit", "sphere_absorption", "sphere_mean_depth_nm", "sphere_cache"});
   const std::string type = r.get<std::string>(pat, "patterns", "sample_type").value_or("uint16");
   if (type == "uint8")
     s.sample_type = SampleType::uint8;
@@ -203,6 +234,7 @@ void read_pattern_model(TomlReader& r, const std::string& path, SynthScenario& s
   s.background_falloff = r.get<double>(pat, "patterns", "background_falloff").value_or(0.5);
   if (!(s.background_falloff >= 0 && s.background_falloff < 1))
     fail(path, ": [patterns] background_falloff must be within [0, 1)");
+  read_many_beam(r, pat, path, s);
 }
 
 /// [grains], [primary], [secondary], [tertiary]: the microstructure.
@@ -374,9 +406,60 @@ void write_scan_description(const SynthScenario& s, const DetectorGeometry& geom
     std::ostringstream os;
     write_scan_config(os, scan, dir,
                       "synthetic scan '" + s.name + "' made by " + provenance +
-                          "\nkinematic band model, not a dynamical simulation; truth in truth.json");
+                          (s.pattern_model == PatternModelKind::many_beam
+                               ? "\nmany-beam (Bloch-wave) spheres of both phases; truth in truth.json"
+                               : "\nkinematic band model, not a dynamical simulation; truth in truth.json"));
     write_text_atomically(dir + "/scan.toml", os.str());
   }
+}
+
+/// The spheres of both phases for a many-beam scenario (none for a kinematic one).
+struct ManyBeamSpheres {
+  std::optional<DynamicalSphere> ordered, disordered;
+  PhaseSpheres maps() const {
+    return ordered ? PhaseSpheres{&ordered->intensity, &disordered->intensity} : PhaseSpheres{};
+  }
+};
+
+DynamicalSphereSpec sphere_spec(const SynthScenario& s) {
+  DynamicalSphereSpec spec;
+  spec.nside = s.many_beam.nside;
+  spec.kilovolts = s.kv;
+  spec.beams = s.many_beam.beams;
+  spec.absorption.proportional = s.many_beam.proportional_absorption;
+  spec.depth.mean_depth_A = 10 * s.many_beam.mean_depth_nm;
+  return spec;
+}
+
+ManyBeamSpheres many_beam_spheres(const SynthScenario& s, const OrderingPair& pair, const std::string& command_line,
+                                  const SphereProgress& progress) {
+  ManyBeamSpheres out;
+  if (s.pattern_model != PatternModelKind::many_beam) return out;
+  const DynamicalSphereSpec spec = sphere_spec(s);
+  auto one = [&](const Phase& phase) {
+    ProgressFn report;
+    if (progress) report = [&](size_t d, size_t t) { progress(phase.name, d, t); };
+    return cached_dynamical_sphere(phase, spec, s.many_beam.cache_folder, {kVersion, command_line, phase.source},
+                                   report);
+  };
+  out.ordered.emplace(one(pair.ordered));
+  out.disordered.emplace(one(pair.disordered));
+  return out;
+}
+
+nlohmann::json many_beam_json(const SynthScenario& s, const OrderingPair& pair) {
+  if (s.pattern_model != PatternModelKind::many_beam) return nullptr;
+  const DynamicalSphereSpec spec = sphere_spec(s);
+  const ManyBeamSpec& m = s.many_beam;
+  return {{"contrast", m.contrast},
+          {"sphere_nside", m.nside},
+          {"sphere_max_g_inv_angstrom", m.beams.max_g_inv_A},
+          {"sphere_strong_limit", m.beams.strong_limit},
+          {"sphere_weak_limit", m.beams.weak_limit},
+          {"sphere_absorption", m.proportional_absorption},
+          {"sphere_mean_depth_nm", m.mean_depth_nm},
+          {"ordered_sphere_key", sphere_cache_key(pair.ordered.source, spec)},
+          {"disordered_sphere_key", sphere_cache_key(pair.disordered.source, spec)}};
 }
 
 /// truth.json: the scenario, the renderer variant and the true fractions and classes.
@@ -407,6 +490,8 @@ void write_truth_json(const SynthScenario& s, const SynthTruth& truth, const Ord
       {"beam_sigma_nm", s.beam_sigma_nm},
       {"background_falloff", s.background_falloff},
       {"renderer_variant", variant_json(s)},
+      {"pattern_model", s.pattern_model == PatternModelKind::many_beam ? "many-beam" : "kinematic"},
+      {"many_beam", many_beam_json(s, pair)},
       {"kv", s.kv},
       {"pair", pair.name},
       {"grain_count", s.micro.grain_count},
@@ -437,14 +522,15 @@ void write_truth_json(const SynthScenario& s, const SynthTruth& truth, const Ord
 }  // namespace
 
 void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
-                          const SynthProgress& progress) {
+                          const SynthProgress& progress, const SphereProgress& sphere_progress) {
   std::error_code ec;
   fs::create_directories(folder, ec);
   if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
   const std::string dir = fs::absolute(folder).lexically_normal().string();
 
   const OrderingPair pair = load_phases(s.phases);
-  const SyntheticScan scan_render(s, pair);
+  const ManyBeamSpheres spheres = many_beam_spheres(s, pair, command_line, sphere_progress);
+  const SyntheticScan scan_render(s, pair, spheres.maps());
   const DetectorGeometry& geometry = scan_render.geometry();
   const Microstructure& micro = scan_render.microstructure();
 

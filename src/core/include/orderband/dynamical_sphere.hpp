@@ -17,7 +17,7 @@ namespace orderband {
 struct DynamicalSphereSpec {
   int nside = 128;
   double kilovolts = 20;
-  BeamSpec beams{1.6, 128, 640};
+  BeamSetSpec beams{1.6, 128, 640};
   AbsorptionSpec absorption;
   DepthSpec depth;
 };

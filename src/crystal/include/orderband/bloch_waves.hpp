@@ -25,7 +25,7 @@ struct Beam {
 /// it only through their Bethe potentials (second-order perturbation; Bethe, Ann. Phys. 87
 /// (1928) 55; the form used in Humphreys, Rep. Prog. Phys. 42 (1979) 1825). The defaults are
 /// our choice, tested by doubling the limits (the intensity changes little).
-struct BeamSpec {
+struct BeamSetSpec {
   double max_g_inv_A = 1.6;  ///< |g| ≤ this (d ≥ 0.625 Å)
   double strong_limit = 8;
   double weak_limit = 40;
@@ -62,12 +62,12 @@ struct BlochWaves {
 
 /// The largest Miller index the potential table needs for a beam set: every difference of two
 /// reflections with |g| ≤ spec.max_g_inv_A.
-int potential_index_for(const Phase& phase, const BeamSpec& spec);
+int potential_index_for(const Phase& phase, const BeamSetSpec& spec);
 
 /// Chooses beam sets and solves the dynamical equations for one phase at one voltage.
 class BlochWaveSolver {
  public:
-  BlochWaveSolver(const CrystalPotential& potential, const BeamSpec& spec);
+  BlochWaveSolver(const CrystalPotential& potential, const BeamSetSpec& spec);
 
   /// The beams for an incident direction (unit vector, crystal frame).
   BeamSet beams_for(const Eigen::Vector3d& direction) const;
@@ -88,7 +88,7 @@ class BlochWaveSolver {
     double coupling;  ///< |U_g| (Å⁻²)
   };
   const CrystalPotential& potential_;
-  BeamSpec spec_;
+  BeamSetSpec spec_;
   std::vector<Candidate> candidates_;
   double wavenumber_;
 };

@@ -27,6 +27,16 @@ void write_sphere_file(const std::string& path, const Phase& phase, const Dynami
 /// side-car's key differs (a stale cache entry). Throws on a damaged file.
 std::optional<DynamicalSphere> read_sphere_file(const std::string& path, const std::string& expected_key = "");
 
+/// The default cache folder: $XDG_CACHE_HOME/orderband/spheres, else ~/.cache/orderband/spheres,
+/// else empty (no cache).
+std::string default_sphere_cache_folder();
+
+/// The sphere of a phase: from `cache_folder` when it holds one with the same key, else computed
+/// (with `progress`) and stored there (an empty folder: no cache). `from_cache` tells which.
+DynamicalSphere cached_dynamical_sphere(const Phase& phase, const DynamicalSphereSpec& spec,
+                                        const std::string& cache_folder, const SphereProvenance& provenance,
+                                        const ProgressFn& progress, bool* from_cache = nullptr);
+
 /// The side-car's path for a sphere file (.npy replaced or followed by .json; likewise .png).
 std::string sphere_sidecar_path(const std::string& path, const std::string& extension);
 
