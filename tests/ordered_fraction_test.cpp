@@ -311,6 +311,33 @@ TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
   EXPECT_GE(classification(r), 0.95);
 }
 
+TEST(LearnedFraction, HoldsOnManyBeamPatterns) {
+  // Issue Wave 2 · F, "Must show": patterns interpolated from each phase's Bloch-wave sphere
+  // (dynamical band profiles, excess and deficiency lines, intensities that do not follow |F|²),
+  // never the estimator's kinematic model; 3 grains, primary and secondary γ′, 5,000 counts,
+  // 60 × 60 px. The learned estimator must hold ±0.03 of the true area fraction and classify
+  // ≥ 95 % of the points away from phase boundaries. The spheres here use a smaller beam set than
+  // the default (19 instead of about 60 strong beams) to keep the test short; the 48 × 48 copy of
+  // the demo's 4 h trial with the default spheres measured −0.006 and 98.9 % (DEVELOPERS.md), where
+  // the model-led estimator read 1.42 for a truth of 0.50. Measured here: +0.014 (0.330 for
+  // 0.317), 99.5 %.
+  const std::string cache = test::make_temp_dir("many-beam-spheres");
+  const std::string many_beam =
+      "model = \"many-beam\"\nsphere_strong_limit = 32\nsphere_weak_limit = 160\n"
+      "sphere_cache = \"" +
+      cache + "\"\n";
+  const std::string primary =
+      "[primary]\narea_fraction = 0.10\ndistribution = \"lognormal\"\nmedian_diameter_um = 0.35\nsigma_ln = 0.1\n"
+      "own_orientation = true\n";
+  const ScenarioRun r = run_scenario(scenario(many_beam + kSecondary + primary, 40), 0, false, {}, learned_spec());
+  EXPECT_EQ(r.truth_json["scenario"]["pattern_model"], "many-beam");
+  EXPECT_GT(r.truth_json["classes"]["primary"]["area_fraction"].get<double>(), 0.03);
+  EXPECT_TRUE(r.fraction.two_phases);
+  EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03);
+  EXPECT_GE(classification(r), 0.95);
+  std::filesystem::remove_all(cache);
+}
+
 TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
   // Issue Wave 2 · A, "Must show": renderer variants the estimator is never told, on this file's
   // secondary-γ′ scan (3 grains, 40 × 40 points, 60 × 60 px, 5,000 counts), the learned estimator
