@@ -41,7 +41,8 @@ std::vector<double> every_pixel(const Phase& phase, const DynamicalSphereSpec& s
 int main(int argc, char** argv) {
   const int reference_nside = argc > 1 ? std::atoi(argv[1]) : 32;
   const int full_nside = argc > 2 ? std::atoi(argv[2]) : 128;
-  const std::string cif = argc > 3 ? argv[3] : std::string(ORDERBAND_SOURCE_DIR) + "/crystal-data/ni3al-gamma-prime.cif";
+  const std::string cif =
+      argc > 3 ? argv[3] : std::string(ORDERBAND_SOURCE_DIR) + "/crystal-data/ni3al-gamma-prime.cif";
   const Phase phase = load_phase_cif(cif);
   std::printf("sphere_bench: %s, %d threads\n", phase.name.c_str(), omp_get_max_threads());
 
@@ -60,10 +61,11 @@ int main(int argc, char** argv) {
   }
   rms = std::sqrt(rms / plain.size());
   mean /= plain.size();
-  std::printf("nside %d: every pixel %.1f s (%zu solutions), sector %.2f s (%zu solutions, %.1f strong beams): %.1fx;"
-              " unfolded vs direct rms %.4f of the mean (interpolation at this nside)\n",
-              reference_nside, t_plain, plain.size(), t_sector, sector.directions_solved, sector.mean_strong_beams,
-              t_plain / t_sector, rms / mean);
+  std::printf(
+      "nside %d: every pixel %.1f s (%zu solutions), sector %.2f s (%zu solutions, %.1f strong beams): %.1fx;"
+      " unfolded vs direct rms %.4f of the mean (interpolation at this nside)\n",
+      reference_nside, t_plain, plain.size(), t_sector, sector.directions_solved, sector.mean_strong_beams,
+      t_plain / t_sector, rms / mean);
 
   spec.nside = full_nside;
   const std::string cache = std::filesystem::temp_directory_path() / "orderband-sphere-bench";

@@ -103,7 +103,7 @@ TEST(CliUsage, UnknownCommandsFoldersAndLongValuesGiveOneShortLine) {
   auto r = test::run_orderband("frobnicate s.toml");
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_EQ(r.err.rfind("orderband: error: unknown command 'frobnicate' (commands: families, check, synth, orient, "
-                        "map, screen, demo; see --help)",
+                        "map, screen, sphere, demo; see --help)",
                         0),
             0u)
       << r.err;
