@@ -12,6 +12,7 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <optional>
 #include <vector>
 
 #include "orderband/npy_io.hpp"
@@ -21,6 +22,7 @@
 #include "orderband/preprocess.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
+#include "orderband/sphere_file.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/synth_scan.hpp"
 
@@ -51,6 +53,10 @@ const Variant kSuite[] = {
     {"misfit +0.3%, amplitude .25", "band_amplitude = 0.25\n", "lattice_misfit = 0.003\n", 0.0},
     {"beam 2.9x along tilt", "", "beam_elongation = 2.9\n", 0.0},
     {"PC error 0.5 px", "", "pc_error_px = [0.5, -0.4, 0.6]\n", 0.0},
+    // Dynamical patterns: each phase's Bloch-wave sphere at the default beam set (cached in the
+    // user's sphere cache; about 80 s per phase the first time).
+    {"many-beam", "model = \"many-beam\"\n", "", 0.0},
+    {"many-beam, tertiary 0.05", "model = \"many-beam\"\n", "", 0.05},
 };
 
 struct Row {
@@ -65,8 +71,22 @@ double information_limit(const SynthScenario& s, const std::vector<Rotation>& gr
   const OrderingPair pair = load_phases(s.phases);
   const RenderModels models = render_models(s, pair);
   const DetectorGeometry geometry(render_geometry(s));
-  const PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
-                                 s.variant.background, s.variant.detector_gamma);
+  PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
+                           s.variant.background, s.variant.detector_gamma);
+  std::optional<DynamicalSphere> ordered, disordered;
+  if (s.pattern_model == PatternModelKind::many_beam) {
+    DynamicalSphereSpec spec;
+    spec.nside = s.many_beam.nside;
+    spec.kilovolts = s.kv;
+    spec.beams = s.many_beam.beams;
+    spec.absorption.proportional = s.many_beam.proportional_absorption;
+    spec.depth.mean_depth_A = 10 * s.many_beam.mean_depth_nm;
+    ordered.emplace(cached_dynamical_sphere(pair.ordered, spec, s.many_beam.cache_folder,
+                                            {"bench", "mismatch_bench", pair.ordered.source}, {}));
+    disordered.emplace(cached_dynamical_sphere(pair.disordered, spec, s.many_beam.cache_folder,
+                                               {"bench", "mismatch_bench", pair.disordered.source}, {}));
+    renderer.use_spheres({&ordered->intensity, &disordered->intensity}, s.many_beam.contrast);
+  }
   PreprocessSpec mask_spec;  // the estimator's default mask: the inscribed circle
   mask_spec.static_background = StaticBackgroundKind::none;
   const Preprocessor masked(mask_spec, geometry.width(), geometry.height());
