@@ -55,6 +55,43 @@ TEST(SphereGrid, PixelsAndCentresEqualHealpy) {
   std::filesystem::remove_all(dir);
 }
 
+TEST(SphereGrid, InterpolationWeightsEqualHealpy) {
+  // The bilinear weights the dynamical spheres are unfolded and rendered with, against healpy's
+  // get_interp_weights (the same HEALPix C++ routine behind both; pixels as a set, weights by pixel).
+  const std::string dir = test::make_temp_dir("hpx-interp");
+  std::vector<Eigen::Vector3d> dirs;
+  for (const Rotation& r : random_rotations(300, 78)) dirs.push_back(r.matrix().row(2).transpose());
+  {
+    std::ofstream f(dir + "/v.txt");
+    f.precision(17);
+    for (const auto& v : dirs) f << v.x() << ' ' << v.y() << ' ' << v.z() << '\n';
+  }
+  const int nside = 32;
+  const SphereGrid grid(nside);
+  const auto r = test::run_reference_script("healpix_reference.py", "interp 32 " + dir + "/v.txt");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::istringstream in(r.out);
+  for (const auto& v : dirs) {
+    long expected_pixel[4];
+    double expected_weight[4];
+    for (long& p : expected_pixel) in >> p;
+    for (double& w : expected_weight) in >> w;
+    long pixel[4];
+    double weight[4];
+    grid.interpolation(v, pixel, weight);
+    double sum = 0;
+    for (int i = 0; i < 4; ++i) {
+      sum += weight[i];
+      double theirs = 0;
+      for (int j = 0; j < 4; ++j)
+        if (expected_pixel[j] == pixel[i]) theirs += expected_weight[j];
+      EXPECT_NEAR(weight[i], theirs, 1e-9) << v.transpose();
+    }
+    EXPECT_NEAR(sum, 1.0, 1e-12);
+  }
+  std::filesystem::remove_all(dir);
+}
+
 TEST(SphereGrid, EqualPixelAreasAndResolution) {
   // Górski et al., ApJ 622 (2005) 759: every pixel has area 4π/(12 nside²); nominal resolution
   // sqrt(π/3)/nside: nside 128 → 27.483891 arcmin, nside 256 → 0.00399737 rad.
