@@ -12,7 +12,6 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
-#include <optional>
 #include <vector>
 
 #include "orderband/npy_io.hpp"
@@ -22,7 +21,6 @@
 #include "orderband/preprocess.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
-#include "orderband/sphere_file.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/synth_scan.hpp"
 
@@ -73,20 +71,8 @@ double information_limit(const SynthScenario& s, const std::vector<Rotation>& gr
   const DetectorGeometry geometry(render_geometry(s));
   PatternRenderer renderer(geometry, models.ordered, models.disordered, s.counts_per_px, s.background_falloff,
                            s.variant.background, s.variant.detector_gamma);
-  std::optional<DynamicalSphere> ordered, disordered;
-  if (s.pattern_model == PatternModelKind::many_beam) {
-    DynamicalSphereSpec spec;
-    spec.nside = s.many_beam.nside;
-    spec.kilovolts = s.kv;
-    spec.beams = s.many_beam.beams;
-    spec.absorption.proportional = s.many_beam.proportional_absorption;
-    spec.depth.mean_depth_A = 10 * s.many_beam.mean_depth_nm;
-    ordered.emplace(cached_dynamical_sphere(pair.ordered, spec, s.many_beam.cache_folder,
-                                            {"bench", "mismatch_bench", pair.ordered.source}, {}));
-    disordered.emplace(cached_dynamical_sphere(pair.disordered, spec, s.many_beam.cache_folder,
-                                               {"bench", "mismatch_bench", pair.disordered.source}, {}));
-    renderer.use_spheres({&ordered->intensity, &disordered->intensity}, s.many_beam.contrast);
-  }
+  const ManyBeamSpheres spheres = many_beam_spheres(s, pair, "mismatch_bench");
+  if (spheres.ordered) renderer.use_spheres(spheres.maps(), s.many_beam.contrast);
   PreprocessSpec mask_spec;  // the estimator's default mask: the inscribed circle
   mask_spec.static_background = StaticBackgroundKind::none;
   const Preprocessor masked(mask_spec, geometry.width(), geometry.height());

@@ -15,13 +15,6 @@ namespace {
 using test::crystal_data;
 using test::run_orderband;
 
-std::string read_all(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 TEST(CliSphere, WritesTheSphereAndLoadsItFromTheCacheOnlyForTheSameInputs) {
   const std::string dir = test::make_temp_dir("cli-sphere");
   const std::string common = "sphere " + crystal_data("ni3al-gamma-prime.cif") +
@@ -33,7 +26,7 @@ TEST(CliSphere, WritesTheSphereAndLoadsItFromTheCacheOnlyForTheSameInputs) {
   ASSERT_EQ(a.shape.size(), 2u);
   EXPECT_EQ(a.shape[1], 12u * 8 * 8);
   for (float v : a.values) EXPECT_TRUE(v > 0 && v < 10) << v;
-  const auto side = nlohmann::json::parse(read_all(dir + "/out/a.json"));
+  const auto side = nlohmann::json::parse(test::read_file_bytes(dir + "/out/a.json"));
   EXPECT_EQ(side["tool"], "orderband");
   EXPECT_EQ(side["parameters"]["nside"], 8);
   EXPECT_DOUBLE_EQ(side["parameters"]["kilovolts"].get<double>(), 20.0);
@@ -44,12 +37,12 @@ TEST(CliSphere, WritesTheSphereAndLoadsItFromTheCacheOnlyForTheSameInputs) {
   const auto second = run_orderband(common + " -o " + dir + "/out/b.npy");
   ASSERT_EQ(second.exit_code, 0) << second.err;
   EXPECT_NE(second.out.find("loaded from the cache"), std::string::npos) << second.out;
-  EXPECT_EQ(read_all(dir + "/out/a.npy"), read_all(dir + "/out/b.npy"));
+  EXPECT_EQ(test::read_file_bytes(dir + "/out/a.npy"), test::read_file_bytes(dir + "/out/b.npy"));
   // Another parameter: computed again, other values.
   const auto third = run_orderband(common + " --absorption 0.05 -o " + dir + "/out/c.npy");
   ASSERT_EQ(third.exit_code, 0) << third.err;
   EXPECT_NE(third.out.find("computed"), std::string::npos) << third.out;
-  EXPECT_NE(read_all(dir + "/out/a.npy"), read_all(dir + "/out/c.npy"));
+  EXPECT_NE(test::read_file_bytes(dir + "/out/a.npy"), test::read_file_bytes(dir + "/out/c.npy"));
 }
 
 TEST(CliSphere, RejectsBadInputWithOneLine) {

@@ -31,13 +31,6 @@ DetectorGeometrySpec geometry_spec() {
   return g;
 }
 
-std::string slurp(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
 TEST(SynthRender, BandCentresFollowTheGnomonicTraces) {
   // Noise-free pattern of fcc Ni {111} bands only, flat background: across each band the
   // intensity centroid must sit on the plane trace from the detector geometry (half a pixel).
@@ -148,12 +141,13 @@ TEST(SynthScan, DeterministicAcrossThreadCountsAndTruthIsConsistent) {
   ASSERT_EQ(r1.exit_code, 0) << r1.err;
   ASSERT_EQ(r2.exit_code, 0) << r2.err;
   for (const char* f : {"patterns.raw", "truth_fraction.npy", "truth_grains.npy"})
-    EXPECT_TRUE(slurp(dir + "/t1/" + f) == slurp(dir + "/t2/" + f)) << f;
+    EXPECT_TRUE(test::read_file_bytes(dir + "/t1/" + f) == test::read_file_bytes(dir + "/t2/" + f)) << f;
   // The CSV differs only in its provenance line (the command line names the thread count).
   auto body = [](std::string s) { return s.substr(s.find('\n') + 1); };
-  EXPECT_EQ(body(slurp(dir + "/t1/truth_orientations.csv")), body(slurp(dir + "/t2/truth_orientations.csv")));
-  EXPECT_EQ(slurp(dir + "/t1/patterns.raw").size(), 12u * 10 * 40 * 40 * 2);
-  const auto truth = nlohmann::json::parse(slurp(dir + "/t1/truth.json"));
+  EXPECT_EQ(body(test::read_file_bytes(dir + "/t1/truth_orientations.csv")),
+            body(test::read_file_bytes(dir + "/t2/truth_orientations.csv")));
+  EXPECT_EQ(test::read_file_bytes(dir + "/t1/patterns.raw").size(), 12u * 10 * 40 * 40 * 2);
+  const auto truth = nlohmann::json::parse(test::read_file_bytes(dir + "/t1/truth.json"));
   const double sec = truth["classes"]["secondary"]["area_fraction"],
                ter = truth["classes"]["tertiary"]["area_fraction"];
   EXPECT_NEAR(ter, 0.05 * (1 - sec), 1e-12);

@@ -61,4 +61,11 @@ std::string write_small_scan(const std::string& dir, int side, int seed) {
   return dir + "/scan/scan.toml";
 }
 
+std::string read_file_bytes(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
 }  // namespace orderband::test

@@ -7,6 +7,9 @@
 
 namespace orderband::test {
 
+/// A whole file's bytes (empty if it cannot be read).
+std::string read_file_bytes(const std::string& path);
+
 inline std::string crystal_data(const std::string& file) { return std::string(ORDERBAND_TEST_DATA_DIR) + "/" + file; }
 
 struct RunResult {

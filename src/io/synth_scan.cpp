@@ -413,14 +413,6 @@ void write_scan_description(const SynthScenario& s, const DetectorGeometry& geom
   }
 }
 
-/// The spheres of both phases for a many-beam scenario (none for a kinematic one).
-struct ManyBeamSpheres {
-  std::optional<DynamicalSphere> ordered, disordered;
-  PhaseSpheres maps() const {
-    return ordered ? PhaseSpheres{&ordered->intensity, &disordered->intensity} : PhaseSpheres{};
-  }
-};
-
 DynamicalSphereSpec sphere_spec(const SynthScenario& s) {
   DynamicalSphereSpec spec;
   spec.nside = s.many_beam.nside;
@@ -429,22 +421,6 @@ DynamicalSphereSpec sphere_spec(const SynthScenario& s) {
   spec.absorption.proportional = s.many_beam.proportional_absorption;
   spec.depth.mean_depth_A = 10 * s.many_beam.mean_depth_nm;
   return spec;
-}
-
-ManyBeamSpheres many_beam_spheres(const SynthScenario& s, const OrderingPair& pair, const std::string& command_line,
-                                  const SphereProgress& progress) {
-  ManyBeamSpheres out;
-  if (s.pattern_model != PatternModelKind::many_beam) return out;
-  const DynamicalSphereSpec spec = sphere_spec(s);
-  auto one = [&](const Phase& phase) {
-    ProgressFn report;
-    if (progress) report = [&](size_t d, size_t t) { progress(phase.name, d, t); };
-    return cached_dynamical_sphere(phase, spec, s.many_beam.cache_folder, {kVersion, command_line, phase.source},
-                                   report);
-  };
-  out.ordered.emplace(one(pair.ordered));
-  out.disordered.emplace(one(pair.disordered));
-  return out;
 }
 
 nlohmann::json many_beam_json(const SynthScenario& s, const OrderingPair& pair) {
@@ -520,6 +496,22 @@ void write_truth_json(const SynthScenario& s, const SynthTruth& truth, const Ord
   write_text_atomically(dir + "/truth.json", j.dump(2) + "\n");
 }
 }  // namespace
+
+ManyBeamSpheres many_beam_spheres(const SynthScenario& s, const OrderingPair& pair, const std::string& command_line,
+                                  const SphereProgress& progress) {
+  ManyBeamSpheres out;
+  if (s.pattern_model != PatternModelKind::many_beam) return out;
+  const DynamicalSphereSpec spec = sphere_spec(s);
+  auto one = [&](const Phase& phase) {
+    ProgressFn report;
+    if (progress) report = [&](size_t d, size_t t) { progress(phase.name, d, t); };
+    return cached_dynamical_sphere(phase, spec, s.many_beam.cache_folder, {kVersion, command_line, phase.source},
+                                   report);
+  };
+  out.ordered.emplace(one(pair.ordered));
+  out.disordered.emplace(one(pair.disordered));
+  return out;
+}
 
 void write_synthetic_scan(const SynthScenario& s, const std::string& folder, const std::string& command_line,
                           const SynthProgress& progress, const SphereProgress& sphere_progress) {

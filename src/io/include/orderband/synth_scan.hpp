@@ -3,8 +3,10 @@
 
 #include <cstddef>
 #include <functional>
+#include <optional>
 #include <string>
 
+#include "orderband/dynamical_sphere.hpp"
 #include "orderband/synth.hpp"
 
 namespace orderband {
@@ -17,6 +19,17 @@ SynthScenario parse_synth_scenario(const std::string& toml_text, const std::stri
 using SynthProgress = std::function<void(size_t done, size_t total)>;
 /// Progress of a phase's sphere (its name first).
 using SphereProgress = std::function<void(const std::string& phase, size_t done, size_t total)>;
+
+/// The spheres of both phases of a many-beam scenario (none for a kinematic one), loaded from the
+/// scenario's sphere cache or computed and cached there.
+struct ManyBeamSpheres {
+  std::optional<DynamicalSphere> ordered, disordered;
+  PhaseSpheres maps() const {
+    return ordered ? PhaseSpheres{&ordered->intensity, &disordered->intensity} : PhaseSpheres{};
+  }
+};
+ManyBeamSpheres many_beam_spheres(const SynthScenario& scenario, const OrderingPair& pair,
+                                  const std::string& command_line, const SphereProgress& progress = {});
 
 /// Writes a complete synthetic scan into `folder` (created if needed):
 /// scan.toml, patterns.raw, truth.json, truth_fraction.npy, truth_grains.npy,
