@@ -1,13 +1,16 @@
 // `orderband families`: plane-family table of one or more phases, or of an ordered/disordered pair.
 #include <iostream>
 #include <memory>
+#include <optional>
 
 #include "command.hpp"
 #include "orderband/error.hpp"
 #include "orderband/family_table_io.hpp"
 #include "orderband/pair_catalog.hpp"
 #include "orderband/phase_cif.hpp"
+#include "orderband/sphere_file.hpp"
 #include "orderband/version.hpp"
+#include "progress.hpp"
 
 namespace orderband::cli {
 
@@ -21,7 +24,28 @@ struct FamiliesOptions {
   double d_min = 0.8;
   double threshold = 0.5;
   TableFormat format = TableFormat::text;
+  bool dynamical = false, no_cache = false, quiet = false;
+  int nside = 128;
+  std::string cache_dir;
 };
+
+/// Both phases' many-beam spheres (from the cache when there) and every family's band profiles on them.
+DynamicalColumns dynamical_columns(const FamiliesOptions& o, const OrderingPair& pair,
+                                   const std::vector<PairFamily>& rows) {
+  DynamicalColumns d;
+  d.spec.kilovolts = o.kv;
+  d.spec.nside = o.nside;
+  const std::string folder = o.no_cache ? "" : o.cache_dir.empty() ? default_sphere_cache_folder() : o.cache_dir;
+  std::vector<DynamicalSphere> spheres;
+  for (const Phase* phase : {&pair.ordered, &pair.disordered}) {
+    ProgressReporter bar("sphere " + phase->name, "directions", o.quiet);
+    spheres.push_back(cached_dynamical_sphere(*phase, d.spec, folder, {kVersion, command_line(), phase->source},
+                                              [&](size_t done, size_t total) { bar(done, total); }));
+    bar.finish();
+  }
+  d.families = family_profile_contrasts(spheres[0].intensity, spheres[1].intensity, rows, d.bins);
+  return d;
+}
 
 /// One table per phase of the given CIF files.
 void print_phase_tables(const FamiliesOptions& o, const TableProvenance& prov) {
@@ -51,15 +75,18 @@ void print_pair_table(const FamiliesOptions& o, const TableProvenance& prov, boo
   const OrderingPair pair =
       explicit_pair ? load_pair(o.ordered, o.disordered) : load_named_pair(o.pair_name.empty() ? "ni" : o.pair_name);
   const std::vector<PairFamily> rows = pair_family_table(pair, o.kv, o.d_min);
+  const std::optional<DynamicalColumns> dyn =
+      o.dynamical ? std::optional<DynamicalColumns>(dynamical_columns(o, pair, rows)) : std::nullopt;
+  const DynamicalColumns* d = dyn ? &*dyn : nullptr;
   switch (o.format) {
     case TableFormat::csv:
-      write_pair_families_csv(std::cout, rows, prov);
+      write_pair_families_csv(std::cout, rows, prov, d);
       break;
     case TableFormat::json:
-      write_pair_families_json(std::cout, pair, rows, prov);
+      write_pair_families_json(std::cout, pair, rows, prov, d);
       break;
     case TableFormat::text:
-      write_pair_families_text(std::cout, pair, rows, prov);
+      write_pair_families_text(std::cout, pair, rows, prov, d);
       break;
   }
 }
@@ -83,10 +110,21 @@ std::function<int()> setup_families(CLI::App& sub) {
       ->check(finite_within(-1, 1, false, false))
       ->capture_default_str();
   add_format_option(sub, o->format);
+  sub.add_flag("--dynamical", o->dynamical,
+               "add each family's band profiles on both phases' many-beam spheres (pairs only; a sphere not yet "
+               "in the cache takes about a minute or two at nside 128)");
+  sub.add_option("--nside", o->nside,
+                 "HEALPix nside of the spheres for --dynamical (power of two, 64 to 1024; coarser spheres leave the "
+                 "narrowest profile bins empty)")
+      ->check(CLI::Range(64, 1024))
+      ->capture_default_str();
+  sub.add_option("--cache", o->cache_dir, "sphere cache folder (default as for the sphere command)");
+  sub.add_flag("--no-cache", o->no_cache, "neither read nor write the sphere cache");
+  sub.add_flag("-q,--quiet", o->quiet, "no progress on stderr");
   sub.footer(
       "Without arguments: the shipped nickel-base pair (gamma-prime Ni3Al in gamma) at 20 kV.\n"
       "Examples:\n  orderband families\n  orderband families --pair co --kv 15 --format csv\n"
-      "  orderband families crystal-data/ni-fcc.cif --d-min 1.0");
+      "  orderband families crystal-data/ni-fcc.cif --d-min 1.0\n  orderband families --dynamical --d-min 1.0");
 
   return [o]() {
     if (!(o->kv > 0)) fail("--kv must be a positive voltage in kV, got ", o->kv);
@@ -97,6 +135,9 @@ std::function<int()> setup_families(CLI::App& sub) {
     if ((explicit_pair || !o->pair_name.empty()) && !o->cifs.empty())
       fail("give either CIF files (one table per phase) or a pair, not both");
     if (explicit_pair && !o->pair_name.empty()) fail("give either --pair or --ordered/--disordered, not both");
+    if (o->dynamical && !o->cifs.empty())
+      fail("--dynamical compares the two phases of a pair: give a pair, not CIF files");
+    if (o->nside & (o->nside - 1)) fail("--nside must be a power of two, got ", o->nside);
 
     const TableProvenance prov{kVersion, command_line(), o->kv, o->d_min, o->threshold};
     if (!o->cifs.empty())

@@ -1,6 +1,7 @@
 // Plane-family tables as aligned text, CSV and JSON.
 #include "orderband/family_table_io.hpp"
 
+#include <cmath>
 #include <cstdio>
 #include <nlohmann/json.hpp>
 
@@ -51,10 +52,57 @@ std::string role_of(const PairFamily& r, double threshold) {
   return r.sensitivity >= threshold ? "superlattice" : "fundamental";
 }
 
+std::string dynamical_parameters(const DynamicalColumns& d) {
+  return "nside " + std::to_string(d.spec.nside) + ", " + format_number("%g", d.spec.kilovolts) +
+         " kV, beams |g| <= " + format_number("%g", d.spec.beams.max_g_inv_A) + " 1/A, strong limit " +
+         format_number("%g", d.spec.beams.strong_limit) + ", weak limit " +
+         format_number("%g", d.spec.beams.weak_limit) + ", absorption " +
+         format_number("%g", d.spec.absorption.proportional) + " x U_g, mean depth " +
+         format_number("%g", d.spec.depth.mean_depth_A / 10) + " nm";
+}
+
+void write_dynamical_text(std::ostream& os, const std::vector<PairFamily>& rows, const DynamicalColumns& d) {
+  os << "\n# band profiles on many-beam spheres (" << dynamical_parameters(d) << ")\n"
+     << "# relative intensity I/<I> - 1 across each family's planes, u in units of the ordered phase's Bragg angle;\n"
+     << "# contrast = interior (|u| < 0.75) - flanks (1.25 < |u| < 2); rms_diff = rms of ordered - disordered, |u| < "
+        "2\n";
+  char line[160];
+  std::snprintf(line, sizeof line, "%-9s  %12s %12s %12s  %9s\n", "family", "contrast_ord", "contrast_dis", "change",
+                "rms_diff");
+  os << line;
+  for (size_t i = 0; i < rows.size(); ++i) {
+    const FamilyProfileContrast& c = d.families[i];
+    std::snprintf(line, sizeof line, "%-9s  %12.4f %12.4f %+12.4f  %9.4f\n", rows[i].family.label().c_str(),
+                  c.contrast_ordered, c.contrast_disordered, c.contrast_ordered - c.contrast_disordered,
+                  c.rms_difference);
+    os << line;
+  }
+}
+
+nlohmann::json dynamical_json(const DynamicalColumns& d) {
+  return {{"nside", d.spec.nside},
+          {"accelerating_voltage_kv", d.spec.kilovolts},
+          {"max_g_inv_A", d.spec.beams.max_g_inv_A},
+          {"strong_limit", d.spec.beams.strong_limit},
+          {"weak_limit", d.spec.beams.weak_limit},
+          {"proportional_absorption", d.spec.absorption.proportional},
+          {"mean_depth_nm", d.spec.depth.mean_depth_A / 10},
+          {"bin_width_u", d.bins.width_u},
+          {"max_u", d.bins.max_u}};
+}
+
+nlohmann::json number_or_null(double v) { return std::isnan(v) ? nlohmann::json(nullptr) : nlohmann::json(v); }
+
+nlohmann::json profile_json(const std::vector<double>& v) {
+  nlohmann::json a = nlohmann::json::array();
+  for (const double x : v) a.push_back(number_or_null(x));
+  return a;
+}
+
 }  // namespace
 
 void write_pair_families_text(std::ostream& os, const OrderingPair& pair, const std::vector<PairFamily>& rows,
-                              const TableProvenance& prov) {
+                              const TableProvenance& prov, const DynamicalColumns* dynamical) {
   provenance_lines(os, prov);
   os << "# pair " << pair.name << "\n"
      << phase_line("ordered:    ", pair.ordered) << phase_line("disordered: ", pair.disordered);
@@ -71,29 +119,42 @@ void write_pair_families_text(std::ostream& os, const OrderingPair& pair, const 
                   r.sensitivity, role_of(r, prov.sensitivity_threshold).c_str());
     os << line;
   }
+  if (dynamical) write_dynamical_text(os, rows, *dynamical);
 }
 
-void write_pair_families_csv(std::ostream& os, const std::vector<PairFamily>& rows, const TableProvenance& prov) {
+void write_pair_families_csv(std::ostream& os, const std::vector<PairFamily>& rows, const TableProvenance& prov,
+                             const DynamicalColumns* dynamical) {
   provenance_lines(os, prov);
+  if (dynamical) os << "# band profiles on many-beam spheres: " << dynamical_parameters(*dynamical) << "\n";
   os << "family,h,k,l,multiplicity,d_ordered_A,bragg_ordered_deg,f_abs_ordered_A,rel_intensity_ordered,"
-        "d_disordered_A,bragg_disordered_deg,f_abs_disordered_A,rel_intensity_disordered,sensitivity,role\n";
-  for (const PairFamily& r : rows) {
+        "d_disordered_A,bragg_disordered_deg,f_abs_disordered_A,rel_intensity_disordered,sensitivity,role"
+     << (dynamical ? ",dynamical_contrast_ordered,dynamical_contrast_disordered,dynamical_rms_difference" : "") << '\n';
+  for (size_t i = 0; i < rows.size(); ++i) {
+    const PairFamily& r = rows[i];
     const auto& h = r.family.hkl;
     os << '"' << r.family.label() << "\"," << h[0] << ',' << h[1] << ',' << h[2] << ',' << r.family.multiplicity << ','
        << format_number("%.6f", r.d_ordered_A) << ',' << format_number("%.6f", rad_to_deg(r.bragg_ordered_rad)) << ','
        << format_number("%.6f", r.f_abs_ordered_A) << ',' << format_number("%.6g", r.rel_intensity_ordered) << ','
        << format_number("%.6f", r.d_disordered_A) << ',' << format_number("%.6f", rad_to_deg(r.bragg_disordered_rad))
        << ',' << format_number("%.6f", r.f_abs_disordered_A) << ',' << format_number("%.6g", r.rel_intensity_disordered)
-       << ',' << format_number("%.6f", r.sensitivity) << ',' << role_of(r, prov.sensitivity_threshold) << '\n';
+       << ',' << format_number("%.6f", r.sensitivity) << ',' << role_of(r, prov.sensitivity_threshold);
+    if (dynamical) {
+      const FamilyProfileContrast& c = dynamical->families[i];
+      os << ',' << format_number("%.6f", c.contrast_ordered) << ',' << format_number("%.6f", c.contrast_disordered)
+         << ',' << format_number("%.6f", c.rms_difference);
+    }
+    os << '\n';
   }
 }
 
 void write_pair_families_json(std::ostream& os, const OrderingPair& pair, const std::vector<PairFamily>& rows,
-                              const TableProvenance& prov) {
+                              const TableProvenance& prov, const DynamicalColumns* dynamical) {
   nlohmann::json j = provenance_json(prov);
   j["pair"] = {{"name", pair.name}, {"ordered", phase_json(pair.ordered)}, {"disordered", phase_json(pair.disordered)}};
   nlohmann::json fams = nlohmann::json::array();
-  for (const PairFamily& r : rows) {
+  if (dynamical) j["parameters"]["dynamical_spheres"] = dynamical_json(*dynamical);
+  for (size_t i = 0; i < rows.size(); ++i) {
+    const PairFamily& r = rows[i];
     const auto& h = r.family.hkl;
     fams.push_back({{"family", r.family.label()},
                     {"hkl", {h[0], h[1], h[2]}},
@@ -108,6 +169,15 @@ void write_pair_families_json(std::ostream& os, const OrderingPair& pair, const 
                     {"rel_intensity_disordered", r.rel_intensity_disordered},
                     {"sensitivity", r.sensitivity},
                     {"role", role_of(r, prov.sensitivity_threshold)}});
+    if (dynamical) {
+      const FamilyProfileContrast& c = dynamical->families[i];
+      fams.back()["dynamical"] = {{"u", c.u},
+                                  {"profile_ordered", profile_json(c.ordered)},
+                                  {"profile_disordered", profile_json(c.disordered)},
+                                  {"contrast_ordered", number_or_null(c.contrast_ordered)},
+                                  {"contrast_disordered", number_or_null(c.contrast_disordered)},
+                                  {"rms_difference", number_or_null(c.rms_difference)}};
+    }
   }
   j["families"] = fams;
   os << j.dump(2) << '\n';
