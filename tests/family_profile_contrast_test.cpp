@@ -40,7 +40,8 @@ TEST(SphereBandProfile, OneBandGivesItsAnalyticLevels) {
     } else if (u > 1.3) {
       EXPECT_NEAR(profile[b], outside, 2e-3) << "u " << bins.centre(b);
     } else if (u > 1) {
-      EXPECT_NEAR((profile[b] + profile[b < 10 ? b + 1 : b - 1]) / 2, (inside + outside) / 2, 0.05 * a) << "u " << bins.centre(b);
+      EXPECT_NEAR((profile[b] + profile[b < 10 ? b + 1 : b - 1]) / 2, (inside + outside) / 2, 0.05 * a)
+          << "u " << bins.centre(b);
     }
   }
 }
@@ -52,7 +53,8 @@ std::vector<FamilyProfileContrast> nickel_pair_contrasts(std::vector<PairFamily>
   DynamicalSphereSpec spec;
   spec.nside = 128;
   spec.beams = {1.2, 16, 80};
-  const DynamicalSphere ordered = dynamical_sphere(pair.ordered, spec), disordered = dynamical_sphere(pair.disordered, spec);
+  const DynamicalSphere ordered = dynamical_sphere(pair.ordered, spec),
+                        disordered = dynamical_sphere(pair.disordered, spec);
   return family_profile_contrasts(ordered.intensity, disordered.intensity, rows);
 }
 

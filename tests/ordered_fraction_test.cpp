@@ -3,13 +3,16 @@
 
 #include <gtest/gtest.h>
 
+#include <array>
 #include <filesystem>
 #include <fstream>
 #include <functional>
 #include <map>
 #include <nlohmann/json.hpp>
 
+#include "orderband/dynamical_sphere.hpp"
 #include "orderband/npy_io.hpp"
+#include "orderband/pair_catalog.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
 #include "orderband/synth.hpp"
@@ -334,6 +337,52 @@ TEST(LearnedFraction, HoldsOnManyBeamPatterns) {
   EXPECT_GT(r.truth_json["classes"]["primary"]["area_fraction"].get<double>(), 0.03);
   EXPECT_TRUE(r.fraction.two_phases);
   EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03);
+  EXPECT_GE(classification(r), 0.95);
+  std::filesystem::remove_all(cache);
+}
+
+TEST(OrderedFraction, ManyBeamReferenceOnManyBeamPatterns) {
+  // Issue Wave 2 · F, "Must show": the many-beam spheres as the estimators' reference instead of
+  // the kinematic model, on many-beam patterns (the scan of LearnedFraction.HoldsOnManyBeamPatterns:
+  // spheres with strong/weak limits 32/160 and a mean depth of 10 nm; truth 0.317).
+  //  - The same spheres as reference (self-consistency only, a check that the reference path
+  //    renders what synth renders): the model-led estimator within ±0.03 (measured −0.005, 100 %).
+  //  - Spheres the renderer was not made with, as any computed reference is for real patterns
+  //    (limits 16/80, mean depth 20 nm): the learned estimator must hold ±0.03 and classify ≥ 95 %
+  //    (measured +0.004, 99.9 %; with the kinematic reference +0.014). The model-led one reads
+  //    −0.138 here (75 % classified); with only the beam set changed −0.053, with only the depth
+  //    0.185: the model-led estimator needs the reference's intensities right, and a dynamical
+  //    reference is not converged to that (DEVELOPERS.md, beam-set convergence).
+  const std::string cache = test::make_temp_dir("many-beam-reference");
+  const std::string many_beam =
+      "model = \"many-beam\"\nsphere_strong_limit = 32\nsphere_weak_limit = 160\n"
+      "sphere_cache = \"" +
+      cache + "\"\n";
+  const std::string primary =
+      "[primary]\narea_fraction = 0.10\ndistribution = \"lognormal\"\nmedian_diameter_um = 0.35\nsigma_ln = 0.1\n"
+      "own_orientation = true\n";
+  const std::string text = scenario(many_beam + kSecondary + primary, 40);
+  const OrderingPair pair = load_named_pair("ni");
+  auto spheres_with = [&](double strong_limit, double mean_depth_nm) {
+    DynamicalSphereSpec spec;
+    spec.beams = {1.6, strong_limit, 5 * strong_limit};
+    spec.depth.mean_depth_A = 10 * mean_depth_nm;
+    return std::array<DynamicalSphere, 2>{dynamical_sphere(pair.ordered, spec),
+                                          dynamical_sphere(pair.disordered, spec)};
+  };
+
+  const auto same = spheres_with(32, 10);
+  FractionSpec model_led;
+  model_led.reference_spheres = {&same[0].intensity, &same[1].intensity};
+  const ScenarioRun s = run_scenario(text, 0, false, {}, model_led);
+  EXPECT_NEAR(s.fraction.mean_raw(), truth_mean(s), 0.03) << "model-led, the renderer's own spheres";
+
+  const auto other = spheres_with(16, 20);
+  FractionSpec learned = learned_spec();
+  learned.reference_spheres = {&other[0].intensity, &other[1].intensity};
+  const ScenarioRun r = run_scenario(text, 0, false, {}, learned);
+  EXPECT_TRUE(r.fraction.two_phases);
+  EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << "learned, spheres of other parameters";
   EXPECT_GE(classification(r), 0.95);
   std::filesystem::remove_all(cache);
 }

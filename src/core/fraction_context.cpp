@@ -125,14 +125,17 @@ std::vector<float> detector_background_for(const PatternRenderer& renderer, cons
 }  // namespace
 
 FractionModel::FractionModel(const OrderingPair& pair, double kv, const DetectorGeometry& geometry,
-                             const Preprocessor& data, const PreprocessSpec& data_spec, const GrainMap& grains)
+                             const Preprocessor& data, const PreprocessSpec& data_spec, const GrainMap& grains,
+                             const PhaseSpheres& spheres, double sphere_contrast)
     : ordered_(pair.ordered, kv, BandModelParams{}),
       disordered_(pair.disordered, kv, with_families_of(BandModelParams{}, pair.disordered, pair.ordered)),
       renderer_(geometry, ordered_, disordered_, 1000.0, 0.0),
       pixels_(static_cast<size_t>(data.width()) * data.height()),
-      detector_background_(detector_background_for(renderer_, geometry, data, data_spec, grains)),
       spec_(model_processing(data_spec, !data.static_background().empty())),
-      processing_(spec_, data.width(), data.height(), data.static_background()) {}
+      processing_(spec_, data.width(), data.height(), data.static_background()) {
+  if (spheres.ordered || spheres.disordered) renderer_.use_spheres(spheres, sphere_contrast);
+  detector_background_ = detector_background_for(renderer_, geometry, data, data_spec, grains);
+}
 
 void FractionModel::phase(const Preprocessor& processing, const DetectorGeometry& geo, const Rotation& g, bool ordered,
                           float* out) const {
@@ -156,7 +159,7 @@ FractionScan::FractionScan(const ScanInputs& inputs, const OrientationResults& o
       rays(geometry),
       pre(inputs.preprocessor()),
       model(std::make_unique<FractionModel>(pair, inputs.config.kv, geometry, pre, inputs.config.preprocess,
-                                            ori_.grains)),
+                                            ori_.grains, spec_.reference_spheres, spec_.reference_sphere_contrast)),
       symmetry(laue_rotations(pair.disordered)),
       point_orientation(
           kernel_mean_orientations(grid, ori_.orientation, ori_.grains, symmetry, spec_.orientation_kernel_radius)),

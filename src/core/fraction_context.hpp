@@ -45,8 +45,11 @@ FractionFamilies choose_fraction_families(const OrderingPair& pair, double kv, c
 /// grains' model patterns weighted by their share of the scan, and B̂ is fitted to that.
 class FractionModel {
  public:
+  /// With `spheres` set, the phases' intensities come from their many-beam spheres (shown with
+  /// `sphere_contrast`) instead of the kinematic band models.
   FractionModel(const OrderingPair& pair, double kv, const DetectorGeometry& geometry, const Preprocessor& data,
-                const PreprocessSpec& data_spec, const GrainMap& grains);
+                const PreprocessSpec& data_spec, const GrainMap& grains, const PhaseSpheres& spheres = {},
+                double sphere_contrast = 0.3);
   FractionModel(const FractionModel&) = delete;
   FractionModel& operator=(const FractionModel&) = delete;
 

@@ -14,6 +14,7 @@
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
 #include "orderband/row_store.hpp"
+#include "orderband/sphere.hpp"
 
 namespace orderband {
 
@@ -85,6 +86,12 @@ struct FractionSpec {
   int pattern_centre_min_points = 30;  ///< grains with fewer points keep the orientation stage's orientation
   std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
   std::vector<uint8_t> ordered_mask, disordered_mask;          ///< per point, non-zero: in the region (empty: none)
+  /// The reference model: the kinematic band model (default), or, with both set, the phases'
+  /// many-beam spheres, shown on the detector as 1 + contrast · (I/⟨I⟩ − 1) (as `synth` renders
+  /// `model = "many-beam"`). Either supplies the model-led estimator's references and the learned
+  /// one's geometry (first guess, ordering signature, transfer between orientations).
+  PhaseSpheres reference_spheres;
+  double reference_sphere_contrast = 0.3;
 };
 
 struct FamilyDiagnostic {

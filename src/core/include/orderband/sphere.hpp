@@ -54,6 +54,12 @@ struct SphereMap {
   void add(const SphereMap& other);
 };
 
+/// Both phases' spheres of a pair (a many-beam renderer or reference reads them; not owned).
+struct PhaseSpheres {
+  const SphereMap* ordered = nullptr;
+  const SphereMap* disordered = nullptr;
+};
+
 /// Precomputed unit directions (sample frame) and solid angles of a detector's pixels.
 struct DetectorRays {
   explicit DetectorRays(const DetectorGeometry& geometry);

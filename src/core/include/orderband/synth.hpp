@@ -65,12 +65,6 @@ struct ManyBeamSpec {
   std::string cache_folder;  ///< where the spheres are cached (empty: not cached)
 };
 
-/// Every phase's sphere a many-beam renderer reads.
-struct PhaseSpheres {
-  const SphereMap* ordered = nullptr;
-  const SphereMap* disordered = nullptr;
-};
-
 /// Everything a synthetic scan is made from (read from a scenario TOML file).
 struct SynthScenario {
   std::string path;  ///< scenario file (absolute), empty when built in code
