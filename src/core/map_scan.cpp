@@ -71,7 +71,8 @@ std::vector<std::string> map_warnings(const MapResults& r) {
   if (r.fraction.estimator == "learned")
     w.push_back(
         "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "
-        "counted as matrix, not measured");
+        "counted as matrix, not measured (reference regions in [fraction] set the zero from an area known to be "
+        "free of ordering)");
   return w;
 }
 
