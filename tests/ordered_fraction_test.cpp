@@ -15,8 +15,10 @@
 #include "orderband/pair_catalog.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
+#include "orderband/sphere_file.hpp"
 #include "orderband/synth.hpp"
 #include "orderband/synth_scan.hpp"
+#include "orderband/version.hpp"
 #include "test_support.hpp"
 
 namespace orderband {
@@ -314,6 +316,21 @@ TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
   EXPECT_GE(classification(r), 0.95);
 }
 
+/// The many-beam scan of the tests below: 40 × 40 points, 3 grains, secondary γ′ and primary
+/// particles with their own orientation, rendered from spheres with strong/weak limits 32/160
+/// (the defaults otherwise: nside 128, mean depth 10 nm), cached in `cache`.
+constexpr double kManyBeamStrongLimit = 32;
+std::string many_beam_scenario(const std::string& cache) {
+  const std::string many_beam =
+      "model = \"many-beam\"\nsphere_strong_limit = 32\nsphere_weak_limit = 160\n"
+      "sphere_cache = \"" +
+      cache + "\"\n";
+  const std::string primary =
+      "[primary]\narea_fraction = 0.10\ndistribution = \"lognormal\"\nmedian_diameter_um = 0.35\nsigma_ln = 0.1\n"
+      "own_orientation = true\n";
+  return scenario(many_beam + kSecondary + primary, 40);
+}
+
 TEST(LearnedFraction, HoldsOnManyBeamPatterns) {
   // Issue Wave 2 · F, "Must show": patterns interpolated from each phase's Bloch-wave sphere
   // (dynamical band profiles, excess and deficiency lines, intensities that do not follow |F|²),
@@ -325,14 +342,7 @@ TEST(LearnedFraction, HoldsOnManyBeamPatterns) {
   // the model-led estimator read 1.42 for a truth of 0.50. Measured here: +0.014 (0.330 for
   // 0.317), 99.5 %.
   const std::string cache = test::make_temp_dir("many-beam-spheres");
-  const std::string many_beam =
-      "model = \"many-beam\"\nsphere_strong_limit = 32\nsphere_weak_limit = 160\n"
-      "sphere_cache = \"" +
-      cache + "\"\n";
-  const std::string primary =
-      "[primary]\narea_fraction = 0.10\ndistribution = \"lognormal\"\nmedian_diameter_um = 0.35\nsigma_ln = 0.1\n"
-      "own_orientation = true\n";
-  const ScenarioRun r = run_scenario(scenario(many_beam + kSecondary + primary, 40), 0, false, {}, learned_spec());
+  const ScenarioRun r = run_scenario(many_beam_scenario(cache), 0, false, {}, learned_spec());
   EXPECT_EQ(r.truth_json["scenario"]["pattern_model"], "many-beam");
   EXPECT_GT(r.truth_json["classes"]["primary"]["area_fraction"].get<double>(), 0.03);
   EXPECT_TRUE(r.fraction.two_phases);
@@ -352,32 +362,30 @@ TEST(OrderedFraction, ManyBeamReferenceOnManyBeamPatterns) {
   //    (measured +0.004, 99.9 %; with the kinematic reference +0.014). The model-led one reads
   //    −0.138 here (75 % classified); with only the beam set changed −0.053, with only the depth
   //    0.185: the model-led estimator needs the reference's intensities right, and a dynamical
-  //    reference is not converged to that (DEVELOPERS.md, beam-set convergence).
+  //    reference is not converged to that (DEVELOPERS.md, beam-set convergence). (Readings, not
+  //    errors: −0.138, −0.053 and 0.185 are off the truth by −0.45, −0.37 and −0.13.)
   const std::string cache = test::make_temp_dir("many-beam-reference");
-  const std::string many_beam =
-      "model = \"many-beam\"\nsphere_strong_limit = 32\nsphere_weak_limit = 160\n"
-      "sphere_cache = \"" +
-      cache + "\"\n";
-  const std::string primary =
-      "[primary]\narea_fraction = 0.10\ndistribution = \"lognormal\"\nmedian_diameter_um = 0.35\nsigma_ln = 0.1\n"
-      "own_orientation = true\n";
-  const std::string text = scenario(many_beam + kSecondary + primary, 40);
+  const std::string text = many_beam_scenario(cache);
   const OrderingPair pair = load_named_pair("ni");
-  auto spheres_with = [&](double strong_limit, double mean_depth_nm) {
+  // Spheres through the scan's cache folder: the renderer's own are computed here once and read
+  // from the cache by synth (an empty folder: not cached).
+  auto spheres_with = [&](double strong_limit, double mean_depth_nm, const std::string& folder) {
     DynamicalSphereSpec spec;
     spec.beams = {1.6, strong_limit, 5 * strong_limit};
     spec.depth.mean_depth_A = 10 * mean_depth_nm;
-    return std::array<DynamicalSphere, 2>{dynamical_sphere(pair.ordered, spec),
-                                          dynamical_sphere(pair.disordered, spec)};
+    auto sphere_of = [&](const Phase& phase) {
+      return cached_dynamical_sphere(phase, spec, folder, {kVersion, "test", phase.source}, {});
+    };
+    return std::array<DynamicalSphere, 2>{sphere_of(pair.ordered), sphere_of(pair.disordered)};
   };
 
-  const auto same = spheres_with(32, 10);
+  const auto same = spheres_with(kManyBeamStrongLimit, 10, cache);
   FractionSpec model_led;
   model_led.reference_spheres = {&same[0].intensity, &same[1].intensity};
   const ScenarioRun s = run_scenario(text, 0, false, {}, model_led);
   EXPECT_NEAR(s.fraction.mean_raw(), truth_mean(s), 0.03) << "model-led, the renderer's own spheres";
 
-  const auto other = spheres_with(16, 20);
+  const auto other = spheres_with(16, 20, "");
   FractionSpec learned = learned_spec();
   learned.reference_spheres = {&other[0].intensity, &other[1].intensity};
   const ScenarioRun r = run_scenario(text, 0, false, {}, learned);

@@ -39,6 +39,14 @@ void add_threads_option(CLI::App& sub, int& threads);
 /// A validator for a finite number inside [lo, hi] (open ends as asked): NaN, infinities and text
 /// are rejected with one line that names the range.
 CLI::Validator finite_within(double lo, double hi, bool open_low, bool open_high);
+/// `--cache DIR` and `--no-cache` for the commands that use many-beam spheres.
+struct SphereCacheOptions {
+  std::string dir;
+  bool off = false;
+  /// The folder to read and write spheres in: DIR, else the default folder; empty with --no-cache.
+  std::string folder() const;
+};
+void add_sphere_cache_options(CLI::App& sub, SphereCacheOptions& cache);
 /// Sets the OpenMP thread count (0 leaves the default: all cores).
 void apply_threads(int threads);
 

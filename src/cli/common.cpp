@@ -7,6 +7,7 @@
 #include <string>
 
 #include "command.hpp"
+#include "orderband/sphere_file.hpp"
 
 namespace orderband::cli {
 namespace {
@@ -60,6 +61,17 @@ void add_threads_option(CLI::App& sub, int& threads) {
   sub.add_option("--threads", threads, "worker threads (0: all cores; at most 1024)")
       ->check(finite_within(0, 1024, false, false))
       ->default_str("0");
+}
+
+void add_sphere_cache_options(CLI::App& sub, SphereCacheOptions& cache) {
+  sub.add_option("--cache", cache.dir,
+                 "sphere cache folder (default $XDG_CACHE_HOME/orderband/spheres or ~/.cache/orderband/spheres)");
+  sub.add_flag("--no-cache", cache.off, "neither read nor write the sphere cache");
+}
+
+std::string SphereCacheOptions::folder() const {
+  if (off) return "";
+  return dir.empty() ? default_sphere_cache_folder() : dir;
 }
 
 void apply_threads(int threads) {

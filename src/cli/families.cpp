@@ -24,9 +24,9 @@ struct FamiliesOptions {
   double d_min = 0.8;
   double threshold = 0.5;
   TableFormat format = TableFormat::text;
-  bool dynamical = false, no_cache = false, quiet = false;
+  bool dynamical = false, quiet = false;
   int nside = 128;
-  std::string cache_dir;
+  SphereCacheOptions cache;
 };
 
 /// Both phases' many-beam spheres (from the cache when there) and every family's band profiles on them.
@@ -35,7 +35,7 @@ DynamicalColumns dynamical_columns(const FamiliesOptions& o, const OrderingPair&
   DynamicalColumns d;
   d.spec.kilovolts = o.kv;
   d.spec.nside = o.nside;
-  const std::string folder = o.no_cache ? "" : o.cache_dir.empty() ? default_sphere_cache_folder() : o.cache_dir;
+  const std::string folder = o.cache.folder();
   std::vector<DynamicalSphere> spheres;
   for (const Phase* phase : {&pair.ordered, &pair.disordered}) {
     ProgressReporter bar("sphere " + phase->name, "directions", o.quiet);
@@ -118,8 +118,7 @@ std::function<int()> setup_families(CLI::App& sub) {
                  "narrowest profile bins empty)")
       ->check(CLI::Range(64, 1024))
       ->capture_default_str();
-  sub.add_option("--cache", o->cache_dir, "sphere cache folder (default as for the sphere command)");
-  sub.add_flag("--no-cache", o->no_cache, "neither read nor write the sphere cache");
+  add_sphere_cache_options(sub, o->cache);
   sub.add_flag("-q,--quiet", o->quiet, "no progress on stderr");
   sub.footer(
       "Without arguments: the shipped nickel-base pair (gamma-prime Ni3Al in gamma) at 20 kV.\n"

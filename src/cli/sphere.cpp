@@ -17,8 +17,9 @@ namespace orderband::cli {
 namespace {
 
 struct SphereOptions {
-  std::string cif, output, cache_dir;
-  bool no_cache = false, quiet = false;
+  std::string cif, output;
+  SphereCacheOptions cache;
+  bool quiet = false;
   int threads = 0;
   double mean_depth_nm = 10;
   DynamicalSphereSpec spec;
@@ -52,8 +53,7 @@ void register_options(CLI::App& sub, SphereOptions& o) {
   sub.add_option("--mean-depth-nm", o.mean_depth_nm, "mean depth of the backscattering events (nm), in (0, 1000]")
       ->check(finite_within(0, 1000, true, false))
       ->capture_default_str();
-  sub.add_option("--cache", o.cache_dir, "cache folder (default $XDG_CACHE_HOME/orderband/spheres or ~/.cache/...)");
-  sub.add_flag("--no-cache", o.no_cache, "neither read nor write the cache");
+  add_sphere_cache_options(sub, o.cache);
   sub.add_flag("-q,--quiet", o.quiet, "no progress on stderr");
   add_threads_option(sub, o.threads);
   sub.footer(
@@ -75,7 +75,7 @@ std::function<int()> setup_sphere(CLI::App& sub) {
     apply_threads(o->threads);
     o->spec.depth.mean_depth_A = 10 * o->mean_depth_nm;
     const Phase phase = load_phase_cif(o->cif);
-    const std::string folder = o->no_cache ? "" : o->cache_dir.empty() ? default_sphere_cache_folder() : o->cache_dir;
+    const std::string folder = o->cache.folder();
     const auto start = std::chrono::steady_clock::now();
     const SphereProvenance provenance{kVersion, command_line(), o->cif};
     bool cached = false;

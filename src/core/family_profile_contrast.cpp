@@ -40,20 +40,29 @@ std::vector<double> sphere_band_profile(const SphereMap& sphere, const std::vect
   if (!(mean > 0)) fail("band profile: the sphere has no intensity");
   // Samples along each small circle half a pixel apart.
   const int samples = static_cast<int>(std::ceil(4 * M_PI / sphere.grid.resolution_rad()));
+  // Per normal, the unit vectors of its great circle; a small circle at offset α is cos α times
+  // those plus sin α times the normal.
+  std::vector<std::vector<Eigen::Vector3d>> circles;
+  for (const Eigen::Vector3d& n : normals) {
+    const Eigen::Vector3d e1 = n.unitOrthogonal(), e2 = n.cross(e1);
+    std::vector<Eigen::Vector3d>& c = circles.emplace_back(samples);
+    for (int k = 0; k < samples; ++k) {
+      const double phi = 2 * M_PI * k / samples;
+      c[k] = std::cos(phi) * e1 + std::sin(phi) * e2;
+    }
+  }
   const int nb = bins.bins();
   std::vector<double> profile(nb, 0.0);
   for (int b = 0; b < nb; ++b) {
     const double alpha = std::clamp(bins.centre(b) * bragg_rad, -M_PI / 2, M_PI / 2);
     double sum = 0;
-    for (const Eigen::Vector3d& n : normals) {
-      const Eigen::Vector3d e1 = n.unitOrthogonal(), e2 = n.cross(e1);
-      for (int k = 0; k < samples; ++k) {
-        const double phi = 2 * M_PI * k / samples;
-        const Eigen::Vector3d x = std::cos(alpha) * (std::cos(phi) * e1 + std::sin(phi) * e2) + std::sin(alpha) * n;
+    for (size_t i = 0; i < normals.size(); ++i) {
+      for (const Eigen::Vector3d& on_circle : circles[i]) {
+        const Eigen::Vector3d x = std::cos(alpha) * on_circle + std::sin(alpha) * normals[i];
         long pixel[4];
         double weight[4];
         sphere.grid.interpolation(x, pixel, weight);
-        for (int i = 0; i < 4; ++i) sum += weight[i] * sphere.value(pixel[i]);
+        for (int q = 0; q < 4; ++q) sum += weight[q] * sphere.value(pixel[q]);
       }
     }
     profile[b] = sum / (static_cast<double>(samples) * static_cast<double>(normals.size())) / mean - 1;
