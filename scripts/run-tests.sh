@@ -3,7 +3,8 @@
 #   bash scripts/run-tests.sh             release build in build/
 #   bash scripts/run-tests.sh --sanitize  AddressSanitizer + UndefinedBehaviorSanitizer build in build-sanitize/,
 #                                         with clang and every warning an error (its compile database
-#                                         serves scripts/run-tidy.sh)
+#                                         serves scripts/run-tidy.sh; the parsers' fuzz targets are built
+#                                         in it too, for scripts/run-fuzz.sh 1 build-sanitize)
 set -euo pipefail
 cd "$(dirname "$0")/.."
 bash scripts/install-deps.sh
@@ -25,7 +26,8 @@ if [ "${1:-}" = "--sanitize" ]; then
   ctest_args=(-E "TheLibraryScreensAsTheCommandLineDoes|ReportLoadsInAHeadlessBrowser|OrientationTableNamesThePhaseTheFractionShows|SameResultsWithOneAndTwoThreads|CobaltAndB2PairsFromTheirCifFilesAlone|ClassifiesWhereTheModelsWeightsAreWrong|AreaFractionWhereTheOrderedFundamentalsAreWeaker|ReferenceRegionsSetTheEndMembers|SubResolutionTertiaryFraction|LowCountsWithNeighbourAveraging|NoOrientationBiasPureGammaGrainsAndAPrimaryParticle|OrientScan.GrainsMatchTheTruth|OrientationsFromTheRowAboveAgreeWithIndexingEveryPoint|CsvRoundTripsExactlyAndReadOrientationsAreRefined|MapSizes|HoldsOnRendererVariantsItIsNotTold|HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBroke|OnePhaseIsReportedAsOnePhase|HoldsOnManyBeamPatterns|DynamicalProfilesOfBothPhasesFromTheSphereCache|ManyBeamReferenceOnManyBeamPatterns")
   build_dir=build-sanitize
   cmake_args=(-DCMAKE_BUILD_TYPE=RelWithDebInfo -DORDERBAND_SANITIZE=ON -DORDERBAND_BUILD_BENCH=OFF
-    -DORDERBAND_WERROR=ON -DCMAKE_EXPORT_COMPILE_COMMANDS=ON -DCMAKE_C_COMPILER=clang -DCMAKE_CXX_COMPILER=clang++)
+    -DORDERBAND_WERROR=ON -DORDERBAND_FUZZ=ON -DCMAKE_EXPORT_COMPILE_COMMANDS=ON -DCMAKE_C_COMPILER=clang
+    -DCMAKE_CXX_COMPILER=clang++)
   export ASAN_OPTIONS=detect_leaks=1:abort_on_error=1
   export UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
 fi

@@ -31,5 +31,27 @@ TEST(MapWarnings, SayWhenTheResultsRestOnFewPoints) {
   EXPECT_NE(map_warnings(learned)[0].find("tertiary"), std::string::npos);
 }
 
+TEST(MapWarnings, DoubtAboutOnePhaseFromTheLearnedEstimator) {
+  // One phase reported from 576 points (a 24 × 24 map, where a quarter of ordered area was missed
+  // on 48 × 48 px patterns): a warning with the count; from 1,600 points with no structure: none;
+  // with structure above the learner's threshold (z 5) that it could not place: a warning with z.
+  MapResults r = results_with(576, 576, 576);
+  r.fraction.estimator = "learned";
+  r.fraction.two_phases = false;
+  r.fraction.learned_spatial_z = 2.0;
+  std::vector<std::string> w = map_warnings(r);
+  ASSERT_EQ(w.size(), 2u);
+  EXPECT_NE(w[1].find("one phase from 576 points"), std::string::npos) << w[1];
+  MapResults large = results_with(1600, 1600, 1600);
+  large.fraction.estimator = "learned";
+  large.fraction.two_phases = false;
+  large.fraction.learned_spatial_z = 2.0;
+  EXPECT_EQ(map_warnings(large).size(), 1u);
+  large.fraction.learned_spatial_z = 5.86;
+  w = map_warnings(large);
+  ASSERT_EQ(w.size(), 2u);
+  EXPECT_NE(w[1].find("spatial structure (z = 5.9)"), std::string::npos) << w[1];
+}
+
 }  // namespace
 }  // namespace orderband

@@ -10,6 +10,7 @@
 #include "orderband/end_member_mixture.hpp"
 #include "orderband/error.hpp"
 #include "orderband/ordered_fraction.hpp"
+#include "orderband/spatial_evidence.hpp"
 
 namespace orderband {
 namespace {
@@ -121,18 +122,23 @@ GrainFeatures grain_features(const LearnedInputs& in) {
   return gf;
 }
 
-std::vector<double> spatial_direction_scores(const LearnedInputs& in, const GrainFeatures& gf) {
+namespace {
+
+/// The leading eigenvector of the symmetrised lag-one cross-covariance of the noise-scaled
+/// features (see spatial_direction_scores), from the neighbour pairs of one fold (`fold` < 0: all
+/// pairs), already multiplied by the noise scaling; empty if too few pairs.
+Eigen::VectorXd spatial_direction(const LearnedInputs& in, const GrainFeatures& gf, int fold) {
   const size_t p = in.features, n = in.points;
-  if (in.cols <= 0 || n == 0 || p == 0) return {};
   const size_t cols = static_cast<size_t>(in.cols);
+  auto in_fold = [&](size_t k) { return fold < 0 || in.fold[k] == fold; };
   // Neighbour pairs inside one grain, both learned from (right and lower neighbour).
   std::vector<std::pair<size_t, size_t>> pairs;
   for (size_t k = 0; k < n; ++k) {
-    if (!learns(in, k)) continue;
+    if (!learns(in, k) || !in_fold(k)) continue;
     const size_t right = k + 1, down = k + cols;
-    if ((k + 1) % cols != 0 && right < n && learns(in, right) && in.grain[right] == in.grain[k])
+    if ((k + 1) % cols != 0 && right < n && learns(in, right) && in_fold(right) && in.grain[right] == in.grain[k])
       pairs.emplace_back(k, right);
-    if (down < n && learns(in, down) && in.grain[down] == in.grain[k]) pairs.emplace_back(k, down);
+    if (down < n && learns(in, down) && in_fold(down) && in.grain[down] == in.grain[k]) pairs.emplace_back(k, down);
   }
   if (pairs.size() < 2 * p) return {};
   auto centred = [&](size_t k, size_t b) {
@@ -156,15 +162,80 @@ std::vector<double> spatial_direction_scores(const LearnedInputs& in, const Grai
   lag = 0.5 * (lag + lag.transpose()) / static_cast<double>(pairs.size());
   const Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(lag);
   if (eig.info() != Eigen::Success) return {};
-  const Eigen::VectorXd w = eig.eigenvectors().col(p - 1).cwiseProduct(scale);
-  std::vector<double> score(n, std::nan(""));
-  for (size_t k = 0; k < n; ++k) {
-    if (!measured(in, k)) continue;
+  return eig.eigenvectors().col(p - 1).cwiseProduct(scale);
+}
+
+/// Writes the score along `w` (grain means removed) of every measured point of `fold` (< 0: all).
+void score_along(const LearnedInputs& in, const GrainFeatures& gf, const Eigen::VectorXd& w, int fold,
+                 std::vector<double>& score) {
+  const size_t p = in.features;
+  for (size_t k = 0; k < in.points; ++k) {
+    if (!measured(in, k) || (fold >= 0 && in.fold[k] != fold)) continue;
     double t = 0;
-    for (size_t b = 0; b < p; ++b) t += w[b] * centred(k, b);
+    for (size_t b = 0; b < p; ++b)
+      if (const float v = in.x[k * p + b]; !std::isnan(v)) t += w[b] * (v - gf.mean[in.grain[k]][b]);
     score[k] = t;
   }
+}
+
+/// The spatial direction cross-fitted: each fold's points scored along the direction learned from
+/// the other fold's pairs, so that no point's own noise shapes the direction it is tested along
+/// (the eigenvector of one fold's lag covariance would otherwise find lag correlation in pure
+/// noise). Empty if either fold has too few pairs.
+std::vector<double> cross_fitted_spatial_scores(const LearnedInputs& in, const GrainFeatures& gf) {
+  if (in.cols <= 0 || in.points == 0 || in.features == 0) return {};
+  std::vector<double> score(in.points, std::nan(""));
+  for (int fold = 0; fold < 2; ++fold) {
+    const Eigen::VectorXd w = spatial_direction(in, gf, 1 - fold);
+    if (w.size() == 0) return {};
+    score_along(in, gf, w, fold, score);
+  }
   return score;
+}
+
+/// Whether another grain lies within the beam's reach of point k: its pattern may then hold that
+/// grain's lattice, which fades with the distance from the boundary and would read as structure.
+bool near_other_grain(const LearnedInputs& in, size_t k) {
+  const long cols = in.cols, rows = static_cast<long>(in.points) / cols;
+  const long r = static_cast<long>(k) / cols, c = static_cast<long>(k) % cols;
+  for (long i = std::max(0L, r - in.reach_rows); i <= std::min(rows - 1, r + in.reach_rows); ++i)
+    for (long j = std::max(0L, c - in.reach_cols); j <= std::min(cols - 1, c + in.reach_cols); ++j)
+      if (const int g = in.grain[static_cast<size_t>(i * cols + j)]; g > 0 && g != in.grain[k]) return true;
+  return false;
+}
+
+/// The lag evidence of `v` over the points the learning uses that no other grain reaches, grain by
+/// grain (spatial_evidence), with pairs inside one fold when `folds` is set.
+SpatialEvidence structure_of(const LearnedInputs& in, const std::vector<double>& v, bool folds) {
+  SpatialEvidenceInputs se;
+  se.cols = in.cols, se.regions = in.grains, se.value = v;
+  se.region.assign(in.points, 0);
+  for (size_t k = 0; k < in.points; ++k)
+    if (learns(in, k) && !near_other_grain(in, k)) se.region[k] = in.grain[k];
+  if (folds) se.fold = in.fold;
+  return spatial_evidence(se);
+}
+
+}  // namespace
+
+std::vector<double> spatial_direction_scores(const LearnedInputs& in, const GrainFeatures& gf) {
+  if (in.cols <= 0 || in.points == 0 || in.features == 0) return {};
+  const Eigen::VectorXd w = spatial_direction(in, gf, -1);
+  if (w.size() == 0) return {};
+  std::vector<double> score(in.points, std::nan(""));
+  score_along(in, gf, w, -1, score);
+  return score;
+}
+
+SpatialEvidence scan_structure(const LearnedInputs& in, const GrainFeatures& gf) {
+  if (in.cols <= 0) return {std::vector<double>(in.grains + 1, 0.0), 0.0, std::vector<size_t>(in.grains + 1, 0)};
+  SpatialEvidence out = structure_of(in, in.first_guess, false);
+  if (const std::vector<double> cross = cross_fitted_spatial_scores(in, gf); !cross.empty()) {
+    const SpatialEvidence data = structure_of(in, cross, true);
+    for (int g = 1; g <= in.grains; ++g) out.z[g] = std::max(out.z[g], data.z[g]);
+    out.pooled = std::max(out.pooled, data.pooled);
+  }
+  return out;
 }
 
 namespace {
@@ -616,7 +687,7 @@ std::vector<double> neighbourhood_means(const LearnedInputs& in, const std::vect
 }
 
 FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const std::vector<double>& guess,
-                       const LearnedSpec& spec) {
+                       const SpatialEvidence& structure, const LearnedSpec& spec) {
   const int G = in.grains;
   std::vector<std::vector<double>> per_grain(G + 1), smooth_per_grain(G + 1);
   std::vector<double> pooled;
@@ -633,16 +704,22 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   for (int g = 1; g <= G; ++g) {
     double evidence = 0;
     std::array<EndMember, 2> mix = components(per_grain[g], evidence);
-    if (evidence < spec.min_evidence) {
-      // Point by point too faint: decided on the neighbourhood means; their matrix component
-      // keeps the matrix's mean (a matrix point's neighbours are matrix), the cut above it is set
-      // below from the grains that show two components point by point.
+    auto both_held = [](const std::array<EndMember, 2>& m) {
+      return m[0].weight >= kMinComponentShare && m[1].weight >= kMinComponentShare;
+    };
+    bool shown = evidence >= spec.min_evidence;
+    if (!shown) {
+      // Point by point too faint: decided on the neighbourhood means, or on the map's structure
+      // where even they show one component (few points, d′ ≈ 2 between pure points); the
+      // neighbourhood means' matrix component keeps the matrix's mean (a matrix point's neighbours
+      // are matrix), the cut above it is set below from the grains that show two components point
+      // by point.
       mix = components(smooth_per_grain[g], evidence);
-      faint[g] = evidence >= spec.min_evidence;
+      shown = (evidence >= spec.min_evidence || structure.z[g] >= spec.min_spatial_z) && both_held(mix);
+      faint[g] = shown;
       faint_matrix[g] = mix[0].mean, faint_ordered[g] = mix[1].mean;
     }
-    two_phase[g] =
-        evidence >= spec.min_evidence && mix[0].weight >= kMinComponentShare && mix[1].weight >= kMinComponentShare;
+    two_phase[g] = shown && both_held(mix);
     one_phase[g] = !two_phase[g] && !per_grain[g].empty();
     if (two_phase[g] && !faint[g])
       cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]),
@@ -750,7 +827,9 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   // pull the direction toward their own signature).
   const std::vector<double> guess =
       spec.spatial_start ? guess_along_spatial_direction(in, gf, spatial_direction_scores(in, gf)) : in.first_guess;
-  const FirstSplit split = first_split(in, gf, guess, spec);
+  const SpatialEvidence structure = scan_structure(in, gf);
+  out.spatial_z = structure.pooled;
+  const FirstSplit split = first_split(in, gf, guess, structure, spec);
   std::vector<uint8_t> label = split.label;
   std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
   std::vector<double> difference;
@@ -768,8 +847,8 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   const std::array<EndMember, 2>& mix = best.mix;
   out.scale = best.beta;
   out.separation = component_separation(mix);
-  out.two_phases = out.evidence >= spec.min_evidence && mix[1].weight >= spec.min_second_weight &&
-                   mix[0].weight >= spec.min_second_weight;
+  out.two_phases = (out.evidence >= spec.min_evidence || out.spatial_z >= spec.min_spatial_z) &&
+                   mix[1].weight >= spec.min_second_weight && mix[0].weight >= spec.min_second_weight;
   if (!out.two_phases) {
     report_one_phase(in, gf, out);
     return out;

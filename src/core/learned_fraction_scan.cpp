@@ -291,6 +291,7 @@ void take_learned(const LearnedFraction& lf, FractionResults& res) {
   res.single_phase_ordered = lf.single_phase_ordered;
   res.learned_separation = lf.separation;
   res.learned_evidence = lf.evidence;
+  res.learned_spatial_z = lf.spatial_z;
   res.learned_iterations = lf.iterations_run;
   end_members_either_side_of_half(res);
 }

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <cstdio>
 
 #include "orderband/laue_group.hpp"
 #include "orderband/units.hpp"
@@ -73,6 +74,20 @@ std::vector<std::string> map_warnings(const MapResults& r) {
         "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "
         "counted as matrix, not measured (reference regions in [fraction] set the zero from an area known to be "
         "free of ordering)");
+  if (r.fraction.estimator == "learned" && !r.fraction.two_phases) {
+    char z[32];
+    std::snprintf(z, sizeof z, "%.1f", r.fraction.learned_spatial_z);
+    if (r.fraction.learned_spatial_z >= LearnedSpec{}.min_spatial_z)
+      w.push_back(std::string("the learned estimator reports one phase, but the map shows spatial structure (z = ") +
+                  z +
+                  ") that it could not place: the single-phase result is doubtful; compare with --estimator "
+                  "model or set reference regions in [fraction]");
+    else if (measured < kLearnedOnePhaseMinPoints)
+      w.push_back("the learned estimator reports one phase from " + std::to_string(measured) + " points: below about " +
+                  std::to_string(kLearnedOnePhaseMinPoints) +
+                  " it can miss a second phase of a quarter of the area (measured on 48 × 48 px patterns); compare "
+                  "with --estimator model or map a larger field");
+  }
   return w;
 }
 

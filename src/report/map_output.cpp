@@ -578,6 +578,7 @@ void add_fraction_summary(nlohmann::json& j, const ScanConfig& config, const Map
         {"single_phase", r.fraction.two_phases ? "" : (r.fraction.single_phase_ordered ? "ordered" : "disordered")},
         {"component_separation_dprime", r.fraction.learned_separation},
         {"second_component_delta_bic", r.fraction.learned_evidence},
+        {"spatial_structure_z", r.fraction.learned_spatial_z},
         {"iterations", r.fraction.learned_iterations}};
 }
 

@@ -6,6 +6,8 @@
 #include <cstdint>
 #include <vector>
 
+#include "orderband/spatial_evidence.hpp"
+
 namespace orderband {
 
 /// What the learner sees of one scan. Per point k (n points), `grain[k]` (0: not measured), the
@@ -55,6 +57,12 @@ struct LearnedSpec {
   int min_class_points = 8;          ///< per grain and class, to enter the learned difference
   int min_grain_points = 30;         ///< points away from its boundaries a grain needs to be placed
   bool spatial_start = true;         ///< start from the scan's own direction of ordering (spatial_direction)
+  /// Lag-one z (scan_structure) from which a grain, or the scan, holds a second phase even where
+  /// the scores' distribution shows no second component: particles of a few steps make
+  /// neighbouring points alike, noise does not. 5 is about 3 × 10⁻⁷ one-sided for a standard
+  /// normal variable, so the two statistics tried and the grains of a scan leave a pure phase's
+  /// false alarms rare.
+  double min_spatial_z = 5.0;
 };
 
 /// The scan's own direction of ordering, learned without the model: noise is independent from
@@ -66,6 +74,15 @@ struct LearnedSpec {
 /// measured), its sign free; empty if no neighbours are known.
 std::vector<double> spatial_direction_scores(const LearnedInputs& in, const GrainFeatures& gf);
 
+/// Whether the scan holds spatial structure, grain by grain and pooled: the larger lag-one z
+/// (spatial_evidence, the grains' planes removed) of two scores whose direction no tested point's
+/// noise shaped: the model's first guess (a fixed projection) and the spatial direction
+/// cross-fitted over the two folds (each fold's points along the direction learned from the other
+/// fold's pairs, pairs inside one fold; left out when a fold has fewer pairs than twice the
+/// features). A pure phase gives z of about ±1 whatever the model's intensities; particles spanning
+/// a few points give z ∝ √pairs, also where one point alone separates the phases at d′ ≈ 2.
+SpatialEvidence scan_structure(const LearnedInputs& in, const GrainFeatures& gf);
+
 struct LearnedFraction {
   std::vector<float> f;            ///< per point, unclipped (NaN where not measured)
   std::vector<float> uncertainty;  ///< per point, standard error
@@ -73,6 +90,7 @@ struct LearnedFraction {
   bool single_phase_ordered = false;
   double separation = 0;           ///< component distance over the majority component's spread (cross-fitted scores)
   double evidence = 0;             ///< ΔBIC of two components over one (cross-fitted scores)
+  double spatial_z = 0;            ///< pooled lag-one z of the scan's structure (scan_structure)
   double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
   int iterations_run = 0;          ///< the round whose result is kept (1-based)
@@ -84,7 +102,8 @@ struct LearnedFraction {
 /// decides whether the scan holds one phase or two. Steps:
 ///  1. first split along the scan's own direction of ordering (spatial_direction_scores, its sign
 ///     from the ordering signature): a grain whose points, or failing that their 3 × 3
-///     neighbourhood means, hold two components (ΔBIC ≥ min_evidence) is split between them; a
+///     neighbourhood means, hold two components (ΔBIC ≥ min_evidence), or whose map shows
+///     structure (scan_structure, z ≥ min_spatial_z), is split between them; a
 ///     grain of one component holds one phase alone,
 ///     which one decided against the grains of two components (the model moves their matrix to
 ///     the grain's orientation, the data give the ordering difference); without such grains, by
@@ -97,8 +116,10 @@ struct LearnedFraction {
 ///     mixture of the anchored scores pooled over grains, then zeros and scale refined jointly by
 ///     EM; with more than one iteration, split again at 0.5 and repeat, keeping the round with the
 ///     strongest evidence for two components;
-///  4. one phase when the evidence for a second component (ΔBIC of two Gaussians + uniform over
-///     one) is below min_evidence; which phase from the grains' levels with the data's band scale.
+///  4. one phase when neither the scores' distribution (ΔBIC of two Gaussians + uniform over one,
+///     at least min_evidence) nor the map's structure (scan_structure, pooled z at least
+///     min_spatial_z) shows a second phase; which phase from the grains' levels with the data's
+///     band scale.
 /// The disordered end member is the matrix: ordering finer than the beam inside the matrix
 /// (tertiary) is not separable from it by the data alone and is counted as disordered.
 LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec = {});

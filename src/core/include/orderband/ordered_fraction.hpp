@@ -123,6 +123,7 @@ struct FractionResults {
   bool single_phase_ordered = false;  ///< learned, one phase: it is the ordered one
   double learned_separation = 0;      ///< learned: component distance over the majority one's spread
   double learned_evidence = 0;        ///< learned: ΔBIC of two components over one
+  double learned_spatial_z = 0;       ///< learned: lag-one z of the map's structure (scan_structure)
   int learned_iterations = 0;
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
