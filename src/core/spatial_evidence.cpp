@@ -14,8 +14,10 @@ namespace {
 
 bool usable(const SpatialEvidenceInputs& in, size_t k) { return in.region[k] > 0 && !std::isnan(in.value[k]); }
 
+/// The plane's basis at point k: 1, its row and its column.
 Eigen::Vector3d basis(size_t k, size_t cols) {
-  return {1.0, static_cast<double>(k / cols), static_cast<double>(k % cols)};
+  const size_t row = k / cols, col = k % cols;
+  return {1.0, static_cast<double>(row), static_cast<double>(col)};
 }
 
 /// Per region its least-squares plane a + b·row + c·col, and the inverse of its normal matrix
