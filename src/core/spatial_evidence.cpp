@@ -57,8 +57,7 @@ std::vector<double> detrended(const SpatialEvidenceInputs& in, const Planes& pl,
   const size_t n = in.value.size(), cols = static_cast<size_t>(in.cols);
   std::vector<double> e(n, std::nan(""));
   for (size_t k = 0; k < n; ++k)
-    if (usable(in, k) && pl.fitted[in.region[k]])
-      e[k] = value[k] - pl.coefficients[in.region[k]].dot(basis(k, cols));
+    if (usable(in, k) && pl.fitted[in.region[k]]) e[k] = value[k] - pl.coefficients[in.region[k]].dot(basis(k, cols));
   return e;
 }
 

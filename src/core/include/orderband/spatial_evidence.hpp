@@ -13,9 +13,9 @@ namespace orderband {
 /// score whose direction was learned on the other fold is tested on noise that did not shape it).
 struct SpatialEvidenceInputs {
   int cols = 0;
-  std::vector<double> value;   ///< per point; NaN: left out
-  std::vector<int> region;     ///< per point, 1..regions; 0: left out
-  std::vector<uint8_t> fold;   ///< per point; empty: one fold
+  std::vector<double> value;  ///< per point; NaN: left out
+  std::vector<int> region;    ///< per point, 1..regions; 0: left out
+  std::vector<uint8_t> fold;  ///< per point; empty: one fold
   int regions = 0;
 };
 
