@@ -204,14 +204,21 @@ bool near_other_grain(const LearnedInputs& in, size_t k) {
   return false;
 }
 
-/// The lag evidence of `v` over the points the learning uses that no other grain reaches, grain by
-/// grain (spatial_evidence), with pairs inside one fold when `folds` is set.
-SpatialEvidence structure_of(const LearnedInputs& in, const std::vector<double>& v, bool folds) {
-  SpatialEvidenceInputs se;
-  se.cols = in.cols, se.regions = in.grains, se.value = v;
-  se.region.assign(in.points, 0);
+/// Per point its grain where the learning uses it and no other grain reaches it, else 0: the
+/// regions the structure is tested over.
+std::vector<int> structure_regions(const LearnedInputs& in) {
+  std::vector<int> region(in.points, 0);
   for (size_t k = 0; k < in.points; ++k)
-    if (learns(in, k) && !near_other_grain(in, k)) se.region[k] = in.grain[k];
+    if (learns(in, k) && !near_other_grain(in, k)) region[k] = in.grain[k];
+  return region;
+}
+
+/// The lag evidence of `v` over `region`, grain by grain (spatial_evidence), with pairs inside one
+/// fold when `folds` is set.
+SpatialEvidence structure_of(const LearnedInputs& in, const std::vector<int>& region, const std::vector<double>& v,
+                             bool folds) {
+  SpatialEvidenceInputs se;
+  se.cols = in.cols, se.regions = in.grains, se.value = v, se.region = region;
   if (folds) se.fold = in.fold;
   return spatial_evidence(se);
 }
@@ -229,9 +236,10 @@ std::vector<double> spatial_direction_scores(const LearnedInputs& in, const Grai
 
 SpatialEvidence scan_structure(const LearnedInputs& in, const GrainFeatures& gf) {
   if (in.cols <= 0) return {std::vector<double>(in.grains + 1, 0.0), 0.0, std::vector<size_t>(in.grains + 1, 0)};
-  SpatialEvidence out = structure_of(in, in.first_guess, false);
+  const std::vector<int> region = structure_regions(in);
+  SpatialEvidence out = structure_of(in, region, in.first_guess, false);
   if (const std::vector<double> cross = cross_fitted_spatial_scores(in, gf); !cross.empty()) {
-    const SpatialEvidence data = structure_of(in, cross, true);
+    const SpatialEvidence data = structure_of(in, region, cross, true);
     for (int g = 1; g <= in.grains; ++g) out.z[g] = std::max(out.z[g], data.z[g]);
     out.pooled = std::max(out.pooled, data.pooled);
   }
@@ -704,9 +712,6 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   for (int g = 1; g <= G; ++g) {
     double evidence = 0;
     std::array<EndMember, 2> mix = components(per_grain[g], evidence);
-    auto both_held = [](const std::array<EndMember, 2>& m) {
-      return m[0].weight >= kMinComponentShare && m[1].weight >= kMinComponentShare;
-    };
     bool shown = evidence >= spec.min_evidence;
     if (!shown) {
       // Point by point too faint: decided on the neighbourhood means, or on the map's structure
@@ -715,11 +720,11 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       // are matrix), the cut above it is set below from the grains that show two components point
       // by point.
       mix = components(smooth_per_grain[g], evidence);
-      shown = (evidence >= spec.min_evidence || structure.z[g] >= spec.min_spatial_z) && both_held(mix);
+      shown = evidence >= spec.min_evidence || structure.z[g] >= spec.min_spatial_z;
       faint[g] = shown;
       faint_matrix[g] = mix[0].mean, faint_ordered[g] = mix[1].mean;
     }
-    two_phase[g] = shown && both_held(mix);
+    two_phase[g] = shown && mix[0].weight >= kMinComponentShare && mix[1].weight >= kMinComponentShare;
     one_phase[g] = !two_phase[g] && !per_grain[g].empty();
     if (two_phase[g] && !faint[g])
       cut[g] = 0.5 * (mix[0].mean + mix[1].mean), two_cuts.push_back(cut[g]),
