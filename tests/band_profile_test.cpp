@@ -184,6 +184,54 @@ TEST(BandProfile, FixedOrientationGivesTheSameSumsAsAnyOrientation) {
   EXPECT_GE(same_pixels, 0.98 * bins);
 }
 
+TEST(BandProfile, FoldedBinsPoolBothSidesOfEachPlane) {
+  // Folded, bin k over |u| holds the pixels of the two unfolded bins at ±u: the sums, weights and
+  // counts of the mirrored pair, at 10 random orientations of noisy patterns. A pixel may land one
+  // bin off where the offset's rounding moves it across a bin edge (the unfolded index is u/bin +
+  // u_max/bin in single precision): counts must agree in at least 99 % of the bins, and the total
+  // over all bins exactly.
+  const DetectorGeometry geo = detector();
+  const DetectorRays rays(geo);
+  const std::vector<ProfileFamily> families = {
+      {"{111}",
+       {Eigen::Vector3d(1, 1, 1), Eigen::Vector3d(1, 1, -1), Eigen::Vector3d(1, -1, 1), Eigen::Vector3d(-1, 1, 1)},
+       deg_to_rad(1.2)},
+      {"{220}",
+       {Eigen::Vector3d(1, 1, 0), Eigen::Vector3d(1, -1, 0), Eigen::Vector3d(1, 0, 1), Eigen::Vector3d(1, 0, -1),
+        Eigen::Vector3d(0, 1, 1), Eigen::Vector3d(0, 1, -1)},
+       deg_to_rad(2.0)}};
+  const BandProfiler two_sided(families, ProfileSpec{2.5, 0.25, false});
+  const BandProfiler folded(families, ProfileSpec{2.5, 0.25, true});
+  ASSERT_EQ(two_sided.bins(), 20);
+  ASSERT_EQ(folded.bins(), 10);
+  EXPECT_DOUBLE_EQ(folded.bin_centre_u(0), 0.125);
+  EXPECT_DOUBLE_EQ(folded.bin_centre_u(9), 2.375);
+  std::mt19937 rng(5);
+  std::normal_distribution<float> noise(1, 0.3);
+  std::vector<float> pattern(80 * 80);
+  int bins = 0, same = 0;
+  for (const Rotation& g : random_rotations(10, 12)) {
+    for (float& v : pattern) v = noise(rng);
+    std::vector<FamilyProfile> a, b;
+    two_sided.profile(pattern.data(), {}, rays, g, a);
+    folded.profile(pattern.data(), {}, rays, g, b);
+    for (size_t f = 0; f < families.size(); ++f) {
+      int total_a = 0, total_b = 0;
+      for (int k = 0; k < folded.bins(); ++k) {
+        const int hi = 10 + k, lo = 9 - k;
+        const int pooled = a[f].count[hi] + a[f].count[lo];
+        total_a += pooled, total_b += b[f].count[k], ++bins;
+        if (pooled != b[f].count[k]) continue;
+        ++same;
+        EXPECT_NEAR(b[f].weight[k], a[f].weight[hi] + a[f].weight[lo], 1e-12 * (1 + b[f].weight[k]));
+        EXPECT_NEAR(b[f].sum[k], a[f].sum[hi] + a[f].sum[lo], 1e-9 * (1 + std::abs(b[f].sum[k])));
+      }
+      EXPECT_EQ(total_a, total_b);
+    }
+  }
+  EXPECT_GE(same, 0.99 * bins);
+}
+
 TEST(BandProfile, WindowsSelectWholeBins) {
   const BandProfiler profiler({{"x", {Eigen::Vector3d(0, 0, 1)}, 0.02}}, ProfileSpec{2.5, 0.1});
   FamilyProfile p;

@@ -48,7 +48,7 @@ BandProfiler::BandProfiler(std::vector<ProfileFamily> families, const ProfileSpe
     : families_(std::move(families)), spec_(spec), cells_(cells) {
   if (!(spec.u_max > 0 && spec.bin_u > 0)) fail("profile range and bin width must be positive");
   if (cells < 4) fail("profile cube map needs at least 4 cells per face");
-  bins_ = static_cast<int>(std::lround(2 * spec.u_max / spec.bin_u));
+  bins_ = static_cast<int>(std::lround((spec.folded ? 1 : 2) * spec.u_max / spec.bin_u));
   for (size_t f = 0; f < families_.size(); ++f) {
     if (!(families_[f].theta_b > 0)) fail("family ", families_[f].label, " has no Bragg angle");
     for (const Eigen::Vector3d& n : families_[f].normals) {
@@ -114,7 +114,9 @@ void BandProfiler::for_each_strip_pixel(const std::vector<uint8_t>& mask, const 
                                         Hit&& hit) const {
   // Single precision for the geometry (errors ~1e-7 rad against bins of ~1e-3 rad).
   const Eigen::Matrix3f m = g.matrix().cast<float>();
-  const float scale = static_cast<float>(1.0 / spec_.bin_u), offset = static_cast<float>(spec_.u_max / spec_.bin_u);
+  const float scale = static_cast<float>(1.0 / spec_.bin_u);
+  const float offset = spec_.folded ? 0.0f : static_cast<float>(spec_.u_max / spec_.bin_u);
+  const bool folded = spec_.folded;
   const float half_cells = 0.5f * cells_;
   const int last = cells_ - 1;
   for (size_t q = 0; q < rays.direction.size(); ++q) {
@@ -138,7 +140,8 @@ void BandProfiler::for_each_strip_pixel(const std::vector<uint8_t>& mask, const 
       const uint16_t k = candidates_[e];
       const float x = nx_[k] * c.x() + ny_[k] * c.y() + nz_[k] * c.z();
       // |x| ≤ sin(u_max θ_B) ≲ 0.1 here: asin x = x + x³/6 + O(x⁵) (error < 1e-6 rad).
-      const float bf = (x + x * x * x * (1.0f / 6)) * inv_theta_[k] * scale + offset;
+      const float u = (x + x * x * x * (1.0f / 6)) * inv_theta_[k] * scale;
+      const float bf = (folded ? std::abs(u) : u) + offset;
       if (!(bf >= 0 && bf < bins_)) continue;
       hit(q, static_cast<size_t>(plane_family_[k]) * bins_ + static_cast<int>(bf));
     }

@@ -10,6 +10,7 @@
 #include "orderband/end_member_mixture.hpp"
 #include "orderband/error.hpp"
 #include "orderband/ordered_fraction.hpp"
+#include "orderband/patch_mixture.hpp"
 #include "orderband/spatial_evidence.hpp"
 
 namespace orderband {
@@ -542,6 +543,52 @@ Placement place_scores(const LearnedInputs& in, const std::vector<uint8_t>& labe
   return pl;
 }
 
+/// Places the scores by their patches (fit_patch_mixture): each grain's zero, the common scale and
+/// the noise from a two-class mixture whose labels follow their neighbours, started from the
+/// split's labels; grains of the ordered phase alone are anchored at 1 with that scale. For maps
+/// whose classes overlap point by point (d′ about 2 at 48 × 48 px) but span several points: the
+/// scores' own mixture then has no second mode, and its upper component falls on a stray. Writes f
+/// per point; false (nothing written) where the fit finds no upper class of at least
+/// kMinComponentShare of the points.
+bool place_by_patches(const LearnedInputs& in, const std::vector<uint8_t>& label,
+                      const std::vector<uint8_t>& ordered_alone, const std::vector<double>& score, Placement& pl,
+                      std::vector<double>& f) {
+  if (in.cols <= 0) return false;
+  const size_t n = in.points;
+  PatchMixtureInputs pm;
+  pm.cols = in.cols, pm.regions = in.grains;
+  pm.value.assign(n, std::nan("")), pm.region.assign(n, 0), pm.start_upper.assign(n, 0.0);
+  for (size_t k = 0; k < n; ++k) {
+    if (!learns(in, k) || std::isnan(score[k]) || ordered_alone[in.grain[k]]) continue;
+    pm.value[k] = score[k], pm.region[k] = in.grain[k], pm.start_upper[k] = label[k];
+  }
+  const PatchMixture fit = fit_patch_mixture(pm);
+  if (!(fit.scale > 0) || fit.upper_share < kMinComponentShare || fit.upper_share > 1 - kMinComponentShare)
+    return false;
+  std::vector<uint8_t> all(n, 1);
+  const std::vector<double> grain_t = grain_means(in, score, all);
+  std::vector<double> z = fit.zero;
+  for (int g = 1; g <= in.grains; ++g)
+    if (ordered_alone[g]) z[g] = grain_t[g] - fit.scale;
+  for (size_t k = 0; k < n; ++k) {
+    const int g = in.grain[k];
+    f[k] = measured(in, k) && !std::isnan(score[k]) && !std::isnan(z[g]) ? (score[k] - z[g]) / fit.scale : std::nan("");
+  }
+  pl.beta = fit.scale;
+  pl.mix[0] = {0.0, fit.sd, 1 - fit.upper_share};
+  pl.mix[1] = {fit.scale, fit.sd, fit.upper_share};
+  return true;
+}
+
+/// Whether both components of a placement hold at least spec.min_class_points of the scored points
+/// the learning uses: a component of fewer is a stray or two, not a phase.
+bool holds_both_components(const LearnedInputs& in, const std::vector<double>& score, const Placement& pl,
+                           const LearnedSpec& spec) {
+  double scored = 0;
+  for (size_t k = 0; k < in.points; ++k) scored += learns(in, k) && !std::isnan(score[k]);
+  return std::min(pl.mix[0].weight, pl.mix[1].weight) * scored >= spec.min_class_points;
+}
+
 /// The distance of the two components over the spread of the one that holds more points: the
 /// minority component can be broadened by the points that mix both phases under the beam (wide
 /// where the footprint is long) or be a few points of almost no spread, the majority one is set by
@@ -836,18 +883,26 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   out.spatial_z = structure.pooled;
   const FirstSplit split = first_split(in, gf, guess, structure, spec);
   std::vector<uint8_t> label = split.label;
-  std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f;
+  std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f, best_score;
+  std::vector<uint8_t> best_label;
   std::vector<double> difference;
   Placement pl, best;
   out.evidence = -HUGE_VAL;
   for (int it = 0; it < spec.iterations; ++it) {
     if (!cross_fitted_scores(in, label, gf, spec, score, difference)) break;
     pl = place_scores(in, label, split.ordered_grain, split.two_phase, score, f);
-    for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && !std::isnan(f[k]) && f[k] >= 0.5;
     const bool both = pl.mix[0].weight >= spec.min_second_weight && pl.mix[1].weight >= spec.min_second_weight;
     if (it == 0 || (both && pl.evidence > out.evidence))
-      out.evidence = pl.evidence, best = pl, best_f = f, out.difference = difference, out.iterations_run = it + 1;
+      out.evidence = pl.evidence, best = pl, best_f = f, best_score = score, best_label = label,
+      out.difference = difference, out.iterations_run = it + 1;
+    for (size_t k = 0; k < n; ++k) label[k] = measured(in, k) && !std::isnan(f[k]) && f[k] >= 0.5;
   }
+  // Where only the map's structure shows the second phase, the scores' own mixture has no second
+  // mode to place it by (no evidence, or a component of a few strays): the end members come from
+  // the patches.
+  if (!best_score.empty() && out.spatial_z >= spec.min_spatial_z &&
+      (out.evidence < spec.min_evidence || !holds_both_components(in, best_score, best, spec)))
+    out.placed_by_patches = place_by_patches(in, best_label, split.ordered_grain, best_score, best, best_f);
   // 4. Two phases only if the second component is there.
   const std::array<EndMember, 2>& mix = best.mix;
   out.scale = best.beta;

@@ -292,6 +292,7 @@ void take_learned(const LearnedFraction& lf, FractionResults& res) {
   res.learned_separation = lf.separation;
   res.learned_evidence = lf.evidence;
   res.learned_spatial_z = lf.spatial_z;
+  res.learned_placed_by_patches = lf.placed_by_patches;
   res.learned_iterations = lf.iterations_run;
   end_members_either_side_of_half(res);
 }

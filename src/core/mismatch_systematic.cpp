@@ -11,7 +11,7 @@ MismatchSystematic mismatch_systematic(const std::string& estimator) {
   const std::string how =
       "bench/mismatch_bench, 16 renderer variants (2 many-beam), 40 x 40 points, 60 x 60 px, 5,000 counts/px";
   if (estimator == "learned")
-    return {0.024, 0.051, 16, 12, how + " (orderband 0.3.0, 2026-12-03, with the many-beam variants)"};
+    return {0.023, 0.053, 16, 13, how + " (orderband 0.3.0, 2026-12-04, folded profile features)"};
   if (estimator == "profile")
     return {0.768, 2.243, 16, 5, how + " (orderband 0.3.0, 2026-12-03, with the many-beam variants)"};
   return {std::nan(""), std::nan(""), 0, 0, "not measured for this estimator"};

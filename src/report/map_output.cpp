@@ -172,7 +172,15 @@ std::vector<std::string> learned_response_charts(const MapResults& r) {
     SvgPlot p(420, 260, "ordering response " + f->label + (f->superlattice ? " (superlattice)" : " (fundamental)"),
               "offset from the plane / θ_B", "ordered − disordered (largest = 1)");
     p.line(f->profile_u, scaled(model), "#1f4fa8", "model (largest grain)", true);
-    p.line(f->learned_u, scaled(f->learned_difference), "#c0392b", "learned from the scan");
+    // Folded features (offsets ≥ 0, both sides of the band pooled) are drawn on both sides.
+    std::vector<double> u = f->learned_u, d = scaled(f->learned_difference);
+    if (!u.empty() && u.front() > 0) {
+      std::vector<double> mirrored_u, mirrored_d;
+      for (size_t b = u.size(); b-- > 0;) mirrored_u.push_back(-u[b]), mirrored_d.push_back(d[b]);
+      u.insert(u.begin(), mirrored_u.begin(), mirrored_u.end()),
+          d.insert(d.begin(), mirrored_d.begin(), mirrored_d.end());
+    }
+    p.line(u, d, "#c0392b", "learned from the scan");
     out.push_back(p.render());
   }
   return out;
@@ -579,6 +587,7 @@ void add_fraction_summary(nlohmann::json& j, const ScanConfig& config, const Map
         {"component_separation_dprime", r.fraction.learned_separation},
         {"second_component_delta_bic", r.fraction.learned_evidence},
         {"spatial_structure_z", r.fraction.learned_spatial_z},
+        {"end_members_from", r.fraction.learned_placed_by_patches ? "map patches" : "score distribution"},
         {"iterations", r.fraction.learned_iterations}};
 }
 
@@ -673,6 +682,7 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
             {"min_points_for_grain_fit", options.fraction.min_points_for_grain_fit},
             {"learned_profile_u_max", options.fraction.learned_profile.u_max},
             {"learned_profile_bin_u", options.fraction.learned_profile.bin_u},
+            {"learned_profile_folded", options.fraction.learned_profile.folded},
             {"learned_iterations", options.fraction.learned.iterations},
             {"learned_shrinkage", options.fraction.learned.shrinkage},
             {"learned_min_evidence", options.fraction.learned.min_evidence},

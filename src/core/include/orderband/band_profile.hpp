@@ -20,9 +20,13 @@ struct ProfileFamily {
 
 /// Profile sampling: α from −u_max·θ_B to +u_max·θ_B in bins of bin_u·θ_B
 /// (u = α/θ_B), so every family is sampled alike in units of its own band width.
+/// Folded, the bins run over |u| from 0 to u_max: the two sides of a band pool into one bin
+/// (half the bins, each with twice the pixels). A band's kinematic and dynamical profiles are
+/// even in u; what is odd (a tilt's excess on one edge and deficiency on the other) is averaged out.
 struct ProfileSpec {
   double u_max = 2.5;
   double bin_u = 0.1;
+  bool folded = false;
 };
 
 /// One family's profile: per α bin, the solid-angle-weighted sums over every
@@ -100,8 +104,8 @@ class BandProfiler {
   const std::vector<ProfileFamily>& families() const { return families_; }
   const ProfileSpec& spec() const { return spec_; }
   int bins() const { return bins_; }
-  /// Centre of bin k in units of θ_B.
-  double bin_centre_u(int k) const { return -spec_.u_max + (k + 0.5) * spec_.bin_u; }
+  /// Centre of bin k in units of θ_B (of |u| when folded).
+  double bin_centre_u(int k) const { return (spec_.folded ? 0.0 : -spec_.u_max) + (k + 0.5) * spec_.bin_u; }
 
   /// Profiles of one pattern (values per detector pixel, mask may be empty)
   /// at orientation g; `out` is resized to one profile per family.

@@ -88,9 +88,13 @@ struct LearnedFraction {
   std::vector<float> uncertainty;  ///< per point, standard error
   bool two_phases = false;         ///< a second component was found
   bool single_phase_ordered = false;
-  double separation = 0;           ///< component distance over the majority component's spread (cross-fitted scores)
-  double evidence = 0;             ///< ΔBIC of two components over one (cross-fitted scores)
-  double spatial_z = 0;            ///< pooled lag-one z of the scan's structure (scan_structure)
+  double separation = 0;  ///< component distance over the majority component's spread (cross-fitted scores)
+  double evidence = 0;    ///< ΔBIC of two components over one (cross-fitted scores)
+  double spatial_z = 0;   ///< pooled lag-one z of the scan's structure (scan_structure)
+  /// The end members came from the map's patches (fit_patch_mixture), not from the scores' mixture:
+  /// the second phase showed in the map's structure alone (evidence < min_evidence, spatial_z ≥
+  /// min_spatial_z).
+  bool placed_by_patches = false;
   double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
   int iterations_run = 0;          ///< the round whose result is kept (1-based)
@@ -115,7 +119,9 @@ struct LearnedFraction {
 ///     scale is the score of pure ordered points, the upper component of a Gaussian + uniform
 ///     mixture of the anchored scores pooled over grains, then zeros and scale refined jointly by
 ///     EM; with more than one iteration, split again at 0.5 and repeat, keeping the round with the
-///     strongest evidence for two components;
+///     strongest evidence for two components; where the map's structure shows a second phase but
+///     the scores' distribution does not (ΔBIC below min_evidence), zeros and scale come from the
+///     map's patches instead (fit_patch_mixture: neighbouring points tend to share their phase);
 ///  4. one phase when neither the scores' distribution (ΔBIC of two Gaussians + uniform over one,
 ///     at least min_evidence) nor the map's structure (scan_structure, pooled z at least
 ///     min_spatial_z) shows a second phase; which phase from the grains' levels with the data's

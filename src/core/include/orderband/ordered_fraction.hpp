@@ -65,7 +65,9 @@ struct FractionSpec {
   double d_min_A = 0.8;
   int fundamental_families = 4;  ///< strongest fundamental families used for the contrast normalisation
   ProfileSpec profile;
-  ProfileSpec learned_profile{2.5, 0.25};  ///< the learned estimator's features: coarser bins, fewer unknowns
+  /// The learned estimator's features: coarser bins and the two sides of each band pooled, fewer
+  /// unknowns (170 for 17 families) for the discriminant to learn from a scan's own points.
+  ProfileSpec learned_profile{2.5, 0.25, true};
   LearnedSpec learned;
   WindowSpec windows;
   EndMemberMode end_members = EndMemberMode::model;
@@ -118,12 +120,13 @@ struct GrainFraction {
 };
 
 struct FractionResults {
-  std::string estimator = "profile";  ///< "learned", "profile" or "windows"
-  bool two_phases = true;             ///< learned: a second component was found (false: one phase)
-  bool single_phase_ordered = false;  ///< learned, one phase: it is the ordered one
-  double learned_separation = 0;      ///< learned: component distance over the majority one's spread
-  double learned_evidence = 0;        ///< learned: ΔBIC of two components over one
-  double learned_spatial_z = 0;       ///< learned: lag-one z of the map's structure (scan_structure)
+  std::string estimator = "profile";       ///< "learned", "profile" or "windows"
+  bool two_phases = true;                  ///< learned: a second component was found (false: one phase)
+  bool single_phase_ordered = false;       ///< learned, one phase: it is the ordered one
+  double learned_separation = 0;           ///< learned: component distance over the majority one's spread
+  double learned_evidence = 0;             ///< learned: ΔBIC of two components over one
+  double learned_spatial_z = 0;            ///< learned: lag-one z of the map's structure (scan_structure)
+  bool learned_placed_by_patches = false;  ///< learned: end members from the map's patches (fit_patch_mixture)
   int learned_iterations = 0;
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
