@@ -815,6 +815,21 @@ void write_report_head(std::ostream& h, const ScanConfig& config, const MapResul
       << "</p>\n";
 }
 
+/// The learned estimator's verdict as a row of the report's table (empty for the other estimators):
+/// how many phases, on what evidence, and where the end members came from.
+std::string learned_verdict_row(const MapResults& r) {
+  if (r.fraction.estimator != "learned") return "";
+  const FractionResults& f = r.fraction;
+  std::string verdict = f.two_phases ? std::string("two phases")
+                                     : std::string("one phase, ") + (f.single_phase_ordered ? "ordered" : "disordered");
+  verdict += " (second component ΔBIC " + format_number("%.1f", f.learned_evidence) + ", map structure z " +
+             format_number("%.1f", f.learned_spatial_z) + ")";
+  if (f.two_phases)
+    verdict += f.learned_placed_by_patches ? "; end members from the map's patches: point by point the phases overlap"
+                                           : "; end members from the distribution of the scores";
+  return "<tr><td>learned estimator</td><td>" + xml_escape(verdict) + "</td></tr>";
+}
+
 /// The report's numbers: the area fraction with its intervals, the classes, the truth beside them.
 void write_report_results(std::ostream& h, const ScanConfig& config, const MapResults& r, const MapOptions& options,
                           const nlohmann::json& truth) {
@@ -829,8 +844,8 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
     << format_number("%.4f", r.fraction.subresolution_fraction) << " ± "
     << format_number("%.4f", r.fraction.subresolution_se)
     << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
-    << "</td></tr>"
-    << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
+    << "</td></tr>" << learned_verdict_row(r) << "<tr><td>points measured / total</td><td>" << r.fraction.measured()
+    << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   write_class_tables(h, r, config, options.classes);
   write_truth_table(h, truth, r);
