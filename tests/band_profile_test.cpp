@@ -129,6 +129,19 @@ std::vector<FamilyProfile> plain_profile(const std::vector<ProfileFamily>& famil
   return out;
 }
 
+/// Three cubic families with Bragg angles of the order of a nickel alloy's at 20 kV: {111}, {100}
+/// and {220}, unnormalised plane normals.
+std::vector<ProfileFamily> cubic_families() {
+  return {{"{111}",
+           {Eigen::Vector3d(1, 1, 1), Eigen::Vector3d(1, 1, -1), Eigen::Vector3d(1, -1, 1), Eigen::Vector3d(-1, 1, 1)},
+           deg_to_rad(1.2)},
+          {"{100}", {Eigen::Vector3d(1, 0, 0), Eigen::Vector3d(0, 1, 0), Eigen::Vector3d(0, 0, 1)}, deg_to_rad(0.7)},
+          {"{220}",
+           {Eigen::Vector3d(1, 1, 0), Eigen::Vector3d(1, -1, 0), Eigen::Vector3d(1, 0, 1), Eigen::Vector3d(1, 0, -1),
+            Eigen::Vector3d(0, 1, 1), Eigen::Vector3d(0, 1, -1)},
+           deg_to_rad(2.0)}};
+}
+
 TEST(BandProfile, FixedOrientationGivesTheSameSumsAsAnyOrientation) {
   // The plan of one orientation (the points of one grain) against the profiler that works at any
   // orientation: the same sums to the last bit, at 12 random orientations of noisy patterns inside
@@ -137,15 +150,7 @@ TEST(BandProfile, FixedOrientationGivesTheSameSumsAsAnyOrientation) {
   // (measured 36 of 3,920 bins over 80 patterns at 80 × 80 px in bench/profile_bench: under 1 %).
   const DetectorGeometry geo = detector();
   const DetectorRays rays(geo);
-  const std::vector<ProfileFamily> families = {
-      {"{111}",
-       {Eigen::Vector3d(1, 1, 1), Eigen::Vector3d(1, 1, -1), Eigen::Vector3d(1, -1, 1), Eigen::Vector3d(-1, 1, 1)},
-       deg_to_rad(1.2)},
-      {"{100}", {Eigen::Vector3d(1, 0, 0), Eigen::Vector3d(0, 1, 0), Eigen::Vector3d(0, 0, 1)}, deg_to_rad(0.7)},
-      {"{220}",
-       {Eigen::Vector3d(1, 1, 0), Eigen::Vector3d(1, -1, 0), Eigen::Vector3d(1, 0, 1), Eigen::Vector3d(1, 0, -1),
-        Eigen::Vector3d(0, 1, 1), Eigen::Vector3d(0, 1, -1)},
-       deg_to_rad(2.0)}};
+  const std::vector<ProfileFamily> families = cubic_families();
   const ProfileSpec spec;
   const BandProfiler profiler(families, spec);
   std::vector<uint8_t> circle(80 * 80);
@@ -192,14 +197,7 @@ TEST(BandProfile, FoldedBinsPoolBothSidesOfEachPlane) {
   // over all bins exactly.
   const DetectorGeometry geo = detector();
   const DetectorRays rays(geo);
-  const std::vector<ProfileFamily> families = {
-      {"{111}",
-       {Eigen::Vector3d(1, 1, 1), Eigen::Vector3d(1, 1, -1), Eigen::Vector3d(1, -1, 1), Eigen::Vector3d(-1, 1, 1)},
-       deg_to_rad(1.2)},
-      {"{220}",
-       {Eigen::Vector3d(1, 1, 0), Eigen::Vector3d(1, -1, 0), Eigen::Vector3d(1, 0, 1), Eigen::Vector3d(1, 0, -1),
-        Eigen::Vector3d(0, 1, 1), Eigen::Vector3d(0, 1, -1)},
-       deg_to_rad(2.0)}};
+  const std::vector<ProfileFamily> families = {cubic_families()[0], cubic_families()[2]};  // {111}, {220}
   const BandProfiler two_sided(families, ProfileSpec{2.5, 0.25, false});
   const BandProfiler folded(families, ProfileSpec{2.5, 0.25, true});
   ASSERT_EQ(two_sided.bins(), 20);

@@ -65,24 +65,26 @@ void mean_field_sweeps(const PatchMixtureInputs& in, const Neighbours& nb, const
     }
 }
 
-/// M step for the levels: zeros per region, the common scale (alternating, each the exact
-/// minimiser of the weighted squares given the other) and the common noise.
+/// M step for the levels: zeros per region, the common scale and the common noise minimise the
+/// weighted squares Σ (1 − q)(v − z)² + q (v − z − scale)². Given the scale each zero is
+/// z = (Σv − scale·Σq) / n over its region; put into the scale's equation this gives the scale in
+/// closed form: (Σ q v − Σ_r Σq_r Σv_r / n_r) / (Σ q − Σ_r (Σq_r)² / n_r).
 void fit_levels(const PatchMixtureInputs& in, const std::vector<double>& q, PatchMixture& fit) {
   const size_t n = q.size();
   std::vector<double> sum_v(in.regions + 1, 0.0), sum_q(in.regions + 1, 0.0), count(in.regions + 1, 0.0);
+  double sum_qv = 0, total_q = 0;
   for (size_t k = 0; k < n; ++k)
-    if (used(in, k)) sum_v[in.region[k]] += in.value[k], sum_q[in.region[k]] += q[k], count[in.region[k]] += 1;
-  for (int pass = 0; pass < 50; ++pass) {
-    for (int g = 1; g <= in.regions; ++g)
-      fit.zero[g] = count[g] > 0 ? (sum_v[g] - fit.scale * sum_q[g]) / count[g] : std::nan("");
-    double num = 0, den = 0;
-    for (size_t k = 0; k < n; ++k)
-      if (used(in, k)) num += q[k] * (in.value[k] - fit.zero[in.region[k]]), den += q[k];
-    const double next = den > 0 ? num / den : 0.0;
-    const bool done = std::abs(next - fit.scale) <= 1e-12 * (1 + std::abs(next));
-    fit.scale = next;
-    if (done) break;
-  }
+    if (used(in, k)) {
+      const int r = in.region[k];
+      sum_v[r] += in.value[k], sum_q[r] += q[k], count[r] += 1, sum_qv += q[k] * in.value[k], total_q += q[k];
+    }
+  double num = sum_qv, den = total_q;
+  for (int r = 1; r <= in.regions; ++r)
+    if (count[r] > 0) num -= sum_q[r] * sum_v[r] / count[r], den -= sum_q[r] * sum_q[r] / count[r];
+  // den = 0: q constant within every region, so the scale is not determined by the levels.
+  fit.scale = den > 1e-12 * total_q ? num / den : 0.0;
+  for (int r = 1; r <= in.regions; ++r)
+    fit.zero[r] = count[r] > 0 ? (sum_v[r] - fit.scale * sum_q[r]) / count[r] : std::nan("");
   double ss = 0, total = 0;
   for (size_t k = 0; k < n; ++k) {
     if (!used(in, k)) continue;
@@ -114,16 +116,21 @@ void fit_prior(const PatchMixtureInputs& in, const Neighbours& nb, const std::ve
   }
 }
 
+/// The mean probability of the upper class over the points fitted (0 where none is).
+double upper_share(const PatchMixtureInputs& in, const std::vector<double>& q) {
+  double share = 0, count = 0;
+  for (size_t k = 0; k < q.size(); ++k)
+    if (used(in, k)) share += q[k], count += 1;
+  return count > 0 ? share / count : 0.0;
+}
+
 /// A start from the given upper-class probabilities: the levels they imply, no prior yet.
 PatchMixture start_of(const PatchMixtureInputs& in, std::vector<double>& q) {
   PatchMixture fit;
   fit.zero.assign(in.regions + 1, std::nan(""));
   for (size_t k = 0; k < q.size(); ++k) q[k] = used(in, k) ? std::clamp(in.start_upper[k], 0.0, 1.0) : std::nan("");
   fit_levels(in, q, fit);
-  double share = 0, count = 0;
-  for (size_t k = 0; k < q.size(); ++k)
-    if (used(in, k)) share += q[k], count += 1;
-  share = std::clamp(share / std::max(count, 1.0), 0.01, 0.99);
+  const double share = std::clamp(upper_share(in, q), 0.01, 0.99);
   fit.field = std::log(share / (1 - share));
   return fit;
 }
@@ -150,10 +157,7 @@ PatchMixture fit_patch_mixture(const PatchMixtureInputs& in) {
     if (fit.converged) break;
   }
   fit.iterations = std::min(fit.iterations, in.max_iterations);
-  double share = 0, count = 0;
-  for (size_t k = 0; k < n; ++k)
-    if (used(in, k)) share += q[k], count += 1;
-  fit.upper_share = count > 0 ? share / count : 0.0;
+  fit.upper_share = upper_share(in, q);
   fit.upper = std::move(q);
   return fit;
 }
