@@ -50,11 +50,13 @@ RunResult run_reference_script(const std::string& script, const std::string& arg
   return run_command(std::string(ORDERBAND_PYTHON) + " " + ORDERBAND_REFERENCE_DIR + "/" + script + " " + args);
 }
 
-std::string write_small_scan(const std::string& dir, int side, int seed) {
+std::string write_small_scan(const std::string& dir, int side, int seed, const std::string& variant) {
   std::ofstream(dir + "/s.toml")
       << "[scenario]\nseed = " << seed << "\n[scan]\nrows = " << side << "\ncols = " << side
       << "\nstep_um = 0.03\n[detector]\nwidth_px = 48\nheight_px = 48\npc_px = [24.0, 15.0]\n"
-         "distance_px = 36.0\n[patterns]\ncounts_per_px = 5000\n[grains]\ncount = 2\n"
+         "distance_px = 36.0\n[patterns]\ncounts_per_px = 5000\n"
+      << variant
+      << "[grains]\ncount = 2\n"
          "[secondary]\narea_fraction = 0.3\ndistribution = \"lognormal\"\n"
          "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");

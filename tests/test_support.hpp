@@ -31,7 +31,8 @@ RunResult run_reference_script(const std::string& script, const std::string& arg
 std::string make_temp_dir(const std::string& stem);
 
 /// A small synthetic scan in `dir`/scan (side × side points of 48 × 48 px, 5,000 counts, two grains,
-/// 30 % secondary particles of median 0.12 µm, 30 nm steps); returns its scan.toml.
-std::string write_small_scan(const std::string& dir, int side, int seed);
+/// 30 % secondary particles of median 0.12 µm, 30 nm steps); returns its scan.toml. `variant`: more
+/// keys of the scenario's [patterns] table, optionally followed by other tables (such as [renderer]).
+std::string write_small_scan(const std::string& dir, int side, int seed, const std::string& variant = "");
 
 }  // namespace orderband::test

@@ -20,6 +20,11 @@ bool measured(const LearnedInputs& in, size_t k) { return in.grain[k] > 0; }
 
 /// The share of a grain's points each component must hold for the grain to count as two-phase.
 constexpr double kMinComponentShare = 0.05;
+/// A grain is taken for the ordered phase alone only while its map shows no structure: below this
+/// lag-one z (spatial_evidence; a pure phase gives z of about ±1, so 3 is passed by chance in about
+/// 1 grain of 700). Reading a whole grain as ordered is the costliest error the first split can
+/// make, and the transfer that decides it rests on the model's change between orientations.
+constexpr double kOrderedAloneMaxZ = 3.0;
 
 /// A measured point the learning uses: not next to another grain, where the pattern may mix two
 /// orientations (such points are scored, never learned from).
@@ -789,8 +794,23 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   if (!two_cuts.empty() && transfer_possible(in)) {
     split.ordered_grain = ordered_alone_by_transfer(in, gf, split.label, two_phase, one_phase);
     const double offset = median_of(matrix_to_cut);
-    for (int g = 1; g <= G; ++g)
-      if (one_phase[g]) cut[g] = split.ordered_grain[g] ? -HUGE_VAL : median_of(per_grain[g]) + offset;
+    for (int g = 1; g <= G; ++g) {
+      if (!one_phase[g]) continue;
+      if (split.ordered_grain[g] && structure.z[g] >= kOrderedAloneMaxZ) {
+        // Structure where the ordered phase alone would have none: the grain holds both phases,
+        // too faintly to show two components; cut as the faint grains are.
+        split.ordered_grain[g] = 0, one_phase[g] = 0, two_phase[g] = 1;
+        if (std::isnan(faint_matrix[g])) {
+          double evidence = 0;
+          faint_matrix[g] = components(smooth_per_grain[g], evidence)[0].mean;
+        }
+        cut[g] = faint_matrix[g] + offset;
+        for (size_t k = 0; k < in.points; ++k)
+          if (measured(in, k) && in.grain[k] == g) split.label[k] = guess[k] >= cut[g];
+        continue;
+      }
+      cut[g] = split.ordered_grain[g] ? -HUGE_VAL : median_of(per_grain[g]) + offset;
+    }
   } else {
     double one_cut = median_of(two_cuts);
     if (two_cuts.empty()) {
