@@ -29,14 +29,14 @@ Eigen::Vector3d LaueSector::canonical(const Eigen::Vector3d& unit) const {
 namespace {
 
 /// Per pixel, the four sector pixels its image is interpolated from and their weights.
-struct Unfolding {
+struct SectorUnfolding {
   std::vector<std::array<long, 4>> pixel;
   std::vector<std::array<double, 4>> weight;
   std::vector<long> needed;  ///< pixels to solve, ascending
 };
 
-Unfolding unfolding(const SphereGrid& grid, const LaueSector& sector) {
-  Unfolding u;
+SectorUnfolding unfolding(const SphereGrid& grid, const LaueSector& sector) {
+  SectorUnfolding u;
   const long n = grid.npix();
   u.pixel.resize(n);
   u.weight.resize(n);
@@ -57,7 +57,7 @@ DynamicalSphere dynamical_sphere(const Phase& phase, const DynamicalSphereSpec& 
   const SphereGrid grid(spec.nside);
   const CrystalPotential potential(phase, spec.kilovolts, potential_index_for(phase, spec.beams), spec.absorption);
   const BlochWaveSolver solver(potential, spec.beams);
-  const Unfolding unfold = unfolding(grid, LaueSector(phase));
+  const SectorUnfolding unfold = unfolding(grid, LaueSector(phase));
   const long needed = static_cast<long>(unfold.needed.size());
   std::vector<double> solved(grid.npix(), 0.0);
   std::vector<size_t> beams(needed, 0);

@@ -11,6 +11,10 @@
 
 namespace orderband {
 
+double pixels_per_step(const ScanGrid& grid, double longest_side_px) {
+  return std::max(1.0, std::min(8.0, longest_side_px / std::max(grid.rows, grid.cols)));
+}
+
 MapCanvas::MapCanvas(const ScanGrid& grid, double pixels_per_step) {
   grid.validate();
   pixels_per_um = pixels_per_step / grid.step_um;

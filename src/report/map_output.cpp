@@ -34,9 +34,8 @@ namespace {
 /// matrix is counted as matrix, so its sub-resolution fraction is ≈ 0 by construction, not measured.
 bool subresolution_measured(const MapResults& r) { return r.fraction.estimator != "learned"; }
 
-double pixels_per_step(const ScanGrid& grid) {
-  return std::max(1.0, std::min(8.0, 480.0 / std::max(grid.rows, grid.cols)));
-}
+/// The fraction maps' size: about 480 image pixels along the longer side.
+constexpr double kMapSidePx = 480;
 
 std::string base64(const std::string& bytes) {
   static const char* t = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
@@ -80,7 +79,7 @@ std::string systematic_row(const MapOptions& o) {
 }
 
 RgbImage fraction_map_image(const ScanGrid& grid, const std::vector<float>& f) {
-  const MapCanvas canvas(grid, pixels_per_step(grid));
+  const MapCanvas canvas(grid, pixels_per_step(grid, kMapSidePx));
   std::vector<Colour> colours(grid.count());
   for (size_t k = 0; k < grid.count(); ++k)
     colours[k] = std::isfinite(f[k]) ? sequential_colour(f[k]) : Colour{128, 128, 128};
@@ -89,7 +88,7 @@ RgbImage fraction_map_image(const ScanGrid& grid, const std::vector<float>& f) {
 }
 
 RgbImage mask_image(const ScanGrid& grid, const MapResults& r) {
-  const MapCanvas canvas(grid, pixels_per_step(grid));
+  const MapCanvas canvas(grid, pixels_per_step(grid, kMapSidePx));
   // Pattern quality (fundamental band contrast) as grey, ordered points tinted amber, particle outlines red.
   std::vector<float> q;
   for (float v : r.fraction.band_contrast)

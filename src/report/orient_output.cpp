@@ -15,13 +15,12 @@
 namespace orderband {
 
 namespace {
-double pixels_per_step(const ScanGrid& grid) {
-  return std::max(1.0, std::min(8.0, 600.0 / std::max(grid.rows, grid.cols)));
-}
+/// The orientation maps' size: about 600 image pixels along the longer side.
+constexpr double kOrientMapSidePx = 600;
 }  // namespace
 
 RgbImage orientation_map_image(const ScanGrid& grid, const OrientationResults& r) {
-  const MapCanvas canvas(grid, pixels_per_step(grid));
+  const MapCanvas canvas(grid, pixels_per_step(grid, kOrientMapSidePx));
   std::vector<Colour> colours(grid.count(), Colour{255, 255, 255});
   for (size_t k = 0; k < grid.count(); ++k)
     if (r.orientation[k]) colours[k] = ipf_colour(*r.orientation[k], Eigen::Vector3d(0, 0, 1));
@@ -74,7 +73,7 @@ void write_orientation_outputs(const std::string& folder, const ScanConfig& conf
 
   const std::vector<std::pair<std::string, std::string>> text{{"Software", provenance}};
   write_png_rgb(folder + "/orientation_map.png", orientation_map_image(grid, r), text);
-  const MapCanvas canvas(grid, pixels_per_step(grid));
+  const MapCanvas canvas(grid, pixels_per_step(grid, kOrientMapSidePx));
   std::vector<Colour> grain_colours(grid.count());
   for (size_t k = 0; k < grid.count(); ++k) grain_colours[k] = label_colour(r.grains.id[k]);
   write_png_rgb(folder + "/grain_map.png",

@@ -23,6 +23,10 @@ struct MapCanvas {
   std::vector<long> point;  ///< per image pixel: point index, or −1 outside the grid
 };
 
+/// Image pixels per scan step so that the longer side of the map spans about `longest_side_px`
+/// (at least 1, at most 8 per step).
+double pixels_per_step(const ScanGrid& grid, double longest_side_px);
+
 /// Colours each pixel by its point's colour.
 RgbImage draw_point_colours(const MapCanvas& canvas, const std::vector<Colour>& colours);
 
