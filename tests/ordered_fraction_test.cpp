@@ -478,6 +478,27 @@ TEST(LearnedFraction, HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBro
   }
 }
 
+/// The learned estimator on a 24 × 24 small scan (test::write_small_scan) of seed `seed` and
+/// renderer `variant`, and its area error against the truth over the measured points.
+struct SmallScanRun {
+  FractionResults fraction;
+  double area_error = 0;
+};
+
+SmallScanRun learned_small_scan(int seed, const std::string& variant = "") {
+  const std::string dir = test::make_temp_dir("small-learned");
+  const ScanConfig config = read_scan_config(test::write_small_scan(dir, 24, seed, variant));
+  const OrientationResults ori = orient_scan(read_scan_inputs(config));
+  SmallScanRun r{ordered_fraction_scan(read_scan_inputs(config), ori, learned_spec()), 0};
+  const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+  std::filesystem::remove_all(dir);
+  double measured = 0, true_area = 0, n = 0;
+  for (size_t k = 0; k < truth.size(); ++k)
+    if (r.fraction.reason[k] == 0) measured += r.fraction.raw[k], true_area += truth[k], n += 1;
+  r.area_error = (measured - true_area) / n;
+  return r;
+}
+
 TEST(LearnedFraction, SmallScansShowTheirSecondPhaseThroughTheirPatches) {
   // The package test's kind of scan at 24 × 24 points (48 × 48 px, 5,000 counts, 2 grains, secondary
   // γ′ of about 0.27 true area; seeds 1–5). Point by point the phases lie about d′ 1.5–2 apart, and
@@ -488,16 +509,9 @@ TEST(LearnedFraction, SmallScansShowTheirSecondPhaseThroughTheirPatches) {
   double sum_sq = 0;
   int by_patches = 0;
   for (int seed = 1; seed <= 5; ++seed) {
-    const std::string dir = test::make_temp_dir("small-learned");
-    const ScanConfig config = read_scan_config(test::write_small_scan(dir, 24, seed));
-    const OrientationResults ori = orient_scan(read_scan_inputs(config));
-    const FractionResults f = ordered_fraction_scan(read_scan_inputs(config), ori, learned_spec());
-    const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
-    std::filesystem::remove_all(dir);
-    double measured = 0, true_area = 0, n = 0;
-    for (size_t k = 0; k < truth.size(); ++k)
-      if (f.reason[k] == 0) measured += f.raw[k], true_area += truth[k], n += 1;
-    const double error = (measured - true_area) / n;
+    const SmallScanRun r = learned_small_scan(seed);
+    const FractionResults& f = r.fraction;
+    const double error = r.area_error;
     EXPECT_TRUE(f.two_phases) << "seed " << seed;
     EXPECT_NEAR(error, 0.0, 0.12) << "seed " << seed;
     sum_sq += error * error, by_patches += f.learned_placed_by_patches;
@@ -513,18 +527,10 @@ TEST(LearnedFraction, AGrainWithStructureIsNotTakenForTheOrderedPhaseAlone) {
   // transfer from the other grain put it at 0.66 of the way to ordered, and the whole grain was read
   // as ordered: area 0.557 for a truth of 0.237. A grain whose map shows structure (z ≥ 3) is not
   // taken for the ordered phase alone: measured now +0.023, that grain 0.17 for its 0.19.
-  const std::string dir = test::make_temp_dir("small-learned-flat");
-  const ScanConfig config =
-      read_scan_config(test::write_small_scan(dir, 24, 4, "edge_contrast = 0.0\n[renderer]\nband_shape = \"flat\"\n"));
-  const OrientationResults ori = orient_scan(read_scan_inputs(config));
-  const FractionResults f = ordered_fraction_scan(read_scan_inputs(config), ori, learned_spec());
-  const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
-  std::filesystem::remove_all(dir);
-  double measured = 0, true_area = 0, n = 0;
-  for (size_t k = 0; k < truth.size(); ++k)
-    if (f.reason[k] == 0) measured += f.raw[k], true_area += truth[k], n += 1;
+  const SmallScanRun r = learned_small_scan(4, "edge_contrast = 0.0\n[renderer]\nband_shape = \"flat\"\n");
+  const FractionResults& f = r.fraction;
   EXPECT_TRUE(f.two_phases);
-  EXPECT_NEAR((measured - true_area) / n, 0.0, 0.06);
+  EXPECT_NEAR(r.area_error, 0.0, 0.06);
   for (size_t g = 0; g < f.grains.size(); ++g) EXPECT_LT(f.grains[g].mean, 0.5) << "grain " << g + 1;
 }
 

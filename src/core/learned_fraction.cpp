@@ -799,14 +799,12 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       if (split.ordered_grain[g] && structure.z[g] >= kOrderedAloneMaxZ) {
         // Structure where the ordered phase alone would have none: the grain holds both phases,
         // too faintly to show two components; cut as the faint grains are.
-        split.ordered_grain[g] = 0, one_phase[g] = 0, two_phase[g] = 1;
+        split.ordered_grain[g] = 0, two_phase[g] = 1;
         if (std::isnan(faint_matrix[g])) {
           double evidence = 0;
           faint_matrix[g] = components(smooth_per_grain[g], evidence)[0].mean;
         }
         cut[g] = faint_matrix[g] + offset;
-        for (size_t k = 0; k < in.points; ++k)
-          if (measured(in, k) && in.grain[k] == g) split.label[k] = guess[k] >= cut[g];
         continue;
       }
       cut[g] = split.ordered_grain[g] ? -HUGE_VAL : median_of(per_grain[g]) + offset;
@@ -826,8 +824,9 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
     }
   }
+  // Every grain by its cut, now that each has one (the grains of two components as before).
   for (size_t k = 0; k < in.points; ++k)
-    if (measured(in, k) && one_phase[in.grain[k]]) split.label[k] = guess[k] >= cut[in.grain[k]];
+    if (measured(in, k)) split.label[k] = guess[k] >= cut[in.grain[k]];
   split.two_phase = two_phase;
   return split;
 }
