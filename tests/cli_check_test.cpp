@@ -1,9 +1,11 @@
 // `orderband check`: summary numbers by hand and one clear error line for bad data.
 #include <gtest/gtest.h>
+#include <sys/stat.h>
 
 #include <filesystem>
 #include <fstream>
 #include <random>
+#include <sstream>
 
 #include "test_support.hpp"
 
@@ -96,6 +98,52 @@ TEST(CliUsage, BadOptionValuesAreOneLineInTheDocumentedFormWithExitTwo) {
     EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << args << ": " << r.err;
     EXPECT_LT(r.err.size(), 200u) << args;
   }
+}
+
+/// The scan description with one line replaced.
+void write_edited(const std::string& from, const std::string& to, const std::string& line, const std::string& by) {
+  std::ifstream in(from);
+  std::ostringstream text;
+  text << in.rdbuf();
+  std::string s = text.str();
+  const auto at = s.find(line);
+  ASSERT_NE(at, std::string::npos) << line;
+  s.replace(at, line.size(), by);
+  std::ofstream(to) << s;
+}
+
+TEST(CliCheck, RefusesWhatMapWouldRefuse) {
+  // Each of these passed check with "ok" and failed in map, or hung (the FIFO).
+  const std::string dir = test::make_temp_dir("check-refuses");
+  const std::string scan = test::write_small_scan(dir, 6, 2), folder = dir + "/scan/";
+  auto one_line_error = [](const std::string& toml, const std::string& expected) {
+    const auto r = test::run_command("timeout 20 " + std::string(ORDERBAND_BINARY) + " check " + toml);
+    EXPECT_EQ(r.exit_code, 1) << expected;
+    EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << r.err;
+    EXPECT_NE(r.err.find(expected), std::string::npos) << r.err;
+  };
+  // The 48 × 48 px patterns declared 64 × 36 (the same bytes per pattern, so the size check passes).
+  write_edited(scan, folder + "wide.toml", "width_px = 48\nheight_px = 48", "width_px = 64\nheight_px = 36");
+  one_line_error(folder + "wide.toml", "the patterns look 48 x 48 px, not the declared 64 x 36");
+  // A FIFO as the pattern file blocked check until something wrote to it.
+  ASSERT_EQ(::mkfifo((folder + "fifo").c_str(), 0600), 0);
+  write_edited(scan, folder + "fifo.toml", "'patterns.raw'", "'fifo'");
+  one_line_error(folder + "fifo.toml", "fifo' is not a regular file (a pipe, socket or device)");
+  // A folder as the pattern file was "4096 bytes, shorter than ...".
+  std::filesystem::create_directories(folder + "stack");
+  write_edited(scan, folder + "folder.toml", "'patterns.raw'", "'stack'");
+  one_line_error(folder + "folder.toml", "stack' is a folder, not a pattern file");
+  // The same CIF for both phases: map found no superlattice family after the orientations.
+  const std::string cif = test::crystal_data("ni-gamma.cif");
+  write_edited(scan, folder + "same.toml", "pair = 'ni'", "ordered = '" + cif + "'\ndisordered = '" + cif + "'");
+  one_line_error(folder + "same.toml", "no plane family reaches superlattice sensitivity");
+  // Reference regions that share points: map ended with "the ordered reference region is not above
+  // the disordered one" after all the work.
+  write_edited(scan, folder + "overlap.toml", "end_members = 'model'",
+               "end_members = 'regions'\nordered_regions = [[0, 0, 3, 3]]\ndisordered_regions = [[2, 2, 5, 5]]");
+  one_line_error(folder + "overlap.toml",
+                 "[fraction] the ordered and disordered references share 4 points (first: row 2, col 2)");
+  std::filesystem::remove_all(dir);
 }
 
 TEST(CliUsage, UnknownCommandsFoldersAndLongValuesGiveOneShortLine) {

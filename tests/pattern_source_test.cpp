@@ -185,7 +185,7 @@ TEST(PatternSource, ClearErrorsForBadInput) {
       << e1;
   EXPECT_NE(e1.find(short_raw), std::string::npos);
   EXPECT_THROW(parse_sample_type("int12"), Error);
-  EXPECT_NE(error_of(raw_spec(fx.dir + "/none.raw", 0), fx.grid).find("cannot open pattern file"), std::string::npos);
+  EXPECT_NE(error_of(raw_spec(fx.dir + "/none.raw", 0), fx.grid).find("cannot read pattern file"), std::string::npos);
 
   const std::string h5 = fx.dir + "/bad.h5";
   ASSERT_EQ(test::run_reference_script("write_hdf5.py", fx.write_raw(0) + " " + h5 + " /flat 5 4 16 20 2").exit_code,

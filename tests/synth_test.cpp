@@ -184,6 +184,8 @@ TEST(SynthScenario, OneClearLinePerProblem) {
   EXPECT_NE(error_of("[patterns]\ncounts = 5\n").find("unknown key 'counts' in [patterns]"), std::string::npos);
   EXPECT_NE(error_of("[primary]\narea_fraction = 0.1\nmedian_diameter_um = 0.5\n").find("count must be at least 2"),
             std::string::npos);
+  // 10,000,000 grains on 16 points ran for ever without progress.
+  EXPECT_NE(error_of("[grains]\ncount = 10000000\n").find("[grains] count must be within [1, 16]"), std::string::npos);
   // Renderer variants.
   EXPECT_NE(error_of("[renderer]\nband_shape = \"square\"\n").find("[renderer] band_shape = \"square\" is not"),
             std::string::npos);

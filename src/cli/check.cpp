@@ -5,6 +5,7 @@
 
 #include "command.hpp"
 #include "orderband/ordered_fraction.hpp"
+#include "orderband/pattern_sample.hpp"
 #include "orderband/scan_check.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
@@ -16,7 +17,7 @@ namespace orderband::cli {
 std::function<int()> setup_check(CLI::App& sub) {
   struct Options {
     std::string scan;
-    size_t sample = 64;
+    size_t sample = kPatternSamplePoints;   // as map samples
     double d_min = FractionSpec{}.d_min_A;  // the families map uses
   };
   auto o = std::make_shared<Options>();
@@ -50,6 +51,13 @@ std::function<int()> setup_check(CLI::App& sub) {
       std::printf("%-9s %8.4f %10.3f %14.2f %12.3f  %s\n", f.family.family.label().c_str(), f.family.d_ordered_A,
                   rad_to_deg(f.family.bragg_ordered_rad), f.band_width_px, f.family.sensitivity,
                   f.family.sensitivity >= 0.5 ? "superlattice" : "fundamental");
+    std::printf(
+        "raw sample:  %zu patterns read, %.1f hot pixels per pattern (brighter than all 8 neighbours by "
+        "%.3g MADs; filter %s), stored width %s\n",
+        c.sample.patterns, c.sample.hot_pixels_per_pattern, c.sample.hot_pixel_threshold,
+        s.preprocess.hot_pixel_filter ? "on" : "off",
+        c.sample.patterns ? (std::to_string(c.sample.declared_width_px) + " px confirmed").c_str()
+                          : "not checked (no readable pattern)");
     std::printf("sampled:     %zu patterns preprocessed, %zu unusable, %.3f ms per pattern (one thread)\n",
                 c.sampled_points, c.sampled_unusable, 1e3 * c.preprocess_seconds_per_point);
     std::printf("estimate:    preprocessing %.1f s on one thread; peak memory about %.0f MB\n",

@@ -2,7 +2,9 @@
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
+#include <new>
 #include <optional>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -85,6 +87,19 @@ int main(int argc, char** argv) {
       return run();
     } catch (const orderband::Error& e) {
       std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());
+      return 1;
+    } catch (const std::bad_alloc&) {
+      // The library's own text ("std::bad_alloc") tells a user nothing.
+      std::fprintf(stderr,
+                   "orderband %s: error: out of memory: the run asked for more memory than this machine can give "
+                   "(check the grid and pattern sizes, or run on a larger machine)\n",
+                   sub->get_name().c_str());
+      return 1;
+    } catch (const std::length_error&) {
+      std::fprintf(stderr,
+                   "orderband %s: error: a size beyond what any array can hold was asked for (check the grid and "
+                   "pattern sizes)\n",
+                   sub->get_name().c_str());
       return 1;
     } catch (const std::exception& e) {
       std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());

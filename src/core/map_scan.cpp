@@ -51,8 +51,19 @@ void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int u
 
 }  // namespace
 
+std::string no_usable_point_sentence(const MapResults& r) {
+  const std::vector<uint8_t>& reason = r.fraction.reason;
+  auto count = [&](FractionReason why) { return std::count(reason.begin(), reason.end(), static_cast<uint8_t>(why)); };
+  return "no point of the scan gave an ordered fraction (" + std::to_string(reason.size()) +
+         " points: " + std::to_string(count(FractionReason::unusable_pattern)) + " unusable patterns, " +
+         std::to_string(count(FractionReason::no_orientation)) + " without an orientation, " +
+         std::to_string(count(FractionReason::no_band_contrast)) + " without band contrast, " +
+         std::to_string(count(FractionReason::small_grain)) +
+         " in grains too small to place), so nothing could be measured";
+}
+
 std::vector<std::string> map_warnings(const MapResults& r) {
-  std::vector<std::string> w;
+  std::vector<std::string> w = r.input_warnings;
   const size_t n = r.fraction.reason.size(), measured = r.fraction.measured();
   const size_t no_orientation = r.orientations.orientation.size() - r.orientations.with_orientation();
   auto percent = [&](size_t k) {
@@ -179,8 +190,12 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
       if (progress) progress(name, d, t);
     };
   };
+  r.pattern_sample = sample_patterns(*inputs.patterns, kPatternSamplePoints, config.preprocess.hot_pixel_threshold);
+  require_declared_width(r.pattern_sample, inputs.patterns->describe());
+  if (auto w = hot_pixel_warning(r.pattern_sample, config.preprocess)) r.input_warnings.push_back(*w);
   r.orientations = orient_scan(inputs, options.orient, stage("orientations"), store);
   r.fraction = ordered_fraction_scan(inputs, r.orientations, options.fraction, stage("ordered fraction"), store);
+  if (!r.measured_any()) return r;
 
   const ScanGrid& grid = config.grid;
   r.detection = map_detection_limit(config, r.fraction, options);

@@ -4,7 +4,9 @@
 #include <chrono>
 #include <cmath>
 
+#include "fraction_context.hpp"
 #include "orderband/error.hpp"
+#include "orderband/pattern_sample.hpp"
 #include "orderband/units.hpp"
 
 namespace orderband {
@@ -32,6 +34,7 @@ ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points, double d_mi
 
   const OrderingPair& pair = inputs.phases;
   c.pair_name = pair.name;
+  choose_fraction_families(pair, config.kv, FractionSpec{});  // fails as map would (no superlattice family)
   for (const PairFamily& f : pair_family_table(pair, config.kv, d_min_A)) {
     FamilyVisibility v{f, 2 * f.bragg_ordered_rad / geometry.angular_pixel_size_rad()};
     if (f.sensitivity >= 0.5 && v.band_width_px < 2)
@@ -40,6 +43,11 @@ ScanCheck check_scan(const ScanInputs& inputs, size_t sample_points, double d_mi
                            " px wide on this detector: finer patterns or a longer distance would resolve it");
     c.families.push_back(std::move(v));
   }
+
+  // The raw patterns: the stored width and hot pixels, as map checks them.
+  c.sample = sample_patterns(*source, sample_points, config.preprocess.hot_pixel_threshold);
+  require_declared_width(c.sample, c.source_description);
+  if (auto w = hot_pixel_warning(c.sample, config.preprocess)) c.warnings.push_back(*w);
 
   // Preprocess a sample of points spread over the scan, timed on one thread.
   PreprocessSpec spec = config.preprocess;

@@ -12,6 +12,7 @@
 
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
+#include "orderband/input_file.hpp"
 
 namespace orderband {
 namespace {
@@ -184,6 +185,7 @@ void write_png(const std::string& path, int width, int height, int color_type, i
 
 GrayImage read_gray_image(const std::string& path) {
   const std::string ext = lower_extension(path);
+  if (ext == ".png" || ext == ".tif" || ext == ".tiff") require_regular_file(path, "image file");
   if (ext == ".png") return read_png(path);
   if (ext == ".tif" || ext == ".tiff") return read_tiff(path);
   fail("'", path, "': unknown image type '", ext, "' (use .png, .tif or .tiff)");

@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "orderband/error.hpp"
+#include "orderband/input_file.hpp"
 
 namespace fs = std::filesystem;
 
@@ -24,6 +25,7 @@ std::string hex(uint64_t h) {
 }  // namespace
 
 std::string file_hash_fnv1a64(const std::string& path) {
+  require_regular_file(path, "input file");
   std::ifstream in(path, std::ios::binary);
   if (!in) fail("cannot read '", path, "' to hash it");
   uint64_t h = kFnvOffset;

@@ -8,6 +8,7 @@
 
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
+#include "orderband/input_file.hpp"
 
 namespace orderband {
 namespace {
@@ -63,6 +64,7 @@ std::vector<size_t> npy_dimensions(const std::string& dims, const std::string& p
 }  // namespace
 
 NpyArray read_npy(const std::string& path) {
+  require_regular_file(path, ".npy file");
   std::ifstream in(path, std::ios::binary);
   if (!in) fail("cannot read '", path, "'");
   std::error_code ec;

@@ -16,6 +16,7 @@
 
 #include "orderband/error.hpp"
 #include "orderband/image_io.hpp"
+#include "orderband/input_file.hpp"
 
 namespace fs = std::filesystem;
 
@@ -35,6 +36,7 @@ class RawSource final : public PatternSource {
     width_ = spec.width_px;
     height_ = spec.height_px;
     count_ = grid.count();
+    require_regular_file(spec.path, "pattern file");
     fd_ = ::open(spec.path.c_str(), O_RDONLY);
     if (fd_ < 0) fail("cannot open pattern file '", spec.path, "': ", std::strerror(errno));
     struct stat st {};
@@ -106,7 +108,7 @@ class Hdf5Source final : public PatternSource {
  public:
   Hdf5Source(const PatternSourceSpec& spec, const ScanGrid& grid) : spec_(spec), grid_(grid) {
     H5Eset_auto2(H5E_DEFAULT, nullptr, nullptr);
-    if (!fs::exists(spec.path)) fail("cannot open HDF5 file '", spec.path, "' (missing)");
+    require_regular_file(spec.path, "HDF5 pattern file");
     file_ = H5Fopen(spec.path.c_str(), H5F_ACC_RDONLY, H5P_DEFAULT);
     if (file_ < 0) fail("'", spec.path, "' is not a readable HDF5 file");
     if (spec.dataset.empty()) fail(spec.path, ": name the pattern dataset (key 'dataset', e.g. \"/scan/patterns\")");

@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "orderband/error.hpp"
+#include "orderband/input_file.hpp"
 #include "orderband/phase_cif.hpp"
 #include "orderband/scattering.hpp"
 
@@ -141,6 +142,7 @@ Phase parse_phase_cif(const std::string& cif_text, const std::string& origin) {
 }
 
 Phase load_phase_cif(const std::string& path) {
+  require_regular_file(path, "CIF file");
   std::ifstream in(path, std::ios::binary);
   if (!in) fail("cannot read CIF file '", path, "' (missing or unreadable)");
   std::ostringstream text;

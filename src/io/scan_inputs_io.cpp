@@ -1,6 +1,7 @@
 // Reading one scan's inputs from the files its description names.
 #include "orderband/scan_inputs_io.hpp"
 
+#include <array>
 #include <filesystem>
 #include <fstream>
 #include <map>
@@ -9,6 +10,7 @@
 
 #include "orderband/error.hpp"
 #include "orderband/image_io.hpp"
+#include "orderband/input_file.hpp"
 #include "orderband/input_hash.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/pair_catalog.hpp"
@@ -21,9 +23,35 @@ namespace orderband {
 namespace {
 
 OrientationTable read_orientation_file(const std::string& path, const ScanGrid& grid) {
+  require_regular_file(path, "orientation file");
   std::ifstream in(path);
   if (!in) fail("cannot read orientation file '", path, "'");
   return read_orientation_csv(in, grid, path);
+}
+
+/// The reference points on one side: its rectangles and its mask, one flag per point.
+std::vector<uint8_t> reference_points(const std::vector<std::array<int, 4>>& rects, const std::vector<uint8_t>& mask,
+                                      const ScanGrid& grid) {
+  std::vector<uint8_t> in = mask.empty() ? std::vector<uint8_t>(grid.count(), 0) : mask;
+  for (const auto& r : rects)
+    for (int row = r[0]; row <= r[2]; ++row)
+      for (int col = r[1]; col <= r[3]; ++col) in[grid.index({row, col})] = 1;
+  return in;
+}
+
+/// A point cannot be known to be both ordered and disordered: the two reference sides (regions
+/// and masks together) must not share one.
+void require_separate_references(const ScanConfig& config, const ScanInputs& in) {
+  const EndMemberSelection& e = config.end_members;
+  const std::vector<uint8_t> ordered = reference_points(e.ordered_regions, in.ordered_mask, config.grid),
+                             disordered = reference_points(e.disordered_regions, in.disordered_mask, config.grid);
+  size_t shared = 0, first = 0;
+  for (size_t k = 0; k < ordered.size(); ++k)
+    if (ordered[k] && disordered[k] && shared++ == 0) first = k;
+  if (shared)
+    fail(config.path, ": [fraction] the ordered and disordered references share ", shared, " point",
+         shared == 1 ? "" : "s", " (first: row ", config.grid.point(first).row, ", col ", config.grid.point(first).col,
+         "); a point is known to be one or the other");
 }
 
 PreprocessImages read_preprocess_images(const PreprocessSpec& spec) {
@@ -90,6 +118,7 @@ ScanInputs read_scan_inputs(const ScanConfig& config, InputHashing hashing) {
     in.ordered_mask = read_point_mask(config.end_members.ordered_mask, config.grid);
   if (!config.end_members.disordered_mask.empty())
     in.disordered_mask = read_point_mask(config.end_members.disordered_mask, config.grid);
+  require_separate_references(config, in);
   if (hashing == InputHashing::hash) {
     in.file_hashes = input_file_hashes(config);
     in.input_hash = combined_hash(config, in.file_hashes);

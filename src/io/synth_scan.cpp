@@ -245,8 +245,12 @@ void read_microstructure(TomlReader& r, const std::string& path, SynthScenario& 
   m.seed = s.seed;
   const toml::table* gr = r.table("grains", false);
   r.check_keys(gr, "grains", {"count", "texture", "texture_spread_deg"});
-  m.grain_count = static_cast<int>(r.get<int64_t>(gr, "grains", "count").value_or(1));
-  if (m.grain_count < 1) fail(path, ": [grains] count must be at least 1");
+  // A grain smaller than one scan point is not a grain of the map: at most one per point.
+  const int64_t grains = r.get<int64_t>(gr, "grains", "count").value_or(1);
+  if (grains < 1 || grains > static_cast<int64_t>(s.grid.count()))
+    fail(path, ": [grains] count must be within [1, ", s.grid.count(), "] (one grain per scan point at most), got ",
+         grains);
+  m.grain_count = static_cast<int>(grains);
   const std::string tex = r.get<std::string>(gr, "grains", "texture").value_or("random");
   if (tex == "random")
     m.texture = Texture::random;

@@ -6,6 +6,7 @@
 #include "orderband/folder_row_store.hpp"
 #include "orderband/input_hash.hpp"
 #include "orderband/map_output.hpp"
+#include "orderband/map_scan.hpp"
 #include "orderband/version.hpp"
 
 namespace orderband {
@@ -21,6 +22,11 @@ MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, 
   const FolderLock lock(folder);
   FolderRowStore store(folder + "/.resume", key);
   MapFolderRun run{map_scan(inputs, options, progress, &store), store.rows_found(), store.rows_damaged()};
+  if (!run.results.measured_any()) {
+    write_unmeasured_summary(folder, inputs.config, run.results, run.results.options, command_line);
+    store.clear();
+    fail(no_usable_point_sentence(run.results), "; ", folder, "/summary.json lists the points by reason");
+  }
   write_map_outputs(folder, inputs.config, run.results, run.results.options, command_line);
   store.clear();
   return run;

@@ -777,9 +777,8 @@ nlohmann::json files_json(const std::vector<PointArray>& arrays) {
   return files;
 }
 
-/// The summary (summary.json).
-nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const MapOptions& options,
-                           const std::string& command_line, const std::vector<PointArray>& arrays) {
+/// What every summary.json starts with: the tool, warnings, faulty patterns, the run's inputs.
+nlohmann::json summary_head(const ScanConfig& config, const MapResults& r, const std::string& command_line) {
   nlohmann::json j;
   j["tool"] = "orderband";
   j["version"] = kVersion;
@@ -795,6 +794,17 @@ nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const 
   j["command_line"] = command_line;
   j["scan"] = config.path;
   j["input_hashes"] = input_hashes_json(config, r);
+  j["pattern_sample"] = {{"patterns", r.pattern_sample.patterns},
+                         {"hot_pixels_per_pattern", r.pattern_sample.hot_pixels_per_pattern},
+                         {"hot_pixel_threshold_mad", r.pattern_sample.hot_pixel_threshold},
+                         {"stored_width_px", r.pattern_sample.likely_width_px}};
+  return j;
+}
+
+/// The summary (summary.json).
+nlohmann::json map_summary(const ScanConfig& config, const MapResults& r, const MapOptions& options,
+                           const std::string& command_line, const std::vector<PointArray>& arrays) {
+  nlohmann::json j = summary_head(config, r, command_line);
   add_fraction_summary(j, config, r, options);
   add_particle_summary(j, config, r);
   j["parameters"] = parameters_json(config, r.ordered_phase, r.disordered_phase, options);
@@ -985,6 +995,23 @@ void write_report_page(const std::string& folder, const ScanConfig& config, cons
 }
 
 }  // namespace
+
+void write_unmeasured_summary(const std::string& folder, const ScanConfig& config, const MapResults& r,
+                              const MapOptions& options, const std::string& command_line) {
+  std::error_code ec;
+  fs::create_directories(folder, ec);
+  if (ec) fail("cannot create output folder '", folder, "': ", ec.message());
+  nlohmann::json j = summary_head(config, r, command_line);
+  j["result"] = no_usable_point_sentence(r);
+  nlohmann::json reasons;
+  for (FractionReason why : {FractionReason::unusable_pattern, FractionReason::no_orientation,
+                             FractionReason::no_band_contrast, FractionReason::small_grain})
+    reasons[std::string(name_of(why))] =
+        std::count(r.fraction.reason.begin(), r.fraction.reason.end(), static_cast<uint8_t>(why));
+  j["points"] = {{"total", r.fraction.reason.size()}, {"measured", 0}, {"not_measured_by_reason", reasons}};
+  j["parameters"] = parameters_json(config, r.ordered_phase, r.disordered_phase, options);
+  write_text_atomically(folder + "/summary.json", j.dump(2) + "\n");
+}
 
 void write_map_outputs(const std::string& folder, const ScanConfig& config, const MapResults& r,
                        const MapOptions& options, const std::string& command_line) {

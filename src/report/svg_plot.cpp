@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "orderband/html_page.hpp"
+#include "orderband/input_hash.hpp"
 
 namespace orderband {
 
@@ -200,17 +201,20 @@ std::string SvgPlot::render() const {
   s << "<rect width=\"100%\" height=\"100%\" fill=\"white\"/>\n";
   s << "<text x=\"" << width_ / 2 << "\" y=\"18\" text-anchor=\"middle\" font-size=\"13\">" << xml_escape(title_)
     << "</text>\n";
-  // One page may hold many charts: the clip path's id names the chart's size, so charts of another
-  // size never borrow its box (charts of one size share an identical one).
-  const std::string clip = "plot-" + std::to_string(width_) + "x" + std::to_string(height_);
+  std::ostringstream axes, items, legend;
+  write_axes(axes, f);
+  for (const Item& it : items_) write_item(items, it, f);
+  write_legend(legend, f);
+  // One page holds many charts, and a clip path's id is global to the page: each chart's id is a
+  // hash of its own size, title and content, so no chart borrows another's box and the same chart
+  // gets the same id in every run.
+  const std::string clip = "plot-" + text_hash_fnv1a64(std::to_string(width_) + "x" + std::to_string(height_) + title_ +
+                                                       axes.str() + items.str() + legend.str());
   s << "<defs><clipPath id=\"" << clip << "\"><rect x=\"" << f.left << "\" y=\"" << f.top << "\" width=\"" << f.pw
     << "\" height=\"" << f.ph << "\"/></clipPath></defs>\n";
-  write_axes(s, f);
-  s << "<g clip-path=\"url(#" << clip << ")\">\n";
-  for (const Item& it : items_) write_item(s, it, f);
-  s << "</g>\n";
-  write_legend(s, f);
-  s << "</svg>\n";
+  s << axes.str() << "<g clip-path=\"url(#" << clip << ")\">\n"
+    << items.str() << "</g>\n"
+    << legend.str() << "</svg>\n";
   return s.str();
 }
 

@@ -8,6 +8,7 @@
 #include "orderband/detection_limit.hpp"
 #include "orderband/ordered_fraction.hpp"
 #include "orderband/particles.hpp"
+#include "orderband/pattern_sample.hpp"
 #include "orderband/sphere.hpp"
 #include "orderband/stereology.hpp"
 
@@ -36,6 +37,8 @@ struct MapResults {
   /// The input files' hashes by path, as read with the inputs (ScanInputs::file_hashes).
   std::map<std::string, std::string> input_file_hashes;
   std::string ordered_phase, disordered_phase;
+  PatternSample pattern_sample;             ///< raw patterns read before the run (stored width, hot pixels)
+  std::vector<std::string> input_warnings;  ///< about the inputs, found before the run (hot pixels)
   OrientationResults orientations;
   FractionResults fraction;
   Segmentation segmentation;
@@ -50,7 +53,14 @@ struct MapResults {
   /// Mean spheres of the points with f < 0.2 (disordered) and f > 0.8 (ordered), folded by the symmetry.
   std::optional<SphereMap> mean_disordered, mean_ordered;
   double ordered_area_fraction() const { return fraction.mean_raw(); }
+  /// False when no point gave an ordered fraction; the statistics after the fraction stage (particles,
+  /// intervals, sizes, mean spheres) are then not computed.
+  bool measured_any() const { return fraction.measured() > 0; }
 };
+
+/// One sentence for a scan in which no point gave an ordered fraction, with the count of each reason
+/// (unusable pattern, no orientation, no band contrast, grain too small).
+std::string no_usable_point_sentence(const MapResults& r);
 
 /// Plain-language warnings about results that rest on too little: most points without an ordered
 /// fraction or without an orientation (the area fraction then comes from the few that are left),

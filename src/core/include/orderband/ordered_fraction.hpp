@@ -26,6 +26,15 @@ enum class FractionReason : uint8_t {
   no_band_contrast = 3,  ///< the fundamental bands show no contrast (pattern too poor)
   small_grain = 4,       ///< learned estimator: the grain has too few points away from its boundaries to be placed
 };
+template <>
+struct EnumNames<FractionReason> {
+  static constexpr std::array<std::pair<FractionReason, std::string_view>, 5> names{
+      {{FractionReason::ok, "measured"},
+       {FractionReason::unusable_pattern, "unusable_pattern"},
+       {FractionReason::no_orientation, "no_orientation"},
+       {FractionReason::no_band_contrast, "no_band_contrast"},
+       {FractionReason::small_grain, "grain_too_small"}}};
+};
 
 /// How the two end members (pure disordered, pure ordered) are fixed.
 enum class EndMemberMode {

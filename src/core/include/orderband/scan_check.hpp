@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "orderband/ordering_pair.hpp"
+#include "orderband/pattern_sample.hpp"
 #include "orderband/scan_inputs.hpp"
 
 namespace orderband {
@@ -24,6 +25,7 @@ struct ScanCheck {
   Eigen::Vector3d pc_direction_sample{0, 0, 0};
   std::string pair_name;
   std::vector<FamilyVisibility> families;  ///< d ≥ d_min, both roles
+  PatternSample sample;                    ///< raw patterns: the stored width, hot pixels
   size_t sampled_points = 0, sampled_unusable = 0;
   double preprocess_seconds_per_point = 0;  ///< measured on the sampled points, one thread
   double estimated_preprocess_seconds = 0;  ///< whole scan, one thread
