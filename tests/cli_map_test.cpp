@@ -152,7 +152,8 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
   for (const char* f :
        {"fraction_map.png", "ordered_mask.png", "orientation_map.png", "ordered_fraction.npy", "particles.csv",
         "classes.csv", "band_profiles.svg", "family_diagnostics.svg", "size_histogram.svg", "mean_sphere_ordered.png",
-        "mean_sphere_disordered.png", "mean_sphere_difference.png", "report.html", "orientations.csv"})
+        "mean_sphere_disordered.png", "mean_sphere_difference.png", "report.html", "orientations.csv",
+        "orient_summary.json"})  // everything orient writes too
     EXPECT_TRUE(fs::exists(*dir_ + "/out/" + f)) << f;
   EXPECT_FALSE(fs::exists(*dir_ + "/out/.resume"));  // cleared after a complete run
 }

@@ -4,6 +4,7 @@
 #include <gtest/gtest.h>
 
 #include <atomic>
+#include <filesystem>
 #include <fstream>
 
 #include "orderband/error.hpp"
@@ -82,6 +83,17 @@ TEST(ScanInputs, HashChangesWithEveryInputFileAndNotWithoutOne) {
   masked.preprocess.mask = MaskKind::file;
   masked.preprocess.mask_file = test::crystal_data("ni-fcc.cif");  // any file: only its bytes count here
   EXPECT_NE(scan_input_hash(masked), h1);
+  // A pair given by CIF files: an edited CIF gives another hash (it reused stale rows before).
+  ScanConfig own_pair = config;
+  own_pair.phases.pair_name.clear();
+  own_pair.phases.ordered_cif = config.folder + "/ordered.cif";
+  own_pair.phases.disordered_cif = config.folder + "/disordered.cif";
+  std::filesystem::copy_file(test::crystal_data("ni3al-gamma-prime.cif"), own_pair.phases.ordered_cif);
+  std::filesystem::copy_file(test::crystal_data("ni-gamma.cif"), own_pair.phases.disordered_cif);
+  const std::string h2 = scan_input_hash(own_pair);
+  EXPECT_NE(h2, h1);
+  std::ofstream(own_pair.phases.disordered_cif, std::ios::app) << "# edited\n";
+  EXPECT_NE(scan_input_hash(own_pair), h2);
 }
 
 TEST(ScanInputs, AMissingFileIsOneClearError) {
