@@ -2,6 +2,7 @@
 
 #include <gtest/gtest.h>
 
+#include <array>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
@@ -66,8 +67,9 @@ TEST(ParticleSplit, MaximaDynamicsAgreeWithScikitImageHMaxima) {
 TEST(ParticleSplit, TouchingParticlesComeApartAndALargeOneStaysWhole) {
   // Per-point noise 0.25 as in a 5,000-count map, 20 noise draws each. Two discs of radius 3 steps
   // whose edges touch (centres 6 steps apart) threshold into one component in 19 of 20 draws;
-  // split, they come apart in 12 (at least 8 asserted: where the neck is as bright as the discs,
-  // the smoothed map has no saddle to find). Half a step apart, noise bridges them now and then and
+  // split, they come apart in 19 (at least 17 asserted; 12 by the smoothed map's saddles alone:
+  // where the neck is as bright as the discs there is no saddle to find, and the outline's neck
+  // does the rest, split_by_shape). Half a step apart, noise bridges them now and then and
   // the split separates them in 19 of 20 (at least 18). A disc of radius 12 steps stays one particle
   // (its noisy top has no saddle below midway between the threshold and 1) in at least 19 of 20.
   const ScanGrid g = square_grid(40, 40);
@@ -87,7 +89,64 @@ TEST(ParticleSplit, TouchingParticlesComeApartAndALargeOneStaysWhole) {
     large_whole += segment_particles(g, large, {}, spec).particles.size() == 1;
   }
   EXPECT_GE(touching_merged_plain, 18);
-  EXPECT_GE(touching_split, 8);
+  EXPECT_GE(touching_split, 17);
   EXPECT_GE(near_split, 18);
   EXPECT_GE(large_whole, 19);
+}
+
+namespace {
+
+/// Labels 1 on the points inside any of the shapes (a point is inside a disc (row, col, radius) or
+/// inside an ellipse given as a disc stretched by `stretch` along the columns), 0 elsewhere.
+std::vector<int32_t> shapes(const ScanGrid& g, const std::vector<std::array<double, 3>>& d, double stretch = 1) {
+  std::vector<int32_t> label(g.count(), 0);
+  for (size_t k = 0; k < label.size(); ++k) {
+    const Eigen::Vector2d x = g.position_um(g.point(k)) / g.step_um;
+    for (const auto& c : d)
+      if (std::hypot(x.y() - c[0], (x.x() - c[1]) / stretch) <= c[2]) label[k] = 1;
+  }
+  return label;
+}
+
+size_t parts(const std::vector<int32_t>& label) {
+  return std::set<int32_t>(label.begin(), label.end()).size() - 1;  // 0 is not a part
+}
+
+}  // namespace
+
+TEST(ParticleSplit, TouchingSectionsOfUniformFractionComeApartByTheirOutline) {
+  // Sections that the map shows at a uniform fraction, with no dip between them, are one connected
+  // part; their outline has a neck. Geometry by construction: two discs of radius R whose centres
+  // lie 2R apart meet at a point, so the distance maximum of each (≈ R) stands about R − 1 steps
+  // above the neck's saddle. On a hexagonal grid the rows meet the contact point obliquely: up to
+  // R = 3 steps the discretised contact is a neck three rows thick round a one-point hole (the hole
+  // counts as the part), which the rule leaves whole; from 3.5 steps it is cut.
+  for (GridKind kind : {GridKind::square, GridKind::hexagonal}) {
+    ScanGrid g = square_grid(30, 40);
+    g.kind = kind;
+    const bool square = kind == GridKind::square;
+    const int conn = square ? 8 : 6;
+    for (double r : square ? std::array{2.5, 3.0, 4.0} : std::array{3.5, 4.0, 5.0}) {
+      const auto pair = shapes(g, {{{15, 20 - r, r}}, {{15, 20 + r, r}}});
+      EXPECT_EQ(parts(split_by_shape(g, pair, 1.0, conn)), 2u) << "two discs of radius " << r << (kind == GridKind::square ? " (square)" : " (hexagonal)");
+      // Of unequal size (radius r and r + 1).
+      const auto unequal = shapes(g, {{{15, 19 - r, r + 1}}, {{15, 20 + r, r}}});
+      EXPECT_EQ(parts(split_by_shape(g, unequal, 1.0, conn)), 2u) << "discs of radius " << r << ", " << r + 1;
+    }
+    // Three in a row.
+    const double c = square ? 3 : 4;
+    const auto chain = shapes(g, {{{15, 10 - 2 * c, c}}, {{15, 10, c}}, {{15, 10 + 2 * c, c}}});
+    EXPECT_EQ(parts(split_by_shape(g, chain, 1.0, conn)), 3u);
+    // One round or elongated body has no neck and stays whole, whatever its size on the grid.
+    for (double r : {2.0, 3.0, 5.0, 8.0})
+      EXPECT_EQ(parts(split_by_shape(g, shapes(g, {{{15, 20, r}}}), 1.0, conn)), 1u) << "disc of radius " << r;
+    for (double r : {2.0, 3.0, 4.0})
+      EXPECT_EQ(parts(split_by_shape(g, shapes(g, {{{15, 20, r}}}, 2.0), 1.0, conn)), 1u)
+          << "ellipse of half axes " << 2 * r << " and " << r;
+    // Parts already apart stay apart and keep their points; off: nothing changes.
+    const auto apart = shapes(g, {{{8, 10, 3}}, {{22, 30, 3}}});
+    const auto split = split_by_shape(g, apart, 1.0, conn);
+    EXPECT_EQ(parts(split), 2u);
+    for (size_t k = 0; k < apart.size(); ++k) EXPECT_EQ(split[k] > 0, apart[k] > 0);
+  }
 }

@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <map>
 #include <numeric>
 #include <queue>
 
@@ -91,7 +92,7 @@ std::vector<float> maxima_dynamics(const ScanGrid& grid, const std::vector<float
 
 std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<float>& g,
                                       const std::vector<uint8_t>& inside, double depth, double max_saddle,
-                                      int connectivity) {
+                                      int connectivity, double max_saddle_share) {
   const size_t n = g.size();
   if (inside.size() != n) fail("splitting: ", inside.size(), " flags for ", n, " points");
   std::vector<int32_t> label(n, 0);
@@ -101,7 +102,8 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
   if (std::isfinite(depth)) {
     const std::vector<float> dynamic = maxima_dynamics(grid, g, connectivity);
     for (size_t k = 0; k < n; ++k)
-      if (inside[k] && !std::isnan(g[k]) && dynamic[k] >= depth && g[k] - dynamic[k] <= max_saddle)
+      if (inside[k] && !std::isnan(g[k]) && dynamic[k] >= depth && g[k] - dynamic[k] <= max_saddle &&
+          g[k] - dynamic[k] <= max_saddle_share * g[k])
         label[k] = ++next, queue.push({g[k], k});
   }
   // A connected part of `inside` without a marker keeps its highest point as one.
@@ -127,6 +129,102 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
       if (inside[j] && !label[j] && !std::isnan(g[j])) label[j] = label[k], queue.push({g[j], j});
   }
   return label;
+}
+
+namespace {
+
+/// One part's points and the box around them with a margin of one point (its first row even, so a
+/// hexagonal box keeps the parity of its rows).
+struct PartBox {
+  std::vector<size_t> points;
+  int row0 = 0, col0 = 0, row1 = -1, col1 = -1;
+  ScanGrid local(const ScanGrid& grid) const {
+    return {grid.kind, row1 - row0 + 1, col1 - col0 + 1, grid.step_um};
+  }
+};
+
+std::map<int32_t, PartBox> part_boxes(const ScanGrid& grid, const std::vector<int32_t>& label) {
+  std::map<int32_t, PartBox> parts;
+  for (size_t k = 0; k < label.size(); ++k) {
+    if (label[k] <= 0) continue;
+    PartBox& b = parts[label[k]];
+    const GridPoint p = grid.point(k);
+    if (b.points.empty()) b.row0 = b.row1 = p.row, b.col0 = b.col1 = p.col;
+    b.row0 = std::min(b.row0, p.row), b.row1 = std::max(b.row1, p.row);
+    b.col0 = std::min(b.col0, p.col), b.col1 = std::max(b.col1, p.col);
+    b.points.push_back(k);
+  }
+  for (auto& [id, b] : parts) {
+    b.row0 = std::max(0, b.row0 - 1), b.col0 = std::max(0, b.col0 - 1);
+    b.row1 = std::min(grid.rows - 1, b.row1 + 1), b.col1 = std::min(grid.cols - 1, b.col1 + 1);
+    if (grid.kind == GridKind::hexagonal && b.row0 % 2) --b.row0;
+  }
+  return parts;
+}
+
+/// The part with every point it encloses: the box points not reached from the box's edge through
+/// points off the part (the box has a margin, so the outside always touches its edge).
+std::vector<uint8_t> with_holes_filled(const ScanGrid& local, const std::vector<uint8_t>& in_part, int connectivity) {
+  std::vector<uint8_t> filled(in_part.size(), 1);
+  std::vector<size_t> queue;
+  for (size_t q = 0; q < local.count(); ++q) {
+    const GridPoint p = local.point(q);
+    const bool edge = p.row == 0 || p.col == 0 || p.row == local.rows - 1 || p.col == local.cols - 1;
+    if (edge && !in_part[q]) filled[q] = 0, queue.push_back(q);
+  }
+  for (size_t head = 0; head < queue.size(); ++head)
+    for (size_t j : neighbour_indices(local, queue[head], connectivity))
+      if (filled[j] && !in_part[j]) filled[j] = 0, queue.push_back(j);
+  return filled;
+}
+
+/// Distance in steps from each point of the part to the nearest box point outside it (infinite
+/// where the box holds none); NaN off the part.
+std::vector<float> distance_inside(const ScanGrid& local, const std::vector<uint8_t>& in_part) {
+  std::vector<Eigen::Vector2d> outside;
+  for (size_t q = 0; q < local.count(); ++q)
+    if (!in_part[q]) outside.push_back(local.position_um(local.point(q)));
+  std::vector<float> d(local.count(), std::nanf(""));
+  for (size_t q = 0; q < local.count(); ++q) {
+    if (!in_part[q]) continue;
+    const Eigen::Vector2d x = local.position_um(local.point(q));
+    double best = std::numeric_limits<double>::infinity();
+    for (const Eigen::Vector2d& o : outside) best = std::min(best, (o - x).norm());
+    d[q] = static_cast<float>(best / local.step_um);
+  }
+  return d;
+}
+
+}  // namespace
+
+std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
+                                    int connectivity) {
+  if (label.size() != grid.count()) fail("splitting: ", label.size(), " labels for ", grid.count(), " points");
+  std::vector<int32_t> out(label.size(), 0);
+  std::map<std::pair<int32_t, int32_t>, int32_t> renumber;  // (part, piece) → label, in scan order below
+  std::vector<std::pair<int32_t, int32_t>> piece_of(label.size(), {0, 0});
+  for (const auto& [id, b] : part_boxes(grid, label)) {
+    const ScanGrid local = b.local(grid);
+    std::vector<uint8_t> in_part(local.count(), 0);
+    auto local_index = [&](size_t k) {
+      const GridPoint p = grid.point(k);
+      return local.index({p.row - b.row0, p.col - b.col0});
+    };
+    for (size_t k : b.points) in_part[local_index(k)] = 1;
+    const std::vector<float> d = distance_inside(local, with_holes_filled(local, in_part, connectivity));
+    const std::vector<int32_t> pieces = split_by_markers(local, d, in_part, depth_steps,
+                                                         std::numeric_limits<double>::infinity(), connectivity,
+                                                         kShapeNeckShare);
+    for (size_t k : b.points) piece_of[k] = {id, pieces[local_index(k)]};
+  }
+  int32_t next = 0;
+  for (size_t k = 0; k < label.size(); ++k) {
+    if (label[k] <= 0) continue;
+    const auto [it, fresh] = renumber.try_emplace(piece_of[k], next + 1);
+    if (fresh) ++next;
+    out[k] = it->second;
+  }
+  return out;
 }
 
 }  // namespace orderband

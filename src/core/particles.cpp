@@ -114,6 +114,8 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
     // one particle's top leaves saddles near 1; split only below midway between the threshold and 1.
     const double max_saddle = 0.5 * (seg.threshold + 1);
     label = split_by_markers(grid, smooth_map(grid, f, sigma), inside, depth, max_saddle, conn);
+    if (std::isfinite(spec.split_shape_depth_steps))
+      label = split_by_shape(grid, label, spec.split_shape_depth_steps, conn);
   } else {
     label_regions(
         grid, conn, [&](size_t k) { return inside[k] != 0; }, [](size_t, size_t) { return true; }, label);

@@ -732,6 +732,7 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
             {"split_touching", options.segment.split_touching},
             {"split_sigma_steps", options.segment.split_sigma_steps},
             {"split_depth_sd", options.segment.split_depth_sd},
+            {"split_shape_depth_steps", options.segment.split_shape_depth_steps},
             {"detection_max_false_particles", options.detection.max_false_particles},
             {"detection_noise_maps", options.detection.noise_maps},
             {"detection_seed", options.detection.seed},

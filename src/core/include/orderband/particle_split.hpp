@@ -25,8 +25,21 @@ std::vector<float> maxima_dynamics(const ScanGrid& grid, const std::vector<float
 /// always a marker). A part without a marker keeps its own highest point as one, so an infinite
 /// depth labels the plain connected parts. Flooding goes in descending order of
 /// g, each point taking the label of the neighbour it is reached from. 0: outside.
+/// `max_saddle_share`: a marker's saddle must also lie at or below this share of its own height.
 std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<float>& g,
                                       const std::vector<uint8_t>& inside, double depth, double max_saddle,
-                                      int connectivity);
+                                      int connectivity, double max_saddle_share = 1.0);
+
+/// Each labelled part split again by its shape: within the part's own points, the distance (in
+/// steps) of every point to the nearest point outside the part, and the part flooded from the
+/// maxima of that distance whose dynamic reaches `depth_steps` and whose saddle (the neck's half
+/// width) is at most kShapeNeckShare of the maximum (the body's inscribed radius). Touching
+/// sections that the map shows at a uniform fraction, with no dip between them, are told apart by
+/// their outline; the ragged outline of one large body (noise at the threshold) has no such neck.
+/// Holes (points enclosed by the part) count as the part, and points beyond the map's border do
+/// not count as outside. Labels are renumbered from 1 in scan order of the parts; 0 stays 0.
+inline constexpr double kShapeNeckShare = 0.7;
+std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
+                                    int connectivity);
 
 }  // namespace orderband

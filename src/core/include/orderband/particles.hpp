@@ -31,6 +31,9 @@ struct SegmentSpec {
   bool split_touching = true;
   double split_sigma_steps = 0.7;
   double split_depth_sd = 2.5;
+  /// Then each part split by its outline (split_by_shape): a neck whose distance maximum's dynamic
+  /// reaches this many steps separates two sections; infinity: off.
+  double split_shape_depth_steps = 1.0;
   double noise_sd = 0;  ///< per-point noise of the map (map sets it from the detection limit)
 };
 
