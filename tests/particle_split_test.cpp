@@ -128,7 +128,8 @@ TEST(ParticleSplit, TouchingSectionsOfUniformFractionComeApartByTheirOutline) {
     const int conn = square ? 8 : 6;
     for (double r : square ? std::array{2.5, 3.0, 4.0} : std::array{3.5, 4.0, 5.0}) {
       const auto pair = shapes(g, {{{15, 20 - r, r}}, {{15, 20 + r, r}}});
-      EXPECT_EQ(parts(split_by_shape(g, pair, 1.0, conn)), 2u) << "two discs of radius " << r << (kind == GridKind::square ? " (square)" : " (hexagonal)");
+      EXPECT_EQ(parts(split_by_shape(g, pair, 1.0, conn)), 2u)
+          << "two discs of radius " << r << (kind == GridKind::square ? " (square)" : " (hexagonal)");
       // Of unequal size (radius r and r + 1).
       const auto unequal = shapes(g, {{{15, 19 - r, r + 1}}, {{15, 20 + r, r}}});
       EXPECT_EQ(parts(split_by_shape(g, unequal, 1.0, conn)), 2u) << "discs of radius " << r << ", " << r + 1;

@@ -138,9 +138,7 @@ namespace {
 struct PartBox {
   std::vector<size_t> points;
   int row0 = 0, col0 = 0, row1 = -1, col1 = -1;
-  ScanGrid local(const ScanGrid& grid) const {
-    return {grid.kind, row1 - row0 + 1, col1 - col0 + 1, grid.step_um};
-  }
+  ScanGrid local(const ScanGrid& grid) const { return {grid.kind, row1 - row0 + 1, col1 - col0 + 1, grid.step_um}; }
 };
 
 std::map<int32_t, PartBox> part_boxes(const ScanGrid& grid, const std::vector<int32_t>& label) {
@@ -203,7 +201,9 @@ std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int3
   std::vector<int32_t> out(label.size(), 0);
   std::map<std::pair<int32_t, int32_t>, int32_t> renumber;  // (part, piece) → label, in scan order below
   std::vector<std::pair<int32_t, int32_t>> piece_of(label.size(), {0, 0});
-  for (const auto& [id, b] : part_boxes(grid, label)) {
+  for (const auto& part : part_boxes(grid, label)) {
+    const int32_t id = part.first;
+    const PartBox& b = part.second;  // (a structured binding cannot be captured by clang 14)
     const ScanGrid local = b.local(grid);
     std::vector<uint8_t> in_part(local.count(), 0);
     auto local_index = [&](size_t k) {
@@ -212,9 +212,8 @@ std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int3
     };
     for (size_t k : b.points) in_part[local_index(k)] = 1;
     const std::vector<float> d = distance_inside(local, with_holes_filled(local, in_part, connectivity));
-    const std::vector<int32_t> pieces = split_by_markers(local, d, in_part, depth_steps,
-                                                         std::numeric_limits<double>::infinity(), connectivity,
-                                                         kShapeNeckShare);
+    const std::vector<int32_t> pieces = split_by_markers(
+        local, d, in_part, depth_steps, std::numeric_limits<double>::infinity(), connectivity, kShapeNeckShare);
     for (size_t k : b.points) piece_of[k] = {id, pieces[local_index(k)]};
   }
   int32_t next = 0;
