@@ -211,6 +211,10 @@ std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int3
       return local.index({p.row - b.row0, p.col - b.col0});
     };
     for (size_t k : b.points) in_part[local_index(k)] = 1;
+    if (b.points.size() > kShapeSplitMaxPoints) {
+      for (size_t k : b.points) piece_of[k] = {id, 1};
+      continue;
+    }
     const std::vector<float> d = distance_inside(local, with_holes_filled(local, in_part, connectivity));
     const std::vector<int32_t> pieces = split_by_markers(
         local, d, in_part, depth_steps, std::numeric_limits<double>::infinity(), connectivity, kShapeNeckShare);

@@ -1,6 +1,7 @@
 // Touching particles split apart: markers from the significant maxima of the smoothed fraction map, then flooding.
 #pragma once
 
+#include <cstddef>
 #include <cstdint>
 #include <vector>
 
@@ -37,8 +38,13 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
 /// sections that the map shows at a uniform fraction, with no dip between them, are told apart by
 /// their outline; the ragged outline of one large body (noise at the threshold) has no such neck.
 /// Holes (points enclosed by the part) count as the part, and points beyond the map's border do
-/// not count as outside. Labels are renumbered from 1 in scan order of the parts; 0 stays 0.
+/// not count as outside. Parts of more than kShapeSplitMaxPoints points are left whole: the distance
+/// is found by brute force, points × points off the part in its box (a 200 × 200-point disc takes
+/// 0.5 s, and the time grows with the square of the points), and a section that large (about 80
+/// steps across) is no touching pair of secondary particles. Labels are renumbered from 1 in scan
+/// order of the parts; 0 stays 0.
 inline constexpr double kShapeNeckShare = 0.7;
+inline constexpr size_t kShapeSplitMaxPoints = 5000;
 std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
                                     int connectivity);
 
