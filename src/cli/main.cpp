@@ -41,6 +41,12 @@ std::string shortened(std::string what) {
 }
 
 /// The first argument when it is meant as a command (not an option) and names none.
+/// One error line in the documented form, `orderband COMMAND: error: ...`; exit status 1.
+int report_error(const CLI::App& sub, const std::string& message) {
+  std::fprintf(stderr, "orderband %s: error: %s\n", sub.get_name().c_str(), shortened(message).c_str());
+  return 1;
+}
+
 std::optional<std::string> unknown_command(int argc, char** argv) {
   if (argc < 2 || argv[1][0] == '-') return std::nullopt;
   for (const CommandEntry& c : commands())
@@ -85,25 +91,16 @@ int main(int argc, char** argv) {
     if (!sub->parsed()) continue;
     try {
       return run();
-    } catch (const orderband::Error& e) {
-      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());
-      return 1;
     } catch (const std::bad_alloc&) {
       // The library's own text ("std::bad_alloc") tells a user nothing.
-      std::fprintf(stderr,
-                   "orderband %s: error: out of memory: the run asked for more memory than this machine can give "
-                   "(check the grid and pattern sizes, or run on a larger machine)\n",
-                   sub->get_name().c_str());
-      return 1;
+      return report_error(*sub,
+                          "out of memory: the run asked for more memory than this machine can give (check the grid "
+                          "and pattern sizes, or run on a larger machine)");
     } catch (const std::length_error&) {
-      std::fprintf(stderr,
-                   "orderband %s: error: a size beyond what any array can hold was asked for (check the grid and "
-                   "pattern sizes)\n",
-                   sub->get_name().c_str());
-      return 1;
-    } catch (const std::exception& e) {
-      std::fprintf(stderr, "orderband %s: error: %s\n", sub->get_name().c_str(), shortened(e.what()).c_str());
-      return 1;
+      return report_error(*sub,
+                          "a size beyond what any array can hold was asked for (check the grid and pattern sizes)");
+    } catch (const std::exception& e) {  // orderband::Error among them
+      return report_error(*sub, e.what());
     }
   }
   return 2;
