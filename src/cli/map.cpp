@@ -25,6 +25,11 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
          "smallest particle in points; 0: from the detection limit (the size the map's noise alone rarely makes)")
       ->check(finite_within(0, 1e9, false, false))
       ->capture_default_str();
+  sub.add_option("--split-elongated", o.split_elongated,
+                 "aspect ratio from which a particle's outline is cut into two touching sections (sections of "
+                 "near-equiaxed particles are near-circular); 0: off, for plates, rafts or needles")
+      ->check(finite_within(0, 100, false, false))
+      ->capture_default_str();
   sub.add_option("--class-bounds", o.class_bounds,
                  "lower ECD bounds of the secondary and primary classes (µm), e.g. 0.1 1.0")
       ->check(finite_within(0, 1000, true, false))

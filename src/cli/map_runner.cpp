@@ -2,6 +2,7 @@
 #include "map_runner.hpp"
 
 #include <functional>
+#include <limits>
 
 #include "command.hpp"
 #include "orderband/error.hpp"
@@ -16,6 +17,11 @@ MapOptions to_map_options(const MapRunOptions& o) {
   m.segment.threshold = o.threshold;
   m.segment.square_connectivity = o.connectivity;
   m.segment.min_points = o.min_particle;
+  if (o.split_elongated > 0 && o.split_elongated < 1.2)
+    fail("--split-elongated must be 0 (off) or at least 1.2 (a disc's outline on the grid reads up to about 1.2), got ",
+         o.split_elongated);
+  m.segment.split_elongated_aspect =
+      o.split_elongated > 0 ? o.split_elongated : std::numeric_limits<double>::infinity();
   if (o.class_bounds.size() != 2 || !(o.class_bounds[0] > 0) || !(o.class_bounds[1] > o.class_bounds[0]))
     fail("--class-bounds needs two increasing positive ECDs in µm (secondary from, primary from)");
   m.classes.lower_um = {0.0, o.class_bounds[0], o.class_bounds[1]};

@@ -14,7 +14,8 @@ struct MapRunOptions {
   double threshold = 0.5;
   bool otsu = false;
   int connectivity = 8;
-  int min_particle = 0;  ///< 0: from the detection limit
+  int min_particle = 0;          ///< 0: from the detection limit
+  double split_elongated = 1.7;  ///< aspect ratio from which an outline is cut into two sections; 0: off
   std::vector<double> class_bounds{0.1, 1.0};
   double grain_threshold = 5.0;
   bool index_every_point = false;  ///< no orientations from the row above (OrientSpec::from_neighbours)

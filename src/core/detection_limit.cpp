@@ -3,7 +3,10 @@
 
 #include <algorithm>
 #include <cmath>
+#include <map>
 #include <random>
+#include <tuple>
+#include <utility>
 #include <vector>
 
 #include <boost/math/quadrature/gauss.hpp>
@@ -36,7 +39,133 @@ double beam_share_inside(double r, double x, double y, const BeamFootprint& beam
   return a < b ? boost::math::quadrature::gauss<double, 40>::integrate(weighted, a, b) : 0.0;
 }
 
+/// One simulated section's map: isolated disc (diameter d, centre c in µm) on the patch grid at
+/// level m + (1 − m)·(the beam's share inside it), plus Gaussian noise.
+std::vector<float> section_map(const ScanGrid& patch, const BeamFootprint& beam, double d, const Eigen::Vector2d& c,
+                               double m, std::normal_distribution<float>& noise, std::mt19937_64& rng) {
+  const double r = 0.5 * d, reach_x = r + 6 * beam.sigma_x_um, reach_y = r + 6 * beam.sigma_y_um;
+  std::vector<float> f(patch.count());
+  for (size_t k = 0; k < patch.count(); ++k) {
+    const Eigen::Vector2d x = patch.position_um(patch.point(k)) - c;
+    const double share =
+        std::abs(x.x()) < reach_x && std::abs(x.y()) < reach_y ? beam_share_inside(r, x.x(), x.y(), beam) : 0.0;
+    f[k] = static_cast<float>(m + (1 - m) * share) + noise(rng);
+  }
+  return f;
+}
+
+/// The ECD of the particle that holds most of the disc's own points (0: none found).
+double found_section_ecd(const ScanGrid& patch, const Segmentation& s, const Eigen::Vector2d& c, double d) {
+  std::map<int32_t, int> hits;
+  const double r2 = std::max(0.25 * d * d, 0.25 * patch.step_um * patch.step_um);
+  for (size_t k = 0; k < patch.count(); ++k)
+    if (s.label[k] > 0 && (patch.position_um(patch.point(k)) - c).squaredNorm() <= r2) ++hits[s.label[k]];
+  if (hits.empty()) return 0;
+  const auto best = std::max_element(hits.begin(), hits.end(), [](auto& a, auto& b) { return a.second < b.second; });
+  for (const Particle2D& p : s.particles)
+    if (p.id == best->first) return p.ecd_um;
+  return 0;
+}
+
+/// The transfer over diameters from 0.4 to 4 times `d_ref`: each diameter's discs at random
+/// offsets within a cell of the patch centre, segmented with `seg`.
+SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& beam, double m, double sd,
+                                  const SegmentSpec& seg, const DetectionLimitSpec& spec, double d_ref) {
+  const int diameters = 30;
+  const double d_lo = 0.4 * d_ref, d_hi = 4 * d_ref;
+  ScanGrid patch = grid;
+  const double reach = d_hi + 12 * std::max(beam.sigma_x_um, beam.sigma_y_um) + 6 * grid.step_um;
+  patch.cols = static_cast<int>(std::ceil(reach / grid.step_um)) + 1;
+  patch.rows = static_cast<int>(std::ceil(reach / grid.row_spacing_um())) + 1;
+  const Eigen::Vector2d centre = patch.position_um({patch.rows / 2, patch.cols / 2});
+  std::mt19937_64 rng(spec.seed + 1);
+  std::normal_distribution<float> noise(0.0f, static_cast<float>(sd));
+  std::uniform_real_distribution<double> offset(-0.5, 0.5);
+  SectionTransfer t;
+  for (int i = 0; i < diameters; ++i) {
+    const double d = d_lo * std::pow(d_hi / d_lo, i / double(diameters - 1));
+    int found = 0;
+    double sum = 0;
+    for (int disc = 0; disc < spec.transfer_discs; ++disc) {
+      const Eigen::Vector2d c =
+          centre + Eigen::Vector2d(offset(rng) * grid.step_um, offset(rng) * grid.row_spacing_um());
+      const std::vector<float> f = section_map(patch, beam, d, c, m, noise, rng);
+      const double ecd = found_section_ecd(patch, segment_particles(patch, f, {}, seg), c, d);
+      if (ecd > 0) ++found, sum += ecd;
+    }
+    t.true_um.push_back(d);
+    t.found.push_back(found / double(spec.transfer_discs));
+    t.measured_um.push_back(found ? sum / found : 0.0);
+  }
+  // Below the first found diameter the reading is undefined: carry it down; then non-decreasing.
+  for (size_t i = t.measured_um.size(); i-- > 1;)
+    if (t.measured_um[i - 1] <= 0) t.measured_um[i - 1] = t.measured_um[i];
+  for (size_t i = 1; i < t.measured_um.size(); ++i) t.measured_um[i] = std::max(t.measured_um[i], t.measured_um[i - 1]);
+  return t;
+}
+
+/// The smallest simulated diameter at which the share found reaches p (linear between diameters).
+double diameter_found_with(const SectionTransfer& t, double p) {
+  for (size_t i = 0; i < t.found.size(); ++i) {
+    if (t.found[i] < p) continue;
+    if (i == 0) return t.true_um[0];
+    const double w = (p - t.found[i - 1]) / std::max(t.found[i] - t.found[i - 1], 1e-12);
+    return t.true_um[i - 1] + w * (t.true_um[i] - t.true_um[i - 1]);
+  }
+  return t.true_um.empty() ? 0.0 : t.true_um.back();
+}
+
+/// The smallest component size the matrix's noise alone makes at most max_false_particles times
+/// per map (simulated maps), and that rate.
+std::pair<int, double> noise_component_size(const ScanGrid& grid, double m, double sd, const SegmentSpec& segment,
+                                            const DetectionLimitSpec& spec) {
+  std::mt19937_64 rng(spec.seed);
+  std::normal_distribution<float> noise(static_cast<float>(m), static_cast<float>(sd));
+  std::vector<double> at_least(grid.count() + 2, 0.0);
+  SegmentSpec seg = segment;
+  seg.min_points = 1;
+  seg.exclude_border = false;
+  std::vector<float> f(grid.count());
+  for (int map = 0; map < spec.noise_maps; ++map) {
+    for (float& v : f) v = noise(rng);
+    for (const Particle2D& p : segment_particles(grid, f, {}, seg).particles) at_least[p.points] += 1;
+  }
+  for (size_t s = grid.count(); s-- > 0;) at_least[s] += at_least[s + 1];
+  int min_points = 1;
+  while (at_least[min_points] / spec.noise_maps > spec.max_false_particles) ++min_points;
+  return {min_points, at_least[min_points] / spec.noise_maps};
+}
+
 }  // namespace
+
+double SectionTransfer::reading_at(double d_um) const {
+  if (true_um.empty()) return d_um;
+  if (d_um <= true_um.front()) return measured_um.front() * d_um / true_um.front();
+  if (d_um >= true_um.back()) return d_um + (measured_um.back() - true_um.back());
+  const size_t i = std::upper_bound(true_um.begin(), true_um.end(), d_um) - true_um.begin();
+  const double w = (d_um - true_um[i - 1]) / (true_um[i] - true_um[i - 1]);
+  return measured_um[i - 1] + w * (measured_um[i] - measured_um[i - 1]);
+}
+
+double SectionTransfer::corrected(double ecd_um) const {
+  if (true_um.empty() || !(measured_um.front() > 0)) return ecd_um;
+  if (ecd_um >= measured_um.back()) return ecd_um - (measured_um.back() - true_um.back());
+  // Below the reading at from_um the curve is flat (small sections read what the noise makes of
+  // them) and its inverse would scatter readings over a wide range of diameters: proportional.
+  const double from = std::max(from_um, true_um.front()), floor = reading_at(from);
+  if (ecd_um <= floor) return ecd_um * from / floor;
+  const size_t i = std::upper_bound(measured_um.begin(), measured_um.end(), ecd_um) - measured_um.begin();
+  const double span = measured_um[i] - measured_um[i - 1];
+  const double w = span > 0 ? (ecd_um - measured_um[i - 1]) / span : 0.0;
+  return true_um[i - 1] + w * (true_um[i] - true_um[i - 1]);
+}
+
+void correct_section_diameters(const SectionTransfer& transfer, Segmentation& seg) {
+  for (Particle2D& p : seg.particles) {
+    p.section_diameter_um = transfer.corrected(p.ecd_um);
+    p.class_diameter_um = transfer.corrected(p.class_diameter_um);
+  }
+}
 
 double expected_points_above(const ScanGrid& grid, const BeamFootprint& beam, double d, double m, double sd, double t) {
   if (!(d > 0)) return 0.0;
@@ -62,39 +191,35 @@ DetectionLimit detection_limit(const ScanGrid& grid, const BeamFootprint& beam, 
     fail("detection limit: the map's noise must be >= 0, got ", noise_sd);
   if (!std::isfinite(matrix_level)) fail("detection limit: the matrix level must be finite");
   if (!(spec.noise_maps >= 1)) fail("detection limit: at least one noise map is needed");
-  if (!(matrix_level < spec.threshold))
-    fail("detection limit: the matrix level ", matrix_level, " is not below the threshold ", spec.threshold);
+  if (!(spec.transfer_discs >= 1)) fail("detection limit: at least one simulated section per diameter is needed");
+  if (!(spec.detection_probability > 0 && spec.detection_probability < 1))
+    fail("detection limit: the detection probability must be within (0, 1), got ", spec.detection_probability);
+  const double threshold = spec.segment.threshold;
+  if (!(matrix_level < threshold))
+    fail("detection limit: the matrix level ", matrix_level, " is not below the threshold ", threshold);
   DetectionLimit lim;
-  lim.noise_sd = noise_sd, lim.matrix_level = matrix_level;
+  lim.noise_sd = noise_sd, lim.matrix_level = matrix_level, lim.detection_probability = spec.detection_probability;
   // 1. The smallest component the noise alone rarely makes: components by size over simulated maps.
-  std::mt19937_64 rng(spec.seed);
-  std::normal_distribution<float> noise(static_cast<float>(matrix_level), static_cast<float>(noise_sd));
-  std::vector<double> at_least(grid.count() + 2, 0.0);
-  SegmentSpec seg;
-  seg.threshold = spec.threshold;
-  seg.square_connectivity = spec.connectivity;
-  seg.exclude_border = false;
-  std::vector<float> f(grid.count());
-  for (int map = 0; map < spec.noise_maps; ++map) {
-    for (float& v : f) v = noise(rng);
-    for (const Particle2D& p : segment_particles(grid, f, {}, seg).particles) at_least[p.points] += 1;
-  }
-  for (size_t s = grid.count(); s-- > 0;) at_least[s] += at_least[s + 1];
-  lim.min_points = 1;
-  while (at_least[lim.min_points] / spec.noise_maps > spec.max_false_particles) ++lim.min_points;
-  lim.false_particles = at_least[lim.min_points] / spec.noise_maps;
+  std::tie(lim.min_points, lim.false_particles) =
+      noise_component_size(grid, matrix_level, noise_sd, spec.segment, spec);
   const double cell = grid.step_um * grid.row_spacing_um();
   lim.noise_diameter_um = 2 * std::sqrt(lim.min_points * cell / M_PI);
-  // 2. The smallest section giving min_points points above the threshold on average (bisection:
-  // the count grows with the diameter).
-  auto points = [&](double d) { return expected_points_above(grid, beam, d, matrix_level, noise_sd, spec.threshold); };
+  // 2. The section giving min_points points above the threshold on average (bisection: the count
+  // grows with the diameter): about half of such sections are found. It scales the transfer.
+  auto points = [&](double d) { return expected_points_above(grid, beam, d, matrix_level, noise_sd, threshold); };
   double lo = 0, hi = lim.noise_diameter_um;
   while (points(hi) < lim.min_points && hi < 1e3 * lim.noise_diameter_um) lo = hi, hi *= 2;
   for (int it = 0; it < 40; ++it) {
     const double mid = 0.5 * (lo + hi);
     (points(mid) < lim.min_points ? lo : hi) = mid;
   }
-  lim.diameter_um = std::max(hi, lim.noise_diameter_um);
+  // 3. The transfer: sections of known diameter through the map's blur, noise and segmentation.
+  SegmentSpec seg = spec.segment;
+  seg.min_points = lim.min_points, seg.noise_sd = noise_sd, seg.exclude_border = false;
+  lim.transfer = simulate_transfer(grid, beam, matrix_level, noise_sd, seg, spec, std::max(hi, lim.noise_diameter_um));
+  lim.half_found_um = diameter_found_with(lim.transfer, 0.5);
+  lim.diameter_um = std::max(diameter_found_with(lim.transfer, spec.detection_probability), lim.noise_diameter_um);
+  lim.transfer.from_um = lim.diameter_um;
   return lim;
 }
 

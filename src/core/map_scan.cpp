@@ -12,6 +12,14 @@
 namespace orderband {
 namespace {
 
+/// The segmentation as given, with the elongation split kept to sections below the largest class.
+SegmentSpec map_segment_spec(const MapOptions& options) {
+  SegmentSpec segment = options.segment;
+  if (!options.classes.lower_um.empty())
+    segment.split_elongated_max_ecd_um = std::min(segment.split_elongated_max_ecd_um, options.classes.lower_um.back());
+  return segment;
+}
+
 /// The detection limit of the fraction map: its per-point noise is the median standard error of
 /// the points, its matrix level the sub-resolution fraction (the matrix's mean).
 DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResults& fraction,
@@ -23,11 +31,12 @@ DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResul
                                   : (std::nth_element(se.begin(), se.begin() + se.size() / 2, se.end()),
                                      static_cast<double>(se[se.size() / 2]));
   DetectionLimitSpec spec = options.detection;
-  spec.threshold =
+  spec.segment = map_segment_spec(options);
+  spec.segment.method = ThresholdMethod::fixed;
+  spec.segment.threshold =
       options.segment.method == ThresholdMethod::otsu ? otsu_threshold(fraction.fraction) : options.segment.threshold;
-  spec.connectivity = options.segment.square_connectivity;
   const double level = std::isfinite(fraction.subresolution_fraction)
-                           ? std::clamp(fraction.subresolution_fraction, 0.0, 0.9 * spec.threshold)
+                           ? std::clamp(fraction.subresolution_fraction, 0.0, 0.9 * spec.segment.threshold)
                            : 0.0;
   return detection_limit(config.grid, beam_footprint(config), level, noise, spec);
 }
@@ -42,7 +51,7 @@ void fit_secondary_sizes(const ScanGrid& grid, const SizeClasses& classes, int u
                        r.segmentation.usable_points * grid.step_um * grid.row_spacing_um(),
                        grid.step_um / std::sqrt(12.0)};
   for (const Particle2D& p : r.segmentation.particles)
-    if (p.size_class == secondary && !p.touches_border) sample.diameter_um.push_back(p.ecd_um);
+    if (p.size_class == secondary && !p.touches_border) sample.diameter_um.push_back(p.section_diameter_um);
   if (!(sample.area_um2 > 0)) return;
   r.secondary_lognormal = fit_sphere_sizes(sample, SphereSizeModel::lognormal);
   r.secondary_lsw = fit_sphere_sizes(sample, SphereSizeModel::lsw);
@@ -199,7 +208,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
 
   const ScanGrid& grid = config.grid;
   r.detection = map_detection_limit(config, r.fraction, options);
-  SegmentSpec segment = options.segment;
+  SegmentSpec segment = map_segment_spec(options);
   if (segment.min_points <= 0) segment.min_points = r.detection.min_points;
   segment.noise_sd = r.detection.noise_sd;
   SizeClasses classes = options.classes;
@@ -207,6 +216,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
   // The unclipped estimates: clipping at 0 and 1 flattens the noise the split relies on (the
   // threshold picks the same points either way).
   r.segmentation = segment_particles(grid, r.fraction.raw, r.orientations.grains.id, segment);
+  correct_section_diameters(r.detection.transfer, r.segmentation);
   r.classes = class_statistics(grid, r.segmentation, classes);
   r.e562 = astm_e562_ci(grid, r.fraction.raw, options.e562_tiles);
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);

@@ -7,6 +7,9 @@
 #include <map>
 #include <numeric>
 #include <queue>
+#include <utility>
+
+#include <Eigen/Eigenvalues>
 
 #include "orderband/error.hpp"
 
@@ -193,7 +196,74 @@ std::vector<float> distance_inside(const ScanGrid& local, const std::vector<uint
   return d;
 }
 
+/// The aspect ratio and major axis of points' positions (second moments, each point a cell).
+std::pair<double, Eigen::Vector2d> elongation(const std::vector<Eigen::Vector2d>& x, double cell_x, double cell_y) {
+  Eigen::Vector2d mean = Eigen::Vector2d::Zero();
+  for (const Eigen::Vector2d& v : x) mean += v;
+  mean /= static_cast<double>(x.size());
+  Eigen::Matrix2d m = Eigen::Matrix2d::Zero();
+  for (const Eigen::Vector2d& v : x) m += (v - mean) * (v - mean).transpose();
+  m /= static_cast<double>(x.size());
+  m(0, 0) += cell_x * cell_x / 12, m(1, 1) += cell_y * cell_y / 12;
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eig(m);
+  return {std::sqrt(eig.eigenvalues()(1) / std::max(eig.eigenvalues()(0), 1e-300)), eig.eigenvectors().col(1)};
+}
+
+/// Two-means of the positions, started from the halves across the major axis: per point, true for
+/// the second group.
+std::vector<bool> two_means(const std::vector<Eigen::Vector2d>& x, const Eigen::Vector2d& axis) {
+  Eigen::Vector2d mean = Eigen::Vector2d::Zero();
+  for (const Eigen::Vector2d& v : x) mean += v;
+  mean /= static_cast<double>(x.size());
+  std::vector<bool> side(x.size());
+  for (size_t i = 0; i < x.size(); ++i) side[i] = (x[i] - mean).dot(axis) > 0;
+  for (int it = 0; it < 20; ++it) {
+    Eigen::Vector2d c[2] = {Eigen::Vector2d::Zero(), Eigen::Vector2d::Zero()};
+    size_t n[2] = {0, 0};
+    for (size_t i = 0; i < x.size(); ++i) c[side[i]] += x[i], ++n[side[i]];
+    if (!n[0] || !n[1]) break;
+    c[0] /= static_cast<double>(n[0]), c[1] /= static_cast<double>(n[1]);
+    bool moved = false;
+    for (size_t i = 0; i < x.size(); ++i) {
+      const bool s = (x[i] - c[1]).squaredNorm() < (x[i] - c[0]).squaredNorm();
+      moved = moved || s != side[i];
+      side[i] = s;
+    }
+    if (!moved) break;
+  }
+  return side;
+}
+
 }  // namespace
+
+std::vector<std::vector<size_t>> split_elongated(const ScanGrid& grid, std::vector<std::vector<size_t>> parts,
+                                                 double max_aspect, int min_points, size_t max_points) {
+  std::vector<std::vector<size_t>> out;
+  while (!parts.empty()) {
+    std::vector<size_t> part = std::move(parts.back());
+    parts.pop_back();
+    if (part.size() > max_points || part.size() < 2 * static_cast<size_t>(std::max(min_points, 1))) {
+      out.push_back(std::move(part));
+      continue;
+    }
+    std::vector<Eigen::Vector2d> x;
+    for (size_t k : part) x.push_back(grid.position_um(grid.point(k)));
+    const auto [aspect, axis] = elongation(x, grid.step_um, grid.row_spacing_um());
+    const std::vector<bool> side = aspect >= max_aspect ? two_means(x, axis) : std::vector<bool>{};
+    std::vector<size_t> halves[2];
+    for (size_t i = 0; i < side.size(); ++i) halves[side[i]].push_back(part[i]);
+    if (halves[0].size() < static_cast<size_t>(min_points) || halves[1].size() < static_cast<size_t>(min_points)) {
+      out.push_back(std::move(part));
+      continue;
+    }
+    parts.push_back(std::move(halves[0]));
+    parts.push_back(std::move(halves[1]));
+  }
+  // Back in scan order of each part's first point.
+  for (std::vector<size_t>& p : out) std::sort(p.begin(), p.end());
+  std::sort(out.begin(), out.end(), [](const auto& a, const auto& b) { return a.front() < b.front(); });
+  return out;
+}
 
 std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
                                     int connectivity) {

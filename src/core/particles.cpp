@@ -50,7 +50,7 @@ double otsu_threshold(const std::vector<float>& values) {
 }
 
 std::string SizeClasses::classify(const Particle2D& p) const {
-  const double d = p.class_diameter_um > 0 ? p.class_diameter_um : p.ecd_um;
+  const double d = p.class_diameter_um > 0 ? p.class_diameter_um : p.section_diameter_um;
   if (d < detection_limit_um) return kUnresolvedClass;
   if (names.size() < 3) return classify(d);
   const double coarse = lower_um.back();
@@ -128,6 +128,12 @@ std::vector<std::vector<size_t>> particle_parts(const ScanGrid& grid, const std:
     const auto [it, fresh] = order.try_emplace(label[k], parts.size());
     if (fresh) parts.emplace_back();
     parts[it->second].push_back(k);
+  }
+  if (spec.split_touching && spec.noise_sd > 0 && std::isfinite(spec.split_elongated_aspect)) {
+    const double cell = grid.step_um * grid.row_spacing_um();
+    const double max_ecd = std::min(spec.split_elongated_max_ecd_um, 1e6);
+    const auto max_points = static_cast<size_t>(std::min(kPi / 4 * max_ecd * max_ecd / cell, 1e9));
+    parts = split_elongated(grid, std::move(parts), spec.split_elongated_aspect, spec.min_points, max_points);
   }
   return parts;
 }
@@ -207,7 +213,7 @@ Particle2D measure_particle(const ScanGrid& grid, const std::vector<float>& frac
     if (q.row == 0 || q.col == 0 || q.row == grid.rows - 1 || q.col == grid.cols - 1) p.touches_border = true;
   }
   p.centroid_x_um = sx / p.points, p.centroid_y_um = sy / p.points, p.mean_fraction = sf / p.points;
-  p.class_diameter_um = p.ecd_um;
+  p.section_diameter_um = p.class_diameter_um = p.ecd_um;
   if (p.touches_border) {
     const double fitted = free_boundary_circle_diameter(grid, members, [&](size_t j) { return provisional[j] != id; });
     if (fitted > p.class_diameter_um) p.class_diameter_um = fitted;
@@ -281,7 +287,7 @@ std::vector<ClassStats> class_statistics(const ScanGrid& grid, Segmentation& seg
     }
     const size_t c = std::find(classes.names.begin(), classes.names.end(), p.size_class) - classes.names.begin();
     out[c].area_fraction += p.area_um2 / analysed;
-    if (!p.touches_border) ecds[c].push_back(p.ecd_um);
+    if (!p.touches_border) ecds[c].push_back(p.section_diameter_um);
   }
   for (size_t c = 0; c < out.size(); ++c) {
     auto& e = ecds[c];

@@ -221,9 +221,10 @@ std::string as_div(const std::vector<std::string>& charts) {
 std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
   std::vector<double> d;
   for (const Particle2D& p : r.segmentation.particles)
-    if (!p.touches_border) d.push_back(p.ecd_um);
-  SvgPlot p(560, 300, "equivalent-circle diameters of the particles (border particles left out)", "ECD (µm)",
-            "particles");
+    if (!p.touches_border) d.push_back(p.section_diameter_um);
+  SvgPlot p(560, 300,
+            "section diameters of the particles (ECD corrected by the map's transfer; border particles left out)",
+            "section diameter (µm)", "particles");
   if (d.empty()) return p.render();
   const double dmax = *std::max_element(d.begin(), d.end()) * 1.05;
   const int bins = std::clamp(static_cast<int>(std::sqrt(double(d.size()))) + 3, 8, 40);
@@ -260,7 +261,11 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
     << " per point about " << format_number("%.3f", r.detection.matrix_level) << ", makes "
     << format_number("%.2f", r.detection.false_particles) << " such components per map; beam footprint σ "
     << format_number("%.0f", beam.sigma_x_um * 1e3) << " × " << format_number("%.0f", beam.sigma_y_um * 1e3)
-    << " nm). At the limit about half the sections are found.</p>"
+    << " nm). At the limit " << format_number("%.0f", 100 * r.detection.detection_probability)
+    << " % of isolated sections are found (simulated through the map's blur, noise and segmentation; half at "
+    << format_number("%.3f", r.detection.half_found_um)
+    << " µm). Sizes are section diameters: each particle's ECD taken back through that simulation's mean "
+       "reading (noise points at a small section's edge make it read larger).</p>"
     << "<table><tr><th>class</th><th>rule</th><th>count</th><th>area fraction</th>"
        "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
   for (size_t k = 0; k < r.classes.size(); ++k) {
@@ -309,6 +314,12 @@ void add_size_statistics(nlohmann::json& j, const MapResults& r, const ScanConfi
                           {"noise_sd", r.detection.noise_sd},
                           {"matrix_level", r.detection.matrix_level},
                           {"false_particles_per_map", r.detection.false_particles},
+                          {"detection_probability", r.detection.detection_probability},
+                          {"half_found_diameter_um", r.detection.half_found_um},
+                          {"transfer",
+                           {{"true_diameter_um", r.detection.transfer.true_um},
+                            {"mean_measured_ecd_um", r.detection.transfer.measured_um},
+                            {"found_share", r.detection.transfer.found}}},
                           {"beam_sigma_x_um", beam.sigma_x_um},
                           {"beam_sigma_y_um", beam.sigma_y_um}};
   nlohmann::json sizes3d = nlohmann::json::object();
@@ -456,13 +467,13 @@ std::string particle_table_csv(const MapResults& r, const std::string& provenanc
   std::ostringstream os;
   os << "# " << provenance << "\n"
      << "id,class,points,area_um2,ecd_um,centroid_x_um,centroid_y_um,aspect_ratio,major_axis_deg,mean_fraction,"
-        "host_grain,on_grain_boundary,touches_border,class_diameter_um\n";
+        "host_grain,on_grain_boundary,touches_border,class_diameter_um,section_diameter_um\n";
   for (const Particle2D& p : r.segmentation.particles) {
     char b[400];
-    std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d,%.6f\n", p.id,
+    std::snprintf(b, sizeof b, "%d,%s,%d,%.6f,%.6f,%.6f,%.6f,%.4f,%.2f,%.4f,%d,%d,%d,%.6f,%.6f\n", p.id,
                   p.size_class.c_str(), p.points, p.area_um2, p.ecd_um, p.centroid_x_um, p.centroid_y_um,
                   p.aspect_ratio, p.major_axis_deg, p.mean_fraction, p.host_grain, p.on_grain_boundary ? 1 : 0,
-                  p.touches_border ? 1 : 0, p.class_diameter_um);
+                  p.touches_border ? 1 : 0, p.class_diameter_um, p.section_diameter_um);
     os << b;
   }
   return os.str();
@@ -733,6 +744,9 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
             {"split_sigma_steps", options.segment.split_sigma_steps},
             {"split_depth_sd", options.segment.split_depth_sd},
             {"split_shape_depth_steps", options.segment.split_shape_depth_steps},
+            {"split_elongated_aspect", options.segment.split_elongated_aspect},
+            {"detection_probability", options.detection.detection_probability},
+            {"detection_transfer_discs", options.detection.transfer_discs},
             {"detection_max_false_particles", options.detection.max_false_particles},
             {"detection_noise_maps", options.detection.noise_maps},
             {"detection_seed", options.detection.seed},

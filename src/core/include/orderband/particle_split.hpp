@@ -48,4 +48,15 @@ inline constexpr size_t kShapeSplitMaxPoints = 5000;
 std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
                                     int connectivity);
 
+/// Parts (each a list of point indices) split by their elongation: a section of a near-equiaxed
+/// particle is near-circular, so a part whose second-moment aspect ratio (point cells of one step
+/// included, as Particle2D's) reaches `max_aspect` is taken for touching sections and cut in two by
+/// two-means on the point positions (started from the halves across its major axis), the halves
+/// split again the same way; a cut is kept only if each half holds at least `min_points` points.
+/// Parts of more than `max_points` points are left whole (bodies larger than the sections this is
+/// for). Two touching discs of radius 2 steps, whose neck the discretisation fills, read as a 2:1
+/// outline; one noisy disc of that size reads 1.1–1.6 (measured on synthetic maps).
+std::vector<std::vector<size_t>> split_elongated(const ScanGrid& grid, std::vector<std::vector<size_t>> parts,
+                                                 double max_aspect, int min_points, size_t max_points);
+
 }  // namespace orderband

@@ -2,6 +2,7 @@
 #pragma once
 
 #include <cstdint>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -34,6 +35,11 @@ struct SegmentSpec {
   /// Then each part split by its outline (split_by_shape): a neck whose distance maximum's dynamic
   /// reaches this many steps separates two sections; infinity: off.
   double split_shape_depth_steps = 1.0;
+  /// Then parts whose outline's aspect ratio reaches this are cut in two (split_elongated; sections
+  /// of near-equiaxed particles are near-circular); infinity: off (plates, rafts, needles). Parts
+  /// of an ECD above split_elongated_max_ecd_um (map: the largest class's lower bound) stay whole.
+  double split_elongated_aspect = 1.7;
+  double split_elongated_max_ecd_um = std::numeric_limits<double>::infinity();
   double noise_sd = 0;  ///< per-point noise of the map (map sets it from the detection limit)
 };
 
@@ -51,6 +57,9 @@ struct Particle2D {
   bool on_grain_boundary = false;  ///< its neighbours outside it belong to two or more grains
   bool own_orientation = false;    ///< it holds at least half of its host grain's points: a grain of its own
   bool touches_border = false;
+  /// The section's diameter corrected for how the map shows sections (the detection limit's
+  /// transfer: beam blur, threshold, noise); the ECD until map corrects it. Sizes are from it.
+  double section_diameter_um = 0;
   /// The diameter that decides the size class: the ECD, or for a particle cut by the map border
   /// the larger of its ECD and the diameter of the circle fitted to its free boundary (the cut
   /// section's ECD understates the particle: a half disc's is 0.71 of the disc's).
