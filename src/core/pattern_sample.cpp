@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "orderband/error.hpp"
+#include "orderband/preprocess.hpp"
 
 namespace orderband {
 namespace {
@@ -37,20 +38,7 @@ void find_likely_width(const std::vector<double>& mean, PatternSample& s) {
 /// pattern's median absolute deviation from the 3 × 3 median, as the hot-pixel filter measures
 /// it): isolated spikes. A sharp band edge, bright along its length, is not one.
 size_t count_isolated_spikes(const std::vector<float>& p, int w, int h, double threshold) {
-  std::vector<float> dev;
-  dev.reserve(p.size());
-  float nb[9];
-  for (int i = 0; i < h; ++i)
-    for (int j = 0; j < w; ++j) {
-      int k = 0;
-      for (int di = -1; di <= 1; ++di)
-        for (int dj = -1; dj <= 1; ++dj)
-          nb[k++] = p[static_cast<size_t>(std::clamp(i + di, 0, h - 1)) * w + std::clamp(j + dj, 0, w - 1)];
-      std::nth_element(nb, nb + 4, nb + 9);
-      dev.push_back(std::abs(p[static_cast<size_t>(i) * w + j] - nb[4]));
-    }
-  std::nth_element(dev.begin(), dev.begin() + dev.size() / 2, dev.end());
-  const double limit = threshold * 1.4826 * dev[dev.size() / 2];
+  const double limit = threshold * local_median_3x3(p.data(), w, h).mad;
   if (!(limit > 0)) return 0;
   size_t spikes = 0;
   for (int i = 1; i + 1 < h; ++i)

@@ -8,9 +8,10 @@
 
 namespace orderband {
 
-size_t filter_hot_pixels(float* p, int w, int h, double threshold) {
+LocalMedian local_median_3x3(const float* p, int w, int h) {
   const size_t n = static_cast<size_t>(w) * h;
-  std::vector<float> median(n), dev(n);
+  LocalMedian m;
+  m.median.resize(n), m.deviation.resize(n);
   float nb[9];
   for (int i = 0; i < h; ++i)
     for (int j = 0; j < w; ++j) {
@@ -22,17 +23,22 @@ size_t filter_hot_pixels(float* p, int w, int h, double threshold) {
         }
       std::nth_element(nb, nb + 4, nb + 9);
       const size_t q = static_cast<size_t>(i) * w + j;
-      median[q] = nb[4];
-      dev[q] = std::abs(p[q] - nb[4]);
+      m.median[q] = nb[4];
+      m.deviation[q] = std::abs(p[q] - nb[4]);
     }
-  std::vector<float> sorted = dev;
+  std::vector<float> sorted = m.deviation;
   std::nth_element(sorted.begin(), sorted.begin() + n / 2, sorted.end());
-  const double mad = 1.4826 * sorted[n / 2];
-  if (!(mad > 0)) return 0;
+  m.mad = 1.4826 * sorted[n / 2];
+  return m;
+}
+
+size_t filter_hot_pixels(float* p, int w, int h, double threshold) {
+  const LocalMedian m = local_median_3x3(p, w, h);
+  if (!(m.mad > 0)) return 0;
   size_t replaced = 0;
-  for (size_t q = 0; q < n; ++q)
-    if (dev[q] > threshold * mad) {
-      p[q] = median[q];
+  for (size_t q = 0; q < m.median.size(); ++q)
+    if (m.deviation[q] > threshold * m.mad) {
+      p[q] = m.median[q];
       ++replaced;
     }
   return replaced;

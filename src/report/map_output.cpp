@@ -256,7 +256,7 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
 void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& config, const SizeClasses& classes) {
   const BeamFootprint beam = beam_footprint(config);
   h << "<h2>Size classes</h2><p>Detection limit: sections of at least <b>"
-    << format_number("%.3f", r.detection.diameter_um) << " µm</b> ECD are counted (components of at least "
+    << format_number("%.3f", r.detection.diameter_um) << " µm</b> diameter are counted (components of at least "
     << r.detection.min_points << " points; the matrix's noise, σ " << format_number("%.3f", r.detection.noise_sd)
     << " per point about " << format_number("%.3f", r.detection.matrix_level) << ", makes "
     << format_number("%.2f", r.detection.false_particles) << " such components per map; beam footprint σ "
@@ -264,10 +264,12 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
     << " nm). At the limit " << format_number("%.0f", 100 * r.detection.detection_probability)
     << " % of isolated sections are found (simulated through the map's blur, noise and segmentation; half at "
     << format_number("%.3f", r.detection.half_found_um)
-    << " µm). Sizes are section diameters: each particle's ECD taken back through that simulation's mean "
-       "reading (noise points at a small section's edge make it read larger).</p>"
+    << " µm). Sizes are section diameters: each particle's equivalent-circle diameter (ECD) taken back through "
+       "that simulation's mean reading (noise points at a small section's edge make it read larger, the beam's "
+       "blur smaller).</p>"
     << "<table><tr><th>class</th><th>rule</th><th>count</th><th>area fraction</th>"
-       "<th>number density (µm⁻²)</th><th>mean ECD (µm)</th><th>median ECD (µm)</th></tr>";
+       "<th>number density (µm⁻²)</th><th>mean section diameter (µm)</th><th>median section diameter "
+       "(µm)</th></tr>";
   for (size_t k = 0; k < r.classes.size(); ++k) {
     const ClassStats& c = r.classes[k];
     const bool last = k + 1 == r.classes.size();
@@ -410,9 +412,9 @@ void write_truth_table(std::ostream& h, const nlohmann::json& truth, const MapRe
         format_number("%.0f", cls("secondary", "sections_resolved")) + " (" +
             format_number("%.2f", cls("secondary", "density_resolved_per_um2")) + ")",
         std::to_string(sec->count) + " (" + format_number("%.2f", sec->number_density_per_um2) + ")");
-    row("secondary mean ECD of those sections (µm)", format_number("%.4f", cls("secondary", "mean_ecd_resolved_um")),
-        format_number("%.4f", sec->mean_ecd_um));
-    row("secondary sections, all: count; mean ECD (µm)",
+    row("secondary mean section diameter of those sections (µm)",
+        format_number("%.4f", cls("secondary", "mean_ecd_resolved_um")), format_number("%.4f", sec->mean_ecd_um));
+    row("secondary sections, all: count; mean diameter (µm)",
         format_number("%.0f", cls("secondary", "sections_all")) + "; " +
             format_number("%.4f", cls("secondary", "mean_ecd_all_um")),
         fit ? "– ; " + format_number("%.4f", fit->mean_section_um) + " (" +

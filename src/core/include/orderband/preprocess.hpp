@@ -99,6 +99,14 @@ class Preprocessor {
   std::unique_ptr<GaussianBlur> blur_;
 };
 
+/// Each pixel's 3×3 median (edges clamped), its absolute deviation from it, and the scale of those
+/// deviations over the pattern: 1.4826 × their median (a normal spread's σ).
+struct LocalMedian {
+  std::vector<float> median, deviation;
+  double mad = 0;
+};
+LocalMedian local_median_3x3(const float* pattern, int width, int height);
+
 /// Replaces pixels deviating from their 3×3 median by more than
 /// `threshold` × 1.4826 × MAD (of the whole pattern's deviations) with the median.
 /// Returns the number of pixels replaced.
