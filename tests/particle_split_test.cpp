@@ -2,6 +2,7 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <array>
 #include <cmath>
 #include <filesystem>
@@ -200,4 +201,49 @@ TEST(ParticleSplit, ElongatedPartsAreCutIntoTheirSections) {
   EXPECT_EQ(split_elongated(g, {big_pair}, 1.7, min_points, big_pair.size() - 1).size(), 1u);
   EXPECT_EQ(split_elongated(g, {big_pair}, 1.7, min_points, big_pair.size()).size(), 2u);
   EXPECT_EQ(split_elongated(g, {chain}, std::numeric_limits<double>::infinity(), min_points, max_points).size(), 1u);
+}
+
+TEST(ParticleSplit, DistanceToOutsideAgreesWithScipyAndWithEveryPair) {
+  // Random blobs (a smoothed noise field above a level) with holes and ragged edges: on a square
+  // grid the distance equals scipy's exact Euclidean distance transform; on both grids it equals
+  // the minimum over every point off the part, computed here pair by pair.
+  const std::string dir = test::make_temp_dir("edt");
+  for (GridKind kind : {GridKind::square, GridKind::hexagonal}) {
+    ScanGrid g = square_grid(37, 53);
+    g.kind = kind;
+    const std::vector<float> f = smooth_map(g, discs(g, {}, 1.0, kind == GridKind::square ? 7 : 8), 2.0);
+    std::vector<uint8_t> in(g.count());
+    for (size_t k = 0; k < in.size(); ++k) in[k] = f[k] > 0.05f;  // the field's mean: about half inside
+    const size_t inside = std::count(in.begin(), in.end(), 1);
+    ASSERT_GT(inside, g.count() / 4);
+    ASSERT_LT(inside, 3 * g.count() / 4);
+    const std::vector<float> d = distance_to_outside(g, in);
+    double largest = 0;
+    for (size_t k = 0; k < in.size(); ++k) {
+      if (!in[k]) {
+        EXPECT_TRUE(std::isnan(d[k]));
+        continue;
+      }
+      double best = std::numeric_limits<double>::infinity();
+      for (size_t j = 0; j < in.size(); ++j)
+        if (!in[j]) best = std::min(best, (g.position_um(g.point(j)) - g.position_um(g.point(k))).norm() / g.step_um);
+      ASSERT_NEAR(d[k], best, 1e-5 * best) << k;
+      largest = std::max(largest, best);
+    }
+    EXPECT_GT(largest, 3.0);  // the blobs hold interiors, not only edges
+    if (kind != GridKind::square) continue;
+    std::ofstream(dir + "/in.u8", std::ios::binary).write(reinterpret_cast<const char*>(in.data()), in.size());
+    const auto r = test::run_reference_script("distance_reference.py", dir + "/in.u8 37 53");
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+    std::istringstream out(r.out);
+    for (size_t k = 0; k < in.size(); ++k) {
+      double v = -1;
+      out >> v;
+      if (in[k]) ASSERT_NEAR(d[k], v, 1e-5 * v) << k;
+    }
+  }
+  // No point off the part: infinitely far.
+  const ScanGrid g = square_grid(5, 6);
+  for (float v : distance_to_outside(g, std::vector<uint8_t>(g.count(), 1))) EXPECT_TRUE(std::isinf(v));
+  std::filesystem::remove_all(dir);
 }

@@ -179,22 +179,83 @@ std::vector<uint8_t> with_holes_filled(const ScanGrid& local, const std::vector<
   return filled;
 }
 
-/// Distance in steps from each point of the part to the nearest box point outside it (infinite
-/// where the box holds none); NaN off the part.
-std::vector<float> distance_inside(const ScanGrid& local, const std::vector<uint8_t>& in_part) {
-  std::vector<Eigen::Vector2d> outside;
-  for (size_t q = 0; q < local.count(); ++q)
-    if (!in_part[q]) outside.push_back(local.position_um(local.point(q)));
-  std::vector<float> d(local.count(), std::nanf(""));
-  for (size_t q = 0; q < local.count(); ++q) {
-    if (!in_part[q]) continue;
-    const Eigen::Vector2d x = local.position_um(local.point(q));
-    double best = std::numeric_limits<double>::infinity();
-    for (const Eigen::Vector2d& o : outside) best = std::min(best, (o - x).norm());
-    d[q] = static_cast<float>(best / local.step_um);
+/// The lower envelope of the parabolas (x − s_i)² + f_i (sites at sorted positions s_i, f_i ≥ 0;
+/// infinite f: no site) evaluated at the sorted queries x_j: Felzenszwalb & Huttenlocher, "Distance
+/// transforms of sampled functions", Theory of Computing 8 (2012) 415, §2 (written for any
+/// positions, not only integers). Infinity where there is no site.
+void lower_envelope(const std::vector<double>& site, const std::vector<double>& f, const std::vector<double>& query,
+                    std::vector<double>& out) {
+  const double inf = std::numeric_limits<double>::infinity();
+  std::vector<size_t> v;  // the parabolas of the envelope
+  std::vector<double> z;  // z[k]: where parabola v[k] starts to be the lowest
+  for (size_t q = 0; q < site.size(); ++q) {
+    if (!std::isfinite(f[q])) continue;
+    double start = -inf;
+    while (!v.empty()) {
+      const size_t p = v.back();
+      start = ((f[q] + site[q] * site[q]) - (f[p] + site[p] * site[p])) / (2 * (site[q] - site[p]));
+      if (start > z.back()) break;
+      v.pop_back(), z.pop_back();
+      start = -inf;
+    }
+    v.push_back(q), z.push_back(v.size() == 1 ? -inf : start);
   }
+  out.assign(query.size(), inf);
+  if (v.empty()) return;
+  size_t k = 0;
+  for (size_t j = 0; j < query.size(); ++j) {
+    while (k + 1 < v.size() && z[k + 1] < query[j]) ++k;
+    out[j] = (query[j] - site[v[k]]) * (query[j] - site[v[k]]) + f[v[k]];
+  }
+}
+
+}  // namespace
+
+std::vector<float> distance_to_outside(const ScanGrid& local, const std::vector<uint8_t>& in_part) {
+  if (in_part.size() != local.count()) fail("distance: ", in_part.size(), " flags for ", local.count(), " points");
+  const double inf = std::numeric_limits<double>::infinity();
+  // Point positions in steps: x = col (+ 0.5 on odd rows of a hexagonal grid), y = row × spacing.
+  const bool hex = local.kind == GridKind::hexagonal;
+  const double dy = local.row_spacing_um() / local.step_um;
+  auto x_of = [&](int row, int col) { return col + (hex && row % 2 ? 0.5 : 0.0); };
+  // 1. Per row, the squared distance along x from every column position of either parity to the
+  // row's nearest point off the part.
+  const int parities = hex ? 2 : 1;
+  std::vector<std::vector<double>> along(parities, std::vector<double>(local.count(), inf));
+  std::vector<double> site, zero, query, out;
+  for (int r = 0; r < local.rows; ++r) {
+    site.clear();
+    for (int c = 0; c < local.cols; ++c)
+      if (!in_part[local.index({r, c})]) site.push_back(x_of(r, c));
+    zero.assign(site.size(), 0.0);
+    for (int parity = 0; parity < parities; ++parity) {
+      query.clear();
+      for (int c = 0; c < local.cols; ++c) query.push_back(c + 0.5 * parity);
+      lower_envelope(site, zero, query, out);
+      for (int c = 0; c < local.cols; ++c) along[parity][local.index({r, c})] = out[c];
+    }
+  }
+  // 2. Per column position, down the rows: the envelope over the rows' distances at that position,
+  // read at the rows whose points stand there.
+  std::vector<float> d(local.count(), std::nanf(""));
+  std::vector<double> f(local.rows);
+  for (int parity = 0; parity < parities; ++parity)
+    for (int c = 0; c < local.cols; ++c) {
+      site.clear(), query.clear();
+      for (int r = 0; r < local.rows; ++r) site.push_back(r * dy), f[r] = along[parity][local.index({r, c})];
+      std::vector<int> rows;
+      for (int r = 0; r < local.rows; ++r)
+        if ((hex ? r % 2 : 0) == parity) rows.push_back(r), query.push_back(r * dy);
+      lower_envelope(site, f, query, out);
+      for (size_t j = 0; j < rows.size(); ++j) {
+        const size_t q = local.index({rows[j], c});
+        if (in_part[q]) d[q] = static_cast<float>(std::sqrt(out[j]));
+      }
+    }
   return d;
 }
+
+namespace {
 
 /// The aspect ratio and major axis of points' positions (second moments, each point a cell).
 std::pair<double, Eigen::Vector2d> elongation(const std::vector<Eigen::Vector2d>& x, double cell_x, double cell_y) {
@@ -281,11 +342,7 @@ std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int3
       return local.index({p.row - b.row0, p.col - b.col0});
     };
     for (size_t k : b.points) in_part[local_index(k)] = 1;
-    if (b.points.size() > kShapeSplitMaxPoints) {
-      for (size_t k : b.points) piece_of[k] = {id, 1};
-      continue;
-    }
-    const std::vector<float> d = distance_inside(local, with_holes_filled(local, in_part, connectivity));
+    const std::vector<float> d = distance_to_outside(local, with_holes_filled(local, in_part, connectivity));
     const std::vector<int32_t> pieces = split_by_markers(
         local, d, in_part, depth_steps, std::numeric_limits<double>::infinity(), connectivity, kShapeNeckShare);
     for (size_t k : b.points) piece_of[k] = {id, pieces[local_index(k)]};

@@ -31,6 +31,12 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
                                       const std::vector<uint8_t>& inside, double depth, double max_saddle,
                                       int connectivity, double max_saddle_share = 1.0);
 
+/// The Euclidean distance, in steps, from every point where `in_part` holds to the nearest point of
+/// the grid where it does not (infinity where there is none; NaN off the part), on square and
+/// hexagonal grids: the exact squared distance by two passes of one-dimensional lower envelopes
+/// (along the rows, then down each column position), in time proportional to the points.
+std::vector<float> distance_to_outside(const ScanGrid& grid, const std::vector<uint8_t>& in_part);
+
 /// Each labelled part split again by its shape: within the part's own points, the distance (in
 /// steps) of every point to the nearest point outside the part, and the part flooded from the
 /// maxima of that distance whose dynamic reaches `depth_steps` and whose saddle (the neck's half
@@ -38,13 +44,9 @@ std::vector<int32_t> split_by_markers(const ScanGrid& grid, const std::vector<fl
 /// sections that the map shows at a uniform fraction, with no dip between them, are told apart by
 /// their outline; the ragged outline of one large body (noise at the threshold) has no such neck.
 /// Holes (points enclosed by the part) count as the part, and points beyond the map's border do
-/// not count as outside. Parts of more than kShapeSplitMaxPoints points are left whole: the distance
-/// is found by brute force, points × points off the part in its box (a 200 × 200-point disc takes
-/// 0.5 s, and the time grows with the square of the points), and a section that large (about 80
-/// steps across) is no touching pair of secondary particles. Labels are renumbered from 1 in scan
-/// order of the parts; 0 stays 0.
+/// not count as outside. The distance is exact and takes time in proportion to the part's box
+/// (distance_to_outside). Labels are renumbered from 1 in scan order of the parts; 0 stays 0.
 inline constexpr double kShapeNeckShare = 0.7;
-inline constexpr size_t kShapeSplitMaxPoints = 5000;
 std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
                                     int connectivity);
 
