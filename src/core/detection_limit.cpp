@@ -39,17 +39,17 @@ double beam_share_inside(double r, double x, double y, const BeamFootprint& beam
   return a < b ? boost::math::quadrature::gauss<double, 40>::integrate(weighted, a, b) : 0.0;
 }
 
-/// One simulated section's map: isolated disc (diameter d, centre c in µm) on the patch grid at
-/// level m + (1 − m)·(the beam's share inside it), plus Gaussian noise.
-std::vector<float> section_map(const ScanGrid& patch, const BeamFootprint& beam, double d, const Eigen::Vector2d& c,
-                               double m, std::normal_distribution<float>& noise, std::mt19937_64& rng) {
+/// One simulated section's noiseless map: isolated disc (diameter d, centre c in µm) on the patch
+/// grid at level m + (1 − m)·(the beam's share inside it).
+std::vector<float> section_level(const ScanGrid& patch, const BeamFootprint& beam, double d, const Eigen::Vector2d& c,
+                                 double m) {
   const double r = 0.5 * d, reach_x = r + 6 * beam.sigma_x_um, reach_y = r + 6 * beam.sigma_y_um;
   std::vector<float> f(patch.count());
   for (size_t k = 0; k < patch.count(); ++k) {
     const Eigen::Vector2d x = patch.position_um(patch.point(k)) - c;
     const double share =
         std::abs(x.x()) < reach_x && std::abs(x.y()) < reach_y ? beam_share_inside(r, x.x(), x.y(), beam) : 0.0;
-    f[k] = static_cast<float>(m + (1 - m) * share) + noise(rng);
+    f[k] = static_cast<float>(m + (1 - m) * share);
   }
   return f;
 }
@@ -68,7 +68,10 @@ double found_section_ecd(const ScanGrid& patch, const Segmentation& s, const Eig
 }
 
 /// The transfer over diameters from 0.4 to 4 times `d_ref`: each diameter's discs at random
-/// offsets within a cell of the patch centre, segmented with `seg`.
+/// offsets within a cell of the patch centre (a new offset every kNoiseDrawsPerOffset discs),
+/// segmented with `seg`.
+constexpr int kNoiseDrawsPerOffset = 6;
+
 SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& beam, double m, double sd,
                                   const SegmentSpec& seg, const DetectionLimitSpec& spec, double d_ref) {
   const int diameters = 30;
@@ -86,10 +89,16 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
     const double d = d_lo * std::pow(d_hi / d_lo, i / double(diameters - 1));
     int found = 0;
     double sum = 0;
+    // The blurred disc at a few offsets (its quadrature is the costly part), each under several
+    // noise draws.
+    Eigen::Vector2d c;
+    std::vector<float> level, f(patch.count());
     for (int disc = 0; disc < spec.transfer_discs; ++disc) {
-      const Eigen::Vector2d c =
-          centre + Eigen::Vector2d(offset(rng) * grid.step_um, offset(rng) * grid.row_spacing_um());
-      const std::vector<float> f = section_map(patch, beam, d, c, m, noise, rng);
+      if (disc % kNoiseDrawsPerOffset == 0) {
+        c = centre + Eigen::Vector2d(offset(rng) * grid.step_um, offset(rng) * grid.row_spacing_um());
+        level = section_level(patch, beam, d, c, m);
+      }
+      for (size_t k = 0; k < f.size(); ++k) f[k] = level[k] + noise(rng);
       const double ecd = found_section_ecd(patch, segment_particles(patch, f, {}, seg), c, d);
       if (ecd > 0) ++found, sum += ecd;
     }
@@ -104,15 +113,48 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
   return t;
 }
 
-/// The smallest simulated diameter at which the share found reaches p (linear between diameters).
-double diameter_found_with(const SectionTransfer& t, double p) {
-  for (size_t i = 0; i < t.found.size(); ++i) {
-    if (t.found[i] < p) continue;
-    if (i == 0) return t.true_um[0];
-    const double w = (p - t.found[i - 1]) / std::max(t.found[i] - t.found[i - 1], 1e-12);
-    return t.true_um[i - 1] + w * (t.true_um[i] - t.true_um[i - 1]);
+/// The diameter at which the share found reaches p: a logistic curve in ln d, P = 1/(1 + e^−(ln d − a)/b),
+/// fitted to every simulated section (found or not) by maximum likelihood (Newton–Raphson on the
+/// binomial log-likelihood), which averages the Monte Carlo noise of single diameters; where the
+/// fit cannot be made (all found, or none), the first simulated diameter reaching p.
+double diameter_found_with(const SectionTransfer& t, double p, int discs) {
+  // Parametrised as P = σ(β0 + β1 ln d).
+  Eigen::Vector2d beta(0, 0);
+  bool fitted = false;
+  for (int it = 0; it < 50; ++it) {
+    Eigen::Matrix2d h = Eigen::Matrix2d::Zero();
+    Eigen::Vector2d g = Eigen::Vector2d::Zero();
+    for (size_t i = 0; i < t.true_um.size(); ++i) {
+      const Eigen::Vector2d x(1, std::log(t.true_um[i]));
+      const double q = 1 / (1 + std::exp(-beta.dot(x)));
+      g += discs * (t.found[i] - q) * x;
+      h += discs * q * (1 - q) * x * x.transpose();
+    }
+    if (!(h.determinant() > 1e-12)) break;
+    const Eigen::Vector2d step = h.ldlt().solve(g);
+    beta += step;
+    if (!beta.allFinite()) break;
+    if (step.norm() < 1e-10) {
+      fitted = beta(1) > 0;
+      break;
+    }
   }
+  if (fitted) return std::exp((std::log(p / (1 - p)) - beta(0)) / beta(1));
+  for (size_t i = 0; i < t.found.size(); ++i)
+    if (t.found[i] >= p) return t.true_um[i];
   return t.true_um.empty() ? 0.0 : t.true_um.back();
+}
+
+/// Where the mean reading starts to follow the diameter: just above the largest simulated diameter
+/// below `up_to` from which the reading grows by less than half the diameter's growth. Below it
+/// the reading is what the noise and the minimum component make of a section, whatever its size
+/// (the minimum component's ECD and a little more), and inverting it would move readings of one
+/// such size to either side of the limit at the whim of the simulation's noise.
+double invertible_from(const SectionTransfer& t, double up_to) {
+  double from = 0;
+  for (size_t i = 0; i + 1 < t.true_um.size() && t.true_um[i] < up_to; ++i)
+    if (t.measured_um[i + 1] - t.measured_um[i] < 0.5 * (t.true_um[i + 1] - t.true_um[i])) from = t.true_um[i + 1];
+  return from;
 }
 
 /// The smallest component size the matrix's noise alone makes at most max_false_particles times
@@ -217,9 +259,10 @@ DetectionLimit detection_limit(const ScanGrid& grid, const BeamFootprint& beam, 
   SegmentSpec seg = spec.segment;
   seg.min_points = lim.min_points, seg.noise_sd = noise_sd, seg.exclude_border = false;
   lim.transfer = simulate_transfer(grid, beam, matrix_level, noise_sd, seg, spec, std::max(hi, lim.noise_diameter_um));
-  lim.half_found_um = diameter_found_with(lim.transfer, 0.5);
-  lim.diameter_um = std::max(diameter_found_with(lim.transfer, spec.detection_probability), lim.noise_diameter_um);
-  lim.transfer.from_um = lim.diameter_um;
+  lim.half_found_um = diameter_found_with(lim.transfer, 0.5, spec.transfer_discs);
+  lim.diameter_um = std::max(diameter_found_with(lim.transfer, spec.detection_probability, spec.transfer_discs),
+                             lim.noise_diameter_um);
+  lim.transfer.from_um = std::max(lim.diameter_um, invertible_from(lim.transfer, 2 * lim.diameter_um));
   return lim;
 }
 

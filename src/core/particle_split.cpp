@@ -37,24 +37,34 @@ std::vector<float> smooth_map(const ScanGrid& grid, const std::vector<float>& f,
   if (f.size() != grid.count()) fail("smoothing: ", f.size(), " values for ", grid.count(), " points");
   if (!(sigma > 0)) return f;
   const int reach = static_cast<int>(std::ceil(3 * sigma)) + 1;
-  const double step = grid.step_um;
+  // The kernel's offsets and weights, once per row parity (a hexagonal grid's odd rows are shifted
+  // by half a step): points within 3 σ.
+  struct Tap {
+    int dr, dc;
+    double weight;
+  };
+  std::vector<Tap> kernel[2];
+  for (int parity = 0; parity < 2; ++parity) {
+    const GridPoint p{parity, 0};
+    const Eigen::Vector2d c = grid.position_um(p);
+    for (int dr = -reach; dr <= reach; ++dr)
+      for (int dc = -reach; dc <= reach; ++dc) {
+        const double d = (grid.position_um({p.row + dr, p.col + dc}) - c).norm() / grid.step_um;
+        if (d <= 3 * sigma) kernel[parity].push_back({dr, dc, std::exp(-0.5 * d * d / (sigma * sigma))});
+      }
+  }
   std::vector<float> out(f.size(), std::nanf(""));
   for (size_t k = 0; k < f.size(); ++k) {
     if (std::isnan(f[k])) continue;
     const GridPoint p = grid.point(k);
-    const Eigen::Vector2d c = grid.position_um(p);
     double s = 0, w = 0;
-    for (int dr = -reach; dr <= reach; ++dr)
-      for (int dc = -reach; dc <= reach; ++dc) {
-        const GridPoint q{p.row + dr, p.col + dc};
-        if (q.row < 0 || q.col < 0 || q.row >= grid.rows || q.col >= grid.cols) continue;
-        const float v = f[grid.index(q)];
-        if (std::isnan(v)) continue;
-        const double d = (grid.position_um(q) - c).norm() / step;
-        if (d > 3 * sigma) continue;
-        const double wt = std::exp(-0.5 * d * d / (sigma * sigma));
-        s += wt * v, w += wt;
-      }
+    for (const Tap& t : kernel[grid.kind == GridKind::hexagonal ? p.row % 2 : 0]) {
+      const GridPoint q{p.row + t.dr, p.col + t.dc};
+      if (q.row < 0 || q.col < 0 || q.row >= grid.rows || q.col >= grid.cols) continue;
+      const float v = f[grid.index(q)];
+      if (std::isnan(v)) continue;
+      s += t.weight * v, w += t.weight;
+    }
     out[k] = static_cast<float>(s / w);
   }
   return out;

@@ -33,8 +33,9 @@ struct DetectionLimitSpec {
 /// takes a measured ECD back to the true diameter with the same mean reading.
 struct SectionTransfer {
   std::vector<double> true_um, measured_um, found;
-  /// The diameter from which the correction inverts the mean reading (the detection limit): below
-  /// it the reading hardly changes with the diameter, so readings are scaled in proportion there.
+  /// The diameter from which the correction inverts the mean reading: the detection limit, or
+  /// where the reading starts to follow the diameter if that is larger (below it the reading hardly
+  /// changes with the diameter, so readings are scaled in proportion there).
   double from_um = 0;
   /// The mean reading of a section of diameter d_um (linear between the simulated diameters).
   double reading_at(double d_um) const;
