@@ -222,9 +222,7 @@ std::string histogram_svg(const MapResults& r, const SizeClasses& classes) {
   std::vector<double> d;
   for (const Particle2D& p : r.segmentation.particles)
     if (!p.touches_border) d.push_back(p.section_diameter_um);
-  SvgPlot p(560, 300,
-            "section diameters of the particles (ECD corrected by the map's transfer; border particles left out)",
-            "section diameter (µm)", "particles");
+  SvgPlot p(560, 300, "particle section diameters (border particles left out)", "section diameter (µm)", "particles");
   if (d.empty()) return p.render();
   const double dmax = *std::max_element(d.begin(), d.end()) * 1.05;
   const int bins = std::clamp(static_cast<int>(std::sqrt(double(d.size()))) + 3, 8, 40);
