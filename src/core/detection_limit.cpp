@@ -9,6 +9,7 @@
 #include <utility>
 #include <vector>
 
+#include <Eigen/Cholesky>
 #include <boost/math/quadrature/gauss.hpp>
 
 #include "orderband/error.hpp"
