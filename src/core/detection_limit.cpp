@@ -9,7 +9,7 @@
 #include <utility>
 #include <vector>
 
-#include <Eigen/Cholesky>
+#include <Eigen/Dense>
 #include <boost/math/quadrature/gauss.hpp>
 
 #include "orderband/error.hpp"

@@ -9,8 +9,6 @@
 #include <queue>
 #include <utility>
 
-#include <Eigen/Eigenvalues>
-
 #include "orderband/error.hpp"
 
 namespace orderband {
@@ -249,36 +247,26 @@ std::vector<float> distance_to_outside(const ScanGrid& local, const std::vector<
   // read at the rows whose points stand there.
   std::vector<float> d(local.count(), std::nanf(""));
   std::vector<double> f(local.rows);
-  for (int parity = 0; parity < parities; ++parity)
+  site.clear();
+  for (int r = 0; r < local.rows; ++r) site.push_back(r * dy);
+  for (int parity = 0; parity < parities; ++parity) {
+    std::vector<int> rows;
+    query.clear();
+    for (int r = 0; r < local.rows; ++r)
+      if ((hex ? r % 2 : 0) == parity) rows.push_back(r), query.push_back(r * dy);
     for (int c = 0; c < local.cols; ++c) {
-      site.clear(), query.clear();
-      for (int r = 0; r < local.rows; ++r) site.push_back(r * dy), f[r] = along[parity][local.index({r, c})];
-      std::vector<int> rows;
-      for (int r = 0; r < local.rows; ++r)
-        if ((hex ? r % 2 : 0) == parity) rows.push_back(r), query.push_back(r * dy);
+      for (int r = 0; r < local.rows; ++r) f[r] = along[parity][local.index({r, c})];
       lower_envelope(site, f, query, out);
       for (size_t j = 0; j < rows.size(); ++j) {
         const size_t q = local.index({rows[j], c});
         if (in_part[q]) d[q] = static_cast<float>(std::sqrt(out[j]));
       }
     }
+  }
   return d;
 }
 
 namespace {
-
-/// The aspect ratio and major axis of points' positions (second moments, each point a cell).
-std::pair<double, Eigen::Vector2d> elongation(const std::vector<Eigen::Vector2d>& x, double cell_x, double cell_y) {
-  Eigen::Vector2d mean = Eigen::Vector2d::Zero();
-  for (const Eigen::Vector2d& v : x) mean += v;
-  mean /= static_cast<double>(x.size());
-  Eigen::Matrix2d m = Eigen::Matrix2d::Zero();
-  for (const Eigen::Vector2d& v : x) m += (v - mean) * (v - mean).transpose();
-  m /= static_cast<double>(x.size());
-  m(0, 0) += cell_x * cell_x / 12, m(1, 1) += cell_y * cell_y / 12;
-  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix2d> eig(m);
-  return {std::sqrt(eig.eigenvalues()(1) / std::max(eig.eigenvalues()(0), 1e-300)), eig.eigenvectors().col(1)};
-}
 
 /// Two-means of the positions, started from the halves across the major axis: per point, true for
 /// the second group.
@@ -307,6 +295,31 @@ std::vector<bool> two_means(const std::vector<Eigen::Vector2d>& x, const Eigen::
 
 }  // namespace
 
+ShapeMoments shape_moments(const ScanGrid& grid, const std::vector<size_t>& points) {
+  ShapeMoments m;
+  if (points.empty()) return m;
+  const double n = static_cast<double>(points.size());
+  for (size_t k : points) {
+    const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+    m.cx += pos.x(), m.cy += pos.y();
+  }
+  m.cx /= n, m.cy /= n;
+  for (size_t k : points) {
+    const Eigen::Vector2d pos = grid.position_um(grid.point(k));
+    const double dx = pos.x() - m.cx, dy = pos.y() - m.cy;
+    m.mxx += dx * dx, m.myy += dy * dy, m.mxy += dx * dy;
+  }
+  m.mxx /= n, m.myy /= n, m.mxy /= n;
+  const double xx = m.mxx + grid.step_um * grid.step_um / 12;
+  const double yy = m.myy + grid.row_spacing_um() * grid.row_spacing_um() / 12;
+  const double tr = xx + yy, det = xx * yy - m.mxy * m.mxy;
+  const double disc = std::sqrt(std::max(0.0, tr * tr / 4 - det));
+  const double l1 = tr / 2 + disc, l2 = std::max(tr / 2 - disc, 1e-30);
+  m.aspect_ratio = std::sqrt(l1 / l2);
+  m.major_axis_rad = 0.5 * std::atan2(2 * m.mxy, xx - yy);
+  return m;
+}
+
 std::vector<std::vector<size_t>> split_elongated(const ScanGrid& grid, std::vector<std::vector<size_t>> parts,
                                                  double max_aspect, int min_points, size_t max_points) {
   std::vector<std::vector<size_t>> out;
@@ -317,10 +330,11 @@ std::vector<std::vector<size_t>> split_elongated(const ScanGrid& grid, std::vect
       out.push_back(std::move(part));
       continue;
     }
+    const ShapeMoments shape = shape_moments(grid, part);
     std::vector<Eigen::Vector2d> x;
     for (size_t k : part) x.push_back(grid.position_um(grid.point(k)));
-    const auto [aspect, axis] = elongation(x, grid.step_um, grid.row_spacing_um());
-    const std::vector<bool> side = aspect >= max_aspect ? two_means(x, axis) : std::vector<bool>{};
+    const Eigen::Vector2d axis(std::cos(shape.major_axis_rad), std::sin(shape.major_axis_rad));
+    const std::vector<bool> side = shape.aspect_ratio >= max_aspect ? two_means(x, axis) : std::vector<bool>{};
     std::vector<size_t> halves[2];
     for (size_t i = 0; i < side.size(); ++i) halves[side[i]].push_back(part[i]);
     if (halves[0].size() < static_cast<size_t>(min_points) || halves[1].size() < static_cast<size_t>(min_points)) {

@@ -156,24 +156,12 @@ std::vector<float> smoothed_fraction(const ScanGrid& grid, const std::vector<flo
   return f;
 }
 
-/// Second moments about the centroid, aspect ratio and major axis (each point a cell: the cell's
-/// own moment step²/12 is added).
+/// Second moments about the centroid, aspect ratio and major axis (shape_moments).
 void add_shape(const ScanGrid& grid, const std::vector<size_t>& members, Particle2D& p) {
-  double mxx = 0, myy = 0, mxy = 0;
-  for (size_t k : members) {
-    const Eigen::Vector2d pos = grid.position_um(grid.point(k));
-    const double dx = pos.x() - p.centroid_x_um, dy = pos.y() - p.centroid_y_um;
-    mxx += dx * dx, myy += dy * dy, mxy += dx * dy;
-  }
-  p.mxx_um2 = mxx / p.points, p.myy_um2 = myy / p.points, p.mxy_um2 = mxy / p.points;
-  mxx = mxx / p.points + grid.step_um * grid.step_um / 12;
-  myy = myy / p.points + grid.row_spacing_um() * grid.row_spacing_um() / 12;
-  mxy /= p.points;
-  const double tr = mxx + myy, det = mxx * myy - mxy * mxy;
-  const double disc = std::sqrt(std::max(0.0, tr * tr / 4 - det));
-  const double l1 = tr / 2 + disc, l2 = std::max(tr / 2 - disc, 1e-30);
-  p.aspect_ratio = std::sqrt(l1 / l2);
-  p.major_axis_deg = rad_to_deg(0.5 * std::atan2(2 * mxy, mxx - myy));
+  const ShapeMoments m = shape_moments(grid, members);
+  p.mxx_um2 = m.mxx, p.myy_um2 = m.myy, p.mxy_um2 = m.mxy;
+  p.aspect_ratio = m.aspect_ratio;
+  p.major_axis_deg = rad_to_deg(m.major_axis_rad);
 }
 
 /// The particle's host grain (most of its points), whether it holds most of that grain (its own

@@ -50,6 +50,16 @@ inline constexpr double kShapeNeckShare = 0.7;
 std::vector<int32_t> split_by_shape(const ScanGrid& grid, const std::vector<int32_t>& label, double depth_steps,
                                     int connectivity);
 
+/// The second moments of points' positions about their centroid (µm²: x along columns, y along
+/// rows), and from them, with each point taken as a cell (its own moment step²/12 added), the
+/// aspect ratio sqrt(λ_max/λ_min) and the major axis's angle from x toward y (rad, in (−π/2, π/2]).
+struct ShapeMoments {
+  double cx = 0, cy = 0;  ///< centroid (µm)
+  double mxx = 0, myy = 0, mxy = 0;
+  double aspect_ratio = 1, major_axis_rad = 0;
+};
+ShapeMoments shape_moments(const ScanGrid& grid, const std::vector<size_t>& points);
+
 /// Parts (each a list of point indices) split by their elongation: a section of a near-equiaxed
 /// particle is near-circular, so a part whose second-moment aspect ratio (point cells of one step
 /// included, as Particle2D's) reaches `max_aspect` is taken for touching sections and cut in two by
