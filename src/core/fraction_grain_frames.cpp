@@ -18,7 +18,8 @@ namespace {
 /// orientation and a usable pattern).
 struct GrainSums {
   std::vector<std::vector<double>> sum;
-  std::vector<int> count;
+  std::vector<int> count;  ///< patterns summed
+  std::vector<int> size;   ///< the grain's points with an orientation
   std::vector<float> mean(int g) const {
     std::vector<float> m(sum[g].size());
     for (size_t q = 0; q < m.size(); ++q) m[q] = static_cast<float>(sum[g][q] / count[g]);
@@ -26,25 +27,48 @@ struct GrainSums {
   }
 };
 
+/// Each grain's points that can enter its mean pattern (an orientation), in scan order, at most
+/// spec.grain_pattern_points of them spread evenly over the grain.
+std::vector<size_t> grain_pattern_points(const FractionScan& scan, std::vector<int>& size) {
+  std::vector<std::vector<size_t>> members(scan.grains + 1);
+  for (size_t k = 0; k < scan.n; ++k) {
+    const int g = scan.ori.grains.id[k];
+    if (g > 0 && scan.ori.orientation[k]) members[g].push_back(k);
+  }
+  std::vector<size_t> chosen;
+  size.assign(scan.grains + 1, 0);
+  for (int g = 0; g <= scan.grains; ++g) size[g] = static_cast<int>(members[g].size());
+  for (const auto& m : members) {
+    const std::vector<size_t> s = spread_sample(m, scan.spec.grain_pattern_points);
+    chosen.insert(chosen.end(), s.begin(), s.end());
+  }
+  std::sort(chosen.begin(), chosen.end());
+  return chosen;
+}
+
+/// The grains' mean patterns from a sample of their points (a mean of a few hundred patterns
+/// fits the pattern centre and the grain's orientation as well as the whole grain's, and a large
+/// scan is not read once more), read in scan order in batches.
 GrainSums sum_grain_patterns(const FractionScan& scan) {
   GrainSums s;
   s.sum.resize(scan.grains + 1);
   s.count.assign(scan.grains + 1, 0);
-  PreprocessedRows pass(*scan.source, scan.grid, scan.pre);
+  const std::vector<size_t> points = grain_pattern_points(scan, s.size);
+  PreprocessedPoints reader(*scan.source, scan.grid, scan.pre);
   std::vector<float> pats;
   std::vector<uint8_t> ok;
-  int row = 0;
-  while (pass.next(pats, ok)) {
-    for (int col = 0; col < scan.grid.cols; ++col) {
-      const size_t k = scan.grid.index({row, col});
-      const int g = scan.ori.grains.id[k];
-      if (!ok[col] || g <= 0 || !scan.ori.orientation[k]) continue;
+  constexpr size_t kBatch = 256;
+  for (size_t first = 0; first < points.size(); first += kBatch) {
+    const std::vector<size_t> batch(points.begin() + first, points.begin() + std::min(points.size(), first + kBatch));
+    reader.load(batch, pats, ok);
+    for (size_t i = 0; i < batch.size(); ++i) {
+      if (!ok[i]) continue;
+      const int g = scan.ori.grains.id[batch[i]];
       if (s.sum[g].empty()) s.sum[g].assign(scan.pixels(), 0.0);
-      const float* p = pats.data() + static_cast<size_t>(col) * scan.pixels();
+      const float* p = pats.data() + i * scan.pixels();
       for (size_t q = 0; q < scan.pixels(); ++q) s.sum[g][q] += p[q];
       s.count[g] += 1;
     }
-    ++row;
   }
   return s;
 }
@@ -60,7 +84,7 @@ void refine_pattern_centre(FractionScan& scan, const GrainSums& sums, FractionRe
   for (int g = 1; g <= scan.grains; ++g)
     if (sums.count[g] >= spec.pattern_centre_min_points) order.push_back(g);
   std::sort(order.begin(), order.end(),
-            [&](int a, int b) { return sums.count[a] > sums.count[b] || (sums.count[a] == sums.count[b] && a < b); });
+            [&](int a, int b) { return sums.size[a] > sums.size[b] || (sums.size[a] == sums.size[b] && a < b); });
   if (order.size() > static_cast<size_t>(spec.pattern_centre_grains)) order.resize(spec.pattern_centre_grains);
   if (order.empty()) return;
   std::vector<GrainPattern> evidence;

@@ -139,43 +139,54 @@ MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs)
 
 namespace {
 
-/// The mean spheres of the clearly disordered (f < 0.2) and clearly ordered (f > 0.8) points, each
-/// pattern back-projected at its own orientation and folded by the parent's Laue group. The sphere
-/// pixels of a row's patterns are found in parallel; the sums are added in point order, so the
+/// The points each mean sphere is made of: up to `at_most` of the clearly disordered (f < 0.2) and
+/// of the clearly ordered (f > 0.8) points with an orientation, each class evenly spread over the
+/// scan; all of them in scan order.
+std::vector<size_t> mean_sphere_points(const MapResults& r, size_t at_most) {
+  std::vector<size_t> cls[2];
+  for (size_t k = 0; k < r.fraction.fraction.size(); ++k) {
+    const float f = r.fraction.fraction[k];
+    if (r.orientations.orientation[k] && std::isfinite(f) && (f < 0.2 || f > 0.8)) cls[f > 0.8].push_back(k);
+  }
+  std::vector<size_t> chosen = spread_sample(cls[0], at_most);
+  const std::vector<size_t> ordered = spread_sample(cls[1], at_most);
+  chosen.insert(chosen.end(), ordered.begin(), ordered.end());
+  std::sort(chosen.begin(), chosen.end());
+  return chosen;
+}
+
+/// The mean spheres of the clearly disordered and clearly ordered points (mean_sphere_points),
+/// each pattern back-projected at its own orientation and folded by the parent's Laue group. The
+/// sphere pixels of a batch are found in parallel; the sums are added in point order, so the
 /// spheres do not depend on the number of threads.
-void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair, const StageProgress& progress,
-                             MapResults& r) {
-  const ScanGrid& grid = inputs.config.grid;
+void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair, size_t at_most,
+                             const StageProgress& progress, MapResults& r) {
   PatternSource* source = inputs.patterns.get();
   const DetectorGeometry geometry(inputs.geometry());
   const DetectorRays rays(geometry);
   const Preprocessor& pre = inputs.preprocessor();
   const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
   SphereMap dis(sphere_grid), ord(sphere_grid);
-  PreprocessedRows rows(*source, grid, pre);
+  const std::vector<size_t> points = mean_sphere_points(r, at_most);
+  PreprocessedPoints reader(*source, inputs.config.grid, pre);
+  constexpr size_t kBatch = 64;
+  const size_t px = source->pixels();
   std::vector<float> patterns;
   std::vector<uint8_t> usable;
-  std::vector<long> sphere_pixel(static_cast<size_t>(grid.cols) * source->pixels());
-  const size_t px = source->pixels();
-  int row = 0;
-  while (rows.next(patterns, usable)) {
-    auto used = [&](int col) {
-      const size_t k = grid.index({row, col});
-      const float f = r.fraction.fraction[k];
-      return usable[col] && r.orientations.orientation[k] && std::isfinite(f) && (f < 0.2 || f > 0.8);
-    };
+  std::vector<long> sphere_pixel(kBatch * px);
+  for (size_t first = 0; first < points.size(); first += kBatch) {
+    const std::vector<size_t> batch(points.begin() + first, points.begin() + std::min(points.size(), first + kBatch));
+    reader.load(batch, patterns, usable);
 #pragma omp parallel for schedule(dynamic)
-    for (int col = 0; col < grid.cols; ++col)
-      if (used(col))
-        sphere_pixels(pre.mask(), rays, *r.orientations.orientation[grid.index({row, col})], sphere_grid,
-                      sphere_pixel.data() + static_cast<size_t>(col) * px);
-    for (int col = 0; col < grid.cols; ++col)
-      if (used(col))
-        back_project(patterns.data() + static_cast<size_t>(col) * px, pre.mask(), rays,
-                     sphere_pixel.data() + static_cast<size_t>(col) * px,
-                     r.fraction.fraction[grid.index({row, col})] > 0.8 ? ord : dis);
-    ++row;
-    if (progress) progress("mean spheres", static_cast<size_t>(row) * grid.cols, grid.count());
+    for (size_t i = 0; i < batch.size(); ++i)
+      if (usable[i])
+        sphere_pixels(pre.mask(), rays, *r.orientations.orientation[batch[i]], sphere_grid,
+                      sphere_pixel.data() + i * px);
+    for (size_t i = 0; i < batch.size(); ++i)
+      if (usable[i])
+        back_project(patterns.data() + i * px, pre.mask(), rays, sphere_pixel.data() + i * px,
+                     r.fraction.fraction[batch[i]] > 0.8 ? ord : dis);
+    if (progress) progress("mean spheres", first + batch.size(), points.size());
   }
   const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
   r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
@@ -222,7 +233,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);
   fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
-  if (options.mean_spheres) accumulate_mean_spheres(inputs, pair, progress, r);
+  if (options.mean_spheres) accumulate_mean_spheres(inputs, pair, options.mean_sphere_points, progress, r);
   return r;
 }
 

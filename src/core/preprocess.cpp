@@ -124,20 +124,27 @@ bool Preprocessor::apply(float* p) const {
   return true;
 }
 
-std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const ProgressFn& progress) {
-  const size_t px = source.pixels();
+std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const ProgressFn& progress, size_t at_most) {
+  const size_t px = source.pixels(), total = source.count();
+  const bool sampled = at_most > 0 && total > at_most;
+  const size_t points = sampled ? at_most : total;
   std::vector<double> sum(px, 0.0);
   std::vector<float> buffer(chunk * px);
   size_t used = 0;
-  for (size_t first = 0; first < source.count(); first += chunk) {
-    const size_t n = std::min(chunk, source.count() - first);
-    source.read(first, n, buffer.data());
+  for (size_t first = 0; first < points; first += chunk) {
+    const size_t n = std::min(chunk, points - first);
+    if (!sampled)
+      source.read(first, n, buffer.data());
+    else
+      for (size_t k = 0; k < n; ++k)  // the same points as spread_sample over 0 … total − 1
+        source.read(static_cast<size_t>((static_cast<double>(first + k) + 0.5) * total / at_most), 1,
+                    buffer.data() + k * px);
     for (size_t k = 0; k < n; ++k) {
       if (std::isnan(buffer[k * px])) continue;  // a faulty pattern (PatternSource::faults)
       for (size_t q = 0; q < px; ++q) sum[q] += buffer[k * px + q];
       ++used;
     }
-    if (progress) progress(first + n, source.count());
+    if (progress) progress(first + n, points);
   }
   if (used == 0) {
     const auto faults = source.faults();
@@ -153,7 +160,7 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
                                const ProgressFn& progress) {
   std::vector<float> background;
   if (spec.static_background == StaticBackgroundKind::scan_mean) {
-    background = scan_mean_pattern(source, 256, progress);
+    background = scan_mean_pattern(source, 256, progress, spec.scan_mean_points);
     double sigma = spec.static_background_sigma_px;
     if (sigma < 0) sigma = 0.1 * source.width();
     if (sigma > 0) GaussianBlur(source.width(), source.height(), sigma).apply(background.data(), background.data());
@@ -169,6 +176,35 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
                       images.mask ? &*images.mask : nullptr);
 }
 
+namespace {
+
+/// The weight of neighbour `nb` of point `self`: a Gaussian of their distance in scan steps.
+double neighbour_weight(const ScanGrid& grid, const GridPoint& self, const GridPoint& nb, double sigma) {
+  const double d = (grid.position_um(nb) - grid.position_um(self)).norm() / grid.step_um;
+  return std::exp(-0.5 * d * d / (sigma * sigma));
+}
+
+/// The weighted mean of preprocessed patterns (the point's own first, weight 1), renormalised
+/// inside the mask, into `dst`.
+void average_patterns(const std::vector<std::pair<const float*, double>>& terms, const std::vector<uint8_t>& mask,
+                      size_t pixels, float* dst, bool unit_variance) {
+  double sum = 0, sum2 = 0, wsum = 0;
+  for (const auto& t : terms) wsum += t.second;
+  size_t count = 0;
+  for (size_t q = 0; q < pixels; ++q) {
+    double v = 0;
+    for (const auto& t : terms) v += t.second * t.first[q];
+    v /= wsum;
+    dst[q] = static_cast<float>(v);
+    if (mask[q]) sum += v, sum2 += v * v, ++count;
+  }
+  const double mean = sum / count, var = sum2 / count - mean * mean;
+  const double inv_sd = !unit_variance ? 1.0 : (var > 0 ? 1.0 / std::sqrt(var) : 0.0);
+  for (size_t q = 0; q < pixels; ++q) dst[q] = mask[q] ? static_cast<float>((dst[q] - mean) * inv_sd) : 0.0f;
+}
+
+}  // namespace
+
 void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const float* const rows[3],
                            const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
                            uint8_t* out_usable, bool unit_variance) {
@@ -182,27 +218,68 @@ void neighbour_average_row(const ScanGrid& grid, double sigma, int row, const fl
     }
     std::vector<std::pair<const float*, double>> terms{{rows[1] + static_cast<size_t>(col) * pixels, 1.0}};
     const GridPoint self{row, col};
-    const Eigen::Vector2d here = grid.position_um(self);
     for (const GridPoint& nb : grid.neighbours(self, 8)) {
       const int k = nb.row - row + 1;
       if (!rows[k] || !usable[k][nb.col]) continue;
-      const double d = (grid.position_um(nb) - here).norm() / grid.step_um;
-      terms.emplace_back(rows[k] + static_cast<size_t>(nb.col) * pixels, std::exp(-0.5 * d * d / (sigma * sigma)));
+      terms.emplace_back(rows[k] + static_cast<size_t>(nb.col) * pixels, neighbour_weight(grid, self, nb, sigma));
     }
-    double sum = 0, sum2 = 0, wsum = 0;
-    for (const auto& t : terms) wsum += t.second;
-    size_t count = 0;
-    for (size_t q = 0; q < pixels; ++q) {
-      double v = 0;
-      for (const auto& t : terms) v += t.second * t.first[q];
-      v /= wsum;
-      dst[q] = static_cast<float>(v);
-      if (mask[q]) sum += v, sum2 += v * v, ++count;
-    }
-    const double mean = sum / count, var = sum2 / count - mean * mean;
-    const double inv_sd = !unit_variance ? 1.0 : (var > 0 ? 1.0 / std::sqrt(var) : 0.0);
-    for (size_t q = 0; q < pixels; ++q) dst[q] = mask[q] ? static_cast<float>((dst[q] - mean) * inv_sd) : 0.0f;
+    average_patterns(terms, mask, pixels, dst, unit_variance);
   }
+}
+
+PreprocessedPoints::PreprocessedPoints(PatternSource& source, const ScanGrid& grid, const Preprocessor& pre)
+    : source_(source), grid_(grid), pre_(pre) {}
+
+void PreprocessedPoints::load(const std::vector<size_t>& index, std::vector<float>& patterns,
+                              std::vector<uint8_t>& usable) {
+  const size_t px = source_.pixels(), n = index.size();
+  patterns.resize(n * px);
+  usable.resize(n);
+  const double sigma = pre_.spec().neighbour_sigma_steps;
+  if (sigma <= 0) {
+    for (size_t i = 0; i < n; ++i) source_.read(index[i], 1, patterns.data() + i * px);
+#pragma omp parallel for schedule(static)
+    for (size_t i = 0; i < n; ++i) usable[i] = pre_.apply(patterns.data() + i * px);
+    return;
+  }
+  // Each point with its neighbours: read in order, preprocessed and averaged in parallel.
+  std::vector<std::vector<GridPoint>> around(n);
+  std::vector<size_t> first(n + 1, 0);
+  for (size_t i = 0; i < n; ++i) {
+    around[i].push_back(grid_.point(index[i]));
+    for (const GridPoint& nb : grid_.neighbours(around[i][0], 8)) around[i].push_back(nb);
+    first[i + 1] = first[i] + around[i].size();
+  }
+  std::vector<float> raw(first[n] * px);
+  for (size_t i = 0; i < n; ++i)
+    for (size_t j = 0; j < around[i].size(); ++j)
+      source_.read(grid_.index(around[i][j]), 1, raw.data() + (first[i] + j) * px);
+  std::vector<uint8_t> ok(first[n]);
+#pragma omp parallel for schedule(static)
+  for (size_t t = 0; t < first[n]; ++t) ok[t] = pre_.apply(raw.data() + t * px);
+#pragma omp parallel for schedule(static)
+  for (size_t i = 0; i < n; ++i) {
+    float* dst = patterns.data() + i * px;
+    usable[i] = ok[first[i]];
+    if (!usable[i]) {
+      std::fill(dst, dst + px, 0.0f);
+      continue;
+    }
+    std::vector<std::pair<const float*, double>> terms;
+    for (size_t j = 0; j < around[i].size(); ++j)
+      if (ok[first[i] + j])
+        terms.emplace_back(raw.data() + (first[i] + j) * px,
+                           j == 0 ? 1.0 : neighbour_weight(grid_, around[i][0], around[i][j], sigma));
+    average_patterns(terms, pre_.mask(), px, dst, pre_.spec().unit_variance);
+  }
+}
+
+std::vector<size_t> spread_sample(const std::vector<size_t>& points, size_t at_most) {
+  if (at_most == 0 || points.size() <= at_most) return points;
+  std::vector<size_t> out(at_most);
+  for (size_t i = 0; i < at_most; ++i)
+    out[i] = points[static_cast<size_t>((static_cast<double>(i) + 0.5) * points.size() / at_most)];
+  return out;
 }
 
 PreprocessedRows::PreprocessedRows(PatternSource& source, const ScanGrid& grid, const Preprocessor& pre)

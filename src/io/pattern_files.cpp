@@ -3,7 +3,6 @@
 
 #include <fcntl.h>
 #include <hdf5.h>
-#include <sys/mman.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
@@ -54,53 +53,51 @@ class RawSource final : public PatternSource {
            "; check the grid size, pattern size, sample type and header (a stack with bytes after its patterns "
            "declares them as trailer_bytes)");
     }
-    map_ = ::mmap(nullptr, size_, PROT_READ, MAP_PRIVATE, fd_, 0);
-    if (map_ == MAP_FAILED) {
-      ::close(fd_);
-      fail("cannot memory-map '", spec.path, "': ", std::strerror(errno));
-    }
   }
-  ~RawSource() override {
-    ::munmap(map_, size_);
-    ::close(fd_);
-  }
+  ~RawSource() override { ::close(fd_); }
   std::string describe() const override {
     return std::string("raw ") + sample_type_name(spec_.sample_type) + " stack " + spec_.path;
   }
+  /// Read with pread (safe from several threads): only the chunk asked for is held, and the file's
+  /// pages stay in the system's cache, not in this process's resident set (a memory map would
+  /// also map the neighbouring pages the kernel faults in around each read).
   void read(size_t first, size_t n, float* out) override {
     if (first + n > count_) fail(spec_.path, ": read past the last pattern");
     const size_t bytes = sample_bytes(spec_.sample_type);
-    const size_t offset = spec_.header_bytes + first * pixels() * bytes;
-    const auto* src = static_cast<const uint8_t*>(map_) + offset;
     const size_t m = n * pixels();
-    switch (spec_.sample_type) {
-      case SampleType::uint8:
-        for (size_t k = 0; k < m; ++k) out[k] = src[k];
-        break;
-      case SampleType::uint16:
-        for (size_t k = 0; k < m; ++k) {
-          uint16_t v;
-          std::memcpy(&v, src + 2 * k, 2);
-          out[k] = v;
-        }
-        break;
-      case SampleType::float32:
-        std::memcpy(out, src, m * 4);
-        mark_non_finite(out, n, first, grid_);
-        break;
+    if (spec_.sample_type == SampleType::float32) {
+      read_bytes(first, m * 4, reinterpret_cast<uint8_t*>(out));
+      mark_non_finite(out, n, first, grid_);
+      return;
     }
-    // Drop the pages just read from this process's resident set: memory stays
-    // bounded by the chunk however large the stack is.
-    const size_t page = static_cast<size_t>(::sysconf(_SC_PAGESIZE));
-    const size_t begin = offset / page * page, end = offset + m * bytes;
-    ::madvise(static_cast<uint8_t*>(map_) + begin, end - begin, MADV_DONTNEED);
+    std::vector<uint8_t> raw(m * bytes);
+    read_bytes(first, raw.size(), raw.data());
+    if (spec_.sample_type == SampleType::uint8)
+      for (size_t k = 0; k < m; ++k) out[k] = raw[k];
+    else
+      for (size_t k = 0; k < m; ++k) {
+        uint16_t v;
+        std::memcpy(&v, raw.data() + 2 * k, 2);
+        out[k] = v;
+      }
   }
 
  private:
+  /// `length` bytes of the patterns from pattern `first` on.
+  void read_bytes(size_t first, size_t length, uint8_t* out) const {
+    off_t offset = static_cast<off_t>(spec_.header_bytes + first * pixels() * sample_bytes(spec_.sample_type));
+    while (length > 0) {
+      const ssize_t got = ::pread(fd_, out, length, offset);
+      if (got < 0 && errno == EINTR) continue;
+      if (got <= 0)
+        fail("cannot read '", spec_.path, "' at byte ", offset, ": ", got < 0 ? std::strerror(errno) : "end of file");
+      out += got, offset += got, length -= static_cast<size_t>(got);
+    }
+  }
+
   PatternSourceSpec spec_;
   ScanGrid grid_;
   int fd_ = -1;
-  void* map_ = nullptr;
   size_t size_ = 0;
 };
 

@@ -157,9 +157,10 @@ void read_orientations_table(TomlReader& r, const std::string& path, ScanConfig&
 /// [preprocess]: backgrounds, mask, hot pixels, neighbour averaging.
 void read_preprocess_table(TomlReader& r, const std::string& path, ScanConfig& c) {
   const toml::table* pre = r.table("preprocess", false);
-  r.check_keys(pre, "preprocess",
-               {"static_background", "static_background_sigma_px", "dynamic_background_sigma_px", "mask",
-                "mask_radius_px", "hot_pixel_filter", "hot_pixel_threshold", "neighbour_sigma_steps"});
+  r.check_keys(
+      pre, "preprocess",
+      {"static_background", "static_background_sigma_px", "dynamic_background_sigma_px", "mask", "mask_radius_px",
+       "hot_pixel_filter", "hot_pixel_threshold", "neighbour_sigma_steps", "scan_mean_points"});
   PreprocessSpec& p = c.preprocess;
   const std::string sb = r.get<std::string>(pre, "preprocess", "static_background").value_or("scan_mean");
   if (const auto kind = enum_from_name<StaticBackgroundKind>(sb); kind && *kind != StaticBackgroundKind::file)
@@ -194,6 +195,10 @@ void read_preprocess_table(TomlReader& r, const std::string& path, ScanConfig& c
   within(path, "preprocess", "hot_pixel_threshold", p.hot_pixel_threshold, 1e-3, 1e6, "MADs");
   p.neighbour_sigma_steps = r.get<double>(pre, "preprocess", "neighbour_sigma_steps").value_or(0.0);
   within(path, "preprocess", "neighbour_sigma_steps", p.neighbour_sigma_steps, 0, 100, "steps");
+  const auto mean_points = r.get<int64_t>(pre, "preprocess", "scan_mean_points");
+  if (mean_points && *mean_points < 0)
+    fail(path, ": [preprocess] scan_mean_points is ", *mean_points, "; give a count of points (0: every point)");
+  if (mean_points) p.scan_mean_points = static_cast<size_t>(*mean_points);
 }
 
 /// [fraction]: how the end members are fixed (model, mixture, reference regions or masks).
@@ -323,7 +328,7 @@ void write_scan_config(std::ostream& os, const ScanConfig& c, const std::string&
      << "\nmask = " << q(p.mask == MaskKind::file ? rel(p.mask_file) : std::string(name_of(p.mask)))
      << "\nmask_radius_px = " << p.mask_radius_px << "\nhot_pixel_filter = " << (p.hot_pixel_filter ? "true" : "false")
      << "\nhot_pixel_threshold = " << p.hot_pixel_threshold << "\nneighbour_sigma_steps = " << p.neighbour_sigma_steps
-     << "\n\n[fraction]\nend_members = " << q(c.end_members.mode)
+     << "\nscan_mean_points = " << p.scan_mean_points << "\n\n[fraction]\nend_members = " << q(c.end_members.mode)
      << "\nrefine_pattern_centre = " << (c.refine_pattern_centre ? "true" : "false") << "\n";
   auto rects = [&](const char* key, const std::vector<std::array<int, 4>>& list) {
     if (list.empty()) return;

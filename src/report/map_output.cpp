@@ -669,6 +669,7 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
           {"preprocess",
            {{"static_background", name_of(config.preprocess.static_background)},
             {"static_background_sigma_px", config.preprocess.static_background_sigma_px},
+            {"scan_mean_points", config.preprocess.scan_mean_points},
             {"dynamic_background_sigma_px", config.preprocess.dynamic_background_sigma_px},
             {"neighbour_sigma_steps", config.preprocess.neighbour_sigma_steps},
             {"hot_pixel_filter", config.preprocess.hot_pixel_filter}}},
@@ -751,7 +752,8 @@ nlohmann::json parameters_json(const ScanConfig& config, const std::string& orde
             {"detection_noise_maps", options.detection.noise_maps},
             {"detection_seed", options.detection.seed},
             {"unfold_classes", options.unfold_classes}}},
-          {"mean_spheres", options.mean_spheres}};
+          {"mean_spheres", options.mean_spheres},
+          {"mean_sphere_points", options.mean_sphere_points}};
 }
 
 }  // namespace

@@ -30,6 +30,9 @@ struct MapOptions {
   int bootstrap_resamples = 1000;
   int unfold_classes = 10;  ///< Schwartz–Saltykov classes for the secondary particles
   bool mean_spheres = true;
+  /// Each mean sphere from at most this many points of its class, evenly spread over the scan
+  /// (0: every point of the class).
+  size_t mean_sphere_points = 2048;
 };
 
 struct MapResults {

@@ -90,6 +90,9 @@ struct FractionSpec {
   int orientation_kernel_radius = 2;
   double grain_reference_max_rad = 0.25 * M_PI / 180;
   int min_points_for_grain_fit = 10;
+  /// Each grain's mean pattern (for the orientation and pattern-centre fits) from at most this
+  /// many of its points, evenly spread over the grain (0: every point).
+  size_t grain_pattern_points = 256;
   /// Refine the pattern centre and distance on the mean patterns of up to pattern_centre_grains
   /// grains with at least pattern_centre_min_points points (pattern_centre_fit.hpp).
   bool refine_pattern_centre = true;

@@ -40,6 +40,10 @@ struct PreprocessSpec {
   /// the bands of the few grains a small scan holds do not enter it.
   /// Negative: 0.1 × pattern width; 0: the raw mean (scans of many grains).
   double static_background_sigma_px = -1;
+  /// The scan mean from at most this many points, evenly spread over the scan (0: every point).
+  /// The mean of a few thousand patterns is exact to far below the counting noise of one, and it
+  /// spares a whole pass over a large stack.
+  size_t scan_mean_points = 4096;
   /// σ of the dynamic-background Gaussian (px). Negative: 0.1 × pattern width.
   /// 0: off.
   double dynamic_background_sigma_px = -1;
@@ -115,8 +119,10 @@ size_t filter_hot_pixels(float* pattern, int width, int height, double threshold
 /// Progress callback: (done, total) in points.
 using ProgressFn = std::function<void(size_t done, size_t total)>;
 
-/// Mean raw pattern of the whole scan, streamed in chunks of `chunk` points.
-std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk = 256, const ProgressFn& progress = {});
+/// Mean raw pattern of the scan: of every point, streamed in chunks of `chunk` points, or of at
+/// most `at_most` points evenly spread over the scan (spread_sample) when the scan has more.
+std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk = 256, const ProgressFn& progress = {},
+                                     size_t at_most = 0);
 
 /// Builds the preprocessor for a source: takes the static background image or computes the scan
 /// mean as the spec asks.
@@ -130,6 +136,26 @@ Preprocessor make_preprocessor(const PreprocessSpec& spec, PatternSource& source
 void neighbour_average_row(const ScanGrid& grid, double sigma_steps, int row, const float* const rows[3],
                            const uint8_t* const usable[3], const std::vector<uint8_t>& mask, size_t pixels, float* out,
                            uint8_t* out_usable, bool unit_variance = true);
+
+/// Single points of a scan read and preprocessed as PreprocessedRows gives them (their neighbours
+/// read too where the preprocessing averages over them): for the stages that need a sample of the
+/// scan rather than every pattern.
+class PreprocessedPoints {
+ public:
+  PreprocessedPoints(PatternSource& source, const ScanGrid& grid, const Preprocessor& pre);
+  /// The points `index` (scan order is cheapest) into `patterns` (index.size() · pixels floats)
+  /// with their usable flags.
+  void load(const std::vector<size_t>& index, std::vector<float>& patterns, std::vector<uint8_t>& usable);
+
+ private:
+  PatternSource& source_;
+  const ScanGrid& grid_;
+  const Preprocessor& pre_;
+};
+
+/// At most `at_most` of `points` (all of them for 0), evenly spread over the list: the
+/// ((i + ½)·n / at_most)-th for i = 0 … at_most − 1, in the list's order.
+std::vector<size_t> spread_sample(const std::vector<size_t>& points, size_t at_most);
 
 /// Streams preprocessed scan rows with bounded memory (three rows of
 /// patterns plus one output row), neighbour-averaged if the spec asks.
