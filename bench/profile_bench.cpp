@@ -184,7 +184,7 @@ int main(int argc, char** argv) {
         "%3d x %3d px: %d patterns compared; cube map vs plain loop: largest relative difference %.2g, "
         "%d bins with a pixel moved by rounding; fixed orientation vs cube map: %.2g%s\n",
         px, px, compared, cube_diff, moved % 1000000, fixed_diff,
-        moved >= 1000000 ? " (bins differ: ERROR)" : " (identical bins)");
+        moved >= 1000000 ? " (bins differ: ERROR)" : " (the same pixels in every bin)");
     if (fixed_diff > 1e-12 || moved >= 1000000) return 1;
   }
   return 0;

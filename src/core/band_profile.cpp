@@ -181,18 +181,18 @@ FixedOrientationProfiler BandProfiler::at_orientation(const std::vector<uint8_t>
   plan.profiler_ = this;
   const size_t slots = families_.size() * bins_;
   plan.fixed_.assign(slots, ProfileSums{});
-  // Count the pixels per slot, then list them slot by slot in increasing pixel order: the same
-  // order in which profile() adds them, so both give the same sums to the last bit.
+  // Count the pixels per slot, then list them slot by slot in increasing pixel order (the order in
+  // which profile() visits them; the sums differ from its only by the plan's four chains).
   std::vector<uint32_t> per_slot(slots, 0);
   for_each_strip_pixel(mask, rays, g, [&](size_t, size_t slot) { ++per_slot[slot]; });
   plan.offsets_.assign(slots + 1, 0);
   for (size_t s = 0; s < slots; ++s) plan.offsets_[s + 1] = plan.offsets_[s] + per_slot[s];
   plan.pixel_.resize(plan.offsets_.back());
-  plan.weight_.resize(plan.offsets_.back());
+  plan.solid_angle_.assign(rays.solid_angle.begin(), rays.solid_angle.end());
   std::vector<uint32_t> next(plan.offsets_.begin(), plan.offsets_.end() - 1);
   for_each_strip_pixel(mask, rays, g, [&](size_t q, size_t slot) {
     const double w = rays.solid_angle[q];
-    plan.pixel_[next[slot]] = static_cast<uint32_t>(q), plan.weight_[next[slot]] = w, ++next[slot];
+    plan.pixel_[next[slot]] = static_cast<uint32_t>(q), ++next[slot];
     ProfileSums& a = plan.fixed_[slot];
     a.weight += w, a.weight_sq += w * w, a.count += 1;
   });
@@ -201,14 +201,31 @@ FixedOrientationProfiler BandProfiler::at_orientation(const std::vector<uint8_t>
 
 void FixedOrientationProfiler::profile(const float* pattern, std::vector<FamilyProfile>& out) const {
   thread_local std::vector<ProfileSums> acc;
+  thread_local std::vector<double> terms;  // per pixel: w·v and w·v², side by side
   acc = fixed_;
+  terms.resize(2 * solid_angle_.size());
+  for (size_t q = 0; q < solid_angle_.size(); ++q) {
+    const double v = pattern[q], wv = solid_angle_[q] * v;
+    terms[2 * q] = wv, terms[2 * q + 1] = wv * v;
+  }
+  // Four partial sums per slot: the additions of one chain wait on each other, four chains keep the
+  // core's adders busy (the sums differ from one chain's in the last bits).
+  const double* t = terms.data();
   for (size_t s = 0; s + 1 < offsets_.size(); ++s) {
-    double sum = 0, sum_sq = 0;
-    for (uint32_t e = offsets_[s]; e < offsets_[s + 1]; ++e) {
-      const double v = pattern[pixel_[e]], wv = weight_[e] * v;
-      sum += wv, sum_sq += wv * v;
+    double sum[4] = {0, 0, 0, 0}, sum_sq[4] = {0, 0, 0, 0};
+    uint32_t e = offsets_[s];
+    const uint32_t end = offsets_[s + 1];
+    for (; e + 4 <= end; e += 4)
+      for (int c = 0; c < 4; ++c) {
+        const double* pair = t + 2 * static_cast<size_t>(pixel_[e + c]);
+        sum[c] += pair[0], sum_sq[c] += pair[1];
+      }
+    for (; e < end; ++e) {
+      const double* pair = t + 2 * static_cast<size_t>(pixel_[e]);
+      sum[0] += pair[0], sum_sq[0] += pair[1];
     }
-    acc[s].sum = sum, acc[s].sum_sq = sum_sq;
+    acc[s].sum = (sum[0] + sum[1]) + (sum[2] + sum[3]);
+    acc[s].sum_sq = (sum_sq[0] + sum_sq[1]) + (sum_sq[2] + sum_sq[3]);
   }
   profiler_->copy_out(acc, out);
 }

@@ -2,6 +2,7 @@
 #include "orderband/detection_limit.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <map>
 #include <random>
@@ -19,6 +20,13 @@ namespace orderband {
 namespace {
 
 double normal_cdf(double z) { return 0.5 * std::erfc(-z / std::sqrt(2.0)); }
+
+/// The random generator of one of several independent simulations: seeded by the run's seed and the
+/// simulation's index, so that results do not depend on which thread runs which.
+std::mt19937_64 generator(uint64_t seed, int index) {
+  std::seed_seq seeds{static_cast<uint32_t>(seed), static_cast<uint32_t>(seed >> 32), static_cast<uint32_t>(index)};
+  return std::mt19937_64(seeds);
+}
 
 /// The share of the beam (Gaussian σx, σy centred at (x, y)) that falls inside the disc of radius
 /// r about the origin: ∫ over the disc's chords at height v of the across-profile's mass.
@@ -82,11 +90,17 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
   patch.cols = static_cast<int>(std::ceil(reach / grid.step_um)) + 1;
   patch.rows = static_cast<int>(std::ceil(reach / grid.row_spacing_um())) + 1;
   const Eigen::Vector2d centre = patch.position_um({patch.rows / 2, patch.cols / 2});
-  std::mt19937_64 rng(spec.seed + 1);
-  std::normal_distribution<float> noise(0.0f, static_cast<float>(sd));
-  std::uniform_real_distribution<double> offset(-0.5, 0.5);
   SectionTransfer t;
+  t.true_um.resize(diameters);
+  t.found.resize(diameters);
+  t.measured_um.resize(diameters);
+  // Each diameter draws from its own generator (seeded by the spec's seed and its index), so the
+  // transfer does not depend on the number of threads.
+#pragma omp parallel for schedule(dynamic)
   for (int i = 0; i < diameters; ++i) {
+    std::mt19937_64 rng = generator(spec.seed + 1, i);
+    std::normal_distribution<float> noise(0.0f, static_cast<float>(sd));
+    std::uniform_real_distribution<double> offset(-0.5, 0.5);
     const double d = d_lo * std::pow(d_hi / d_lo, i / double(diameters - 1));
     int found = 0;
     double sum = 0;
@@ -103,9 +117,9 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
       const double ecd = found_section_ecd(patch, segment_particles(patch, f, {}, seg), c, d);
       if (ecd > 0) ++found, sum += ecd;
     }
-    t.true_um.push_back(d);
-    t.found.push_back(found / double(spec.transfer_discs));
-    t.measured_um.push_back(found ? sum / found : 0.0);
+    t.true_um[i] = d;
+    t.found[i] = found / double(spec.transfer_discs);
+    t.measured_um[i] = found ? sum / found : 0.0;
   }
   // Below the first found diameter the reading is undefined: carry it down; then non-decreasing.
   for (size_t i = t.measured_um.size(); i-- > 1;)
@@ -162,16 +176,25 @@ double invertible_from(const SectionTransfer& t, double up_to) {
 /// per map (simulated maps), and that rate.
 std::pair<int, double> noise_component_size(const ScanGrid& grid, double m, double sd, const SegmentSpec& segment,
                                             const DetectionLimitSpec& spec) {
-  std::mt19937_64 rng(spec.seed);
-  std::normal_distribution<float> noise(static_cast<float>(m), static_cast<float>(sd));
   std::vector<double> at_least(grid.count() + 2, 0.0);
   SegmentSpec seg = segment;
   seg.min_points = 1;
   seg.exclude_border = false;
-  std::vector<float> f(grid.count());
-  for (int map = 0; map < spec.noise_maps; ++map) {
-    for (float& v : f) v = noise(rng);
-    for (const Particle2D& p : segment_particles(grid, f, {}, seg).particles) at_least[p.points] += 1;
+  // Each map draws from its own generator (the spec's seed and the map's index): the counts do not
+  // depend on the number of threads (they are whole numbers, so neither does their sum).
+#pragma omp parallel
+  {
+    std::vector<double> mine(at_least.size(), 0.0);
+    std::vector<float> f(grid.count());
+#pragma omp for schedule(dynamic)
+    for (int map = 0; map < spec.noise_maps; ++map) {
+      std::mt19937_64 rng = generator(spec.seed, map);
+      std::normal_distribution<float> noise(static_cast<float>(m), static_cast<float>(sd));
+      for (float& v : f) v = noise(rng);
+      for (const Particle2D& p : segment_particles(grid, f, {}, seg).particles) mine[p.points] += 1;
+    }
+#pragma omp critical
+    for (size_t s = 0; s < at_least.size(); ++s) at_least[s] += mine[s];
   }
   for (size_t s = grid.count(); s-- > 0;) at_least[s] += at_least[s + 1];
   int min_points = 1;
@@ -216,14 +239,18 @@ double expected_points_above(const ScanGrid& grid, const BeamFootprint& beam, do
   const double r = 0.5 * d, floor = normal_cdf((m - t) / sd);
   // Midpoint raster over one quadrant (the image is symmetric in x and y), out to 5 σ past the edge.
   const double ex = r + 5 * beam.sigma_x_um, ey = r + 5 * beam.sigma_y_um;
-  const int steps = 48;
+  constexpr int steps = 48;
   const double hx = ex / steps, hy = ey / steps;
-  double sum = 0;
+  // Row sums in parallel, added in order: the same sum whatever the number of threads.
+  std::array<double, steps> row{};
+#pragma omp parallel for schedule(static)
   for (int i = 0; i < steps; ++i)
     for (int j = 0; j < steps; ++j) {
       const double level = m + (1 - m) * beam_share_inside(r, (i + 0.5) * hx, (j + 0.5) * hy, beam);
-      sum += normal_cdf((level - t) / sd) - floor;
+      row[i] += normal_cdf((level - t) / sd) - floor;
     }
+  double sum = 0;
+  for (double v : row) sum += v;
   return 4 * sum * hx * hy / (grid.step_um * grid.row_spacing_um());
 }
 

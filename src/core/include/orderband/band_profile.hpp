@@ -73,15 +73,17 @@ class BandProfiler;
 
 /// Profiles of many patterns at one orientation (the points of one grain, profiled at the grain's
 /// orientation): which pixels fall in which (family, bin) slot is worked out once
-/// (BandProfiler::at_orientation), so a pattern costs one multiply-add per pixel and strip it lies
-/// in. Gives the same sums as BandProfiler::profile at that orientation, bit for bit.
+/// (BandProfiler::at_orientation), so a pattern costs one pass over its pixels (w·v and w·v²) and
+/// one gathered addition per pixel and strip it lies in. Gives the same bins, weights and counts
+/// as BandProfiler::profile at that orientation, and the same sums but for the order of addition
+/// (about 1e-15 relative).
 class FixedOrientationProfiler {
  public:
   void profile(const float* pattern, std::vector<FamilyProfile>& out) const;
   size_t entries() const { return pixel_.size(); }
   size_t bytes() const {
-    return pixel_.size() * (sizeof(uint32_t) + sizeof(double)) + fixed_.size() * sizeof(ProfileSums) +
-           offsets_.size() * sizeof(uint32_t);
+    return pixel_.size() * sizeof(uint32_t) + solid_angle_.size() * sizeof(double) +
+           fixed_.size() * sizeof(ProfileSums) + offsets_.size() * sizeof(uint32_t);
   }
 
  private:
@@ -89,8 +91,8 @@ class FixedOrientationProfiler {
   const BandProfiler* profiler_ = nullptr;
   std::vector<uint32_t> offsets_;  ///< per slot, into pixel_ / weight_ (CSR)
   std::vector<uint32_t> pixel_;
-  std::vector<double> weight_;      ///< the pixel's solid angle (sr)
-  std::vector<ProfileSums> fixed_;  ///< the weights and counts, the same for every pattern
+  std::vector<double> solid_angle_;  ///< per detector pixel (sr): its weight in every slot
+  std::vector<ProfileSums> fixed_;   ///< the weights and counts, the same for every pattern
 };
 
 /// Computes band profiles of many patterns fast: a cube map of the sphere
