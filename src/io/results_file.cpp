@@ -6,7 +6,9 @@
 #include <cmath>
 #include <cstdlib>
 #include <memory>
-#include <sstream>
+#include <string>
+#include <string_view>
+#include <vector>
 
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
@@ -80,38 +82,60 @@ void write_map(hid_t group, int rows, int cols, const PointArray& a) {
 }
 
 /// The CSV's header and rows (comment lines skipped; cells split at commas, no quoting is used).
-std::vector<std::vector<std::string>> csv_rows(const std::string& csv) {
-  std::vector<std::vector<std::string>> rows;
-  std::istringstream in(csv);
-  std::string line;
-  while (std::getline(in, line)) {
+/// The cells of a CSV text (empty and comment lines skipped) as views into it, row after row; every
+/// row has the header's cell count. Views, not strings: the points table has a row per point, and
+/// strings of its cells held about 600 bytes per point.
+struct CsvCells {
+  std::vector<std::string_view> cells;
+  size_t columns = 0;
+  size_t rows() const { return columns ? cells.size() / columns : 0; }  ///< the header included
+};
+
+CsvCells csv_cells(const std::string& csv, const std::string& table) {
+  CsvCells out;
+  const std::string_view text(csv);
+  size_t row = 0;
+  for (size_t start = 0; start < text.size();) {
+    size_t end = text.find('\n', start);
+    if (end == std::string_view::npos) end = text.size();
+    const std::string_view line = text.substr(start, end - start);
+    start = end + 1;
     if (line.empty() || line[0] == '#') continue;
-    std::vector<std::string> cells;
-    size_t start = 0;
-    for (size_t comma; (comma = line.find(',', start)) != std::string::npos; start = comma + 1)
-      cells.push_back(line.substr(start, comma - start));
-    cells.push_back(line.substr(start));
-    rows.push_back(std::move(cells));
+    size_t cells = 0, from = 0;
+    for (size_t comma; (comma = line.find(',', from)) != std::string_view::npos; from = comma + 1, ++cells)
+      out.cells.push_back(line.substr(from, comma - from));
+    out.cells.push_back(line.substr(from));
+    ++cells;
+    if (row == 0) out.columns = cells;
+    if (cells != out.columns) fail("table ", table, ": row ", row, " has ", cells, " cells, the header ", out.columns);
+    ++row;
   }
-  return rows;
+  if (row == 0) fail("table ", table, " has no header");
+  return out;
 }
 
-bool parse_number(const std::string& cell, double& out) {
+/// A cell as a number (empty: NaN); false if it is not one. The cell lies inside the CSV text,
+/// followed by a comma, a line end or the text's end, where strtod stops.
+bool parse_number(std::string_view cell, double& out) {
   if (cell.empty()) {
     out = std::nan("");
     return true;
   }
   char* end = nullptr;
-  out = std::strtod(cell.c_str(), &end);
-  return end == cell.c_str() + cell.size();
+  out = std::strtod(cell.data(), &end);
+  return end == cell.data() + cell.size();
 }
 
-void write_column(hid_t group, const std::string& name, const std::vector<std::string>& cells) {
-  const hsize_t n = cells.size();
+/// Column `c` of the table as one dataset: float64 where every cell is a number, else UTF-8 strings.
+void write_column(hid_t group, const CsvCells& t, size_t c) {
+  const std::string name(t.cells[c]);
+  const size_t rows = t.rows() - 1;
+  auto cell = [&](size_t r) { return t.cells[(r + 1) * t.columns + c]; };
+  const hsize_t n = rows;
   const H5Handle space(H5Screate_simple(1, &n, nullptr), H5Sclose, "a column space");
-  std::vector<double> numbers(cells.size());
+  std::vector<double> numbers(rows);
   bool numeric = true;
-  for (size_t i = 0; i < cells.size() && numeric; ++i) numeric = parse_number(cells[i], numbers[i]);
+  for (size_t r = 0; r < rows && numeric; ++r) numeric = parse_number(cell(r), numbers[r]);
   if (numeric) {
     const H5Handle set(
         H5Dcreate2(group, name.c_str(), H5T_IEEE_F64LE, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT),
@@ -124,26 +148,18 @@ void write_column(hid_t group, const std::string& name, const std::vector<std::s
   const H5Handle set(
       H5Dcreate2(group, name.c_str(), type, space, H5P_DEFAULT, untimed(H5P_DATASET_CREATE), H5P_DEFAULT), H5Dclose,
       "column " + name);
+  std::vector<std::string> strings;
+  for (size_t r = 0; r < rows; ++r) strings.emplace_back(cell(r));
   std::vector<const char*> p;
-  for (const std::string& c : cells) p.push_back(c.c_str());
+  for (const std::string& v : strings) p.push_back(v.c_str());
   if (H5Dwrite(set, type, H5S_ALL, H5S_ALL, H5P_DEFAULT, p.data()) < 0) fail("HDF5: cannot write column ", name);
 }
 
 void write_table(hid_t tables, const CsvTable& t) {
-  const auto rows = csv_rows(t.csv);
-  if (rows.empty()) fail("table ", t.name, " has no header");
+  const CsvCells cells = csv_cells(t.csv, t.name);
   const H5Handle group(H5Gcreate2(tables, t.name.c_str(), H5P_DEFAULT, untimed(H5P_GROUP_CREATE), H5P_DEFAULT),
                        H5Gclose, "group " + t.name);
-  const std::vector<std::string>& header = rows[0];
-  for (size_t c = 0; c < header.size(); ++c) {
-    std::vector<std::string> cells;
-    for (size_t r = 1; r < rows.size(); ++r) {
-      if (rows[r].size() != header.size())
-        fail("table ", t.name, ": row ", r, " has ", rows[r].size(), " cells, the header ", header.size());
-      cells.push_back(rows[r][c]);
-    }
-    write_column(group, header[c], cells);
-  }
+  for (size_t c = 0; c < cells.columns; ++c) write_column(group, cells, c);
 }
 
 }  // namespace
