@@ -80,7 +80,7 @@ TEST(CliFamilies, DynamicalProfilesOfBothPhasesFromTheSphereCache) {
   const auto j = nlohmann::json::parse(r.out);
   const auto& spheres = j["parameters"]["dynamical_spheres"];
   EXPECT_EQ(spheres["nside"], 64);
-  EXPECT_EQ(spheres["strong_limit"].get<double>(), 128);
+  EXPECT_EQ(spheres["strong_limit"].get<double>(), 256);
   EXPECT_DOUBLE_EQ(spheres["mean_depth_nm"].get<double>(), 10);
   double change_110 = std::nan("");
   for (const auto& f : j["families"]) {

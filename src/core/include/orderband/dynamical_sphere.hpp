@@ -10,14 +10,11 @@
 
 namespace orderband {
 
-/// What a dynamical sphere is computed with. The beam-set defaults come from a convergence study
-/// (Ni at 20 kV, 150 random directions, each sphere divided by its mean): doubling the strong and
-/// weak limits changed the intensities by 6.6 % rms from 32 to 64, 5.4 % from 64 to 128 and
-/// 2.0 % from 128 to 256 (DEVELOPERS.md, "Dynamical spheres").
+/// What a dynamical sphere is computed with (the beam set: kSphereBeams).
 struct DynamicalSphereSpec {
   int nside = 128;
   double kilovolts = 20;
-  BeamSetSpec beams{1.6, 128, 640};
+  BeamSetSpec beams = kSphereBeams;
   AbsorptionSpec absorption;
   DepthSpec depth;
 };

@@ -59,7 +59,7 @@ struct ManyBeamSpec {
   /// for Ni at 20 kV, within the few-to-ten per cent band contrast of real patterns (memory).
   double contrast = 0.3;
   int nside = 128;
-  BeamSetSpec beams{1.6, 128, 640};
+  BeamSetSpec beams = kSphereBeams;
   double proportional_absorption = 0.1;
   double mean_depth_nm = 10;
   std::string cache_folder;  ///< where the spheres are cached (empty: not cached)
