@@ -11,9 +11,10 @@ MismatchSystematic mismatch_systematic(const std::string& estimator) {
   const std::string how =
       "bench/mismatch_bench, 16 renderer variants (2 many-beam), 40 x 40 points, 60 x 60 px, 5,000 counts/px";
   if (estimator == "learned")
-    return {0.023, 0.053, 16, 13, how + " (orderband 0.3.0, 2026-12-04, folded profile features)"};
+    return {0.025, 0.062, 16, 13,
+            how + " (orderband 0.3.0, 2026-12-04, folded profile features, spheres of the 256 / 1,280 beam set)"};
   if (estimator == "profile")
-    return {0.768, 2.243, 16, 5, how + " (orderband 0.3.0, 2026-12-03, with the many-beam variants)"};
+    return {0.738, 2.311, 16, 4, how + " (orderband 0.3.0, 2026-12-04, spheres of the 256 / 1,280 beam set)"};
   return {std::nan(""), std::nan(""), 0, 0, "not measured for this estimator"};
 }
 
