@@ -57,8 +57,7 @@ Solved solve_all(const Phase& phase, double kv, const BeamSetSpec& beams, const 
   for (double v : s.intensity) mean += v / dirs.size();
   for (double& v : s.intensity) v /= mean;
   for (double b : strong) s.strong_beams += b / dirs.size();
-  s.ms_per_direction =
-      1e3 * std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count() / dirs.size();
+  s.ms_per_direction = 1e3 * std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count() / dirs.size();
   return s;
 }
 
@@ -78,8 +77,8 @@ int main(int argc, char** argv) {
   const double max_g = argc > 5 ? std::atof(argv[5]) : 1.6;
   const Phase phase = load_phase_cif(cif);
   const std::vector<Eigen::Vector3d> dirs = random_directions(directions);
-  std::printf("%s at %.0f kV, %d random directions, |g| <= %.2f 1/A, weak limit = 5 x strong limit\n", cif.c_str(),
-              kv, directions, max_g);
+  std::printf("%s at %.0f kV, %d random directions, |g| <= %.2f 1/A, weak limit = 5 x strong limit\n", cif.c_str(), kv,
+              directions, max_g);
   std::printf("%8s %8s %14s %16s %22s\n", "strong", "weak", "strong beams", "ms / direction", "rms change from last");
   Solved last;
   for (double strong = 8; strong <= largest; strong *= 2) {

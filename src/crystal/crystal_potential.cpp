@@ -37,14 +37,21 @@ double lorentz_factor(double kilovolts) {
   return 1.0 + elementary_charge_C * kilovolts * 1e3 / (electron_mass_kg * speed_of_light_m_s * speed_of_light_m_s);
 }
 
-CrystalPotential::CrystalPotential(const Phase& phase, double kilovolts, int max_index, AbsorptionSpec absorption)
-    : phase_(phase), kilovolts_(kilovolts), wavelength_A_(electron_wavelength_A(kilovolts)), max_index_(max_index) {
+CrystalPotential::CrystalPotential(const Phase& phase, double kilovolts, int max_index, AbsorptionSpec absorption,
+                                   double potential_scale)
+    : phase_(phase),
+      kilovolts_(kilovolts),
+      wavelength_A_(electron_wavelength_A(kilovolts)),
+      max_index_(max_index),
+      potential_scale_(potential_scale) {
+  if (!(potential_scale > 0 && potential_scale <= 1))
+    fail("the potential's scale must lie in (0, 1], got ", potential_scale);
   if (max_index < 1 || max_index > 40)
     fail("potential table: the largest Miller index must be 1 to 40, got ", max_index);
   if (!(absorption.proportional >= 0 && absorption.proportional < 1))
     fail("proportional absorption κ must lie in [0, 1), got ", absorption.proportional);
   if (phase.unit_cell_sites.empty()) fail("phase '", phase.name, "' has no atoms: no potential");
-  const double scale = lorentz_factor(kilovolts) / (kPi * cell_volume_A3(phase));
+  const double scale = potential_scale * lorentz_factor(kilovolts) / (kPi * cell_volume_A3(phase));
   const int side = 2 * max_index + 1;
   table_.resize(static_cast<size_t>(side) * side * side);
   for (int h = -max_index; h <= max_index; ++h)
@@ -73,7 +80,7 @@ const CrystalPotential::Entry& CrystalPotential::entry(const Eigen::Vector3i& hk
 }
 
 double CrystalPotential::mean_inner_potential_V() const {
-  return potential_constant_V_A2() * forward_structure_factor_A(phase_) / cell_volume_A3(phase_);
+  return potential_scale_ * potential_constant_V_A2() * forward_structure_factor_A(phase_) / cell_volume_A3(phase_);
 }
 
 double CrystalPotential::crystal_wavenumber() const {

@@ -31,7 +31,10 @@ struct AbsorptionSpec {
 /// difference of two beams of a beam set must lie inside); asking outside throws.
 class CrystalPotential {
  public:
-  CrystalPotential(const Phase& phase, double kilovolts, int max_index, AbsorptionSpec absorption = {});
+  /// `potential_scale` multiplies every coefficient, U_0 included: 1 for the crystal; small values
+  /// give the weak-potential (kinematic) limit that checks of the dynamical theory compare with.
+  CrystalPotential(const Phase& phase, double kilovolts, int max_index, AbsorptionSpec absorption = {},
+                   double potential_scale = 1.0);
 
   /// The elastic coefficient U_g (Å⁻²).
   std::complex<double> elastic(const Eigen::Vector3i& hkl) const { return entry(hkl).elastic; }
@@ -68,6 +71,7 @@ class CrystalPotential {
   Phase phase_;
   double kilovolts_, wavelength_A_;
   int max_index_;
+  double potential_scale_ = 1;
   std::vector<Entry> table_;
 };
 
