@@ -55,21 +55,18 @@ GrainSums sum_grain_patterns(const FractionScan& scan) {
   s.count.assign(scan.grains + 1, 0);
   const std::vector<size_t> points = grain_pattern_points(scan, s.size);
   PreprocessedPoints reader(*scan.source, scan.grid, scan.pre);
-  std::vector<float> pats;
-  std::vector<uint8_t> ok;
-  constexpr size_t kBatch = 256;
-  for (size_t first = 0; first < points.size(); first += kBatch) {
-    const std::vector<size_t> batch(points.begin() + first, points.begin() + std::min(points.size(), first + kBatch));
-    reader.load(batch, pats, ok);
-    for (size_t i = 0; i < batch.size(); ++i) {
-      if (!ok[i]) continue;
-      const int g = scan.ori.grains.id[batch[i]];
-      if (s.sum[g].empty()) s.sum[g].assign(scan.pixels(), 0.0);
-      const float* p = pats.data() + i * scan.pixels();
-      for (size_t q = 0; q < scan.pixels(); ++q) s.sum[g][q] += p[q];
-      s.count[g] += 1;
-    }
-  }
+  reader.load_in_batches(
+      points, 256,
+      [&](const std::vector<size_t>& batch, const std::vector<float>& pats, const std::vector<uint8_t>& ok) {
+        for (size_t i = 0; i < batch.size(); ++i) {
+          if (!ok[i]) continue;
+          const int g = scan.ori.grains.id[batch[i]];
+          if (s.sum[g].empty()) s.sum[g].assign(scan.pixels(), 0.0);
+          const float* p = pats.data() + i * scan.pixels();
+          for (size_t q = 0; q < scan.pixels(); ++q) s.sum[g][q] += p[q];
+          s.count[g] += 1;
+        }
+      });
   return s;
 }
 

@@ -171,23 +171,23 @@ void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair,
   PreprocessedPoints reader(*source, inputs.config.grid, pre);
   constexpr size_t kBatch = 64;
   const size_t px = source->pixels();
-  std::vector<float> patterns;
-  std::vector<uint8_t> usable;
   std::vector<long> sphere_pixel(kBatch * px);
-  for (size_t first = 0; first < points.size(); first += kBatch) {
-    const std::vector<size_t> batch(points.begin() + first, points.begin() + std::min(points.size(), first + kBatch));
-    reader.load(batch, patterns, usable);
+  size_t done = 0;
+  reader.load_in_batches(
+      points, kBatch,
+      [&](const std::vector<size_t>& batch, const std::vector<float>& patterns, const std::vector<uint8_t>& usable) {
 #pragma omp parallel for schedule(dynamic)
-    for (size_t i = 0; i < batch.size(); ++i)
-      if (usable[i])
-        sphere_pixels(pre.mask(), rays, *r.orientations.orientation[batch[i]], sphere_grid,
-                      sphere_pixel.data() + i * px);
-    for (size_t i = 0; i < batch.size(); ++i)
-      if (usable[i])
-        back_project(patterns.data() + i * px, pre.mask(), rays, sphere_pixel.data() + i * px,
-                     r.fraction.fraction[batch[i]] > 0.8 ? ord : dis);
-    if (progress) progress("mean spheres", first + batch.size(), points.size());
-  }
+        for (size_t i = 0; i < batch.size(); ++i)
+          if (usable[i])
+            sphere_pixels(pre.mask(), rays, *r.orientations.orientation[batch[i]], sphere_grid,
+                          sphere_pixel.data() + i * px);
+        for (size_t i = 0; i < batch.size(); ++i)
+          if (usable[i])
+            back_project(patterns.data() + i * px, pre.mask(), rays, sphere_pixel.data() + i * px,
+                         r.fraction.fraction[batch[i]] > 0.8 ? ord : dis);
+        done += batch.size();
+        if (progress) progress("mean spheres", done, points.size());
+      });
   const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
   r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
   r.mean_ordered.emplace(fold_by_symmetry(ord, symmetry));

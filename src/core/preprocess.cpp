@@ -137,8 +137,7 @@ std::vector<float> scan_mean_pattern(PatternSource& source, size_t chunk, const 
       source.read(first, n, buffer.data());
     else
       for (size_t k = 0; k < n; ++k)  // the same points as spread_sample over 0 … total − 1
-        source.read(static_cast<size_t>((static_cast<double>(first + k) + 0.5) * total / at_most), 1,
-                    buffer.data() + k * px);
+        source.read(spread_position(first + k, total, at_most), 1, buffer.data() + k * px);
     for (size_t k = 0; k < n; ++k) {
       if (std::isnan(buffer[k * px])) continue;  // a faulty pattern (PatternSource::faults)
       for (size_t q = 0; q < px; ++q) sum[q] += buffer[k * px + q];
@@ -277,8 +276,7 @@ void PreprocessedPoints::load(const std::vector<size_t>& index, std::vector<floa
 std::vector<size_t> spread_sample(const std::vector<size_t>& points, size_t at_most) {
   if (at_most == 0 || points.size() <= at_most) return points;
   std::vector<size_t> out(at_most);
-  for (size_t i = 0; i < at_most; ++i)
-    out[i] = points[static_cast<size_t>((static_cast<double>(i) + 0.5) * points.size() / at_most)];
+  for (size_t i = 0; i < at_most; ++i) out[i] = points[spread_position(i, points.size(), at_most)];
   return out;
 }
 

@@ -1,6 +1,7 @@
 // Pattern preprocessing: backgrounds, mask, hot pixels, normalisation, neighbour averaging.
 #pragma once
 
+#include <algorithm>
 #include <cstdint>
 #include <functional>
 #include <memory>
@@ -146,6 +147,18 @@ class PreprocessedPoints {
   /// The points `index` (scan order is cheapest) into `patterns` (index.size() · pixels floats)
   /// with their usable flags.
   void load(const std::vector<size_t>& index, std::vector<float>& patterns, std::vector<uint8_t>& usable);
+  /// Loads `points` in batches of `batch` and calls use(batch's points, patterns, usable) for each,
+  /// in order: memory bounded by one batch.
+  template <class Use>
+  void load_in_batches(const std::vector<size_t>& points, size_t batch, Use&& use) {
+    std::vector<float> patterns;
+    std::vector<uint8_t> usable;
+    for (size_t first = 0; first < points.size(); first += batch) {
+      const std::vector<size_t> part(points.begin() + first, points.begin() + std::min(points.size(), first + batch));
+      load(part, patterns, usable);
+      use(part, patterns, usable);
+    }
+  }
 
  private:
   PatternSource& source_;
@@ -156,6 +169,10 @@ class PreprocessedPoints {
 /// At most `at_most` of `points` (all of them for 0), evenly spread over the list: the
 /// ((i + ½)·n / at_most)-th for i = 0 … at_most − 1, in the list's order.
 std::vector<size_t> spread_sample(const std::vector<size_t>& points, size_t at_most);
+/// The i-th of `at_most` positions spread evenly over n: ⌊(i + ½)·n / at_most⌋ (spread_sample's rule).
+inline size_t spread_position(size_t i, size_t n, size_t at_most) {
+  return static_cast<size_t>((static_cast<double>(i) + 0.5) * n / at_most);
+}
 
 /// Streams preprocessed scan rows with bounded memory (three rows of
 /// patterns plus one output row), neighbour-averaged if the spec asks.
