@@ -11,6 +11,7 @@
 
 #include "orderband/error.hpp"
 #include "orderband/image_io.hpp"
+#include "orderband/scan_config.hpp"
 #include "test_support.hpp"
 
 namespace orderband {
@@ -227,6 +228,28 @@ TEST(PatternSource, HexagonalGridNeighboursByHand) {
   for (GridPoint p : a) EXPECT_NEAR((g.position_um(p) - g.position_um({2, 2})).norm(), 1.0, 1e-12);
   for (GridPoint p : b) EXPECT_NEAR((g.position_um(p) - g.position_um({1, 2})).norm(), 1.0, 1e-12);
   EXPECT_NEAR(g.field_height_um(), 5 * std::sqrt(3.0) / 2, 1e-12);
+}
+
+TEST(PatternSource, BeamReachOnTheGrid) {
+  // A reach of one step each way is the neighbourhood (8 on a square grid, 6 on a hexagonal one);
+  // a footprint 2.9 times longer along the tilt (σ 10 nm × 2.9, 25 nm steps: 2 σ = 2.3 rows) reaches
+  // 3 rows and 1 column: a 7 × 3 window less the point itself, cut at the field's edge.
+  const ScanGrid square{GridKind::square, 10, 8, 0.025};
+  const ScanGrid hex{GridKind::hexagonal, 10, 8, 0.025};
+  EXPECT_EQ(square.within_reach({4, 4}, 1, 1), square.neighbours({4, 4}, 8));
+  EXPECT_EQ(hex.within_reach({4, 4}, 1, 1), hex.neighbours({4, 4}));
+  EXPECT_EQ(square.within_reach({4, 4}, 3, 1).size(), 20u);
+  EXPECT_EQ(square.within_reach({0, 0}, 3, 1).size(), 7u);  // rows 0–3, columns 0–1, less (0, 0)
+  ScanConfig config;
+  config.grid = square;
+  config.beam.sigma_nm = 10;
+  config.beam.elongation = 2.9;
+  const GridReach reach = beam_reach(config);
+  EXPECT_EQ(reach.rows, 3);
+  EXPECT_EQ(reach.cols, 1);
+  config.beam.elongation.reset();
+  config.geometry.sample_tilt_deg = 0;  // a flat sample: 2 σ = 20 nm, under one step
+  EXPECT_EQ(beam_reach(config).rows, 1);
 }
 
 }  // namespace

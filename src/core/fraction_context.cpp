@@ -164,20 +164,28 @@ FractionScan::FractionScan(const ScanInputs& inputs, const OrientationResults& o
       point_orientation(
           kernel_mean_orientations(grid, ori_.orientation, ori_.grains, symmetry, spec_.orientation_kernel_radius)),
       grain_orientation(grains + 1),
-      correction(grains + 1) {
+      correction(grains + 1),
+      reach(beam_reach(inputs.config)) {
   for (int g = 1; g <= grains; ++g) grain_orientation[g] = ori.grains.mean[g - 1];
 }
 
-int FractionScan::neighbour_grain(size_t k) const {
+std::vector<int> FractionScan::grains_within_reach(size_t k) const {
   std::map<int, int> votes;
-  for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+  for (const GridPoint& nb : grid.within_reach(grid.point(k), reach.rows, reach.cols)) {
     const int id = ori.grains.id[grid.index(nb)];
     if (id > 0 && id != ori.grains.id[k]) votes[id] += 1;
   }
-  int best = 0, best_votes = 0;
-  for (const auto& [id, v] : votes)
-    if (v > best_votes) best = id, best_votes = v;
-  return best;
+  std::vector<std::pair<int, int>> ranked(votes.begin(), votes.end());
+  // Most points first; among equals the lower id (the order a map iterates in).
+  std::stable_sort(ranked.begin(), ranked.end(), [](const auto& a, const auto& b) { return a.second > b.second; });
+  std::vector<int> out;
+  for (const auto& [id, v] : ranked) out.push_back(id);
+  return out;
+}
+
+int FractionScan::neighbour_grain(size_t k) const {
+  const std::vector<int> others = grains_within_reach(k);
+  return others.empty() ? 0 : others.front();
 }
 
 CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preprocessor& processing) const {
@@ -186,7 +194,7 @@ CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preproc
   for (size_t k = 0; k < n; ++k) {
     const int g = ori.grains.id[k];
     if (g <= 0) continue;
-    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+    for (const GridPoint& nb : grid.within_reach(grid.point(k), reach.rows, reach.cols)) {
       const int other = ori.grains.id[grid.index(nb)];
       if (other > 0 && other != g) touching[other].push_back(g);
     }

@@ -104,11 +104,16 @@ struct FractionScan {
   /// correction from the orientation stage's grain mean to it (g_new = g_old · C).
   std::vector<Rotation> grain_orientation, correction;
 
+  GridReach reach;  ///< how far the beam reaches on the grid (beam_reach)
+
   size_t pixels() const { return source->pixels(); }
-  /// The grain (other than the point's own) most of its 8 neighbours belong to; 0 if none.
+  /// The grains other than the point's own that the beam reaches from it (ScanGrid::within_reach),
+  /// the one with the most points first; empty if none.
+  std::vector<int> grains_within_reach(size_t k) const;
+  /// The first of them; 0 if none.
   int neighbour_grain(size_t k) const;
   /// Each grain's disordered model pattern (processed by `processing`) profiled by `by` in the
-  /// frame of every grain it touches.
+  /// frame of every grain the beam reaches it from.
   CrossProfiles cross_profiles(const BandProfiler& by, const Preprocessor& processing) const;
 };
 

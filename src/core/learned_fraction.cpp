@@ -501,7 +501,12 @@ void zeros_from_pure_matrix(const LearnedInputs& in, const std::vector<double>& 
     if (learns(in, k) && !std::isnan(score[k]) && !ordered_alone[g] && ordered[k])
       shift += z[g] - old_z[g], shift_n += 1;
   }
-  if (shift_n > 0 && beta - shift / shift_n > 0) beta -= shift / shift_n;
+  if (!(shift_n > 0 && beta - shift / shift_n > 0)) return;
+  const double old_beta = beta;
+  beta -= shift / shift_n;
+  // A grain of the ordered phase alone keeps its ordered level too: its zero follows the scale.
+  for (int g = 1; g <= in.grains; ++g)
+    if (ordered_alone[g] && !std::isnan(z[g])) z[g] += old_beta - beta;
 }
 
 struct Placement {

@@ -39,6 +39,15 @@ std::vector<GridPoint> ScanGrid::neighbours(GridPoint p, int square_connectivity
   return out;
 }
 
+std::vector<GridPoint> ScanGrid::within_reach(GridPoint p, int reach_rows, int reach_cols) const {
+  if (reach_rows <= 1 && reach_cols <= 1) return neighbours(p, 8);
+  std::vector<GridPoint> out;
+  for (int dr = -reach_rows; dr <= reach_rows; ++dr)
+    for (int dc = -reach_cols; dc <= reach_cols; ++dc)
+      if (const GridPoint q{p.row + dr, p.col + dc}; (dr != 0 || dc != 0) && contains(q)) out.push_back(q);
+  return out;
+}
+
 void ScanGrid::validate() const {
   if (rows <= 0 || cols <= 0) fail("scan grid must have positive rows and cols, got ", rows, " x ", cols);
   if (!(step_um > 0) || !std::isfinite(step_um)) fail("scan step must be a positive number of µm, got ", step_um);

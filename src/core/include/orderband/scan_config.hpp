@@ -72,6 +72,13 @@ struct ScanConfig {
 /// The beam footprint of the scan (µm).
 BeamFootprint beam_footprint(const ScanConfig& config);
 
+/// How far the beam reaches on the grid: two standard deviations of its footprint along the rows
+/// and along the columns, in grid steps, at least one step.
+struct GridReach {
+  int rows = 1, cols = 1;
+};
+GridReach beam_reach(const ScanConfig& config);
+
 /// The scan's detector geometry for patterns of the given stored size.
 DetectorGeometrySpec geometry_for(const ScanConfig& config, int width_px, int height_px);
 

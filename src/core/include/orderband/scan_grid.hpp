@@ -46,6 +46,9 @@ struct ScanGrid {
   /// Neighbours inside the grid: square grids 4 (edge) or 8 (edge + corner)
   /// connectivity; hexagonal grids always the 6 nearest points.
   std::vector<GridPoint> neighbours(GridPoint p, int square_connectivity = 8) const;
+  /// The points a beam centred on p reaches besides p: within `reach_rows` rows and `reach_cols`
+  /// columns; at a reach of one step each way, the 8 (hexagonal: 6) neighbours.
+  std::vector<GridPoint> within_reach(GridPoint p, int reach_rows, int reach_cols) const;
 
   /// Throws orderband::Error for non-positive sizes or step.
   void validate() const;
