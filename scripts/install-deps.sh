@@ -11,6 +11,7 @@ packages=(
   python3-numpy python3-scipy python3-healpy python3-skimage python3-h5py
   chromium
   clang clang-tidy libclang-rt-14-dev libomp-dev
+  libopenmpi-dev openmpi-bin
 )
 
 missing=()

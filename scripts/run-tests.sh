@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Installs what is missing, builds orderband and runs the whole test suite.
-#   bash scripts/run-tests.sh             release build in build/
+#   bash scripts/run-tests.sh             release build in build/ (with MPI: the tests that start mpirun run too)
 #   bash scripts/run-tests.sh --sanitize  AddressSanitizer + UndefinedBehaviorSanitizer build in build-sanitize/,
 #                                         with clang and every warning an error (the parsers' fuzz
 #                                         targets are built in it too, for scripts/run-fuzz.sh 1 build-sanitize)
@@ -11,7 +11,9 @@ bash scripts/install-deps.sh
 build_dir=build
 # Sources are compiled in batches (one translation unit per few files: the shared headers are parsed
 # once per batch); the headers' own check keeps one header per unit (CMakeLists.txt).
-cmake_args=(-DCMAKE_BUILD_TYPE=Release -DCMAKE_UNITY_BUILD=ON)
+# The release build has MPI (ORDERBAND_MPI), so that the tests that start mpirun run; the sanitizer
+# build below keeps the default, without it.
+cmake_args=(-DCMAKE_BUILD_TYPE=Release -DCMAKE_UNITY_BUILD=ON -DORDERBAND_MPI=ON)
 ctest_args=()
 if [ "${1:-}" = "--sanitize" ]; then
   # The longest tests that repeat code paths others already run under the sanitizers (the same map

@@ -1,9 +1,11 @@
 // `orderband map` and `orderband screen` end to end: numbers against truth, resume after a kill,
 // thread-count independence, hash-based reuse, and the report in a headless browser.
 #include <gtest/gtest.h>
+
 #include <signal.h>
 #include <sys/wait.h>
 #include <unistd.h>
+#include <cctype>
 
 #include <chrono>
 #include <cstdio>
@@ -16,6 +18,7 @@
 #include <system_error>
 #include <thread>
 
+#include "orderband/error.hpp"
 #include "orderband/npy_io.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/scan_config_toml.hpp"
@@ -332,6 +335,23 @@ void write_two_trials(const std::string& path, const std::string& a, const std::
                          "[[trial]]\nlabel = \"A\"\nscan = \""
                       << a << "\"\ntemperature_c = 760\ntime_h = 4\n[[trial]]\nlabel = \"B\"\nscan = \"" << b
                       << "\"\ntemperature_c = 760\ntime_h = 16\n";
+}
+
+TEST(ScreenShare, TrialsOfOneScenarioStayTogetherAndTheLoadIsEven) {
+  // Trials 0–6: scans a, b, c, then scenario X twice, scan d, scenario Y. With 3 processes: a → 0,
+  // b → 1, c → 2, X → 0 (both of its trials: its cached scan is made by one process), d → 1 (the
+  // process with the fewest), Y → 2. One process maps everything.
+  TrialsConfig t;
+  for (const char* source : {"a", "b", "c", "X", "X", "d", "Y"}) {
+    Trial trial;
+    (std::isupper(static_cast<unsigned char>(source[0])) ? trial.scenario : trial.scan) = source;
+    t.trials.push_back(trial);
+  }
+  EXPECT_EQ(trial_owners(t, 3), (std::vector<int>{0, 1, 2, 0, 0, 1, 2}));
+  EXPECT_EQ(trial_owners(t, 1), (std::vector<int>(7, 0)));
+  // More processes than trials: the first ones get one each, the rest none.
+  EXPECT_EQ(trial_owners(t, 8), (std::vector<int>{0, 1, 2, 3, 3, 4, 5}));
+  EXPECT_THROW(trial_owners(t, 0), Error);
 }
 
 TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {

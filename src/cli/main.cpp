@@ -2,6 +2,7 @@
 #include <CLI/CLI.hpp>
 #include <cstdio>
 #include <exception>
+#include <functional>
 #include <new>
 #include <optional>
 #include <stdexcept>
@@ -9,6 +10,7 @@
 #include <vector>
 
 #include "command.hpp"
+#include "mpi_session.hpp"
 #include "orderband/error.hpp"
 #include "orderband/version.hpp"
 
@@ -54,12 +56,44 @@ std::optional<std::string> unknown_command(int argc, char** argv) {
   return std::string(argv[1]);
 }
 
+/// Runs the parsed command: one error line in the documented form for any failure. Under an MPI
+/// launch only `map` and `screen` share their work; a process that fails while the others may wait for it ends
+/// them all.
+int run_command(const CLI::App& sub, const std::function<int()>& run) {
+  const MpiSession& session = mpi_session();
+  if (session.size() > 1 && sub.get_name() != "screen" && sub.get_name() != "map") {
+    if (session.rank() == 0)
+      report_error(sub, "runs as one process; of the commands only `map` and `screen` share their work among the " +
+                            std::to_string(session.size()) + " processes of an MPI launch");
+    return 2;
+  }
+  int status = 0;
+  try {
+    return run();
+  } catch (const std::bad_alloc&) {
+    // The library's own text ("std::bad_alloc") tells a user nothing.
+    status = report_error(sub,
+                          "out of memory: the run asked for more memory than this machine can give (check the grid "
+                          "and pattern sizes, or run on a larger machine)");
+  } catch (const std::length_error&) {
+    status =
+        report_error(sub, "a size beyond what any array can hold was asked for (check the grid and pattern sizes)");
+  } catch (const std::exception& e) {  // orderband::Error among them
+    status = report_error(sub, e.what());
+  }
+  // The other processes may be waiting for this one in a collective step.
+  if (session.size() > 1) session.abort(status);
+  return status;
+}
+
 }  // namespace
 }  // namespace orderband::cli
 
 int main(int argc, char** argv) {
   using namespace orderband::cli;
   set_command_line(argc, argv);
+  const MpiSession session(argc, argv);
+  set_mpi_session(&session);
   CLI::App app{"orderband: ordered-phase (gamma-prime) fraction maps from Kikuchi patterns", "orderband"};
   app.set_version_flag("--version", std::string("orderband ") + orderband::kVersion);
   app.require_subcommand(1);
@@ -89,19 +123,9 @@ int main(int argc, char** argv) {
   }
   for (auto& [sub, run] : runners) {
     if (!sub->parsed()) continue;
-    try {
-      return run();
-    } catch (const std::bad_alloc&) {
-      // The library's own text ("std::bad_alloc") tells a user nothing.
-      return report_error(*sub,
-                          "out of memory: the run asked for more memory than this machine can give (check the grid "
-                          "and pattern sizes, or run on a larger machine)");
-    } catch (const std::length_error&) {
-      return report_error(*sub,
-                          "a size beyond what any array can hold was asked for (check the grid and pattern sizes)");
-    } catch (const std::exception& e) {  // orderband::Error among them
-      return report_error(*sub, e.what());
-    }
+    const int status = run_command(*sub, run);
+    // Under a launch every process returns the same status (mpirun reports the first non-zero).
+    return mpi_session().max_over_processes(status);
   }
   return 2;
 }

@@ -6,6 +6,7 @@
 
 #include "command.hpp"
 #include "map_runner.hpp"
+#include "mpi_session.hpp"
 #include "orderband/scan_config_toml.hpp"
 #include "orderband/scan_inputs_io.hpp"
 #include "orderband/version.hpp"
@@ -70,8 +71,9 @@ std::function<int()> setup_map(CLI::App& sub) {
     apply_threads(o->threads);
     const ScanConfig config = read_scan_config(o->scan);
     const std::string folder = o->out.empty() ? config.output_folder : o->out;
-    run_map(read_scan_inputs(config), folder, o->run, o->quiet);
-    if (!o->quiet) std::fprintf(stderr, "report: %s/report.html\n", folder.c_str());
+    const ProcessShare share = mpi_session().process_share();
+    run_map(read_scan_inputs(config), folder, o->run, o->quiet, share);
+    if (!o->quiet && share.rank == 0) std::fprintf(stderr, "report: %s/report.html\n", folder.c_str());
     return 0;
   };
 }

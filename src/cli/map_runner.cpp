@@ -37,11 +37,14 @@ MapOptions to_map_options(const MapRunOptions& o) {
 
 std::string map_key(const ScanInputs& inputs, const MapRunOptions& o) { return map_run_key(inputs, to_map_options(o)); }
 
-MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet) {
+MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet,
+                   const ProcessShare& share) {
+  quiet = quiet || share.rank != 0;
   StageBars bars("points", quiet);
   MapFolderRun run =
-      map_to_folder(inputs, folder, to_map_options(o), map_key(inputs, o), command_line(), std::ref(bars));
+      map_to_folder(inputs, folder, to_map_options(o), map_key(inputs, o), command_line(), std::ref(bars), share);
   bars.finish();
+  if (share.rank != 0) return std::move(run.results);
   if (!quiet && run.rows_resumed > 0)
     std::fprintf(stderr, "resumed: %zu row results taken from the interrupted run\n", run.rows_resumed);
   if (!quiet && run.rows_damaged > 0)

@@ -7,6 +7,7 @@
 #include <CLI/CLI.hpp>
 
 #include "orderband/map_scan.hpp"
+#include "orderband/process_share.hpp"
 
 namespace orderband::cli {
 
@@ -29,6 +30,8 @@ MapOptions to_map_options(const MapRunOptions& o);
 /// The run key of these options on these inputs (map_run_key).
 std::string map_key(const ScanInputs& inputs, const MapRunOptions& o);
 /// Runs every stage with a progress bar and a resume store in folder/.resume; writes the outputs.
-MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet);
+/// Shared among the processes of a launch (`share`), only rank 0 draws progress and warns.
+MapResults run_map(const ScanInputs& inputs, const std::string& folder, const MapRunOptions& o, bool quiet,
+                   const ProcessShare& share = {});
 
 }  // namespace orderband::cli

@@ -9,7 +9,8 @@
 namespace orderband::cli {
 
 /// screen_to_folder with progress bars and messages on stderr (failures and warnings also when
-/// quiet).
-ScreenRun run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet);
+/// quiet), its trials shared as `share` says.
+ScreenRun run_screen(const std::string& trials_path, const std::string& out, const MapRunOptions& run, bool quiet,
+                     const ProcessShare& share = {});
 
 }  // namespace orderband::cli

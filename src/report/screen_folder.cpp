@@ -1,9 +1,13 @@
 // Heat-treatment trials screened into an output folder.
 #include "orderband/screen_folder.hpp"
 
+#include <algorithm>
 #include <cstdlib>
 #include <filesystem>
+#include <map>
 #include <sstream>
+
+#include <nlohmann/json.hpp>
 
 #include "orderband/atomic_file.hpp"
 #include "orderband/error.hpp"
@@ -53,7 +57,7 @@ std::string cached_scan(const std::string& scenario, const std::string& command_
 /// One trial mapped into out/LABEL, or reused when its key is unchanged; returns its summary text.
 std::string map_trial(const Trial& t, const std::string& out, const MapOptions& options,
                       const std::string& command_line, const ScreenProgress& progress, std::ostream& log,
-                      ScreenRun& run) {
+                      bool& computed) {
   const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, command_line, progress) : t.scan;
   const ScanInputs inputs = read_scan_inputs(read_scan_config(scan_path));
   const std::string folder = out + "/" + t.label;
@@ -61,52 +65,157 @@ std::string map_trial(const Trial& t, const std::string& out, const MapOptions& 
   const std::string key_file = folder + "/run_key.txt";
   const bool reuse =
       fs::exists(key_file) && fs::exists(folder + "/summary.json") && read_text_file(key_file, "run key") == key + "\n";
+  computed = !reuse;
   if (reuse) {
     log << "trial " << t.label << ": reused (inputs and parameters unchanged, key " << key << ")\n";
     tell(progress, "trial " + t.label + ": results reused (inputs unchanged)");
-  } else {
-    tell(progress, "trial " + t.label + ": mapping " + scan_path);
-    const MapFolderRun mapped = map_to_folder(inputs, folder, options, key, command_line, progress.map);
-    if (mapped.rows_resumed > 0)
-      tell(progress, "trial " + t.label + ": " + std::to_string(mapped.rows_resumed) +
-                         " row results taken from the interrupted run");
-    for (const std::string& w : map_warnings(mapped.results)) warn(progress, "trial " + t.label + ": " + w);
-    write_text_atomically(key_file, key + "\n");
-    log << "trial " << t.label << ": computed (key " << key << ")\n";
-    run.computed.push_back(t.label);
+    return read_text_file(folder + "/summary.json", "trial summary");
   }
+  tell(progress, "trial " + t.label + ": mapping " + scan_path);
+  const MapFolderRun mapped = map_to_folder(inputs, folder, options, key, command_line, progress.map);
+  if (mapped.rows_resumed > 0)
+    tell(progress, "trial " + t.label + ": " + std::to_string(mapped.rows_resumed) +
+                       " row results taken from the interrupted run");
+  for (const std::string& w : map_warnings(mapped.results)) warn(progress, "trial " + t.label + ": " + w);
+  write_text_atomically(key_file, key + "\n");
+  log << "trial " << t.label << ": computed (key " << key << ")\n";
   return read_text_file(folder + "/summary.json", "trial summary");
+}
+
+/// What became of one trial in the process that mapped it.
+struct TrialOutcome {
+  size_t index = 0;
+  bool ok = false, computed = false;
+  std::string error, log;
+};
+
+/// The trials this process owns, mapped one after the other; a failure is recorded, not thrown.
+/// Summary texts of the trials mapped here, by trial index.
+std::vector<TrialOutcome> map_own_trials(const TrialsConfig& trials, const std::vector<int>& owners, int rank,
+                                         const std::string& out, const MapOptions& options,
+                                         const std::string& command_line, const ScreenProgress& progress,
+                                         std::map<size_t, std::string>& summary_texts) {
+  std::vector<TrialOutcome> outcomes;
+  for (size_t i = 0; i < trials.trials.size(); ++i) {
+    if (owners[i] != rank) continue;
+    const Trial& t = trials.trials[i];
+    TrialOutcome o;
+    o.index = i;
+    std::ostringstream log;
+    try {
+      summary_texts[i] = map_trial(t, out, options, command_line, progress, log, o.computed);
+      o.ok = true;
+    } catch (const std::exception& e) {
+      log << "trial " << t.label << ": failed: " << e.what() << "\n";
+      warn(progress, "trial " + t.label + " failed: " + e.what());
+      o.error = e.what();
+    }
+    o.log = log.str();
+    outcomes.push_back(std::move(o));
+  }
+  return outcomes;
+}
+
+nlohmann::json outcomes_json(const std::vector<TrialOutcome>& outcomes) {
+  nlohmann::json j = nlohmann::json::array();
+  for (const TrialOutcome& o : outcomes)
+    j.push_back({{"index", o.index}, {"ok", o.ok}, {"computed", o.computed}, {"error", o.error}, {"log", o.log}});
+  return j;
+}
+
+/// Every process's outcomes at rank 0 (the processes' texts from ProcessShare::all_gather), by trial index.
+std::vector<TrialOutcome> all_outcomes(const std::vector<std::string>& texts, size_t trial_count) {
+  std::vector<TrialOutcome> all(trial_count);
+  std::vector<uint8_t> seen(trial_count, 0);
+  for (const std::string& text : texts)
+    for (const nlohmann::json& j : nlohmann::json::parse(text)) {
+      const size_t i = j.at("index").get<size_t>();
+      if (i >= trial_count || seen[i]) fail("screen: a process reported trial ", i, " out of turn");
+      all[i] = {i, j.at("ok").get<bool>(), j.at("computed").get<bool>(), j.at("error").get<std::string>(),
+                j.at("log").get<std::string>()};
+      seen[i] = 1;
+    }
+  for (size_t i = 0; i < trial_count; ++i)
+    if (!seen[i]) fail("screen: no process reported trial ", i);
+  return all;
 }
 
 }  // namespace
 
+std::vector<int> trial_owners(const TrialsConfig& trials, int ranks) {
+  if (ranks < 1) fail("screen: the number of processes must be at least 1, got ", ranks);
+  std::vector<int> owner(trials.trials.size(), -1), load(static_cast<size_t>(ranks), 0);
+  std::map<std::string, int> scenario_owner;
+  for (size_t i = 0; i < trials.trials.size(); ++i) {
+    const std::string& scenario = trials.trials[i].scenario;
+    if (const auto it = scenario_owner.find(scenario); !scenario.empty() && it != scenario_owner.end()) {
+      owner[i] = it->second;
+    } else {
+      owner[i] = static_cast<int>(std::min_element(load.begin(), load.end()) - load.begin());
+      if (!scenario.empty()) scenario_owner[scenario] = owner[i];
+    }
+    load[static_cast<size_t>(owner[i])] += 1;
+  }
+  return owner;
+}
+
 ScreenRun screen_to_folder(const std::string& trials_path, const std::string& out, const MapOptions& options,
-                           const std::string& command_line, const ScreenProgress& progress) {
+                           const std::string& command_line, const ScreenProgress& progress, const ProcessShare& share) {
+  if (share.shared() && !share.all_gather)
+    fail("screen: shared among ", share.processes, " processes without a way to gather");
   ScreenRun run;
   run.trials = read_trials_config(trials_path);
   std::error_code ec;
   fs::create_directories(out, ec);
   if (ec) fail("cannot create output folder '", out, "': ", ec.message());
-  std::ostringstream log;
+  const std::vector<int> owners = trial_owners(run.trials, share.processes);
+  std::map<size_t, std::string> summary_texts;
+  std::vector<TrialOutcome> outcomes =
+      map_own_trials(run.trials, owners, share.rank, out, options, command_line, progress, summary_texts);
+  if (share.shared()) {
+    const std::string mine = outcomes_json(outcomes).dump();
+    std::vector<std::string> texts;
+    for (const std::vector<uint8_t>& bytes : share.all_gather(std::vector<uint8_t>(mine.begin(), mine.end())))
+      texts.emplace_back(bytes.begin(), bytes.end());
+    if (share.rank != 0) {
+      for (const TrialOutcome& o : outcomes) {
+        const std::string& label = run.trials.trials[o.index].label;
+        if (o.computed) run.computed.push_back(label);
+        if (!o.ok) run.failed.emplace_back(label, o.error);
+      }
+      return run;
+    }
+    outcomes = all_outcomes(texts, run.trials.trials.size());
+  }
+  std::string log;
   std::vector<Trial> mapped;
-  std::vector<std::string> summary_texts;
-  for (const Trial& t : run.trials.trials) {
+  std::vector<std::string> texts;
+  for (const TrialOutcome& o : outcomes) {
+    const Trial& t = run.trials.trials[o.index];
+    log += o.log;
+    if (o.computed) run.computed.push_back(t.label);
+    if (!o.ok) {
+      run.failed.emplace_back(t.label, o.error);
+      continue;
+    }
     try {
-      const std::string text = map_trial(t, out, options, command_line, progress, log, run);
-      run.summaries.push_back(parse_trial_summary(text, out + "/" + t.label + "/summary.json"));
-      summary_texts.push_back(text);
+      const std::string path = out + "/" + t.label + "/summary.json";
+      const auto own = summary_texts.find(o.index);
+      const std::string text = own != summary_texts.end() ? own->second : read_text_file(path, "trial summary");
+      run.summaries.push_back(parse_trial_summary(text, path));
+      texts.push_back(text);
       mapped.push_back(t);
     } catch (const std::exception& e) {
-      log << "trial " << t.label << ": failed: " << e.what() << "\n";
+      log += "trial " + t.label + ": failed: " + e.what() + "\n";
       warn(progress, "trial " + t.label + " failed: " + e.what());
       run.failed.emplace_back(t.label, e.what());
     }
   }
-  write_text_atomically(out + "/screen_log.txt", log.str());
+  write_text_atomically(out + "/screen_log.txt", log);
   if (mapped.empty()) fail("every trial failed (see ", out, "/screen_log.txt)");
   run.trials.trials = mapped;  // the comparison covers the trials that were mapped
   run.comparison = compare_trials(run.trials, run.summaries);
-  write_screen_outputs(out, run, summary_texts, command_line);
+  write_screen_outputs(out, run, texts, command_line);
   run.report = out + "/report.html";
   return run;
 }

@@ -182,6 +182,9 @@ class PreprocessedRows {
   /// Fills row `r` (cols · pixels floats) and its usable flags; rows must be
   /// requested in order 0, 1, 2, … Returns false when all rows are done.
   bool next(std::vector<float>& patterns, std::vector<uint8_t>& usable);
+  /// Passes over the next row without reading it (its neighbours are read when a row beside it is
+  /// asked for). Returns false when all rows are done.
+  bool skip() { return next_row_ < grid_.rows && (++next_row_, true); }
   int next_row() const { return next_row_; }
 
  private:

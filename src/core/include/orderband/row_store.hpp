@@ -9,11 +9,18 @@ namespace orderband {
 
 /// Where a stage keeps the results of each finished scan row. A stage asks `load`
 /// before computing a row and calls `save` after; rows found are not computed again.
+/// A store shared among processes (SharedRowStore) also says which rows this process computes;
+/// the others' rows can be loaded once the stage's pass has called `share_rows`.
 class RowStore {
  public:
   virtual ~RowStore() = default;
   virtual bool load(const std::string& stage, int row, std::vector<uint8_t>& bytes) = 0;
   virtual void save(const std::string& stage, int row, const std::vector<uint8_t>& bytes) = 0;
+  /// Whether this process computes `row` (else another one does).
+  virtual bool computes(int /*row*/) const { return true; }
+  /// After a stage's pass over its rows, in every process together: the rows the others
+  /// computed become loadable here.
+  virtual void share_rows(const std::string& /*stage*/) {}
 };
 
 /// Little helpers to pack plain values into bytes and back.

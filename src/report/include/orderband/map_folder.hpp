@@ -5,6 +5,7 @@
 #include <string>
 
 #include "orderband/map_scan.hpp"
+#include "orderband/process_share.hpp"
 
 namespace orderband {
 
@@ -25,7 +26,12 @@ std::string map_run_key(const ScanInputs& inputs, const MapOptions& options);
 /// interrupted run continues where it stopped with byte-identical outputs; every output of `map`
 /// written (write_map_outputs, with `command_line` as provenance); the resume rows removed at
 /// the end. `key` must change with anything that changes the results (inputs, options, version).
+/// Shared among processes (`share`; every one calls it with the same arguments), the row passes are
+/// cut into one block of rows per process (SharedRowStore), the steps between them run in every
+/// process on the gathered rows, and rank 0 alone locks the folder and writes the outputs; the
+/// others return the same results.
 MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, const MapOptions& options,
-                           const std::string& key, const std::string& command_line, const StageProgress& progress = {});
+                           const std::string& key, const std::string& command_line, const StageProgress& progress = {},
+                           const ProcessShare& share = {});
 
 }  // namespace orderband

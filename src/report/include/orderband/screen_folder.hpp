@@ -9,6 +9,7 @@
 #include <vector>
 
 #include "orderband/map_scan.hpp"
+#include "orderband/process_share.hpp"
 #include "orderband/screen_comparison.hpp"
 #include "orderband/trials.hpp"
 
@@ -31,13 +32,22 @@ struct ScreenRun {
   std::string report;                                       ///< the report page's path
 };
 
+/// Which process maps each trial (trial order): the trials whose scan is made from the same
+/// scenario go to the same process, so that the scenario's cached scan is written by one process;
+/// such groups are dealt out in trial order, each to the process with the fewest trials so far.
+std::vector<int> trial_owners(const TrialsConfig& trials, int ranks);
+
 /// Screens the trials of `trials_path` into `out`: each trial's map in out/LABEL (map_to_folder;
 /// reused when its run key, map_run_key, is unchanged; a scenario's scan made once in the cache,
 /// scenario_cache_folder), then comparison.csv, comparison.json, the charts and report.html. A
 /// trial that fails is logged (screen_log.txt), listed in the report and left out of the
-/// comparison; the others go on (an Error only if every trial fails).
+/// comparison; the others go on (an Error only if every trial fails). Shared among processes
+/// (`share`), each maps the trials trial_owners gives it and rank 0 gathers what happened, reads the
+/// other trials' summaries from their folders (`out` must be on a file system all of them see) and
+/// writes the comparison; the other processes return their own trials' outcome with no report.
 ScreenRun screen_to_folder(const std::string& trials_path, const std::string& out, const MapOptions& options,
-                           const std::string& command_line, const ScreenProgress& progress = {});
+                           const std::string& command_line, const ScreenProgress& progress = {},
+                           const ProcessShare& share = {});
 
 /// The cache of synthetic scans: $ORDERBAND_CACHE, else $XDG_CACHE_HOME/orderband, else
 /// ~/.cache/orderband, else a folder under the system's temporary folder.

@@ -1,0 +1,222 @@
+// `map` and `screen` shared among the processes of an MPI launch: the same numbers as one process,
+// with 2 and 4 processes, and a killed launch resumed (built only with ORDERBAND_MPI; the tests
+// start mpirun).
+#include <gtest/gtest.h>
+
+#include <signal.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <array>
+#include <chrono>
+#include <cmath>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <sstream>
+#include <string>
+#include <thread>
+#include <vector>
+
+#include "test_support.hpp"
+
+namespace fs = std::filesystem;
+
+namespace orderband {
+namespace {
+
+std::string launch_file(const std::string& path) { return test::read_file_bytes(path); }
+std::string launch_after_first_line(const std::string& text) { return text.substr(text.find('\n') + 1); }
+
+/// mpirun with N processes (more than the cores allowed; as root, which CI runs as, allowed too).
+test::RunResult run_launched(int processes, const std::string& args) {
+  return test::run_command("OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 " ORDERBAND_MPIRUN " -np " +
+                           std::to_string(processes) + " --oversubscribe " + ORDERBAND_BINARY + " " + args);
+}
+
+/// Five trials: three scans of their own, two from one scenario (the same process makes its scan).
+std::string write_trials(const std::string& dir) {
+  std::ofstream trials(dir + "/trials.toml");
+  trials << "[screen]\ntitle = \"processes\"\n[target]\nordered_fraction = [0.2, 0.4]\n";
+  for (int i = 0; i < 3; ++i) {
+    const std::string sub = dir + "/scan" + std::to_string(i);
+    fs::create_directories(sub);
+    trials << "[[trial]]\nlabel = \"S" << i << "\"\nscan = \"" << test::write_small_scan(sub, 14, 61 + i)
+           << "\"\ntemperature_c = 760\ntime_h = " << (2 << i) << "\n";
+  }
+  std::ofstream(dir + "/scenario.toml") << "[scenario]\nseed = 71\n[scan]\nrows = 14\ncols = 14\nstep_um = 0.03\n"
+                                           "[detector]\nwidth_px = 48\nheight_px = 48\npc_px = [24.0, 15.0]\n"
+                                           "distance_px = 36.0\n[patterns]\ncounts_per_px = 5000\n[grains]\n"
+                                           "count = 2\n[secondary]\narea_fraction = 0.25\ndistribution = "
+                                           "\"lognormal\"\nmedian_diameter_um = 0.12\nsigma_ln = 0.2\n";
+  for (const char* label : {"P", "Q"})
+    trials << "[[trial]]\nlabel = \"" << label << "\"\nscenario = \"" << dir
+           << "/scenario.toml\"\ntemperature_c = 800\ntime_h = " << (label[0] == 'P' ? 8 : 32) << "\n";
+  return dir + "/trials.toml";
+}
+
+/// Every trial's maps and tables, byte for byte, and the comparison but for the lines that name
+/// the command.
+void expect_same_screen(const std::string& a, const std::string& b) {
+  for (const char* label : {"S0", "S1", "S2", "P", "Q"})
+    for (const char* file : {"ordered_fraction.npy", "particle_labels.npy", "grain_ids.npy", "run_key.txt"})
+      EXPECT_EQ(launch_file(a + "/" + label + "/" + file), launch_file(b + "/" + label + "/" + file)) << label << " " << file;
+  EXPECT_EQ(launch_after_first_line(launch_file(a + "/comparison.csv")), launch_after_first_line(launch_file(b + "/comparison.csv")));
+  auto numbers = [](const std::string& path) {
+    nlohmann::json j = nlohmann::json::parse(test::read_file_bytes(path));
+    return nlohmann::json{{"trials", j["trials"]}, {"ranking", j["ranking"]}, {"kinetics", j["kinetics"]}};
+  };
+  EXPECT_EQ(numbers(a + "/comparison.json"), numbers(b + "/comparison.json"));
+  EXPECT_EQ(launch_file(a + "/screen_log.txt"), launch_file(b + "/screen_log.txt"));
+}
+
+TEST(CliScreenProcesses, TwoAndFourProcessesGiveTheNumbersOfOne) {
+  const std::string dir = test::make_temp_dir("screen-mpi");
+  setenv("ORDERBAND_CACHE", (dir + "/cache").c_str(), 1);
+  const std::string trials = write_trials(dir);
+  auto one = test::run_orderband("screen " + trials + " -o " + dir + "/one --quiet");
+  ASSERT_EQ(one.exit_code, 0) << one.err;
+  auto two = run_launched(2, "screen " + trials + " -o " + dir + "/two --quiet");
+  ASSERT_EQ(two.exit_code, 0) << two.out << two.err;
+  EXPECT_NE(two.out.find("report: " + dir + "/two/report.html"), std::string::npos) << two.out;
+  EXPECT_EQ(two.out.find("report:"), two.out.rfind("report:")) << "one process prints the report line: " << two.out;
+  auto four = run_launched(4, "screen " + trials + " -o " + dir + "/four --quiet");
+  ASSERT_EQ(four.exit_code, 0) << four.err;
+  expect_same_screen(dir + "/one", dir + "/two");
+  expect_same_screen(dir + "/one", dir + "/four");
+  // A second launch with another number of processes takes every trial the first one finished.
+  auto again = run_launched(3, "screen " + trials + " -o " + dir + "/two --quiet");
+  ASSERT_EQ(again.exit_code, 0) << again.err;
+  const std::string log = launch_file(dir + "/two/screen_log.txt");
+  for (const char* label : {"S0", "S1", "S2", "P", "Q"})
+    EXPECT_NE(log.find("trial " + std::string(label) + ": reused"), std::string::npos) << log;
+  unsetenv("ORDERBAND_CACHE");
+  fs::remove_all(dir);
+}
+
+/// Bunge Euler angles per point of an orientations table (row, col, φ1, Φ, φ2, phase).
+std::vector<std::array<double, 3>> launch_euler_angles(const std::string& path) {
+  std::istringstream in(launch_file(path));
+  std::string line;
+  std::vector<std::array<double, 3>> out;
+  while (std::getline(in, line)) {
+    if (line.empty() || line[0] == '#' || line.rfind("row", 0) == 0) continue;
+    std::array<double, 5> v{};
+    std::istringstream fields(line);
+    std::string field;
+    for (double& x : v) std::getline(fields, field, ','), x = std::stod(field);
+    out.push_back({v[2], v[3], v[4]});
+  }
+  return out;
+}
+
+/// One scan mapped by a launch against the same scan mapped by one process. Each process starts
+/// its block of rows by indexing every point (one process takes its first row's orientations from
+/// the row above), so the refined orientations differ within the refinement's tolerance, and the
+/// fractions and sizes with them: measured on 40 × 40 scans with 2 and 4 processes, Euler angles
+/// within 0.003° (60 × 60 px) and 0.028° (48 × 48 px, this test's), fractions within 6 × 10⁻⁵, the
+/// area fraction within 4 × 10⁻⁶, section diameters within 2 × 10⁻⁶ µm; grains, particles and
+/// point states identical. A row restored from the wrong place would be degrees off.
+void expect_same_map(const std::string& one, const std::string& launched) {
+  for (const char* file : {"grain_ids.npy", "particle_labels.npy", "point_status.npy"})
+    EXPECT_EQ(launch_file(one + "/" + file), launch_file(launched + "/" + file)) << file;
+  const auto a = launch_euler_angles(one + "/orientations.csv"), b = launch_euler_angles(launched + "/orientations.csv");
+  ASSERT_EQ(a.size(), b.size());
+  double worst = 0;
+  for (size_t k = 0; k < a.size(); ++k)
+    for (int i = 0; i < 3; ++i) {
+      const double d = std::fmod(std::abs(a[k][i] - b[k][i]), 360.0);
+      worst = std::max(worst, std::min(d, 360.0 - d));
+    }
+  EXPECT_LT(worst, 0.1) << "largest Euler angle difference (°)";
+  const auto fa = nlohmann::json::parse(launch_file(one + "/summary.json"));
+  const auto fb = nlohmann::json::parse(launch_file(launched + "/summary.json"));
+  EXPECT_NEAR(fa["ordered_area_fraction"].get<double>(), fb["ordered_area_fraction"].get<double>(), 1e-4);
+  // The same particles: id, class, points and area on every line of the table.
+  std::istringstream pa(launch_after_first_line(launch_file(one + "/particles.csv")));
+  std::istringstream pb(launch_after_first_line(launch_file(launched + "/particles.csv")));
+  std::string la, lb;
+  int lines = 0;
+  while (std::getline(pa, la)) {
+    ASSERT_TRUE(std::getline(pb, lb));
+    auto head = [](const std::string& l) {
+      size_t cut = 0;
+      for (int i = 0; i < 4; ++i) cut = l.find(',', cut) + 1;
+      return l.substr(0, cut);
+    };
+    EXPECT_EQ(head(la), head(lb));
+    ++lines;
+  }
+  EXPECT_FALSE(std::getline(pb, lb));
+  EXPECT_GT(lines, 5);
+}
+
+TEST(CliMapProcesses, TwoAndFourProcessesMapOneScanAsOneDoesAndAKilledLaunchResumes) {
+  const std::string dir = test::make_temp_dir("map-mpi");
+  fs::create_directories(dir + "/s");
+  const std::string scan = test::write_small_scan(dir + "/s", 40, 17);
+  auto one = test::run_orderband("map " + scan + " -o " + dir + "/one --quiet");
+  ASSERT_EQ(one.exit_code, 0) << one.err;
+  for (int processes : {2, 4}) {
+    const std::string out = dir + "/p" + std::to_string(processes);
+    auto r = run_launched(processes, "map " + scan + " -o " + out);
+    ASSERT_EQ(r.exit_code, 0) << r.err;
+    EXPECT_EQ(r.err.find("report:"), r.err.rfind("report:")) << "rank 0 alone reports: " << r.err;
+    expect_same_map(dir + "/one", out);
+    EXPECT_FALSE(fs::exists(out + "/.resume"));  // cleared after a complete run
+  }
+  // A launch whose process dies: mpirun ends the others and exits non-zero; a launch with another
+  // number of processes takes the rows the first one committed.
+  const std::string out = dir + "/killed";
+  const pid_t pid = fork();
+  ASSERT_GE(pid, 0);
+  if (pid == 0) {
+    const std::string cmd = "OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 exec " ORDERBAND_MPIRUN
+                            " -np 2 --oversubscribe " ORDERBAND_BINARY " map " +
+                            scan + " -o " + out + " --quiet >/dev/null 2>&1";
+    execl("/bin/sh", "sh", "-c", cmd.c_str(), static_cast<char*>(nullptr));
+    _exit(127);
+  }
+  bool killed = false, exited = false;
+  int status = 0;
+  const auto give_up = std::chrono::steady_clock::now() + std::chrono::minutes(5);
+  while (!killed && !exited && std::chrono::steady_clock::now() < give_up) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+    exited = waitpid(pid, &status, WNOHANG) == pid;
+    int rows = 0;
+    std::error_code ec;
+    for (const auto& e : fs::directory_iterator(out + "/.resume", ec))
+      rows += e.path().filename().string().rfind("orient-", 0) == 0;
+    // One process of the launch is killed: the newest whose command line starts with the program
+    // (not mpirun's, not the shell's around pkill, whose text "[m]ap" the pattern does not match).
+    if (!exited && rows >= 6)
+      killed = test::run_command("pkill -KILL -n -f '^" ORDERBAND_BINARY " [m]ap " + scan + " -o " + out + "'")
+                   .exit_code == 0;
+  }
+  if (!exited) waitpid(pid, &status, 0);
+  ASSERT_FALSE(exited) << "the launch finished before it could be interrupted";
+  ASSERT_TRUE(killed);
+  EXPECT_TRUE(WIFEXITED(status) && WEXITSTATUS(status) != 0) << "mpirun's status " << status;
+  ASSERT_FALSE(fs::exists(out + "/summary.json"));
+  auto resumed = run_launched(3, "map " + scan + " -o " + out);
+  ASSERT_EQ(resumed.exit_code, 0) << resumed.err;
+  EXPECT_NE(resumed.err.find("row results taken from the interrupted run"), std::string::npos) << resumed.err;
+  expect_same_map(dir + "/one", out);
+  fs::remove_all(dir);
+}
+
+TEST(CliScreenProcesses, OtherCommandsRefuseSeveralProcessesInOneLine) {
+  const std::string dir = test::make_temp_dir("orient-mpi");
+  fs::create_directories(dir + "/s");
+  const std::string scan = test::write_small_scan(dir + "/s", 8, 5);
+  auto r = run_launched(2, "orient " + scan + " -o " + dir + "/out --quiet");
+  EXPECT_NE(r.exit_code, 0);
+  EXPECT_NE(r.err.find("orderband orient: error: runs as one process"), std::string::npos) << r.err;
+  EXPECT_FALSE(fs::exists(dir + "/out/orientations.csv"));
+  fs::remove_all(dir);
+}
+
+}  // namespace
+}  // namespace orderband
