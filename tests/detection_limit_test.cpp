@@ -6,6 +6,7 @@
 #include <cstdio>
 #include <random>
 
+#include "local_processes.hpp"
 #include "orderband/error.hpp"
 #include "orderband/particles.hpp"
 
@@ -108,6 +109,30 @@ TEST(DetectionLimit, SectionsAtTheLimitAreFoundAsStatedAndReadAtTheirSize) {
   DetectionLimitSpec bad;
   bad.detection_probability = 1.0;
   EXPECT_THROW(detection_limit(g, beam, level, noise, bad), Error);
+}
+
+TEST(DetectionLimit, SharedAmongProcessesGivesTheLimitOfOne) {
+  // The noise maps and the transfer's diameters divided among 3 "processes" (threads exchanging
+  // through all_gather) give every one of them the limit one process finds, to the last bit: each
+  // simulation draws from its own generator.
+  const ScanGrid g = square_grid(48, 48, 0.025);
+  const BeamFootprint beam{0.010, 0.029};
+  const DetectionLimit one = detection_limit(g, beam, 0.05, 0.25);
+  std::vector<DetectionLimit> shared(3);
+  test::run_as_processes(3, [&](const ProcessShare& share) {
+    DetectionLimitSpec spec;
+    spec.share = share;
+    shared[static_cast<size_t>(share.rank)] = detection_limit(g, beam, 0.05, 0.25, spec);
+  });
+  for (const DetectionLimit& lim : shared) {
+    EXPECT_EQ(lim.min_points, one.min_points);
+    EXPECT_EQ(lim.false_particles, one.false_particles);
+    EXPECT_EQ(lim.diameter_um, one.diameter_um);
+    EXPECT_EQ(lim.half_found_um, one.half_found_um);
+    EXPECT_EQ(lim.transfer.true_um, one.transfer.true_um);
+    EXPECT_EQ(lim.transfer.found, one.transfer.found);
+    EXPECT_EQ(lim.transfer.measured_um, one.transfer.measured_um);
+  }
 }
 
 TEST(DetectionLimit, TheTransferIsTheIdentityForLargeSharpSectionsAndInvertsItsReadings) {

@@ -24,14 +24,12 @@ class MpiSession {
 
   int rank() const { return rank_; }
   int size() const { return size_; }
-  /// Every process's bytes, in rank order, on every process.
-  std::vector<std::vector<uint8_t>> all_gather(const std::vector<uint8_t>& mine) const;
   /// The largest of the processes' values, on every process (the exit status they all return).
   int max_over_processes(int value) const;
   /// Ends every process of the launch with `status` (a process failed where the others may be
   /// waiting for it).
   [[noreturn]] void abort(int status) const;
-  /// The processes as the library sees them.
+  /// The processes as the library sees them (all_gather over them, split into crews).
   ProcessShare process_share() const;
 
  private:

@@ -96,8 +96,11 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
   t.measured_um.resize(diameters);
   // Each diameter draws from its own generator (seeded by the spec's seed and its index), so the
   // transfer does not depend on the number of threads.
+  // Shared among processes: each simulates every P-th diameter, then they exchange them.
+  const ProcessShare& share = spec.share;
 #pragma omp parallel for schedule(dynamic)
   for (int i = 0; i < diameters; ++i) {
+    if (i % share.processes != share.rank) continue;
     std::mt19937_64 rng = generator(spec.seed + 1, i);
     std::normal_distribution<float> noise(0.0f, static_cast<float>(sd));
     std::uniform_real_distribution<double> offset(-0.5, 0.5);
@@ -120,6 +123,15 @@ SectionTransfer simulate_transfer(const ScanGrid& grid, const BeamFootprint& bea
     t.true_um[i] = d;
     t.found[i] = found / double(spec.transfer_discs);
     t.measured_um[i] = found ? sum / found : 0.0;
+  }
+  if (share.shared()) {
+    std::vector<double> mine;
+    for (int i = share.rank; i < diameters; i += share.processes)
+      mine.insert(mine.end(), {t.true_um[i], t.found[i], t.measured_um[i]});
+    const std::vector<std::vector<double>> all = share.all_gather_numbers(mine);
+    for (int r = 0; r < share.processes; ++r)
+      for (int i = r, j = 0; i < diameters && j + 2 < static_cast<int>(all[r].size()); i += share.processes, j += 3)
+        t.true_um[i] = all[r][j], t.found[i] = all[r][j + 1], t.measured_um[i] = all[r][j + 2];
   }
   // Below the first found diameter the reading is undefined: carry it down; then non-decreasing.
   for (size_t i = t.measured_um.size(); i-- > 1;)
@@ -188,6 +200,7 @@ std::pair<int, double> noise_component_size(const ScanGrid& grid, double m, doub
     std::vector<float> f(grid.count());
 #pragma omp for schedule(dynamic)
     for (int map = 0; map < spec.noise_maps; ++map) {
+      if (map % spec.share.processes != spec.share.rank) continue;  // another process's map
       std::mt19937_64 rng = generator(spec.seed, map);
       std::normal_distribution<float> noise(static_cast<float>(m), static_cast<float>(sd));
       for (float& v : f) v = noise(rng);
@@ -195,6 +208,12 @@ std::pair<int, double> noise_component_size(const ScanGrid& grid, double m, doub
     }
 #pragma omp critical
     for (size_t s = 0; s < at_least.size(); ++s) at_least[s] += mine[s];
+  }
+  if (spec.share.shared()) {  // whole numbers: the sum does not depend on the order
+    const std::vector<std::vector<double>> all = spec.share.all_gather_numbers(at_least);
+    std::fill(at_least.begin(), at_least.end(), 0.0);
+    for (const std::vector<double>& counts : all)
+      for (size_t s = 0; s < at_least.size() && s < counts.size(); ++s) at_least[s] += counts[s];
   }
   for (size_t s = grid.count(); s-- > 0;) at_least[s] += at_least[s + 1];
   int min_points = 1;

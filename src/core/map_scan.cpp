@@ -22,8 +22,8 @@ SegmentSpec map_segment_spec(const MapOptions& options) {
 
 /// The detection limit of the fraction map: its per-point noise is the median standard error of
 /// the points, its matrix level the sub-resolution fraction (the matrix's mean).
-DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResults& fraction,
-                                   const MapOptions& options) {
+DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResults& fraction, const MapOptions& options,
+                                   const ProcessShare& share) {
   std::vector<float> se;
   for (float u : fraction.uncertainty)
     if (std::isfinite(u)) se.push_back(u);
@@ -31,6 +31,7 @@ DetectionLimit map_detection_limit(const ScanConfig& config, const FractionResul
                                   : (std::nth_element(se.begin(), se.begin() + se.size() / 2, se.end()),
                                      static_cast<double>(se[se.size() / 2]));
   DetectionLimitSpec spec = options.detection;
+  spec.share = share;
   spec.segment = map_segment_spec(options);
   spec.segment.method = ThresholdMethod::fixed;
   spec.segment.threshold =
@@ -155,19 +156,42 @@ std::vector<size_t> mean_sphere_points(const MapResults& r, size_t at_most) {
   return chosen;
 }
 
+/// Both spheres' sums and weights added over the processes, in process order.
+void add_over_processes(const ProcessShare& share, SphereMap& dis, SphereMap& ord) {
+  std::vector<double> mine;
+  for (const SphereMap* m : {&dis, &ord})
+    mine.insert(mine.end(), m->sum.begin(), m->sum.end()), mine.insert(mine.end(), m->weight.begin(), m->weight.end());
+  const std::vector<std::vector<double>> all = share.all_gather_numbers(mine);
+  for (SphereMap* m : {&dis, &ord})
+    std::fill(m->sum.begin(), m->sum.end(), 0.0), std::fill(m->weight.begin(), m->weight.end(), 0.0);
+  for (const std::vector<double>& part : all) {
+    if (part.size() != mine.size()) fail("a process sent mean spheres of another size");
+    size_t at = 0;
+    for (SphereMap* m : {&dis, &ord}) {
+      for (double& v : m->sum) v += part[at++];
+      for (double& v : m->weight) v += part[at++];
+    }
+  }
+}
+
 /// The mean spheres of the clearly disordered and clearly ordered points (mean_sphere_points),
 /// each pattern back-projected at its own orientation and folded by the parent's Laue group. The
 /// sphere pixels of a batch are found in parallel; the sums are added in point order, so the
-/// spheres do not depend on the number of threads.
+/// spheres do not depend on the number of threads. Shared among processes, each takes one block
+/// of the points and the blocks' sums are added in process order (the same on every process; the
+/// sums differ from one process's in the last bits).
 void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair, size_t at_most,
-                             const StageProgress& progress, MapResults& r) {
+                             const StageProgress& progress, const ProcessShare& share, MapResults& r) {
   PatternSource* source = inputs.patterns.get();
   const DetectorGeometry geometry(inputs.geometry());
   const DetectorRays rays(geometry);
   const Preprocessor& pre = inputs.preprocessor();
   const SphereGrid sphere_grid(SphereGrid::nside_for(0.5 * geometry.angular_pixel_size_rad()));
   SphereMap dis(sphere_grid), ord(sphere_grid);
-  const std::vector<size_t> points = mean_sphere_points(r, at_most);
+  const std::vector<size_t> all_points = mean_sphere_points(r, at_most);
+  const auto [first, last] = share.block_of(all_points.size());
+  const std::vector<size_t> points(all_points.begin() + static_cast<std::ptrdiff_t>(first),
+                                   all_points.begin() + static_cast<std::ptrdiff_t>(last));
   PreprocessedPoints reader(*source, inputs.config.grid, pre);
   constexpr size_t kBatch = 64;
   const size_t px = source->pixels();
@@ -188,6 +212,7 @@ void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair,
         done += batch.size();
         if (progress) progress("mean spheres", done, points.size());
       });
+  if (share.shared()) add_over_processes(share, dis, ord);
   const CrystalSymmetry symmetry(laue_rotations(pair.disordered));
   r.mean_disordered.emplace(fold_by_symmetry(dis, symmetry));
   r.mean_ordered.emplace(fold_by_symmetry(ord, symmetry));
@@ -196,7 +221,7 @@ void accumulate_mean_spheres(const ScanInputs& inputs, const OrderingPair& pair,
 }  // namespace
 
 MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const StageProgress& progress,
-                    RowStore* store) {
+                    RowStore* store, const ProcessShare& share) {
   MapResults r;
   r.options = options_for_scan(requested, inputs);
   r.input_file_hashes = inputs.file_hashes;
@@ -218,7 +243,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
   if (!r.measured_any()) return r;
 
   const ScanGrid& grid = config.grid;
-  r.detection = map_detection_limit(config, r.fraction, options);
+  r.detection = map_detection_limit(config, r.fraction, options, share);
   SegmentSpec segment = map_segment_spec(options);
   if (segment.min_points <= 0) segment.min_points = r.detection.min_points;
   segment.noise_sd = r.detection.noise_sd;
@@ -233,7 +258,7 @@ MapResults map_scan(const ScanInputs& inputs, const MapOptions& requested, const
   r.bootstrap = block_bootstrap_ci(grid, r.fraction.raw, options.bootstrap_block, options.bootstrap_resamples, 1);
   fit_secondary_sizes(grid, classes, options.unfold_classes, r);
 
-  if (options.mean_spheres) accumulate_mean_spheres(inputs, pair, options.mean_sphere_points, progress, r);
+  if (options.mean_spheres) accumulate_mean_spheres(inputs, pair, options.mean_sphere_points, progress, share, r);
   return r;
 }
 

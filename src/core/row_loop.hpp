@@ -10,9 +10,11 @@
 namespace orderband {
 
 /// Streams the preprocessed rows of a scan. Each row is taken from the store when an earlier run
-/// saved it (`restore(row, reader)`), else computed (`compute(row, patterns, usable)`) and saved
-/// (`save(row, writer)`); progress is reported after every row. A row the store leaves to another
-/// process (RowStore::computes) is restored after the pass, once the store has shared the rows.
+/// saved it (`restore(row, reader)`; its patterns are not read), else computed (`compute(row,
+/// patterns, usable)`) and saved (`save(row, writer)`); progress is reported after every row. A row
+/// the store leaves to another process (RowStore::computes) is restored after the pass, once the
+/// store has shared the rows; the one above this process's first row is computed all the same
+/// (RowStore::warms_up), so that a row started from the row above starts as with one process.
 template <class Restore, class Compute, class Save>
 void for_each_scan_row(PreprocessedRows& rows, const ScanGrid& grid, RowStore* store, const char* stage,
                        const ProgressFn& progress, Restore&& restore, Compute&& compute, Save&& save) {
@@ -26,7 +28,10 @@ void for_each_scan_row(PreprocessedRows& rows, const ScanGrid& grid, RowStore* s
       ByteReader in(saved);
       restore(row, in);
     } else if (store && !store->computes(row)) {
-      rows.skip();
+      if (store->warms_up(row))
+        rows.next(patterns, usable), compute(row, patterns, usable);
+      else
+        rows.skip();
       elsewhere.push_back(row);
     } else {
       rows.next(patterns, usable);

@@ -11,7 +11,8 @@ int first_row_of_block(int rank, int processes, int rows) {
   return static_cast<int>(static_cast<long long>(rows) * rank / processes);
 }
 
-SharedRowStore::SharedRowStore(RowStore* inner, ProcessShare share, int rows) : inner_(inner), share_(std::move(share)) {
+SharedRowStore::SharedRowStore(RowStore* inner, ProcessShare share, int rows)
+    : inner_(inner), share_(std::move(share)) {
   if (share_.processes < 1 || share_.rank < 0 || share_.rank >= share_.processes)
     fail("process ", share_.rank, " of ", share_.processes, " is not a valid share");
   if (share_.shared() && !share_.all_gather) fail("rows shared among ", share_.processes, " processes need a gather");

@@ -31,7 +31,7 @@ MapFolderRun map_to_folder(const ScanInputs& inputs, const std::string& folder, 
   share.wait_for_all();
   if (share.rank != 0) rows.emplace(folder + "/.resume", key);
   SharedRowStore store(&*rows, share, inputs.config.grid.rows);
-  MapFolderRun run{map_scan(inputs, options, progress, &store), rows->rows_found(), rows->rows_damaged()};
+  MapFolderRun run{map_scan(inputs, options, progress, &store, share), rows->rows_found(), rows->rows_damaged()};
   share.wait_for_all();  // every process is done with the resume rows
   if (share.rank != 0) return run;
   if (!run.results.measured_any()) {

@@ -55,9 +55,11 @@ std::string cached_scan(const std::string& scenario, const std::string& command_
 }
 
 /// One trial mapped into out/LABEL, or reused when its key is unchanged; returns its summary text.
+/// A crew of several processes maps the trial's rows together: its rank 0 writes the key and
+/// returns the summary, the others return nothing.
 std::string map_trial(const Trial& t, const std::string& out, const MapOptions& options,
                       const std::string& command_line, const ScreenProgress& progress, std::ostream& log,
-                      bool& computed) {
+                      bool& computed, const ProcessShare& crew = {}) {
   const std::string scan_path = t.scan.empty() ? cached_scan(t.scenario, command_line, progress) : t.scan;
   const ScanInputs inputs = read_scan_inputs(read_scan_config(scan_path));
   const std::string folder = out + "/" + t.label;
@@ -72,7 +74,8 @@ std::string map_trial(const Trial& t, const std::string& out, const MapOptions& 
     return read_text_file(folder + "/summary.json", "trial summary");
   }
   tell(progress, "trial " + t.label + ": mapping " + scan_path);
-  const MapFolderRun mapped = map_to_folder(inputs, folder, options, key, command_line, progress.map);
+  const MapFolderRun mapped = map_to_folder(inputs, folder, options, key, command_line, progress.map, crew);
+  if (crew.rank != 0) return {};
   if (mapped.rows_resumed > 0)
     tell(progress, "trial " + t.label + ": " + std::to_string(mapped.rows_resumed) +
                        " row results taken from the interrupted run");
@@ -94,7 +97,7 @@ struct TrialOutcome {
 std::vector<TrialOutcome> map_own_trials(const TrialsConfig& trials, const std::vector<int>& owners, int rank,
                                          const std::string& out, const MapOptions& options,
                                          const std::string& command_line, const ScreenProgress& progress,
-                                         std::map<size_t, std::string>& summary_texts) {
+                                         std::map<size_t, std::string>& summary_texts, const ProcessShare& crew = {}) {
   std::vector<TrialOutcome> outcomes;
   for (size_t i = 0; i < trials.trials.size(); ++i) {
     if (owners[i] != rank) continue;
@@ -103,7 +106,7 @@ std::vector<TrialOutcome> map_own_trials(const TrialsConfig& trials, const std::
     o.index = i;
     std::ostringstream log;
     try {
-      summary_texts[i] = map_trial(t, out, options, command_line, progress, log, o.computed);
+      summary_texts[i] = map_trial(t, out, options, command_line, progress, log, o.computed, crew);
       o.ok = true;
     } catch (const std::exception& e) {
       log << "trial " << t.label << ": failed: " << e.what() << "\n";
@@ -113,6 +116,35 @@ std::vector<TrialOutcome> map_own_trials(const TrialsConfig& trials, const std::
     o.log = log.str();
     outcomes.push_back(std::move(o));
   }
+  return outcomes;
+}
+
+/// With more processes than trials: each distinct scenario's scan made by one process first (the
+/// others wait), then every trial mapped by a crew of processes (contiguous ranks, crews of sizes
+/// that differ by at most one) that shares its rows. Only a crew's rank 0 reports its trial.
+std::vector<TrialOutcome> map_in_crews(const TrialsConfig& trials, const ProcessShare& share, const std::string& out,
+                                       const MapOptions& options, const std::string& command_line,
+                                       const ScreenProgress& progress, std::map<size_t, std::string>& summary_texts) {
+  std::vector<std::string> scenarios;
+  for (const Trial& t : trials.trials)
+    if (!t.scenario.empty() && std::find(scenarios.begin(), scenarios.end(), t.scenario) == scenarios.end())
+      scenarios.push_back(t.scenario);
+  for (size_t j = 0; j < scenarios.size(); ++j)
+    if (static_cast<int>(j % static_cast<size_t>(share.processes)) == share.rank) try {
+        cached_scan(scenarios[j], command_line, progress);
+      } catch (const std::exception&) {
+        // The trials that need it report the failure when they ask for the scan again.
+      }
+  share.wait_for_all();
+  const size_t trial = static_cast<size_t>(share.rank) * trials.trials.size() / static_cast<size_t>(share.processes);
+  const ProcessShare crew = share.crew(static_cast<int>(trial));
+  std::vector<int> owner(trials.trials.size(), -1);
+  owner[trial] = 0;  // this crew's trial, mapped as if by process 0 of a screen of its own
+  std::map<size_t, std::string> texts;
+  std::vector<TrialOutcome> outcomes = map_own_trials(trials, owner, 0, out, options, command_line,
+                                                      crew.rank == 0 ? progress : ScreenProgress{}, texts, crew);
+  if (crew.rank != 0) return {};
+  summary_texts.insert(texts.begin(), texts.end());
   return outcomes;
 }
 
@@ -168,10 +200,13 @@ ScreenRun screen_to_folder(const std::string& trials_path, const std::string& ou
   std::error_code ec;
   fs::create_directories(out, ec);
   if (ec) fail("cannot create output folder '", out, "': ", ec.message());
-  const std::vector<int> owners = trial_owners(run.trials, share.processes);
   std::map<size_t, std::string> summary_texts;
-  std::vector<TrialOutcome> outcomes =
-      map_own_trials(run.trials, owners, share.rank, out, options, command_line, progress, summary_texts);
+  std::vector<TrialOutcome> outcomes;
+  if (static_cast<size_t>(share.processes) > run.trials.trials.size())
+    outcomes = map_in_crews(run.trials, share, out, options, command_line, progress, summary_texts);
+  else
+    outcomes = map_own_trials(run.trials, trial_owners(run.trials, share.processes), share.rank, out, options,
+                              command_line, progress, summary_texts);
   if (share.shared()) {
     const std::string mine = outcomes_json(outcomes).dump();
     std::vector<std::string> texts;

@@ -5,6 +5,7 @@
 #include <vector>
 
 #include "orderband/particles.hpp"
+#include "orderband/process_share.hpp"
 #include "orderband/scan_grid.hpp"
 
 namespace orderband {
@@ -24,6 +25,8 @@ struct DetectionLimitSpec {
   double detection_probability = 0.9;  ///< the share of sections of the limit's diameter that are found
   int transfer_discs = 48;             ///< simulated sections per diameter for the transfer
   uint64_t seed = 1;
+  /// The processes that divide the simulations among them (the results do not depend on it).
+  ProcessShare share;
 };
 
 /// How a section's true diameter shows in the map: for isolated discs of each `true_um`, blurred by

@@ -86,8 +86,11 @@ using StageProgress = std::function<void(const std::string& stage, size_t done, 
 MapOptions options_for_scan(const MapOptions& options, const ScanInputs& inputs);
 
 /// Runs every stage on a scan, with options_for_scan(options, inputs). With a RowStore the
-/// orientation and fraction stages resume.
+/// orientation and fraction stages resume. Shared among processes (`share`, every one calling it
+/// with the same arguments; the store then a SharedRowStore of the same share), the detection
+/// limit's simulations and the mean spheres' points are divided among them too; every process
+/// returns the same results.
 MapResults map_scan(const ScanInputs& inputs, const MapOptions& options, const StageProgress& progress = {},
-                    RowStore* store = nullptr);
+                    RowStore* store = nullptr, const ProcessShare& share = {});
 
 }  // namespace orderband

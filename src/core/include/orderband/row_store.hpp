@@ -18,6 +18,10 @@ class RowStore {
   virtual void save(const std::string& stage, int row, const std::vector<uint8_t>& bytes) = 0;
   /// Whether this process computes `row` (else another one does).
   virtual bool computes(int /*row*/) const { return true; }
+  /// Whether this process computes `row`, another process's, only as the row above its own first
+  /// one (a stage that starts a row from the row above then starts it as one process would); the
+  /// row's results are replaced by its owner's after the pass.
+  virtual bool warms_up(int /*row*/) const { return false; }
   /// After a stage's pass over its rows, in every process together: the rows the others
   /// computed become loadable here.
   virtual void share_rows(const std::string& /*stage*/) {}

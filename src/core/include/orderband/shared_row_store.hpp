@@ -26,6 +26,7 @@ class SharedRowStore final : public RowStore {
   bool load(const std::string& stage, int row, std::vector<uint8_t>& bytes) override;
   void save(const std::string& stage, int row, const std::vector<uint8_t>& bytes) override;
   bool computes(int row) const override { return row >= first_ && row < last_; }
+  bool warms_up(int row) const override { return row == first_ - 1 && first_ < last_; }
   void share_rows(const std::string& stage) override;
 
  private:

@@ -42,9 +42,11 @@ std::vector<int> trial_owners(const TrialsConfig& trials, int ranks);
 /// scenario_cache_folder), then comparison.csv, comparison.json, the charts and report.html. A
 /// trial that fails is logged (screen_log.txt), listed in the report and left out of the
 /// comparison; the others go on (an Error only if every trial fails). Shared among processes
-/// (`share`), each maps the trials trial_owners gives it and rank 0 gathers what happened, reads the
-/// other trials' summaries from their folders (`out` must be on a file system all of them see) and
-/// writes the comparison; the other processes return their own trials' outcome with no report.
+/// (`share`), each maps the trials trial_owners gives it, or, with more processes than trials, each
+/// trial is mapped by a crew of processes that share its rows (map_to_folder); rank 0 gathers what
+/// happened, reads the other trials' summaries from their folders (`out` must be on a file system
+/// all of them see) and writes the comparison; the other processes return their own trials'
+/// outcome with no report.
 ScreenRun screen_to_folder(const std::string& trials_path, const std::string& out, const MapOptions& options,
                            const std::string& command_line, const ScreenProgress& progress = {},
                            const ProcessShare& share = {});
