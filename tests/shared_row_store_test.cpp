@@ -76,7 +76,9 @@ TEST(SharedRowStore, EveryProcessLoadsTheRowsTheOthersComputed) {
   EXPECT_EQ(computed, (std::vector<int>{6, 7, 8}));  // blocks 0–2, 3–6, 7–10 in both stages; row 4 of b found
   EXPECT_EQ(loaded, (std::vector<int>{22, 22, 22}));
   EXPECT_EQ(inner.rows.size(), 22u);
-  EXPECT_THROW(SharedRowStore(&inner, ProcessShare{2, 2, {}}, 11), Error);
+  ProcessShare outside;  // rank 2 of 2 processes
+  outside.rank = 2, outside.processes = 2;
+  EXPECT_THROW(SharedRowStore(&inner, outside, 11), Error);
 }
 
 }  // namespace
