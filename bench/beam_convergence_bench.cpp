@@ -5,7 +5,7 @@
 // (issue F asks < 1 %).
 //
 // Usage: beam_convergence_bench [directions=150] [largest strong limit=512] [cif=crystal-data/ni-fcc.cif]
-//        [kV=20] [max |g| in 1/Å=1.6]
+//        [kV=20] [max |g| in 1/Å=1.6] [smallest strong limit=8]
 #include <chrono>
 #include <cmath>
 #include <cstdio>
@@ -75,13 +75,14 @@ int main(int argc, char** argv) {
   const std::string cif = argc > 3 ? argv[3] : std::string(ORDERBAND_SOURCE_DIR) + "/crystal-data/ni-fcc.cif";
   const double kv = argc > 4 ? std::atof(argv[4]) : 20.0;
   const double max_g = argc > 5 ? std::atof(argv[5]) : 1.6;
+  const double smallest = argc > 6 ? std::atof(argv[6]) : 8;
   const Phase phase = load_phase_cif(cif);
   const std::vector<Eigen::Vector3d> dirs = random_directions(directions);
   std::printf("%s at %.0f kV, %d random directions, |g| <= %.2f 1/A, weak limit = 5 x strong limit\n", cif.c_str(), kv,
               directions, max_g);
   std::printf("%8s %8s %14s %16s %22s\n", "strong", "weak", "strong beams", "ms / direction", "rms change from last");
   Solved last;
-  for (double strong = 8; strong <= largest; strong *= 2) {
+  for (double strong = smallest; strong <= largest; strong *= 2) {
     const Solved now = solve_all(phase, kv, {max_g, strong, 5 * strong}, dirs);
     if (last.intensity.empty())
       std::printf("%8.0f %8.0f %14.1f %16.1f %22s\n", strong, 5 * strong, now.strong_beams, now.ms_per_direction, "-");
