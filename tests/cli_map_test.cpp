@@ -4,10 +4,8 @@
 
 #include <signal.h>
 #include <sys/wait.h>
-#include <unistd.h>
 #include <cctype>
 
-#include <chrono>
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
@@ -16,7 +14,6 @@
 #include <random>
 #include <sstream>
 #include <system_error>
-#include <thread>
 
 #include "orderband/error.hpp"
 #include "orderband/npy_io.hpp"
@@ -165,34 +162,13 @@ TEST_F(MapRun, ResumesAfterAKillWithIdenticalOutputs) {
   const auto reference = folder_contents(*dir_ + "/out");
   const std::string out = *dir_ + "/out";
   fs::remove_all(out);
-  // Start the same command in the background, kill it once some rows are committed.
-  const std::string cmd = std::string(ORDERBAND_BINARY) + " map " + *scan_ + " -o " + out + " --quiet";
-  const pid_t pid = fork();
-  ASSERT_GE(pid, 0);
-  if (pid == 0) {
-    execl("/bin/sh", "sh", "-c", ("exec " + cmd + " >/dev/null 2>&1").c_str(), static_cast<char*>(nullptr));
-    _exit(127);
-  }
-  // Poll until 8 rows are committed or the run ends by itself; a slow build (the sanitizers on a
+  // Run the same command, kill it once some rows are committed. A slow build (the sanitizers on a
   // loaded machine) only makes the wait longer, the 10-minute cap is the test's own timeout.
-  bool killed = false, exited = false;
-  int status = 0;
-  const auto give_up = std::chrono::steady_clock::now() + std::chrono::minutes(10);
-  while (!killed && !exited && std::chrono::steady_clock::now() < give_up) {
-    std::this_thread::sleep_for(std::chrono::milliseconds(10));
-    exited = waitpid(pid, &status, WNOHANG) == pid;
-    int rows = 0;
-    std::error_code ec;
-    for (const auto& e : fs::directory_iterator(out + "/.resume", ec))
-      rows += e.path().filename().string().rfind("orient-", 0) == 0;
-    if (!exited && rows >= 8) kill(pid, SIGKILL), killed = true;
-  }
-  if (!exited) {
-    if (!killed) kill(pid, SIGKILL);
-    waitpid(pid, &status, 0);
-  }
-  ASSERT_FALSE(exited) << "the run finished before it could be interrupted";
-  ASSERT_TRUE(killed) << "no 8 rows committed within 10 minutes";
+  const std::string cmd = std::string(ORDERBAND_BINARY) + " map " + *scan_ + " -o " + out + " --quiet";
+  const test::InterruptedRun run =
+      test::interrupt_after_rows(cmd, out + "/.resume", "orient", 8, [](int pid) { return kill(pid, SIGKILL) == 0; });
+  ASSERT_FALSE(run.exited) << "the run finished before it could be interrupted";
+  ASSERT_TRUE(run.stopped) << "no 8 rows committed within 10 minutes";
   ASSERT_FALSE(fs::exists(out + "/summary.json"));
   const auto r = test::run_orderband("map " + *scan_ + " -o " + out + " --quiet");
   ASSERT_EQ(r.exit_code, 0) << r.err;

@@ -3,13 +3,10 @@
 // start mpirun).
 #include <gtest/gtest.h>
 
-#include <signal.h>
 #include <sys/wait.h>
-#include <unistd.h>
 
 #include <algorithm>
 #include <array>
-#include <chrono>
 #include <cmath>
 #include <cstdlib>
 #include <cstring>
@@ -18,7 +15,6 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 #include <string>
-#include <thread>
 #include <vector>
 
 #include "test_support.hpp"
@@ -37,6 +33,15 @@ test::RunResult run_launched(int processes, const std::string& args) {
                            std::to_string(processes) + " --oversubscribe " + ORDERBAND_BINARY + " " + args);
 }
 
+/// One [[trial]] table of a trials description.
+std::string trial_entry(const std::string& label, const std::string& source_key, const std::string& path,
+                        double temperature_c, double time_h) {
+  std::ostringstream t;
+  t << "[[trial]]\nlabel = \"" << label << "\"\n"
+    << source_key << " = \"" << path << "\"\ntemperature_c = " << temperature_c << "\ntime_h = " << time_h << "\n";
+  return t.str();
+}
+
 /// Five trials: three scans of their own, two from one scenario (the same process makes its scan).
 std::string write_trials(const std::string& dir) {
   std::ofstream trials(dir + "/trials.toml");
@@ -44,8 +49,7 @@ std::string write_trials(const std::string& dir) {
   for (int i = 0; i < 3; ++i) {
     const std::string sub = dir + "/scan" + std::to_string(i);
     fs::create_directories(sub);
-    trials << "[[trial]]\nlabel = \"S" << i << "\"\nscan = \"" << test::write_small_scan(sub, 14, 61 + i)
-           << "\"\ntemperature_c = 760\ntime_h = " << (2 << i) << "\n";
+    trials << trial_entry("S" + std::to_string(i), "scan", test::write_small_scan(sub, 14, 61 + i), 760, 2 << i);
   }
   std::ofstream(dir + "/scenario.toml") << "[scenario]\nseed = 71\n[scan]\nrows = 14\ncols = 14\nstep_um = 0.03\n"
                                            "[detector]\nwidth_px = 48\nheight_px = 48\npc_px = [24.0, 15.0]\n"
@@ -53,8 +57,7 @@ std::string write_trials(const std::string& dir) {
                                            "count = 2\n[secondary]\narea_fraction = 0.25\ndistribution = "
                                            "\"lognormal\"\nmedian_diameter_um = 0.12\nsigma_ln = 0.2\n";
   for (const char* label : {"P", "Q"})
-    trials << "[[trial]]\nlabel = \"" << label << "\"\nscenario = \"" << dir
-           << "/scenario.toml\"\ntemperature_c = 800\ntime_h = " << (label[0] == 'P' ? 8 : 32) << "\n";
+    trials << trial_entry(label, "scenario", dir + "/scenario.toml", 800, label[0] == 'P' ? 8 : 32);
   return dir + "/trials.toml";
 }
 
@@ -240,36 +243,21 @@ TEST(CliMapProcesses, TwoAndFourProcessesMapOneScanAsOneDoesAndAKilledLaunchResu
   // A launch whose process dies: mpirun ends the others and exits non-zero; a launch with another
   // number of processes takes the rows the first one committed.
   const std::string out = dir + "/killed";
-  const pid_t pid = fork();
-  ASSERT_GE(pid, 0);
-  if (pid == 0) {
-    const std::string cmd = "OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 exec " ORDERBAND_MPIRUN
-                            " -np 2 --oversubscribe " ORDERBAND_BINARY " map " +
-                            scan + " -o " + out + " --quiet >/dev/null 2>&1";
-    execl("/bin/sh", "sh", "-c", cmd.c_str(), static_cast<char*>(nullptr));
-    _exit(127);
-  }
-  bool killed = false, exited = false;
-  int status = 0;
-  const auto give_up = std::chrono::steady_clock::now() + std::chrono::minutes(5);
-  while (!killed && !exited && std::chrono::steady_clock::now() < give_up) {
-    std::this_thread::sleep_for(std::chrono::milliseconds(10));
-    exited = waitpid(pid, &status, WNOHANG) == pid;
-    int rows = 0;
-    std::error_code ec;
-    for (const auto& e : fs::directory_iterator(out + "/.resume", ec))
-      rows += e.path().filename().string().rfind("orient-", 0) == 0;
-    // One process of the launch is killed: the newest whose command line starts with the program
-    // (not mpirun's, not the shell's around pkill, whose text "[m]ap" the pattern does not match).
-    if (!exited && rows >= 6)
-      killed =
-          test::run_command("pkill -KILL -n -f '^" ORDERBAND_BINARY " [m]ap " + scan + " -o " + out + "'").exit_code ==
-          0;
-  }
-  if (!exited) waitpid(pid, &status, 0);
-  ASSERT_FALSE(exited) << "the launch finished before it could be interrupted";
-  ASSERT_TRUE(killed);
-  EXPECT_TRUE(WIFEXITED(status) && WEXITSTATUS(status) != 0) << "mpirun's status " << status;
+  // One process of the launch is killed: the newest whose command line starts with the program
+  // (not mpirun's, not the shell's around pkill, whose text "[m]ap" the pattern does not match).
+  const test::InterruptedRun run = test::interrupt_after_rows(
+      "env OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1 " ORDERBAND_MPIRUN
+      " -np 2 --oversubscribe " ORDERBAND_BINARY " map " +
+          scan + " -o " + out + " --quiet",
+      out + "/.resume", "orient", 6,
+      [&](int) {
+        return test::run_command("pkill -KILL -n -f '^" ORDERBAND_BINARY " [m]ap " + scan + " -o " + out + "'")
+                   .exit_code == 0;
+      },
+      5);
+  ASSERT_FALSE(run.exited) << "the launch finished before it could be interrupted";
+  ASSERT_TRUE(run.stopped);
+  EXPECT_TRUE(WIFEXITED(run.status) && WEXITSTATUS(run.status) != 0) << "mpirun's status " << run.status;
   ASSERT_FALSE(fs::exists(out + "/summary.json"));
   auto resumed = run_launched(3, "map " + scan + " -o " + out);
   ASSERT_EQ(resumed.exit_code, 0) << resumed.err;
@@ -288,8 +276,7 @@ TEST(CliScreenProcesses, MoreProcessesThanTrialsShareEachTrialsRows) {
   for (int i = 0; i < 2; ++i) {
     const std::string sub = dir + "/scan" + std::to_string(i);
     fs::create_directories(sub);
-    trials << "[[trial]]\nlabel = \"T" << i << "\"\nscan = \"" << test::write_small_scan(sub, 30, 81 + i)
-           << "\"\ntemperature_c = 760\ntime_h = " << (4 << (2 * i)) << "\n";
+    trials << trial_entry("T" + std::to_string(i), "scan", test::write_small_scan(sub, 30, 81 + i), 760, 4 << (2 * i));
   }
   trials.close();
   auto one = test::run_orderband("screen " + dir + "/trials.toml -o " + dir + "/one --quiet");

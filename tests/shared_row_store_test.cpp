@@ -39,14 +39,18 @@ TEST(SharedRowStore, BlocksCoverEveryRowOnceAndDifferByAtMostOne) {
   for (int processes : {1, 2, 3, 7})
     for (int rows : {1, 5, 10, 97}) {
       int covered = 0;
+      size_t next = 0;  // each block starts where the one before ended
       for (int r = 0; r < processes; ++r) {
-        const int size = first_row_of_block(r + 1, processes, rows) - first_row_of_block(r, processes, rows);
+        ProcessShare share;
+        share.rank = r, share.processes = processes;
+        const auto [first, last] = share.block_of(static_cast<size_t>(rows));
+        const int size = static_cast<int>(last - first);
+        EXPECT_EQ(first, next);
         EXPECT_GE(size, rows / processes);
         EXPECT_LE(size, rows / processes + 1);
-        covered += size;
+        covered += size, next = last;
       }
       EXPECT_EQ(covered, rows);
-      EXPECT_EQ(first_row_of_block(0, processes, rows), 0);
     }
 }
 

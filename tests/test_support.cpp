@@ -1,7 +1,12 @@
 // Running the program and reference scripts from tests.
 #include "test_support.hpp"
 
+#include <signal.h>
 #include <sys/wait.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <thread>
 
 #include <cstdlib>
 #include <filesystem>
@@ -61,6 +66,32 @@ std::string write_small_scan(const std::string& dir, int side, int seed, const s
          "median_diameter_um = 0.12\nsigma_ln = 0.2\n";
   write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "test");
   return dir + "/scan/scan.toml";
+}
+
+InterruptedRun interrupt_after_rows(const std::string& command, const std::string& folder, const std::string& stage,
+                                    int rows, const std::function<bool(int pid)>& stop, int minutes) {
+  InterruptedRun run;
+  const pid_t pid = fork();
+  if (pid < 0) return run;
+  if (pid == 0) {
+    execl("/bin/sh", "sh", "-c", ("exec " + command + " >/dev/null 2>&1").c_str(), static_cast<char*>(nullptr));
+    _exit(127);
+  }
+  const auto give_up = std::chrono::steady_clock::now() + std::chrono::minutes(minutes);
+  while (!run.stopped && !run.exited && std::chrono::steady_clock::now() < give_up) {
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+    run.exited = waitpid(pid, &run.status, WNOHANG) == pid;
+    int committed = 0;
+    std::error_code ec;
+    for (const auto& e : std::filesystem::directory_iterator(folder, ec))
+      committed += e.path().filename().string().rfind(stage + "-", 0) == 0;
+    if (!run.exited && committed >= rows) run.stopped = stop(pid);
+  }
+  if (!run.exited) {
+    if (!run.stopped) kill(pid, SIGKILL);
+    waitpid(pid, &run.status, 0);
+  }
+  return run;
 }
 
 std::string read_file_bytes(const std::string& path) {

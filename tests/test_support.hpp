@@ -3,6 +3,7 @@
 
 #include <array>
 #include <cstdio>
+#include <functional>
 #include <string>
 
 namespace orderband::test {
@@ -26,6 +27,20 @@ RunResult run_orderband(const std::string& args);
 
 /// Runs a python reference script through Debian's /usr/bin/python3.
 RunResult run_reference_script(const std::string& script, const std::string& args);
+
+/// How a run started by interrupt_after_rows ended.
+struct InterruptedRun {
+  bool exited = false;   ///< it ended by itself before the rows were committed
+  bool stopped = false;  ///< `stop` was called
+  int status = 0;        ///< its wait status
+};
+
+/// Starts `command` (a program and its arguments, run by the shell's exec so that the pid is the
+/// program's: put variables in front with `env`; output discarded) in the background, polls `folder`
+/// every 10 ms and calls stop(pid) once `rows` row files of `stage` are committed there; a run still
+/// going after `minutes` is killed. Waits for the run to end.
+InterruptedRun interrupt_after_rows(const std::string& command, const std::string& folder, const std::string& stage,
+                                    int rows, const std::function<bool(int pid)>& stop, int minutes = 10);
 
 /// A fresh empty temporary folder, removed by the caller.
 std::string make_temp_dir(const std::string& stem);

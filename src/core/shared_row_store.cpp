@@ -7,17 +7,13 @@
 
 namespace orderband {
 
-int first_row_of_block(int rank, int processes, int rows) {
-  return static_cast<int>(static_cast<long long>(rows) * rank / processes);
-}
-
 SharedRowStore::SharedRowStore(RowStore* inner, ProcessShare share, int rows)
     : inner_(inner), share_(std::move(share)) {
   if (share_.processes < 1 || share_.rank < 0 || share_.rank >= share_.processes)
     fail("process ", share_.rank, " of ", share_.processes, " is not a valid share");
   if (share_.shared() && !share_.all_gather) fail("rows shared among ", share_.processes, " processes need a gather");
-  first_ = first_row_of_block(share_.rank, share_.processes, rows);
-  last_ = first_row_of_block(share_.rank + 1, share_.processes, rows);
+  const auto [first, last] = share_.block_of(static_cast<size_t>(rows));
+  first_ = static_cast<int>(first), last_ = static_cast<int>(last);
 }
 
 bool SharedRowStore::load(const std::string& stage, int row, std::vector<uint8_t>& bytes) {

@@ -12,11 +12,7 @@
 
 namespace orderband {
 
-/// The first row of process `rank`'s block when `rows` rows are cut into `processes` contiguous
-/// blocks whose sizes differ by at most one (rank = processes gives `rows`).
-int first_row_of_block(int rank, int processes, int rows);
-
-/// A RowStore whose rows are computed in contiguous blocks, one per process. Saved rows go to
+/// A RowStore whose rows are computed in contiguous blocks, one per process (ProcessShare::block_of). Saved rows go to
 /// `inner` (which keeps them for a resumed run; may be null) and are kept for the exchange; after
 /// a stage's pass, `share_rows` gives every process the rows the others computed in it, and
 /// `load` returns those first, then the inner store's.
