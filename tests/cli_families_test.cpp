@@ -6,6 +6,7 @@
 #include <nlohmann/json.hpp>
 #include <sstream>
 
+#include "orderband/bloch_waves.hpp"
 #include "test_support.hpp"
 
 namespace orderband {
@@ -80,7 +81,7 @@ TEST(CliFamilies, DynamicalProfilesOfBothPhasesFromTheSphereCache) {
   const auto j = nlohmann::json::parse(r.out);
   const auto& spheres = j["parameters"]["dynamical_spheres"];
   EXPECT_EQ(spheres["nside"], 64);
-  EXPECT_EQ(spheres["strong_limit"].get<double>(), 256);
+  EXPECT_EQ(spheres["strong_limit"].get<double>(), kSphereBeams.strong_limit);
   EXPECT_DOUBLE_EQ(spheres["mean_depth_nm"].get<double>(), 10);
   double change_110 = std::nan("");
   for (const auto& f : j["families"]) {

@@ -112,7 +112,7 @@ std::function<int()> setup_families(CLI::App& sub) {
   add_format_option(sub, o->format);
   sub.add_flag("--dynamical", o->dynamical,
                "add each family's band profiles on both phases' many-beam spheres (pairs only; a sphere not yet "
-               "in the cache takes about a minute or two at nside 128)");
+               "in the cache takes a few minutes at nside 128: about 8 for the nickel pair on 2 cores)");
   sub.add_option("--nside", o->nside,
                  "HEALPix nside of the spheres for --dynamical (power of two, 64 to 1024; coarser spheres leave the "
                  "narrowest profile bins empty)")

@@ -188,7 +188,8 @@ int FractionScan::neighbour_grain(size_t k) const {
   return others.empty() ? 0 : others.front();
 }
 
-CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preprocessor& processing) const {
+CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preprocessor& processing,
+                                           const std::vector<std::vector<float>>& measured) const {
   const size_t nf = families.count();
   std::vector<std::vector<int>> touching(grains + 1);
   for (size_t k = 0; k < n; ++k) {
@@ -206,7 +207,10 @@ CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preproc
     touching[g2].erase(std::unique(touching[g2].begin(), touching[g2].end()), touching[g2].end());
     if (touching[g2].empty()) continue;
     std::vector<float> img(pixels());
-    model->phase(processing, geometry, grain_orientation[g2], false, img.data());
+    if (static_cast<size_t>(g2) < measured.size() && !measured[g2].empty())
+      img = measured[g2];
+    else
+      model->phase(processing, geometry, grain_orientation[g2], false, img.data());
     std::vector<FamilyProfile> prof;
     for (int g : touching[g2]) {
       by.profile(img.data(), pre.mask(), rays, grain_orientation[g], prof);

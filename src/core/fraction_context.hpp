@@ -74,8 +74,8 @@ class FractionModel {
   Preprocessor processing_;
 };
 
-/// Per (frame grain, seen grain): a grain's disordered model pattern profiled in the frame of a
-/// grain it touches, families × bins means.
+/// Per (frame grain, seen grain): a grain's pattern (the disordered model's, or its measured mean)
+/// profiled in the frame of a grain it touches, families × bins means.
 using CrossProfiles = std::map<std::pair<int, int>, std::vector<std::vector<double>>>;
 
 /// One scan as the fraction stage sees it. Built in three steps: the inputs (constructor), the
@@ -113,8 +113,10 @@ struct FractionScan {
   /// The first of them; 0 if none.
   int neighbour_grain(size_t k) const;
   /// Each grain's disordered model pattern (processed by `processing`) profiled by `by` in the
-  /// frame of every grain the beam reaches it from.
-  CrossProfiles cross_profiles(const BandProfiler& by, const Preprocessor& processing) const;
+  /// frame of every grain the beam reaches it from. Where `measured` (index = grain id) holds a
+  /// grain's mean measured pattern, that is profiled instead of the model's.
+  CrossProfiles cross_profiles(const BandProfiler& by, const Preprocessor& processing,
+                               const std::vector<std::vector<float>>& measured = {}) const;
 };
 
 }  // namespace orderband

@@ -92,36 +92,42 @@ std::vector<double> ordering_signature(const BandProfiler& features, const Fract
   return signature;
 }
 
-/// At a grain boundary the beam sees other lattices. Each other grain's model pattern profiled in
-/// this grain's frame (`seen`, families × bins), less this grain's own model profile (`own_model`),
-/// is a direction along which a point's features move with that lattice's share; their components
-/// in the point's features `x` (joint least squares about the grain's mean features, bins no point
-/// of the grain covers left out) are taken out. The model gives the band positions; the shares come
-/// from the data.
-void take_out_other_lattices(float* x, const std::vector<double>& grain_mean, const std::vector<double>& grain_count,
-                             const std::vector<double>& own_model,
-                             const std::vector<const std::vector<std::vector<double>>*>& seen, size_t bins) {
-  const size_t m = seen.size();
-  if (m == 0) return;
-  auto direction = [&](size_t j, size_t i) { return (*seen[j])[i / bins][i % bins] - own_model[i]; };
-  auto usable = [&](size_t i) { return !std::isnan(x[i]) && !std::isnan(own_model[i]) && grain_count[i] > 0; };
+/// At a grain boundary the beam sees other lattices. Each `direction` (families × bins, NaN where
+/// unknown) is the change of this grain's features per unit share of one other lattice; their
+/// components in the point's features `x` (joint least squares about the grain's mean features,
+/// bins no point of the grain covers left out) are taken out. The model gives the band positions;
+/// the shares come from the data.
+/// Returns each direction's share (empty if none could be fitted).
+std::vector<double> take_out_other_lattices(float* x, const std::vector<double>& grain_mean,
+                                            const std::vector<double>& grain_count,
+                                            const std::vector<std::vector<double>>& directions) {
+  const size_t m = directions.size();
+  if (m == 0) return {};
+  const size_t p = grain_mean.size();
+  auto usable = [&](size_t i) {
+    if (std::isnan(x[i]) || !(grain_count[i] > 0)) return false;
+    for (const auto& d : directions)
+      if (std::isnan(d[i])) return false;
+    return true;
+  };
   Eigen::MatrixXd normal = Eigen::MatrixXd::Zero(m, m);
   Eigen::VectorXd rhs = Eigen::VectorXd::Zero(m);
-  for (size_t i = 0; i < own_model.size(); ++i) {
+  for (size_t i = 0; i < p; ++i) {
     if (!usable(i)) continue;
     for (size_t a = 0; a < m; ++a) {
-      rhs[a] += (x[i] - grain_mean[i]) * direction(a, i);
-      for (size_t b = 0; b <= a; ++b) normal(a, b) += direction(a, i) * direction(b, i);
+      rhs[a] += (x[i] - grain_mean[i]) * directions[a][i];
+      for (size_t b = 0; b <= a; ++b) normal(a, b) += directions[a][i] * directions[b][i];
     }
   }
   normal = normal.selfadjointView<Eigen::Lower>();
   const Eigen::LDLT<Eigen::MatrixXd> solve(normal);
-  if (solve.info() != Eigen::Success || !(normal.diagonal().minCoeff() > 0)) return;
+  if (solve.info() != Eigen::Success || !(normal.diagonal().minCoeff() > 0)) return {};
   const Eigen::VectorXd share = solve.solve(rhs);
-  if (!share.allFinite()) return;
-  for (size_t i = 0; i < own_model.size(); ++i)
+  if (!share.allFinite()) return {};
+  for (size_t i = 0; i < p; ++i)
     if (usable(i))
-      for (size_t a = 0; a < m; ++a) x[i] -= static_cast<float>(share[a] * direction(a, i));
+      for (size_t a = 0; a < m; ++a) x[i] -= static_cast<float>(share[a] * directions[a][i]);
+  return {share.data(), share.data() + m};
 }
 
 /// End members as the learned estimator found them: mean, spread and share of the measured points
@@ -269,23 +275,113 @@ void assign_grains(const FractionScan& scan, FractionResults& res, LearnedInputs
       in.grain[k] = 0, res.reason[k] = static_cast<uint8_t>(FractionReason::small_grain);
 }
 
+/// Per point: the other lattices taken out of its features, (grain id, share).
+using OtherLattices = std::vector<std::vector<std::pair<int, double>>>;
+
+/// Each grain's mean pattern needs at least this many usable patterns of points no other lattice
+/// reaches; a grain with fewer is seen through the model's pattern.
+constexpr int kMinInteriorPatterns = 20;
+
+/// Per grain (index = id): the mean of its linearly preprocessed patterns over a sample of at most
+/// spec.grain_pattern_points of its points that no other grain's lattice reaches (spread_sample),
+/// empty where fewer than kMinInteriorPatterns are usable. Read here as a bounded sample, like the
+/// grain frames' mean patterns (every process of a shared run reads the same points).
+std::vector<std::vector<float>> interior_mean_patterns(const FractionScan& scan, const LinearFeatures& lin) {
+  std::vector<std::vector<size_t>> members(scan.grains + 1);
+  for (size_t k = 0; k < scan.n; ++k) {
+    const int g = scan.ori.grains.id[k];
+    if (g > 0 && scan.ori.orientation[k] && scan.grains_within_reach(k).empty()) members[g].push_back(k);
+  }
+  std::vector<size_t> chosen;
+  for (const auto& m : members) {
+    const std::vector<size_t> sample = spread_sample(m, scan.spec.grain_pattern_points);
+    chosen.insert(chosen.end(), sample.begin(), sample.end());
+  }
+  std::sort(chosen.begin(), chosen.end());
+  std::vector<std::vector<double>> sum(scan.grains + 1);
+  std::vector<int> count(scan.grains + 1, 0);
+  PreprocessedPoints reader(*scan.source, scan.grid, lin.data);
+  reader.load_in_batches(
+      chosen, 256,
+      [&](const std::vector<size_t>& batch, const std::vector<float>& pats, const std::vector<uint8_t>& ok) {
+        for (size_t i = 0; i < batch.size(); ++i) {
+          if (!ok[i]) continue;
+          const int g = scan.ori.grains.id[batch[i]];
+          if (sum[g].empty()) sum[g].assign(scan.pixels(), 0.0);
+          const float* pattern = pats.data() + i * scan.pixels();
+          for (size_t q = 0; q < scan.pixels(); ++q) sum[g][q] += pattern[q];
+          count[g] += 1;
+        }
+      });
+  std::vector<std::vector<float>> mean(scan.grains + 1);
+  for (int g = 1; g <= scan.grains; ++g) {
+    if (count[g] < kMinInteriorPatterns) continue;
+    mean[g].resize(scan.pixels());
+    for (size_t q = 0; q < scan.pixels(); ++q) mean[g][q] = static_cast<float>(sum[g][q] / count[g]);
+  }
+  return mean;
+}
+
 /// Grain boundaries: the shares of the lattices the beam reaches there (FractionScan::
 /// grains_within_reach) taken out of the features together, about each grain's mean over its points
-/// away from boundaries. Only at boundary points: taking them out also at the points a long
-/// footprint reaches further in moved the learned scale by 12 % on a 2.9 × footprint (area +0.036
-/// against −0.010), though it took out a lattice two rows away that had put one point at f = 5.
-void take_out_other_lattices(const FractionScan& scan, const LinearFeatures& lin,
-                             const std::vector<std::array<std::vector<double>, 2>>& model_features, LearnedInputs& in) {
-  const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model);
+/// away from boundaries. Each other lattice's direction is its grain's measured mean pattern
+/// (interior_mean_patterns) profiled in this grain's frame less this grain's mean features: the
+/// model gives where the other lattice's bands fall in this frame, the data how they look. (The
+/// model's disordered pattern in its place left the many-beam variant's matrix points next to
+/// boundaries at +0.175 and the area at +0.063: a dynamical band's profile is not the kinematic
+/// one.) A grain too small for a mean is seen through the model's pattern, less this grain's model
+/// profile. Only at boundary points: taking them out also at the points a long footprint reaches
+/// further in moved the learned scale by 12 % on a 2.9 × footprint (area +0.036 against −0.010),
+/// though it took out a lattice two rows away that had put one point at f = 5.
+OtherLattices take_out_other_lattices(const FractionScan& scan, const LinearFeatures& lin,
+                                      const std::vector<std::array<std::vector<double>, 2>>& model_features,
+                                      LearnedInputs& in) {
+  OtherLattices taken(scan.n);
+  const std::vector<std::vector<float>> measured = interior_mean_patterns(scan, lin);
+  const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model, measured);
   const GrainFeatures interior = grain_features(in);
   for (size_t k = 0; k < scan.n; ++k) {
     const int g = in.grain[k];
     if (g <= 0 || !in.boundary[k]) continue;
-    std::vector<const std::vector<std::vector<double>>*> seen;
-    for (int other : scan.grains_within_reach(k))
-      if (const auto it = cross.find({g, other}); it != cross.end()) seen.push_back(&it->second);
-    take_out_other_lattices(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], model_features[g][0], seen,
-                            lin.bins);
+    std::vector<std::vector<double>> directions;
+    std::vector<int> others;
+    for (int other : scan.grains_within_reach(k)) {
+      const auto it = cross.find({g, other});
+      if (it == cross.end()) continue;
+      others.push_back(other);
+      const bool data = !measured[other].empty();
+      const std::vector<double>& own = data ? interior.mean[g] : model_features[g][0];
+      std::vector<double> d(lin.p, std::nan(""));
+      for (size_t i = 0; i < lin.p; ++i)
+        if (!data || interior.count[g][i] > 0) d[i] = it->second[i / lin.bins][i % lin.bins] - own[i];
+      directions.push_back(std::move(d));
+    }
+    const std::vector<double> share =
+        take_out_other_lattices(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], directions);
+    for (size_t j = 0; j < share.size(); ++j) taken[k].push_back({others[j], share[j]});
+  }
+  return taken;
+}
+
+/// A boundary point's fraction counts the lattices that were taken out of its features: their
+/// features were replaced by its own grain's mean, so f read the own grain's mean ordered share for
+/// them; each other lattice's share a (clipped to [0, 1]) now counts with its grain's mean fraction
+/// instead, f += a (f̄_other − f̄_own), the means over the grains' points away from boundaries. So
+/// a primary particle's edge points read the γ′ share of their whole interaction volume, as the
+/// points of a two-phase grain's particle edges do.
+void count_other_lattices(const OtherLattices& taken, const LearnedInputs& in, FractionResults& res) {
+  std::vector<double> sum(in.grains + 1, 0.0), count(in.grains + 1, 0.0);
+  for (size_t k = 0; k < res.raw.size(); ++k)
+    if (in.grain[k] > 0 && !in.boundary[k] && res.reason[k] == static_cast<uint8_t>(FractionReason::ok))
+      sum[in.grain[k]] += res.raw[k], count[in.grain[k]] += 1;
+  for (size_t k = 0; k < res.raw.size(); ++k) {
+    const int g = in.grain[k];
+    if (g <= 0 || taken[k].empty() || res.reason[k] != static_cast<uint8_t>(FractionReason::ok) || !(count[g] > 0))
+      continue;
+    double change = 0;
+    for (const auto& [other, share] : taken[k])
+      if (count[other] > 0) change += std::clamp(share, 0.0, 1.0) * (sum[other] / count[other] - sum[g] / count[g]);
+    res.raw[k] += static_cast<float>(change);
   }
 }
 
@@ -320,7 +416,7 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   LearnedInputs in = empty_inputs(scan, lin.p);
   lin.collect(res, in, progress, store);
   assign_grains(scan, res, in);
-  take_out_other_lattices(scan, lin, model_features, in);
+  const OtherLattices taken = take_out_other_lattices(scan, lin, model_features, in);
   in.model = model_features;
   in.bins = lin.bins;
   in.superlattice_families = scan.families.first_fundamental;
@@ -333,6 +429,7 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
           model_first_guess(model_features[in.grain[k]], in.x.data() + k * lin.p, lin.bins, in.superlattice_families);
   const LearnedFraction lf = learn_fraction(in, scan.spec.learned);
   take_learned(lf, res);
+  if (lf.two_phases) count_other_lattices(taken, in, res);
   LearnedFamilies out;
   const size_t nf = scan.families.count();
   if (lf.difference.size() == nf * lin.bins)

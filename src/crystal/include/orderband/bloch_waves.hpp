@@ -31,12 +31,13 @@ struct BeamSetSpec {
   double weak_limit = 40;
 };
 
-/// The beam set of dynamical spheres, from a convergence study (bench/beam_convergence_bench: Ni
-/// at 20 kV, 150 random directions, each set of intensities divided by its mean): doubling the
-/// strong and weak limits changed the intensities by 9.3 % rms from 32 to 64, 3.1 % from 64 to
-/// 128, 2.2 % from 128 to 256 and 0.77 % from 256 to 512 (DEVELOPERS.md, "Dynamical spheres"):
-/// the first limit under 1 %.
-inline constexpr BeamSetSpec kSphereBeams{1.6, 256, 1280};
+/// The beam set of dynamical spheres, from a convergence study (bench/beam_convergence_bench: 150
+/// random directions at 20 kV, each set of intensities divided by its mean, weak = 5 × strong):
+/// doubling both limits changed Ni's intensities by 9.3 % rms from 32 to 64, 3.1 % from 64 to 128,
+/// 2.2 % from 128 to 256 and 0.77 % from 256 to 512, and Ni₃Al's (a four-atom cell) by 1.07 % from
+/// 256 to 512 and 0.78 % from 384 to 768 (DEVELOPERS.md, "Dynamical spheres"): the first limit at
+/// which both phases of the nickel pair change by less than 1 %.
+inline constexpr BeamSetSpec kSphereBeams{1.6, 384, 1920};
 
 struct BeamSet {
   std::vector<Beam> strong;  ///< strong[0] is the transmitted beam 000
