@@ -4,7 +4,8 @@
 // Prints one table per estimator: area fraction error, classification away from phase boundaries,
 // d′ between pure particle and pure matrix points, the variant's information limit (Fisher d′ of the
 // renderer's noise-free pure patterns at the grains' orientations), their ratio, and points/s.
-// ORDERBAND_BENCH_DETAIL=1 lists every grain's truth, mean f and pure-matrix mean on stderr.
+// ORDERBAND_BENCH_DETAIL=1 lists every grain's truth, mean f and pure-matrix mean on stderr;
+// ORDERBAND_BENCH_SPHERE_REFERENCE=1 gives the many-beam variants their spheres as the reference.
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -151,9 +152,17 @@ int main(int argc, char** argv) {
     std::vector<Rotation> grain_orientations;
     for (int g = 0; g < ori.grains.count(); ++g) grain_orientations.push_back(ori.grains.mean[g]);
     const InformationLimit limit = information_limit(scenario, grain_orientations);
+    // With ORDERBAND_BENCH_SPHERE_REFERENCE=1 the many-beam variants take the renderer's own spheres
+    // as the estimators' reference instead of the kinematic model (self-consistency for the
+    // model-led estimator; the learned one takes geometry and its first guess from them).
+    const ManyBeamSpheres reference = std::getenv("ORDERBAND_BENCH_SPHERE_REFERENCE")
+                                          ? many_beam_spheres(scenario, load_phases(scenario.phases), "mismatch_bench")
+                                          : ManyBeamSpheres{};
     for (int e = 0; e < 2; ++e) {
       FractionSpec spec;
       spec.estimator = e ? FractionEstimator::learned : FractionEstimator::profile;
+      spec.reference_spheres = reference.maps();
+      spec.reference_sphere_contrast = scenario.many_beam.contrast;
       const auto t0 = std::chrono::steady_clock::now();
       const FractionResults fr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, spec);
       const double sec = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
