@@ -54,7 +54,7 @@ const Variant kSuite[] = {
     {"beam 2.9x along tilt", "", "beam_elongation = 2.9\n", 0.0},
     {"PC error 0.5 px", "", "pc_error_px = [0.5, -0.4, 0.6]\n", 0.0},
     // Dynamical patterns: each phase's Bloch-wave sphere at the default beam set (cached in the
-    // user's sphere cache; about 80 s per phase the first time).
+    // user's sphere cache; about 6 min for Ni₃Al and 8 min for both phases the first time).
     {"many-beam", "model = \"many-beam\"\n", "", 0.0},
     {"many-beam, tertiary 0.05", "model = \"many-beam\"\n", "", 0.05},
 };
