@@ -226,4 +226,42 @@ CrossProfiles FractionScan::cross_profiles(const BandProfiler& by, const Preproc
   return cross;
 }
 
+std::vector<float> GrainPatternSums::mean(int g) const {
+  std::vector<float> m(sum[g].size());
+  for (size_t q = 0; q < m.size(); ++q) m[q] = static_cast<float>(sum[g][q] / count[g]);
+  return m;
+}
+
+GrainPatternSums FractionScan::sum_grain_patterns(const Preprocessor& processing,
+                                                  const std::function<bool(size_t)>& eligible) const {
+  std::vector<std::vector<size_t>> members(grains + 1);
+  for (size_t k = 0; k < n; ++k)
+    if (const int g = ori.grains.id[k]; g > 0 && eligible(k)) members[g].push_back(k);
+  GrainPatternSums s;
+  s.sum.resize(grains + 1);
+  s.count.assign(grains + 1, 0);
+  s.size.assign(grains + 1, 0);
+  std::vector<size_t> chosen;
+  for (int g = 0; g <= grains; ++g) {
+    s.size[g] = static_cast<int>(members[g].size());
+    const std::vector<size_t> sample = spread_sample(members[g], spec.grain_pattern_points);
+    chosen.insert(chosen.end(), sample.begin(), sample.end());
+  }
+  std::sort(chosen.begin(), chosen.end());
+  PreprocessedPoints reader(*source, grid, processing);
+  reader.load_in_batches(
+      chosen, 256,
+      [&](const std::vector<size_t>& batch, const std::vector<float>& pats, const std::vector<uint8_t>& ok) {
+        for (size_t i = 0; i < batch.size(); ++i) {
+          if (!ok[i]) continue;
+          const int g = ori.grains.id[batch[i]];
+          if (s.sum[g].empty()) s.sum[g].assign(pixels(), 0.0);
+          const float* p = pats.data() + i * pixels();
+          for (size_t q = 0; q < pixels(); ++q) s.sum[g][q] += p[q];
+          s.count[g] += 1;
+        }
+      });
+  return s;
+}
+
 }  // namespace orderband

@@ -3,6 +3,7 @@
 // processing), and the scan: its patterns, the reference geometry and each grain's frame.
 #pragma once
 
+#include <functional>
 #include <map>
 #include <memory>
 #include <utility>
@@ -78,6 +79,15 @@ class FractionModel {
 /// profiled in the frame of a grain it touches, families × bins means.
 using CrossProfiles = std::map<std::pair<int, int>, std::vector<std::vector<double>>>;
 
+/// Per grain id: the sum of a sample of its points' preprocessed patterns, how many were summed,
+/// and how many points the sample was drawn from (FractionScan::sum_grain_patterns).
+struct GrainPatternSums {
+  std::vector<std::vector<double>> sum;
+  std::vector<int> count;  ///< patterns summed
+  std::vector<int> size;   ///< the grain's points the sample was drawn from
+  std::vector<float> mean(int g) const;
+};
+
 /// One scan as the fraction stage sees it. Built in three steps: the inputs (constructor), the
 /// grain frames (refine_grain_frames), then the estimators read it.
 struct FractionScan {
@@ -117,6 +127,12 @@ struct FractionScan {
   /// grain's mean measured pattern, that is profiled instead of the model's.
   CrossProfiles cross_profiles(const BandProfiler& by, const Preprocessor& processing,
                                const std::vector<std::vector<float>>& measured = {}) const;
+  /// Each grain's patterns (processed by `processing`) summed over at most
+  /// spec.grain_pattern_points of its points where `eligible` holds, spread evenly over the grain
+  /// (spread_sample) and read in scan order in batches: a mean of a few hundred patterns is as good
+  /// as the whole grain's, and a large scan is not read once more.
+  GrainPatternSums sum_grain_patterns(const Preprocessor& processing,
+                                      const std::function<bool(size_t)>& eligible) const;
 };
 
 }  // namespace orderband

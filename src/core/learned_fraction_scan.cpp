@@ -282,43 +282,17 @@ using OtherLattices = std::vector<std::vector<std::pair<int, double>>>;
 /// reaches; a grain with fewer is seen through the model's pattern.
 constexpr int kMinInteriorPatterns = 20;
 
-/// Per grain (index = id): the mean of its linearly preprocessed patterns over a sample of at most
-/// spec.grain_pattern_points of its points that no other grain's lattice reaches (spread_sample),
-/// empty where fewer than kMinInteriorPatterns are usable. Read here as a bounded sample, like the
-/// grain frames' mean patterns (every process of a shared run reads the same points).
+/// Per grain (index = id): the mean of its linearly preprocessed patterns over a sample of its points
+/// that no other grain's lattice reaches (FractionScan::sum_grain_patterns, as the grain frames'
+/// mean patterns are read; every process of a shared run reads the same points), empty where fewer
+/// than kMinInteriorPatterns are usable.
 std::vector<std::vector<float>> interior_mean_patterns(const FractionScan& scan, const LinearFeatures& lin) {
-  std::vector<std::vector<size_t>> members(scan.grains + 1);
-  for (size_t k = 0; k < scan.n; ++k) {
-    const int g = scan.ori.grains.id[k];
-    if (g > 0 && scan.ori.orientation[k] && scan.grains_within_reach(k).empty()) members[g].push_back(k);
-  }
-  std::vector<size_t> chosen;
-  for (const auto& m : members) {
-    const std::vector<size_t> sample = spread_sample(m, scan.spec.grain_pattern_points);
-    chosen.insert(chosen.end(), sample.begin(), sample.end());
-  }
-  std::sort(chosen.begin(), chosen.end());
-  std::vector<std::vector<double>> sum(scan.grains + 1);
-  std::vector<int> count(scan.grains + 1, 0);
-  PreprocessedPoints reader(*scan.source, scan.grid, lin.data);
-  reader.load_in_batches(
-      chosen, 256,
-      [&](const std::vector<size_t>& batch, const std::vector<float>& pats, const std::vector<uint8_t>& ok) {
-        for (size_t i = 0; i < batch.size(); ++i) {
-          if (!ok[i]) continue;
-          const int g = scan.ori.grains.id[batch[i]];
-          if (sum[g].empty()) sum[g].assign(scan.pixels(), 0.0);
-          const float* pattern = pats.data() + i * scan.pixels();
-          for (size_t q = 0; q < scan.pixels(); ++q) sum[g][q] += pattern[q];
-          count[g] += 1;
-        }
-      });
+  const GrainPatternSums sums = scan.sum_grain_patterns(lin.data, [&scan](size_t k) {
+    return scan.ori.orientation[k].has_value() && scan.grains_within_reach(k).empty();
+  });
   std::vector<std::vector<float>> mean(scan.grains + 1);
-  for (int g = 1; g <= scan.grains; ++g) {
-    if (count[g] < kMinInteriorPatterns) continue;
-    mean[g].resize(scan.pixels());
-    for (size_t q = 0; q < scan.pixels(); ++q) mean[g][q] = static_cast<float>(sum[g][q] / count[g]);
-  }
+  for (int g = 1; g <= scan.grains; ++g)
+    if (sums.count[g] >= kMinInteriorPatterns) mean[g] = sums.mean(g);
   return mean;
 }
 
