@@ -16,6 +16,7 @@
 #include <system_error>
 
 #include "orderband/error.hpp"
+#include "orderband/mismatch_systematic.hpp"
 #include "orderband/npy_io.hpp"
 #include "orderband/orientation_csv.hpp"
 #include "orderband/scan_config_toml.hpp"
@@ -119,32 +120,30 @@ TEST(MapSizes, SecondaryThreeDimensionalMeanFromSectionsTruncatedAtTheDetectionL
 TEST_F(MapRun, SummaryAgreesWithTruth) {
   const auto s = nlohmann::json::parse(slurp(*dir_ + "/out/summary.json"));
   const auto t = nlohmann::json::parse(slurp(*dir_ + "/scan/truth.json"));
-  // Step 6 tolerances: area fraction and sub-resolution fraction within ±0.02.
-  EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), t["ordered_area_fraction"].get<double>(), 0.02);
-  EXPECT_NEAR(s["subresolution_ordered_fraction"].get<double>(), 0.05, 0.02);
-  // Each grain's matrix (tertiary γ′ 5 % everywhere) agrees with the scenario, and the pattern
-  // centre, given right, stays within a few hundredths of a pixel.
-  ASSERT_GE(s["grain_fractions"].size(), 1u);
-  int checked = 0;
-  for (const auto& g : s["grain_fractions"]) {
-    if (g["matrix_points"].get<int>() < 100) continue;
-    EXPECT_NEAR(g["matrix_mean_fraction"].get<double>(), 0.05, 0.02) << "grain " << g["id"];
-    ++checked;
-  }
-  EXPECT_GE(checked, 1);
+  // 1,600 points: the default ("auto") runs the learned estimator, whose zero is each grain's
+  // matrix. So the area fraction is the resolved ordered area, the truth less its tertiary share
+  // (0.05 of the matrix, 0.033 here), within the ±0.03 issue A asks of the learned estimator on
+  // every renderer variant (measured +0.023: on this renderer its particles read 2–3 % high and
+  // matrix beside another grain a little above zero, as on the mismatch suite's default variant,
+  // +0.029 there).
+  EXPECT_EQ(s["fraction_estimator"]["requested"], "auto");
+  EXPECT_EQ(s["fraction_estimator"]["used"], "learned");
+  const double resolved_truth =
+      t["ordered_area_fraction"].get<double>() - t["classes"]["tertiary"]["area_fraction"].get<double>();
+  EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), resolved_truth, 0.03);
+  EXPECT_FALSE(s["subresolution_measured"].get<bool>());
+  // The pattern centre, given right, stays within a few hundredths of a pixel.
   EXPECT_NEAR(s["pattern_centre"]["pc_px"][0].get<double>(), 30.0, 0.05);
   EXPECT_NEAR(s["pattern_centre"]["pc_px"][1].get<double>(), 18.0, 0.05);
   EXPECT_NEAR(s["pattern_centre"]["distance_px"].get<double>(), 45.0, 0.05);
   EXPECT_LE(s["ci95"]["low"].get<double>(), s["ordered_area_fraction"].get<double>());
   EXPECT_GE(s["ci95"]["high"].get<double>(), s["ordered_area_fraction"].get<double>());
-  EXPECT_EQ(s["points_measured"].get<size_t>(), 1600u);
-  // The model-led estimator's systematic uncertainty from the mismatch suite, beside the interval:
-  // far wider than the statistical one (the model-led estimator breaks on renderers it is not told):
-  // measured 0.802 (0.738 with spheres of the 256 / 1,280 beam set, 0.657 before the many-beam
-  // variants) against a half-width of 0.068, over ten times.
-  const double systematic = s["systematic_uncertainty"]["model_mismatch_rms"].get<double>();
-  EXPECT_GT(systematic, 5 * (s["ci95"]["high"].get<double>() - s["ci95"]["low"].get<double>()) / 2);
+  // The systematic uncertainty is the learned estimator's, from the mismatch suite (the model-led
+  // one's, 0.802, were the choice taken from the options rather than from the estimator that ran).
+  EXPECT_EQ(s["systematic_uncertainty"]["model_mismatch_rms"].get<double>(), mismatch_systematic("learned").rms);
+  EXPECT_LT(s["systematic_uncertainty"]["model_mismatch_rms"].get<double>(), 0.03);
   EXPECT_EQ(s["systematic_uncertainty"]["variants"].get<int>(), 16);
+  EXPECT_EQ(s["points_measured"].get<size_t>(), 1600u);
   for (const char* key : {"area_fraction", "number_density_per_um2", "mean_ecd_um", "count"})
     EXPECT_TRUE(s["classes"]["secondary"].contains(key)) << key;
   EXPECT_EQ(s["version"], kVersion);
@@ -157,6 +156,35 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
         "orient_summary.json"})  // everything orient writes too
     EXPECT_TRUE(fs::exists(*dir_ + "/out/" + f)) << f;
   EXPECT_FALSE(fs::exists(*dir_ + "/out/.resume"));  // cleared after a complete run
+}
+
+TEST(MapModelLed, SubResolutionFractionAndEachGrainsMatrixOnItsOwnModel) {
+  // `--estimator model` on the fixture's scenario (rendered with the model's own band intensities,
+  // so this is self-consistency, not accuracy): the area fraction with its tertiary share and the
+  // sub-resolution fraction within ±0.02 of the truth (step 6), each grain's matrix at the
+  // scenario's 5 % whatever its orientation, and the model-led systematic uncertainty from the
+  // mismatch suite far wider than the statistical interval (measured 0.802 against a half-width of
+  // 0.068).
+  const std::string dir = test::make_temp_dir("map-model");
+  const std::string scan = make_scan(dir, 40, 31);
+  const auto r = test::run_orderband("map " + scan + " -o " + dir + "/out --quiet --estimator model --no-mean-spheres");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto s = nlohmann::json::parse(slurp(dir + "/out/summary.json"));
+  const auto t = nlohmann::json::parse(slurp(dir + "/scan/truth.json"));
+  EXPECT_EQ(s["fraction_estimator"]["used"], "profile");
+  EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), t["ordered_area_fraction"].get<double>(), 0.02);
+  EXPECT_TRUE(s["subresolution_measured"].get<bool>());
+  EXPECT_NEAR(s["subresolution_ordered_fraction"].get<double>(), 0.05, 0.02);
+  int checked = 0;
+  for (const auto& g : s["grain_fractions"]) {
+    if (g["matrix_points"].get<int>() < 100) continue;
+    EXPECT_NEAR(g["matrix_mean_fraction"].get<double>(), 0.05, 0.02) << "grain " << g["id"];
+    ++checked;
+  }
+  EXPECT_GE(checked, 1);
+  const double systematic = s["systematic_uncertainty"]["model_mismatch_rms"].get<double>();
+  EXPECT_GT(systematic, 5 * (s["ci95"]["high"].get<double>() - s["ci95"]["low"].get<double>()) / 2);
+  fs::remove_all(dir);
 }
 
 TEST_F(MapRun, ResumesAfterAKillWithIdenticalOutputs) {

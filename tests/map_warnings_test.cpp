@@ -12,7 +12,16 @@ MapResults results_with(size_t points, size_t oriented, size_t measured) {
   for (size_t k = 0; k < oriented; ++k) r.orientations.orientation[k] = Rotation();
   r.fraction.reason.assign(points, static_cast<uint8_t>(FractionReason::no_orientation));
   for (size_t k = 0; k < measured; ++k) r.fraction.reason[k] = static_cast<uint8_t>(FractionReason::ok);
-  r.fraction.estimator = "model";
+  r.fraction.estimator = "profile";
+  return r;
+}
+
+/// As the learned estimator leaves its results without reference regions: each grain's matrix is
+/// the zero.
+MapResults learned_results_with(size_t points, size_t oriented, size_t measured) {
+  MapResults r = results_with(points, oriented, measured);
+  r.fraction.estimator = "learned";
+  r.fraction.zero_is_matrix = true;
   return r;
 }
 
@@ -25,25 +34,37 @@ TEST(MapWarnings, SayWhenTheResultsRestOnFewPoints) {
   EXPECT_NE(w[1].find("rests on 17 of 256 points (7 %)"), std::string::npos) << w[1];
   // 85 % oriented and measured: no warning; the learned estimator always says what it does not measure.
   EXPECT_TRUE(map_warnings(results_with(256, 218, 218)).empty());
-  MapResults learned = results_with(256, 256, 256);
-  learned.fraction.estimator = "learned";
+  MapResults learned = learned_results_with(256, 256, 256);
   ASSERT_EQ(map_warnings(learned).size(), 1u);
   EXPECT_NE(map_warnings(learned)[0].find("tertiary"), std::string::npos);
+  // With reference regions the zero is the region's: no such warning.
+  learned.fraction.zero_is_matrix = false;
+  EXPECT_TRUE(map_warnings(learned).empty());
+}
+
+TEST(MapWarnings, SayWhenTheAutomaticChoiceFellToTheModelLedEstimator) {
+  // "auto" on 576 points runs the model-led estimator and says so, with the count and the
+  // threshold; asked for by name, the model-led estimator runs without that warning.
+  MapResults r = results_with(576, 576, 576);
+  r.fraction.estimator_requested = "auto";
+  const std::vector<std::string> w = map_warnings(r);
+  ASSERT_EQ(w.size(), 1u);
+  EXPECT_NE(w[0].find("576 points, fewer than the 1000"), std::string::npos) << w[0];
+  r.fraction.estimator_requested = "profile";
+  EXPECT_TRUE(map_warnings(r).empty());
 }
 
 TEST(MapWarnings, DoubtAboutOnePhaseFromTheLearnedEstimator) {
   // One phase reported from 576 points (a 24 × 24 map, where a quarter of ordered area was missed
   // on 48 × 48 px patterns): a warning with the count; from 1,600 points with no structure: none;
   // with structure above the learner's threshold (z 5) that it could not place: a warning with z.
-  MapResults r = results_with(576, 576, 576);
-  r.fraction.estimator = "learned";
+  MapResults r = learned_results_with(576, 576, 576);
   r.fraction.two_phases = false;
   r.fraction.learned_spatial_z = 2.0;
   std::vector<std::string> w = map_warnings(r);
   ASSERT_EQ(w.size(), 2u);
   EXPECT_NE(w[1].find("one phase from 576 points"), std::string::npos) << w[1];
-  MapResults large = results_with(1600, 1600, 1600);
-  large.fraction.estimator = "learned";
+  MapResults large = learned_results_with(1600, 1600, 1600);
   large.fraction.two_phases = false;
   large.fraction.learned_spatial_z = 2.0;
   EXPECT_EQ(map_warnings(large).size(), 1u);

@@ -47,9 +47,10 @@ void add_map_options(CLI::App& sub, MapRunOptions& o) {
       ->check(CLI::IsMember({"model", "mixture"}))
       ->capture_default_str();
   sub.add_option("--estimator", o.estimator,
-                 "model (kinematic references of both phases) or learned (the response to ordering learned from "
-                 "the scan; experimental)")
-      ->check(CLI::IsMember({"model", "learned"}))
+                 "auto (learned on scans of at least 1,000 points, model below), learned (the response to ordering "
+                 "learned from the scan; sub-resolution ordering counts as matrix unless reference regions are set) "
+                 "or model (the kinematic model's references of both phases)")
+      ->check(CLI::IsMember({"auto", "model", "learned"}))
       ->capture_default_str();
   sub.add_flag("--no-mean-spheres", o.no_mean_spheres, "skip the mean-sphere pass and images");
 }

@@ -30,7 +30,9 @@ MapOptions to_map_options(const MapRunOptions& o) {
   m.orient.grains.threshold_deg = o.grain_threshold;
   m.orient.from_neighbours = !o.index_every_point;
   m.fraction.end_members = o.end_members == "mixture" ? EndMemberMode::mixture : EndMemberMode::model;
-  m.fraction.estimator = o.estimator == "learned" ? FractionEstimator::learned : FractionEstimator::profile;
+  m.fraction.estimator = o.estimator == "learned" ? FractionEstimator::learned
+                         : o.estimator == "model" ? FractionEstimator::profile
+                                                  : FractionEstimator::automatic;
   m.mean_spheres = !o.no_mean_spheres;
   return m;
 }

@@ -21,7 +21,7 @@ struct MapRunOptions {
   double grain_threshold = 5.0;
   bool index_every_point = false;  ///< no orientations from the row above (OrientSpec::from_neighbours)
   std::string end_members = "model";
-  std::string estimator = "model";  ///< "model" (kinematic references) or "learned" (data-led)
+  std::string estimator = "auto";  ///< "auto" (learned from 1,000 points), "model" or "learned"
   bool no_mean_spheres = false;
 };
 

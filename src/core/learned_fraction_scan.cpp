@@ -370,7 +370,6 @@ void take_learned(const LearnedFraction& lf, FractionResults& res) {
     res.raw[k] = lf.f[k];
     res.uncertainty[k] = lf.uncertainty[k];
   }
-  res.estimator = "learned";
   res.two_phases = lf.two_phases;
   res.single_phase_ordered = lf.single_phase_ordered;
   res.learned_separation = lf.separation;

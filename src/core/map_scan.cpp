@@ -90,7 +90,13 @@ std::vector<std::string> map_warnings(const MapResults& r) {
     w.push_back(std::to_string(faults.size()) + " pattern" + (faults.size() == 1 ? "" : "s") +
                 " could not be used as stored and count as unusable points (first: " + faults.begin()->second +
                 "); they are listed in summary.json");
-  if (r.fraction.estimator == "learned")
+  if (r.fraction.estimator_requested == "auto" && r.fraction.estimator != "learned")
+    w.push_back("the scan has " + std::to_string(n) + " points, fewer than the " +
+                std::to_string(kLearnedEstimatorMinPoints) +
+                " from which the response to ordering is learned from the data: the model-led estimator ran, whose "
+                "absolute fraction holds only where the kinematic model's band intensities are right (systematic "
+                "uncertainty in summary.json); map a larger field or set reference regions in [fraction]");
+  if (r.fraction.zero_is_matrix)
     w.push_back(
         "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "
         "counted as matrix, not measured (reference regions in [fraction] set the zero from an area known to be "
@@ -103,9 +109,9 @@ std::vector<std::string> map_warnings(const MapResults& r) {
                   z +
                   ") that it could not place: the single-phase result is doubtful; compare with --estimator "
                   "model or set reference regions in [fraction]");
-    else if (measured < kLearnedOnePhaseMinPoints)
+    else if (measured < kLearnedEstimatorMinPoints)
       w.push_back("the learned estimator reports one phase from " + std::to_string(measured) + " points: below about " +
-                  std::to_string(kLearnedOnePhaseMinPoints) +
+                  std::to_string(kLearnedEstimatorMinPoints) +
                   " it can miss a second phase of a quarter of the area (measured on 48 × 48 px patterns); compare "
                   "with --estimator model or map a larger field");
   }

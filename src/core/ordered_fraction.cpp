@@ -26,12 +26,22 @@ double FractionResults::mean_raw() const {
   return n ? s / n : std::nan("");
 }
 
-FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& ori, const FractionSpec& spec,
-                                      const ProgressFn& progress, RowStore* store) {
+FractionEstimator estimator_in_use(FractionEstimator requested, size_t points) {
+  if (requested != FractionEstimator::automatic) return requested;
+  return points >= kLearnedEstimatorMinPoints ? FractionEstimator::learned : FractionEstimator::profile;
+}
+
+FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& ori,
+                                      const FractionSpec& requested, const ProgressFn& progress, RowStore* store) {
   if (ori.orientation.size() != inputs.grid().count())
     fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", inputs.grid().count());
+  FractionSpec spec = requested;
+  spec.estimator = estimator_in_use(requested.estimator, inputs.grid().count());
   FractionScan scan(inputs, ori, spec);
   FractionResults r;
+  r.estimator = std::string(name_of(spec.estimator));
+  r.estimator_requested = std::string(name_of(requested.estimator));
+  r.zero_is_matrix = spec.estimator == FractionEstimator::learned && spec.end_members != EndMemberMode::regions;
   refine_grain_frames(scan, r);
   std::vector<FractionReference> refs(scan.grains + 1);
 #pragma omp parallel for schedule(dynamic)

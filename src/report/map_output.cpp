@@ -30,9 +30,10 @@ namespace fs = std::filesystem;
 namespace orderband {
 namespace {
 
-/// The learned estimator places every grain's matrix at zero: ordering finer than the beam in the
-/// matrix is counted as matrix, so its sub-resolution fraction is ≈ 0 by construction, not measured.
-bool subresolution_measured(const MapResults& r) { return r.fraction.estimator != "learned"; }
+/// The learned estimator places every grain's matrix at zero unless reference regions set it: ordering
+/// finer than the beam in the matrix is then counted as matrix, its sub-resolution fraction ≈ 0 by
+/// construction, not measured.
+bool subresolution_measured(const MapResults& r) { return !r.fraction.zero_is_matrix; }
 
 /// The fraction maps' size: about 480 image pixels along the longer side.
 constexpr double kMapSidePx = 480;
@@ -55,23 +56,23 @@ std::string base64(const std::string& bytes) {
   return out;
 }
 
-/// The model-mismatch systematic of the area fraction for the estimator in use (none where
+/// The model-mismatch systematic of the area fraction for the estimator that ran (none where
 /// reference regions or a mixture fit set the end members, or for the window estimator).
-MismatchSystematic systematic_of(const MapOptions& o) {
-  if (o.fraction.estimator == FractionEstimator::learned) return mismatch_systematic("learned");
-  if (o.fraction.estimator == FractionEstimator::profile && o.fraction.end_members == EndMemberMode::model)
+MismatchSystematic systematic_of(const MapResults& r, const MapOptions& o) {
+  if (r.fraction.estimator == "learned") return mismatch_systematic("learned");
+  if (r.fraction.estimator == "profile" && o.fraction.end_members == EndMemberMode::model)
     return mismatch_systematic("profile");
   return mismatch_systematic("");
 }
 
-std::string systematic_row(const MapOptions& o) {
-  const MismatchSystematic sys = systematic_of(o);
+std::string systematic_row(const MapResults& r, const MapOptions& o) {
+  const MismatchSystematic sys = systematic_of(r, o);
   if (!std::isfinite(sys.rms)) return "";
   return "<tr><td>systematic uncertainty (model mismatch)</td><td>± " + format_number("%.3f", sys.rms) +
          " (RMS area error over " + std::to_string(sys.variants) + " renderer variants the estimator is not told; " +
          "largest " + format_number("%.3f", sys.largest) + "; within ±0.03 on " + std::to_string(sys.within_003) +
          "). Common to every scan analysed alike; real, dynamical patterns may differ more." +
-         (o.fraction.estimator == FractionEstimator::learned
+         (r.fraction.estimator == "learned"
               ? std::string()
               : " The learned estimator (--estimator learned) holds ± " +
                     format_number("%.3f", mismatch_systematic("learned").rms) + " over the same variants.") +
@@ -561,9 +562,10 @@ void add_fraction_summary(nlohmann::json& j, const ScanConfig& config, const Map
   j["points_without_band_contrast"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 3);
   j["points_in_grains_too_small_to_place"] = std::count(r.fraction.reason.begin(), r.fraction.reason.end(), 4);
   j["ordered_area_fraction"] = r.ordered_area_fraction();
+  j["fraction_estimator"] = {{"used", r.fraction.estimator}, {"requested", r.fraction.estimator_requested}};
   j["ci95"] = {{"low", r.e562.low}, {"high", r.e562.high}, {"method", r.e562.method}};
   j["ci95_bootstrap"] = {{"low", r.bootstrap.low}, {"high", r.bootstrap.high}, {"method", r.bootstrap.method}};
-  if (const MismatchSystematic sys = systematic_of(options); std::isfinite(sys.rms))
+  if (const MismatchSystematic sys = systematic_of(r, options); std::isfinite(sys.rms))
     j["systematic_uncertainty"] = {{"model_mismatch_rms", sys.rms},
                                    {"largest_error", sys.largest},
                                    {"variants", sys.variants},
@@ -841,6 +843,19 @@ void write_report_head(std::ostream& h, const ScanConfig& config, const MapResul
       << "</p>\n";
 }
 
+/// Which estimator ran, and why where the choice was left to the scan's size.
+std::string estimator_row(const MapResults& r) {
+  const FractionResults& f = r.fraction;
+  std::string text = f.estimator == "learned"   ? "learned (the response to ordering learned from this scan)"
+                     : f.estimator == "profile" ? "model-led (the kinematic model's references of both phases)"
+                                                : f.estimator;
+  if (f.estimator_requested == "auto")
+    text += f.estimator == "learned"
+                ? "; chosen for a scan of at least " + std::to_string(kLearnedEstimatorMinPoints) + " points"
+                : "; chosen because the scan has fewer than " + std::to_string(kLearnedEstimatorMinPoints) + " points";
+  return "<tr><td>fraction estimator</td><td>" + xml_escape(text) + "</td></tr>";
+}
+
 /// The learned estimator's verdict as a row of the report's table (empty for the other estimators):
 /// how many phases, on what evidence, and where the end members came from.
 std::string learned_verdict_row(const MapResults& r) {
@@ -865,13 +880,13 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
     << "<tr><td>95 % CI (" << xml_escape(r.e562.method) << ")</td><td>" << format_number("%.4f", r.e562.low) << " – "
     << format_number("%.4f", r.e562.high) << "</td></tr>"
     << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << format_number("%.4f", r.bootstrap.low)
-    << " – " << format_number("%.4f", r.bootstrap.high) << "</td></tr>" << systematic_row(options)
+    << " – " << format_number("%.4f", r.bootstrap.high) << "</td></tr>" << systematic_row(r, options)
     << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
     << format_number("%.4f", r.fraction.subresolution_fraction) << " ± "
     << format_number("%.4f", r.fraction.subresolution_se)
     << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
-    << "</td></tr>" << learned_verdict_row(r) << "<tr><td>points measured / total</td><td>" << r.fraction.measured()
-    << " / " << n << "</td></tr>"
+    << "</td></tr>" << estimator_row(r) << learned_verdict_row(r) << "<tr><td>points measured / total</td><td>"
+    << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   write_class_tables(h, r, config, options.classes);
   write_truth_table(h, truth, r);

@@ -16,7 +16,13 @@ namespace orderband {
 
 struct MapOptions {
   OrientSpec orient;
-  FractionSpec fraction;
+  /// The estimator as the command line chooses it by default: learned from
+  /// kLearnedEstimatorMinPoints points up, model-led below.
+  FractionSpec fraction = [] {
+    FractionSpec f;
+    f.estimator = FractionEstimator::automatic;
+    return f;
+  }();
   /// min_points 0 (the default here): from the detection limit, as the command line does it.
   SegmentSpec segment = [] {
     SegmentSpec s;
@@ -69,13 +75,8 @@ std::string no_usable_point_sentence(const MapResults& r);
 /// fraction or without an orientation (the area fraction then comes from the few that are left),
 /// the learned estimator's sub-resolution fraction (not measured), and a single phase reported by
 /// the learned estimator where the map shows structure it could not place or from fewer than
-/// kLearnedOnePhaseMinPoints points. Empty when none applies.
+/// kLearnedEstimatorMinPoints points (ordered_fraction.hpp). Empty when none applies.
 std::vector<std::string> map_warnings(const MapResults& r);
-
-/// Points below which the learned estimator's "one phase" is doubtful: on 48 × 48 px patterns
-/// (5,000 counts, secondary γ′ of 20–30 %) it found the second phase at 32 × 32 points and missed
-/// it at 12 × 12, 16 × 16 and 24 × 24 (measured 2026-12-03).
-inline constexpr size_t kLearnedOnePhaseMinPoints = 1000;
 
 /// Progress of a stage: (stage name, done, total).
 using StageProgress = std::function<void(const std::string& stage, size_t done, size_t total)>;
