@@ -74,5 +74,19 @@ TEST(MapWarnings, DoubtAboutOnePhaseFromTheLearnedEstimator) {
   EXPECT_NE(w[1].find("spatial structure (z = 5.9)"), std::string::npos) << w[1];
 }
 
+TEST(FractionEstimatorChoice, AutoLearnsFromAThousandPointsAndNamedChoicesStand) {
+  // "auto" takes the learned estimator from kLearnedEstimatorMinPoints grid points (a 32 × 32 map,
+  // 1,024, where the learned one found its second phase on 48 × 48 px patterns) and the model-led
+  // one below (a 31 × 31 map, 961); an estimator asked for by name runs whatever the size.
+  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 32 * 32), FractionEstimator::learned);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 1000), FractionEstimator::learned);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 999), FractionEstimator::profile);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 31 * 31), FractionEstimator::profile);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::learned, 144), FractionEstimator::learned);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::profile, 1'000'000), FractionEstimator::profile);
+  EXPECT_EQ(estimator_in_use(FractionEstimator::windows, 1'000'000), FractionEstimator::windows);
+  EXPECT_EQ(name_of(FractionEstimator::automatic), "auto");
+}
+
 }  // namespace
 }  // namespace orderband

@@ -4,6 +4,7 @@
 #include <cmath>
 
 #include "orderband/screen_comparison.hpp"
+#include "orderband/trial_summary_file.hpp"
 
 namespace orderband {
 namespace {
@@ -32,6 +33,22 @@ TrialsConfig trials_at(const std::vector<std::pair<double, double>>& temperature
   }
   tc.exponent = 3.0;
   return tc;
+}
+
+TEST(ScreenComparison, ASubResolutionFractionTheMapDidNotMeasureIsNotCompared) {
+  // A map whose learned estimator took the matrix as its zero reads about 0 for the sub-resolution
+  // fraction by construction: the comparison takes it as missing (NaN; empty in comparison.csv),
+  // not as a measured absence of tertiary γ′. A measured one, or one from a summary written before
+  // the flag existed, is taken as it stands.
+  const std::string base =
+      R"({"ordered_area_fraction": 0.38, "ci95": {"low": 0.30, "high": 0.46},
+          "subresolution_ordered_fraction": -0.002, "classes": {"secondary": {"area_fraction": 0.27, "count": 188,
+          "mean_ecd_um": 0.098}})";
+  EXPECT_TRUE(std::isnan(
+      parse_trial_summary(base + R"(, "subresolution_measured": false})", "a").subresolution_ordered_fraction));
+  EXPECT_EQ(parse_trial_summary(base + R"(, "subresolution_measured": true})", "b").subresolution_ordered_fraction,
+            -0.002);
+  EXPECT_EQ(parse_trial_summary(base + "}", "c").subresolution_ordered_fraction, -0.002);
 }
 
 TEST(ScreenComparison, RecoversTheRateConstantsAndTheActivationEnergyOfExactCubicCoarsening) {

@@ -1,6 +1,7 @@
 // A trial's summary read from a map's summary.json.
 #include "orderband/trial_summary_file.hpp"
 
+#include <limits>
 #include <nlohmann/json.hpp>
 
 #include "orderband/error.hpp"
@@ -54,7 +55,10 @@ TrialSummary parse_trial_summary(const std::string& text, const std::string& wha
     const nlohmann::json s = nlohmann::json::parse(text);
     TrialSummary t;
     t.ordered_fraction = {s.at("ordered_area_fraction"), s.at("ci95").at("low"), s.at("ci95").at("high")};
-    t.subresolution_ordered_fraction = s.value("subresolution_ordered_fraction", 0.0);
+    // Not measured (the learned estimator's zero is the matrix): NaN, not the ≈ 0 it reads.
+    t.subresolution_ordered_fraction = s.value("subresolution_measured", true)
+                                           ? s.value("subresolution_ordered_fraction", 0.0)
+                                           : std::numeric_limits<double>::quiet_NaN();
     t.primary = class_summary(s.at("classes"), "primary");
     t.secondary = class_summary(s.at("classes"), "secondary");
     t.secondary_3d = secondary_fit(s);

@@ -83,9 +83,12 @@ nlohmann::json arrhenius_json(const ScreenComparison& c) {
 void write_csv_row(std::ostream& csv, const Trial& t, const TrialSummary& s, size_t rank, const Ranked* r) {
   csv << t.label << ',' << t.temperature_c << ',' << t.time_h << ',' << format_number("%.5f", s.ordered_fraction.value)
       << ',' << format_number("%.5f", s.ordered_fraction.low) << ',' << format_number("%.5f", s.ordered_fraction.high)
-      << ',' << format_number("%.5f", s.subresolution_ordered_fraction) << ','
-      << format_number("%.5f", s.primary.area_fraction) << ',' << format_number("%.5f", s.secondary.area_fraction)
-      << ',' << s.secondary.count << ',' << format_number("%.5f", s.secondary.mean_ecd_um) << ','
+      << ','
+      << (std::isfinite(s.subresolution_ordered_fraction) ? format_number("%.5f", s.subresolution_ordered_fraction)
+                                                          : std::string())
+      << ',' << format_number("%.5f", s.primary.area_fraction) << ','
+      << format_number("%.5f", s.secondary.area_fraction) << ',' << s.secondary.count << ','
+      << format_number("%.5f", s.secondary.mean_ecd_um) << ','
       << format_number("%.5f", s.secondary.number_density_per_um2) << ',' << rank << ','
       << format_number("%.4f", r ? r->distance : 0.0) << ',' << (r ? to_string(r->verdict) : "") << '\n';
 }
@@ -95,25 +98,28 @@ nlohmann::json trial_json(const ScreenView& v, size_t i, const nlohmann::json& s
   const Trial& t = v.tc.trials[i];
   const TrialNumbers& n = v.c.numbers[i];
   const auto [rank, r] = place_in(v.c.ranking, i);
-  nlohmann::json j = {{"label", t.label},
-                      {"temperature_c", t.temperature_c},
-                      {"time_h", t.time_h},
-                      {"notes", t.notes},
-                      {"ordered_area_fraction", s["ordered_area_fraction"]},
-                      {"ci95", s["ci95"]},
-                      {"ci95_bootstrap", s["ci95_bootstrap"]},
-                      {"subresolution_ordered_fraction", s["subresolution_ordered_fraction"]},
-                      {"classes", s["classes"]},
-                      {"rank", rank},
-                      {"distance_to_target", r ? r->distance : 0.0},
-                      {"verdict", r ? to_string(r->verdict) : ""},
-                      {"flags", r ? nlohmann::json(r->flags) : nlohmann::json::array()},
-                      {"secondary_mean_section_ecd_um",
-                       {{"value", n.secondary_mean_ecd_um.value},
-                        {"ci95", {n.secondary_mean_ecd_um.low, n.secondary_mean_ecd_um.high}},
-                        {"from_3d_fit", n.secondary_size_from_fit}}},
-                      {"secondary_3d", s["secondary_3d"]},
-                      {"report", t.label + "/report.html"}};
+  nlohmann::json j = {
+      {"label", t.label},
+      {"temperature_c", t.temperature_c},
+      {"time_h", t.time_h},
+      {"notes", t.notes},
+      {"ordered_area_fraction", s["ordered_area_fraction"]},
+      {"ci95", s["ci95"]},
+      {"ci95_bootstrap", s["ci95_bootstrap"]},
+      {"subresolution_ordered_fraction",
+       s.value("subresolution_measured", true) ? s["subresolution_ordered_fraction"] : nlohmann::json(nullptr)},
+      {"subresolution_measured", s.value("subresolution_measured", true)},
+      {"classes", s["classes"]},
+      {"rank", rank},
+      {"distance_to_target", r ? r->distance : 0.0},
+      {"verdict", r ? to_string(r->verdict) : ""},
+      {"flags", r ? nlohmann::json(r->flags) : nlohmann::json::array()},
+      {"secondary_mean_section_ecd_um",
+       {{"value", n.secondary_mean_ecd_um.value},
+        {"ci95", {n.secondary_mean_ecd_um.low, n.secondary_mean_ecd_um.high}},
+        {"from_3d_fit", n.secondary_size_from_fit}}},
+      {"secondary_3d", s["secondary_3d"]},
+      {"report", t.label + "/report.html"}};
   if (v.c.truth[i]) {
     nlohmann::json tj = {{"ordered_area_fraction", v.c.truth[i]->ordered_fraction.value},
                          {"secondary_mean_section_ecd_um", v.c.truth[i]->secondary_mean_ecd_um.value},
