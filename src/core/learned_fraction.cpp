@@ -160,11 +160,20 @@ Eigen::VectorXd spatial_direction(const LearnedInputs& in, const GrainFeatures& 
   Eigen::VectorXd scale = Eigen::VectorXd::Zero(p);
   for (size_t b = 0; b < p; ++b)
     if (covered[b] >= 0.1 * pairs.size() && noise[b] > 0) scale[b] = 1 / std::sqrt(noise[b] / covered[b]);
-  Eigen::MatrixXd za(pairs.size(), p), zb(pairs.size(), p);
-  for (size_t i = 0; i < pairs.size(); ++i)
-    for (size_t b = 0; b < p; ++b)
-      za(i, b) = scale[b] * centred(pairs[i].first, b), zb(i, b) = scale[b] * centred(pairs[i].second, b);
-  Eigen::MatrixXd lag = za.transpose() * zb;
+  // The lag cross-covariance summed over blocks of pairs: the whole pairs × features matrices would
+  // take 2 × 8 bytes per pair and feature (100 MB for a 192 × 192 map of 170 features).
+  constexpr size_t kBlock = 1024;
+  Eigen::MatrixXd za(kBlock, p), zb(kBlock, p);
+  Eigen::MatrixXd lag = Eigen::MatrixXd::Zero(p, p);
+  for (size_t start = 0; start < pairs.size(); start += kBlock) {
+    const size_t m = std::min(kBlock, pairs.size() - start);
+    for (size_t i = 0; i < m; ++i)
+      for (size_t b = 0; b < p; ++b) {
+        const auto& [first, second] = pairs[start + i];
+        za(i, b) = scale[b] * centred(first, b), zb(i, b) = scale[b] * centred(second, b);
+      }
+    lag.noalias() += za.topRows(m).transpose() * zb.topRows(m);
+  }
   lag = 0.5 * (lag + lag.transpose()) / static_cast<double>(pairs.size());
   const Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(lag);
   if (eig.info() != Eigen::Success) return {};
