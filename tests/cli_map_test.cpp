@@ -393,6 +393,39 @@ TEST(CliScreen, ReusesUnchangedTrialsAndRecomputesAChangedOne) {
   fs::remove_all(dir);
 }
 
+TEST(CliScreen, TrialsWhoseSubResolutionFractionWasNotMeasuredSaySo) {
+  // Two 16 × 16 trials with tertiary γ′ 5 %: the default (model-led below 1,000 points) measures
+  // their sub-resolution fraction and the report has no caution about it; with the learned
+  // estimator its zero is the matrix, so comparison.csv leaves the field empty, comparison.json
+  // gives null with `subresolution_measured` false, and the report names both trials.
+  const std::string dir = test::make_temp_dir("screen-subres");
+  fs::create_directories(dir + "/a"), fs::create_directories(dir + "/b");
+  write_two_trials(dir + "/trials.toml", make_scan(dir + "/a", 16, 45), make_scan(dir + "/b", 16, 46));
+  const std::string cmd = "screen " + dir + "/trials.toml --quiet --no-mean-spheres -o " + dir;
+  ASSERT_EQ(test::run_orderband(cmd + "/model").exit_code, 0);
+  const auto measured = nlohmann::json::parse(slurp(dir + "/model/comparison.json"));
+  EXPECT_TRUE(measured["trials"][0]["subresolution_measured"].get<bool>());
+  EXPECT_NEAR(measured["trials"][0]["subresolution_ordered_fraction"].get<double>(), 0.05, 0.05);
+  EXPECT_EQ(slurp(dir + "/model/report.html").find("not in them"), std::string::npos);
+  const auto r = test::run_orderband(cmd + "/learned --estimator learned");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto j = nlohmann::json::parse(slurp(dir + "/learned/comparison.json"));
+  for (const auto& trial : j["trials"]) {
+    EXPECT_FALSE(trial["subresolution_measured"].get<bool>());
+    EXPECT_TRUE(trial["subresolution_ordered_fraction"].is_null());
+  }
+  const std::string csv = slurp(dir + "/learned/comparison.csv");
+  const size_t row = csv.find("\nA,760,4,");
+  ASSERT_NE(row, std::string::npos) << csv;
+  // label, temperature, time, fraction, low, high, then the empty sub-resolution field.
+  size_t field = row + 1;
+  for (int comma = 0; comma < 6; ++comma) field = csv.find(',', field) + 1;
+  EXPECT_EQ(csv[field], ',') << csv.substr(row, 120);
+  EXPECT_NE(slurp(dir + "/learned/report.html").find("Ordered fractions of A, B: ordering finer than the beam"),
+            std::string::npos);
+  fs::remove_all(dir);
+}
+
 TEST(CliScreen, TheLibraryScreensAsTheCommandLineDoes) {
   // screen_to_folder with default options against `orderband screen` with default options: the
   // same run keys, the same comparison table (but for the command line in its first line), and
