@@ -3,6 +3,7 @@
 
 #include <cmath>
 
+#include "orderband/kinetics.hpp"
 #include "orderband/screen_comparison.hpp"
 #include "orderband/trial_summary_file.hpp"
 
@@ -18,7 +19,7 @@ TrialSummary trial_with_radius(double r, double fraction = 0.3) {
   s.secondary_3d.determined = true;
   s.secondary_3d.model = "lognormal";
   s.secondary_3d.mean_section_diameter_um = {1.6 * r, 1.5 * r, 1.7 * r};
-  s.secondary_3d.mean_diameter_um = 2 * r;
+  s.secondary_3d.mean_diameter_um = {2 * r, std::nan(""), std::nan("")};
   return s;
 }
 
@@ -71,6 +72,34 @@ TEST(ScreenComparison, RecoversTheRateConstantsAndTheActivationEnergyOfExactCubi
   ASSERT_TRUE(c.arrhenius);
   EXPECT_NEAR(c.arrhenius->activation_kj_mol, 250.0, 1e-6);
   EXPECT_NEAR(c.kinetic_radius[2], std::cbrt(r0 * r0 * r0 + k_at(760) * 64), 1e-12);
+}
+
+TEST(ScreenComparison, TheThreeDMeansOwnIntervalsEnterTheRateConstantsInterval) {
+  // Three trials exactly on r³ = r0³ + k t whose 3-D mean diameters carry 95 % intervals of
+  // ×/÷ exp(1.96 · 0.07) (a 7 % standard error, as stereology.cpp writes them): no scatter, so the
+  // interval of k is the errors' own, the same as fit_coarsening gives with σ_r = 0.07 r; without
+  // the intervals, k's interval from three points on a line has zero width.
+  const double r0 = 0.04, k = 2e-5;
+  const TrialsConfig tc = trials_at({{760, 4}, {760, 16}, {760, 64}});
+  std::vector<TrialSummary> with, without;
+  std::vector<double> t, r, se;
+  for (const Trial& trial : tc.trials) {
+    const double radius = std::cbrt(r0 * r0 * r0 + k * trial.time_h);
+    without.push_back(trial_with_radius(radius));
+    with.push_back(trial_with_radius(radius));
+    const double spread = std::exp(1.959963984540054 * 0.07);
+    with.back().secondary_3d.mean_diameter_um = {2 * radius, 2 * radius / spread, 2 * radius * spread};
+    t.push_back(trial.time_h), r.push_back(radius), se.push_back(0.07 * radius);
+  }
+  const CoarseningFit expected = fit_coarsening(t, r, 3, se);
+  const ScreenComparison a = compare_trials(tc, with), b = compare_trials(tc, without);
+  ASSERT_TRUE(a.kinetics[0].fit && b.kinetics[0].fit);
+  EXPECT_TRUE(a.kinetics[0].fit->k_interval_from_radius_errors);
+  EXPECT_NEAR(a.kinetics[0].fit->k_low, expected.k_low, 1e-12);
+  EXPECT_NEAR(a.kinetics[0].fit->k_high, expected.k_high, 1e-12);
+  EXPECT_GT(a.kinetics[0].fit->k_high - a.kinetics[0].fit->k_low, 0.2 * k);
+  EXPECT_FALSE(b.kinetics[0].fit->k_interval_from_radius_errors);
+  EXPECT_LT(b.kinetics[0].fit->k_high - b.kinetics[0].fit->k_low, 1e-9 * k);
 }
 
 TEST(ScreenComparison, FallsBackToResolvedSectionsWhenOneTrialOfATemperatureHasNoThreeDFit) {

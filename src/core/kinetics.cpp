@@ -1,6 +1,7 @@
 // Coarsening and Arrhenius fits.
 #include "orderband/kinetics.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
@@ -12,6 +13,7 @@ namespace {
 
 struct Line {
   double slope = 0, intercept = 0, slope_se = 0, sse = 0;
+  double sxx = 0;  ///< Σ w (x − x̄)²: with weights 1/σ², the slope's variance from the σ alone is 1/sxx
 };
 
 /// Weighted least-squares line; the residual variance is estimated from the data (m − 2 dof).
@@ -24,6 +26,7 @@ Line fit_line(const std::vector<double>& x, const std::vector<double>& y, std::v
   double sxx = 0, sxy = 0;
   for (size_t i = 0; i < m; ++i) sxx += w[i] * (x[i] - mx) * (x[i] - mx), sxy += w[i] * (x[i] - mx) * (y[i] - my);
   Line l;
+  l.sxx = sxx;
   if (sxx <= 0) fail("kinetics: all points share one abscissa; need at least two different times or temperatures");
   l.slope = sxy / sxx;
   l.intercept = my - l.slope * mx;
@@ -34,16 +37,23 @@ Line fit_line(const std::vector<double>& x, const std::vector<double>& y, std::v
 
 }  // namespace
 
-CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<double>& r, double n) {
+CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<double>& r, double n,
+                             const std::vector<double>& radius_se) {
   if (t.size() != r.size() || t.size() < 2) fail("kinetics: need at least two (time, radius) points");
   if (!(n > 0)) fail("kinetics: the coarsening exponent must be positive, got ", n);
-  // Mean radii scatter by a similar relative amount at every time, so rⁿ scatters ∝ rⁿ:
-  // weights 1/r^(2n) make the least squares (and the slope's interval) consistent with that.
+  const bool errors_known = !radius_se.empty();
+  if (errors_known && radius_se.size() != r.size())
+    fail("kinetics: ", radius_se.size(), " radius errors for ", r.size(), " radii");
+  // Weights 1/σ² of rⁿ: from the radii's own errors (σ_y = n rⁿ⁻¹ σ_r) where known, else with
+  // mean radii taken to scatter by a similar relative amount at every time (σ_y ∝ rⁿ).
   std::vector<double> y, w;
-  for (double v : r) {
+  for (size_t i = 0; i < r.size(); ++i) {
+    const double v = r[i];
     if (!(v > 0)) fail("kinetics: mean radius must be positive, got ", v, " µm");
     y.push_back(std::pow(v, n));
-    w.push_back(std::pow(v, -2 * n));
+    if (errors_known && !(radius_se[i] > 0 && std::isfinite(radius_se[i])))
+      fail("kinetics: a radius error must be positive and finite, got ", radius_se[i], " µm");
+    w.push_back(errors_known ? std::pow(n * std::pow(v, n - 1) * radius_se[i], -2) : std::pow(v, -2 * n));
   }
   const Line l = fit_line(t, y, w);
   CoarseningFit f;
@@ -53,9 +63,20 @@ CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<dou
   f.r0_pow_n = l.intercept;
   f.points = static_cast<int>(t.size());
   f.residual_sd = t.size() > 2 ? std::sqrt(l.sse / (t.size() - 2)) : std::nan("");
-  if (t.size() > 2) {
-    const double tq = student_t_quantile(0.975, static_cast<int>(t.size()) - 2);
-    f.k_low = l.slope - tq * l.slope_se, f.k_high = l.slope + tq * l.slope_se;
+  // The interval: with the radii's errors known, theirs carried through (normal quantile), widened
+  // by the Birge ratio √(χ²/(m − 2)) where the trials scatter more about the line than those errors
+  // say (a scale factor on the errors, common practice, no source); with three trials the scatter
+  // alone has one degree of freedom and may by chance be far smaller than the errors allow.
+  // Without them, the scatter about the line (Student's t, m − 2 degrees of freedom).
+  const size_t dof = t.size() - 2;
+  if (errors_known) {
+    const double birge = dof > 0 ? std::sqrt(std::max(1.0, l.sse / dof)) : 1.0;
+    const double half = 1.959963984540054 * birge / std::sqrt(l.sxx);
+    f.k_low = l.slope - half, f.k_high = l.slope + half;
+    f.k_interval_from_radius_errors = true;
+  } else if (dof > 0) {
+    const double half = student_t_quantile(0.975, static_cast<int>(dof)) * l.slope_se;
+    f.k_low = l.slope - half, f.k_high = l.slope + half;
   } else {
     f.k_low = f.k_high = std::nan("");
   }

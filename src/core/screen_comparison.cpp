@@ -38,6 +38,14 @@ std::optional<TrialNumbers> truth_numbers(const TrialSummary& s) {
   return n;
 }
 
+/// The standard error of a trial's 3-D mean radius (µm) from its 95 % interval, which is symmetric
+/// in the logarithm (stereology.hpp): r · ln(high / low) / (2 · 1.96); NaN without an interval.
+double radius_error(const TrialSummary& s) {
+  const Measured& d = s.secondary_3d.mean_diameter_um;
+  if (!(d.low > 0 && d.high > d.low)) return std::nan("");
+  return 0.5 * d.value * std::log(d.high / d.low) / (2 * 1.959963984540054);
+}
+
 /// The kinetics of the trials at one temperature; the radius used per trial goes to `kinetic_radius`.
 TemperatureKinetics fit_temperature(const TrialsConfig& tc, const std::vector<TrialSummary>& summaries,
                                     double temperature_c, const std::vector<size_t>& idx,
@@ -46,19 +54,21 @@ TemperatureKinetics fit_temperature(const TrialsConfig& tc, const std::vector<Tr
   k.temperature_c = temperature_c;
   k.trials = idx;
   k.three_d = std::all_of(idx.begin(), idx.end(), [&](size_t i) {
-    return summaries[i].secondary_3d.determined && summaries[i].secondary_3d.mean_diameter_um > 0;
+    return summaries[i].secondary_3d.determined && summaries[i].secondary_3d.mean_diameter_um.value > 0;
   });
-  std::vector<double> t, r;
+  std::vector<double> t, r, se;
   for (size_t i : idx) {
     const double radius =
-        0.5 * (k.three_d ? summaries[i].secondary_3d.mean_diameter_um : summaries[i].secondary.mean_ecd_um);
-    if (radius > 0) t.push_back(tc.trials[i].time_h), r.push_back(radius);
+        0.5 * (k.three_d ? summaries[i].secondary_3d.mean_diameter_um.value : summaries[i].secondary.mean_ecd_um);
+    if (radius > 0) t.push_back(tc.trials[i].time_h), r.push_back(radius), se.push_back(radius_error(summaries[i]));
     kinetic_radius[i] = radius;
   }
   k.fitted_trials = t.size();
+  // The radii's own errors enter where every 3-D mean has its interval.
+  if (!k.three_d || !std::all_of(se.begin(), se.end(), [](double v) { return v > 0 && std::isfinite(v); })) se.clear();
   try {
     if (t.size() < 2) fail("fewer than two trials with secondary particles");
-    k.fit = tc.exponent ? fit_coarsening(t, r, *tc.exponent) : fit_coarsening_free(t, r);
+    k.fit = tc.exponent ? fit_coarsening(t, r, *tc.exponent, se) : fit_coarsening_free(t, r);
   } catch (const Error& e) {
     k.note = e.what();
   }

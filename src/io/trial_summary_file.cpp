@@ -31,7 +31,11 @@ SecondarySizeFit secondary_fit(const nlohmann::json& s) {
   if (!f.determined) return f;
   f.mean_section_diameter_um = {fit.at("mean_section_diameter_um"), fit.at("mean_section_diameter_ci95_um").at(0),
                                 fit.at("mean_section_diameter_ci95_um").at(1)};
-  f.mean_diameter_um = fit.at("mean_diameter_um");
+  const auto& ci = fit.value("mean_diameter_ci95_um", nlohmann::json::array());
+  auto bound = [&](size_t i) {
+    return ci.size() == 2 && ci[i].is_number() ? ci[i].get<double>() : std::numeric_limits<double>::quiet_NaN();
+  };
+  f.mean_diameter_um = {fit.at("mean_diameter_um"), bound(0), bound(1)};
   return f;
 }
 

@@ -62,6 +62,9 @@ nlohmann::json kinetics_json(const ScreenComparison& c, const TrialsConfig& tc) 
       k["exponent_fitted"] = !tc.exponent.has_value();
       k["k_um_pow_n_per_h"] = f.k;
       k["k_ci95"] = {finite_or_null(f.k_low), finite_or_null(f.k_high)};
+      k["k_ci95_from"] = f.k_interval_from_radius_errors
+                             ? "the 3-D means' own intervals, widened by the Birge ratio where the trials scatter more"
+                             : "the trials' scatter about the line (Student's t)";
       k["r0_pow_n_um_pow_n"] = f.r0_pow_n;
     } else {
       k["note"] = t.note;
@@ -340,7 +343,8 @@ void write_kinetics_table(std::ostream& h, const ScreenView& v) {
                         : " (fitted " + format_number("%.3g", f.exponent_low) + "–" +
                               format_number("%.3g", f.exponent_high) + ")")
       << "</td><td>" << format_number("%.4g", f.k) << "</td><td>"
-      << (std::isfinite(f.k_low) ? format_number("%.4g", f.k_low) + " – " + format_number("%.4g", f.k_high)
+      << (std::isfinite(f.k_low) ? format_number("%.4g", f.k_low) + " – " + format_number("%.4g", f.k_high) +
+                                       (f.k_interval_from_radius_errors ? " (radii's intervals)" : " (scatter)")
                                  : std::string("needs 3 or more trials"))
       << "</td><td>" << (k.three_d ? "3-D mean radius" : "resolved sections' mean radius (not 3-D)") << "</td></tr>";
   }
@@ -349,7 +353,10 @@ void write_kinetics_table(std::ostream& h, const ScreenView& v) {
        "limit) where every trial of the temperature has it, else on the mean radius of the resolved sections, which "
        "is neither 3-D nor free of the truncation; n = 3 is the Lifshitz–Slyozov–Wagner law, but binary Ni–Al γ′ has "
        "been reported with n below 3, so set or fit n for your alloy. With two or more temperatures an Arrhenius fit "
-       "gives an apparent activation energy (k also carries the 1/T prefactor and the solubility terms).</p>\n";
+       "gives an apparent activation energy (k also carries the 1/T prefactor and the solubility terms). k's "
+       "interval carries the 3-D means' own intervals through the fit, widened by the Birge ratio √(χ²/(m − 2)) "
+       "where the trials scatter about the line more than those say; where a trial has none, it comes from the "
+       "scatter alone (Student's t), which with three trials has one degree of freedom.</p>\n";
   if (v.c.arrhenius)
     h << "<p>Arrhenius: Q = " << format_number("%.4g", v.c.arrhenius->activation_kj_mol) << " kJ/mol.</p>";
 }

@@ -26,7 +26,7 @@ struct SecondarySizeFit {
   bool determined = false;
   std::string model;                  ///< the preferred fit's name (empty: none)
   Measured mean_section_diameter_um;  ///< all sections, resolved or not, with its 95 % interval
-  double mean_diameter_um = 0;        ///< 3-D mean sphere diameter
+  Measured mean_diameter_um;          ///< 3-D mean sphere diameter, with its 95 % interval
 };
 
 /// The truth of a synthetic trial, counted as the measurement is.
