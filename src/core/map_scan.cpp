@@ -115,12 +115,14 @@ std::vector<std::string> map_warnings(const MapResults& r) {
                   " it can miss a second phase of a quarter of the area (measured on 48 × 48 px patterns); compare "
                   "with --estimator model or map a larger field");
     else
-      w.push_back(std::string("the learned estimator found one phase and names it ") +
-                  (r.fraction.single_phase_ordered ? "ordered" : "disordered") +
-                  " from the kinematic model's band intensities scaled to the data, with no second phase to compare "
-                  "with: on single-phase scans of the mismatch suite that name was right on 4 of 8 renderers (wrong "
-                  "with dark edge lines, flat or Gaussian bands, and a misfit of double amplitude); confirm it with a "
-                  "reference region in [fraction] or an independent measurement");
+      w.push_back(
+          std::string("the learned estimator found one phase and names it ") +
+          (r.fraction.single_phase_ordered ? "ordered" : "disordered") +
+          " from the kinematic model's band intensities scaled to the data, with no second phase to compare "
+          "with: on synthetic single-phase scans that name was right on 4 of 8 kinematic renderers (wrong with "
+          "dark edge lines, flat or Gaussian bands, and a misfit of double amplitude) and on many-beam patterns "
+          "from converged spheres, wrong for pure γ′ from a small beam set; confirm it with a reference region "
+          "in [fraction] or an independent measurement");
   }
   return w;
 }
