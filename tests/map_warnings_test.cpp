@@ -1,6 +1,7 @@
 // Warnings when a map's results rest on too few points.
 #include <gtest/gtest.h>
 
+#include "orderband/error.hpp"
 #include "orderband/map_scan.hpp"
 
 namespace orderband {
@@ -52,6 +53,11 @@ TEST(MapWarnings, SayWhenTheAutomaticChoiceFellToTheModelLedEstimator) {
   EXPECT_NE(w[0].find("576 points, fewer than the 1000"), std::string::npos) << w[0];
   r.fraction.estimator_requested = "profile";
   EXPECT_TRUE(map_warnings(r).empty());
+  // On 1,600 points only mixture end members make "auto" run the model-led estimator: said so.
+  MapResults mixture = results_with(1600, 1600, 1600);
+  mixture.fraction.estimator_requested = "auto";
+  ASSERT_EQ(map_warnings(mixture).size(), 1u);
+  EXPECT_NE(map_warnings(mixture)[0].find("mixture end members rescale the model-led estimates"), std::string::npos);
 }
 
 TEST(MapWarnings, DoubtAboutOnePhaseFromTheLearnedEstimator) {
@@ -80,14 +86,24 @@ TEST(MapWarnings, DoubtAboutOnePhaseFromTheLearnedEstimator) {
 TEST(FractionEstimatorChoice, AutoLearnsFromAThousandPointsAndNamedChoicesStand) {
   // "auto" takes the learned estimator from kLearnedEstimatorMinPoints grid points (a 32 × 32 map,
   // 1,024, where the learned one found its second phase on 48 × 48 px patterns) and the model-led
-  // one below (a 31 × 31 map, 961); an estimator asked for by name runs whatever the size.
-  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 32 * 32), FractionEstimator::learned);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 1000), FractionEstimator::learned);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 999), FractionEstimator::profile);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::automatic, 31 * 31), FractionEstimator::profile);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::learned, 144), FractionEstimator::learned);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::profile, 1'000'000), FractionEstimator::profile);
-  EXPECT_EQ(estimator_in_use(FractionEstimator::windows, 1'000'000), FractionEstimator::windows);
+  // one below (a 31 × 31 map, 961) or where mixture end members are asked for (they rescale the
+  // model-led estimates); an estimator asked for by name runs whatever the size, and the learned
+  // one with mixture end members is refused (it sets its own end members from the scan).
+  auto in_use = [](FractionEstimator e, size_t points, EndMemberMode ends = EndMemberMode::model) {
+    FractionSpec spec;
+    spec.estimator = e, spec.end_members = ends;
+    return estimator_in_use(spec, points);
+  };
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 32 * 32), FractionEstimator::learned);
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 1000), FractionEstimator::learned);
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 999), FractionEstimator::profile);
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 31 * 31), FractionEstimator::profile);
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 1600, EndMemberMode::mixture), FractionEstimator::profile);
+  EXPECT_EQ(in_use(FractionEstimator::automatic, 1600, EndMemberMode::regions), FractionEstimator::learned);
+  EXPECT_EQ(in_use(FractionEstimator::learned, 144), FractionEstimator::learned);
+  EXPECT_EQ(in_use(FractionEstimator::profile, 1'000'000), FractionEstimator::profile);
+  EXPECT_EQ(in_use(FractionEstimator::windows, 1'000'000), FractionEstimator::windows);
+  EXPECT_THROW(in_use(FractionEstimator::learned, 1600, EndMemberMode::mixture), Error);
   EXPECT_EQ(name_of(FractionEstimator::automatic), "auto");
 }
 

@@ -26,9 +26,14 @@ double FractionResults::mean_raw() const {
   return n ? s / n : std::nan("");
 }
 
-FractionEstimator estimator_in_use(FractionEstimator requested, size_t points) {
-  if (requested != FractionEstimator::automatic) return requested;
-  return points >= kLearnedEstimatorMinPoints ? FractionEstimator::learned : FractionEstimator::profile;
+FractionEstimator estimator_in_use(const FractionSpec& spec, size_t points) {
+  const bool mixture = spec.end_members == EndMemberMode::mixture;
+  if (spec.estimator == FractionEstimator::learned && mixture)
+    fail(
+        "fraction: mixture end members rescale the model-led estimates; the learned estimator sets its end members "
+        "from the scan itself: use one or the other");
+  if (spec.estimator != FractionEstimator::automatic) return spec.estimator;
+  return points >= kLearnedEstimatorMinPoints && !mixture ? FractionEstimator::learned : FractionEstimator::profile;
 }
 
 FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& ori,
@@ -36,7 +41,7 @@ FractionResults ordered_fraction_scan(const ScanInputs& inputs, const Orientatio
   if (ori.orientation.size() != inputs.grid().count())
     fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", inputs.grid().count());
   FractionSpec spec = requested;
-  spec.estimator = estimator_in_use(requested.estimator, inputs.grid().count());
+  spec.estimator = estimator_in_use(requested, inputs.grid().count());
   FractionScan scan(inputs, ori, spec);
   FractionResults r;
   r.estimator = std::string(name_of(spec.estimator));

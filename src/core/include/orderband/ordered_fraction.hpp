@@ -76,12 +76,6 @@ struct EnumNames<FractionEstimator> {
 /// and 24 × 24 (measured 2026-12-03).
 inline constexpr size_t kLearnedEstimatorMinPoints = 1000;
 
-/// The estimator that runs on a scan of `points` grid points: the one asked for, or, for
-/// FractionEstimator::automatic, the learned one from kLearnedEstimatorMinPoints points up (the
-/// model supplies geometry, the data intensities) and the model-led one below (too few points to
-/// learn a response from).
-FractionEstimator estimator_in_use(FractionEstimator requested, size_t points);
-
 struct FractionSpec {
   FractionEstimator estimator = FractionEstimator::profile;
   double sensitivity_threshold = 0.5;  ///< families at or above: superlattice-sensitive
@@ -121,6 +115,13 @@ struct FractionSpec {
   PhaseSpheres reference_spheres;
   double reference_sphere_contrast = 0.3;
 };
+
+/// The estimator that runs on a scan of `points` grid points: the one asked for, or, for
+/// FractionEstimator::automatic, the learned one from kLearnedEstimatorMinPoints points up (the
+/// model supplies geometry, the data intensities) and the model-led one below (too few points to
+/// learn a response from) or where EndMemberMode::mixture asks to rescale the model-led estimates.
+/// Throws Error for the learned estimator with mixture end members: it sets its own from the scan.
+FractionEstimator estimator_in_use(const FractionSpec& spec, size_t points);
 
 struct FamilyDiagnostic {
   std::string label;
