@@ -132,6 +132,11 @@ TEST_F(MapRun, SummaryAgreesWithTruth) {
       t["ordered_area_fraction"].get<double>() - t["classes"]["tertiary"]["area_fraction"].get<double>();
   EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), resolved_truth, 0.03);
   EXPECT_FALSE(s["subresolution_measured"].get<bool>());
+  // The report says which estimator ran and why, and that the tertiary class's area leaves out
+  // ordering finer than the beam inside the matrix.
+  const std::string report = slurp(*dir_ + "/out/report.html");
+  EXPECT_NE(report.find("chosen for a scan of at least 1000 points"), std::string::npos);
+  EXPECT_NE(report.find("inside the matrix is not measured"), std::string::npos);
   // The pattern centre, given right, stays within a few hundredths of a pixel.
   EXPECT_NEAR(s["pattern_centre"]["pc_px"][0].get<double>(), 30.0, 0.05);
   EXPECT_NEAR(s["pattern_centre"]["pc_px"][1].get<double>(), 18.0, 0.05);
@@ -175,6 +180,7 @@ TEST(MapModelLed, SubResolutionFractionAndEachGrainsMatrixOnItsOwnModel) {
   EXPECT_NEAR(s["ordered_area_fraction"].get<double>(), t["ordered_area_fraction"].get<double>(), 0.02);
   EXPECT_TRUE(s["subresolution_measured"].get<bool>());
   EXPECT_NEAR(s["subresolution_ordered_fraction"].get<double>(), 0.05, 0.02);
+  EXPECT_EQ(slurp(dir + "/out/report.html").find("inside the matrix is not measured"), std::string::npos);
   int checked = 0;
   for (const auto& g : s["grain_fractions"]) {
     if (g["matrix_points"].get<int>() < 100) continue;

@@ -272,11 +272,15 @@ void write_class_tables(std::ostream& h, const MapResults& r, const ScanConfig& 
   for (size_t k = 0; k < r.classes.size(); ++k) {
     const ClassStats& c = r.classes[k];
     const bool last = k + 1 == r.classes.size();
-    const std::string rule = !c.counted ? "ordering below the detection limit (area only)"
-                             : last     ? "own orientation, on a grain boundary from " +
-                                          format_number("%g", classes.boundary_share * c.lower_um) + " µm, or from " +
-                                          format_number("%g", c.lower_um) + " µm"
-                                    : "every other resolved section";
+    const std::string rule =
+        !c.counted ? (subresolution_measured(r) ? "ordering below the detection limit (area only)"
+                                                : "ordering below the detection limit (area only; ordering finer "
+                                                  "than the beam inside the matrix is not measured, the learned "
+                                                  "estimator took the matrix as its zero)")
+        : last
+            ? "own orientation, on a grain boundary from " + format_number("%g", classes.boundary_share * c.lower_um) +
+                  " µm, or from " + format_number("%g", c.lower_um) + " µm"
+            : "every other resolved section";
     const bool few = c.counted && c.count < kFewParticles;
     h << "<tr><td>" << c.name << "</td><td>" << rule << "</td><td>" << (c.counted ? std::to_string(c.count) : "–")
       << (few ? " (too few for statistics)" : "") << "</td><td>" << format_number("%.4f", c.area_fraction)
