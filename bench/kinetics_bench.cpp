@@ -20,6 +20,7 @@
 #include <vector>
 
 #include "orderband/kinetics.hpp"
+#include "orderband/stereology.hpp"
 #include "synthetic_scan.hpp"
 
 using namespace orderband;
@@ -54,7 +55,7 @@ Radius measured_radius(const std::string& dir, int seed, double t, int side, dou
   const SphereSizeFit* fit = r.secondary_preferred();
   if (!fit) return {};
   const double radius = 0.5 * fit->mean_diameter_um;
-  return {radius, radius * std::log(fit->mean_high_um / fit->mean_low_um) / (2 * 1.959963984540054)};
+  return {radius, 0.5 * standard_error_from_log_interval(fit->mean_diameter_um, fit->mean_low_um, fit->mean_high_um)};
 }
 
 /// Whether k's interval holds the scenario's k, and its width relative to k.

@@ -47,15 +47,16 @@ TEST(MapWarnings, SayWhenTheAutomaticChoiceFellToTheModelLedEstimator) {
   // "auto" on 576 points runs the model-led estimator and says so, with the count and the
   // threshold; asked for by name, the model-led estimator runs without that warning.
   MapResults r = results_with(576, 576, 576);
-  r.fraction.estimator_requested = "auto";
+  r.fraction.estimator_requested = "auto", r.fraction.estimator_choice = EstimatorChoice::too_few_points;
   const std::vector<std::string> w = map_warnings(r);
   ASSERT_EQ(w.size(), 1u);
   EXPECT_NE(w[0].find("576 points, fewer than the 1000"), std::string::npos) << w[0];
-  r.fraction.estimator_requested = "profile";
+  r.fraction.estimator_requested = "profile", r.fraction.estimator_choice = EstimatorChoice::asked_for;
   EXPECT_TRUE(map_warnings(r).empty());
   // On 1,600 points only mixture end members make "auto" run the model-led estimator: said so.
   MapResults mixture = results_with(1600, 1600, 1600);
   mixture.fraction.estimator_requested = "auto";
+  mixture.fraction.estimator_choice = EstimatorChoice::mixture_end_members;
   ASSERT_EQ(map_warnings(mixture).size(), 1u);
   EXPECT_NE(map_warnings(mixture)[0].find("mixture end members rescale the model-led estimates"), std::string::npos);
 }
@@ -92,7 +93,7 @@ TEST(FractionEstimatorChoice, AutoLearnsFromAThousandPointsAndNamedChoicesStand)
   auto in_use = [](FractionEstimator e, size_t points, EndMemberMode ends = EndMemberMode::model) {
     FractionSpec spec;
     spec.estimator = e, spec.end_members = ends;
-    return estimator_in_use(spec, points);
+    return estimator_in_use(spec, points).estimator;
   };
   EXPECT_EQ(in_use(FractionEstimator::automatic, 32 * 32), FractionEstimator::learned);
   EXPECT_EQ(in_use(FractionEstimator::automatic, 1000), FractionEstimator::learned);

@@ -30,13 +30,10 @@ MapOptions to_map_options(const MapRunOptions& o) {
   m.orient.grains.threshold_deg = o.grain_threshold;
   m.orient.from_neighbours = !o.index_every_point;
   m.fraction.end_members = o.end_members == "mixture" ? EndMemberMode::mixture : EndMemberMode::model;
-  if (o.estimator == "learned" && o.end_members == "mixture")
-    fail(
-        "--end-members mixture rescales the model-led estimates; --estimator learned sets its end members from the "
-        "scan itself: use one or the other");
   m.fraction.estimator = o.estimator == "learned" ? FractionEstimator::learned
                          : o.estimator == "model" ? FractionEstimator::profile
                                                   : FractionEstimator::automatic;
+  estimator_in_use(m.fraction, 0);  // refuses a combination it cannot run before any work starts
   m.mean_spheres = !o.no_mean_spheres;
   return m;
 }

@@ -71,7 +71,7 @@ CoarseningFit fit_coarsening(const std::vector<double>& t, const std::vector<dou
   const size_t dof = t.size() - 2;
   if (errors_known) {
     const double birge = dof > 0 ? std::sqrt(std::max(1.0, l.sse / dof)) : 1.0;
-    const double half = 1.959963984540054 * birge / std::sqrt(l.sxx);
+    const double half = kNormal95 * birge / std::sqrt(l.sxx);
     f.k_low = l.slope - half, f.k_high = l.slope + half;
     f.k_interval_from_radius_errors = true;
   } else if (dof > 0) {

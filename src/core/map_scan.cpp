@@ -90,12 +90,12 @@ std::vector<std::string> map_warnings(const MapResults& r) {
     w.push_back(std::to_string(faults.size()) + " pattern" + (faults.size() == 1 ? "" : "s") +
                 " could not be used as stored and count as unusable points (first: " + faults.begin()->second +
                 "); they are listed in summary.json");
-  if (r.fraction.estimator_requested == "auto" && r.fraction.estimator != "learned" && n >= kLearnedEstimatorMinPoints)
+  if (r.fraction.estimator_choice == EstimatorChoice::mixture_end_members)
     w.push_back(
         "mixture end members rescale the model-led estimates, so the model-led estimator ran although the scan has "
         "enough points for the learned one (which sets its end members from the scan itself): drop --end-members "
         "mixture to use it");
-  else if (r.fraction.estimator_requested == "auto" && r.fraction.estimator != "learned")
+  else if (r.fraction.estimator_choice == EstimatorChoice::too_few_points)
     w.push_back("the scan has " + std::to_string(n) + " points, fewer than the " +
                 std::to_string(kLearnedEstimatorMinPoints) +
                 " from which the response to ordering is learned from the data: the model-led estimator ran, whose "

@@ -26,26 +26,30 @@ double FractionResults::mean_raw() const {
   return n ? s / n : std::nan("");
 }
 
-FractionEstimator estimator_in_use(const FractionSpec& spec, size_t points) {
+EstimatorInUse estimator_in_use(const FractionSpec& spec, size_t points) {
   const bool mixture = spec.end_members == EndMemberMode::mixture;
   if (spec.estimator == FractionEstimator::learned && mixture)
     fail(
         "fraction: mixture end members rescale the model-led estimates; the learned estimator sets its end members "
         "from the scan itself: use one or the other");
-  if (spec.estimator != FractionEstimator::automatic) return spec.estimator;
-  return points >= kLearnedEstimatorMinPoints && !mixture ? FractionEstimator::learned : FractionEstimator::profile;
+  if (spec.estimator != FractionEstimator::automatic) return {spec.estimator, EstimatorChoice::asked_for};
+  if (mixture) return {FractionEstimator::profile, EstimatorChoice::mixture_end_members};
+  if (points < kLearnedEstimatorMinPoints) return {FractionEstimator::profile, EstimatorChoice::too_few_points};
+  return {FractionEstimator::learned, EstimatorChoice::enough_points};
 }
 
 FractionResults ordered_fraction_scan(const ScanInputs& inputs, const OrientationResults& ori,
                                       const FractionSpec& requested, const ProgressFn& progress, RowStore* store) {
   if (ori.orientation.size() != inputs.grid().count())
     fail("fraction: orientations for ", ori.orientation.size(), " points, scan has ", inputs.grid().count());
+  const EstimatorInUse in_use = estimator_in_use(requested, inputs.grid().count());
   FractionSpec spec = requested;
-  spec.estimator = estimator_in_use(requested, inputs.grid().count());
+  spec.estimator = in_use.estimator;
   FractionScan scan(inputs, ori, spec);
   FractionResults r;
   r.estimator = std::string(name_of(spec.estimator));
   r.estimator_requested = std::string(name_of(requested.estimator));
+  r.estimator_choice = in_use.why;
   r.zero_is_matrix = spec.estimator == FractionEstimator::learned && spec.end_members != EndMemberMode::regions;
   refine_grain_frames(scan, r);
   std::vector<FractionReference> refs(scan.grains + 1);

@@ -2,9 +2,11 @@
 #include "orderband/screen_comparison.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <map>
 
 #include "orderband/error.hpp"
+#include "orderband/stereology.hpp"
 
 namespace orderband {
 
@@ -38,12 +40,11 @@ std::optional<TrialNumbers> truth_numbers(const TrialSummary& s) {
   return n;
 }
 
-/// The standard error of a trial's 3-D mean radius (µm) from its 95 % interval, which is symmetric
-/// in the logarithm (stereology.hpp): r · ln(high / low) / (2 · 1.96); NaN without an interval.
+/// The standard error of a trial's 3-D mean radius (µm) from its diameter's 95 % interval; NaN
+/// without an interval.
 double radius_error(const TrialSummary& s) {
   const Measured& d = s.secondary_3d.mean_diameter_um;
-  if (!(d.low > 0 && d.high > d.low)) return std::nan("");
-  return 0.5 * d.value * std::log(d.high / d.low) / (2 * 1.959963984540054);
+  return 0.5 * standard_error_from_log_interval(d.value, d.low, d.high);
 }
 
 /// The kinetics of the trials at one temperature; the radius used per trial goes to `kinetic_radius`.

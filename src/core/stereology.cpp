@@ -10,6 +10,7 @@
 #include <boost/math/quadrature/gauss_kronrod.hpp>
 #include <boost/math/tools/minima.hpp>
 
+#include "orderband/distributions.hpp"
 #include "orderband/error.hpp"
 #include "orderband/size_distribution.hpp"
 
@@ -185,7 +186,7 @@ SphereSizeFit fit_sphere_sizes(const SectionSample& sample, SphereSizeModel mode
   const double se_mean = std::sqrt(g_mean.dot(cov * g_mean) + common);
   const double se_section = std::sqrt(g_section.dot(cov * g_section) + common);
   const double se_density = std::sqrt(1.0 / n + g_seen.dot(cov * g_seen) + common);
-  const double z = 1.959963984540054;  // two-sided 95 % normal quantile
+  const double z = kNormal95;
   fit.mean_low_um = fit.mean_diameter_um * std::exp(-z * se_mean);
   fit.mean_high_um = fit.mean_diameter_um * std::exp(z * se_mean);
   fit.mean_section_um = M_PI / 4 * fit.spheres.mean_square_um2() / fit.mean_diameter_um;
@@ -208,6 +209,11 @@ SphereSizeFit fit_sphere_sizes(const SectionSample& sample, SphereSizeModel mode
   }
   fit.determined = true;
   return fit;
+}
+
+double standard_error_from_log_interval(double value, double low, double high) {
+  if (!(low > 0 && high > low)) return std::nan("");
+  return value * std::log(high / low) / (2 * kNormal95);
 }
 
 }  // namespace orderband

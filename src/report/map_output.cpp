@@ -853,10 +853,13 @@ std::string estimator_row(const MapResults& r) {
   std::string text = f.estimator == "learned"   ? "learned (the response to ordering learned from this scan)"
                      : f.estimator == "profile" ? "model-led (the kinematic model's references of both phases)"
                                                 : f.estimator;
-  if (f.estimator_requested == "auto")
-    text += f.estimator == "learned"
-                ? "; chosen for a scan of at least " + std::to_string(kLearnedEstimatorMinPoints) + " points"
-                : "; chosen because the scan has fewer than " + std::to_string(kLearnedEstimatorMinPoints) + " points";
+  const std::string limit = std::to_string(kLearnedEstimatorMinPoints);
+  if (f.estimator_choice == EstimatorChoice::enough_points)
+    text += "; chosen for a scan of at least " + limit + " points";
+  else if (f.estimator_choice == EstimatorChoice::too_few_points)
+    text += "; chosen because the scan has fewer than " + limit + " points";
+  else if (f.estimator_choice == EstimatorChoice::mixture_end_members)
+    text += "; chosen because mixture end members rescale its estimates";
   return "<tr><td>fraction estimator</td><td>" + xml_escape(text) + "</td></tr>";
 }
 

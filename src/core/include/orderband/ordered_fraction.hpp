@@ -116,12 +116,25 @@ struct FractionSpec {
   double reference_sphere_contrast = 0.3;
 };
 
-/// The estimator that runs on a scan of `points` grid points: the one asked for, or, for
+/// Why the estimator that ran was chosen.
+enum class EstimatorChoice {
+  asked_for,            ///< named by the caller
+  enough_points,        ///< automatic: the learned one, from kLearnedEstimatorMinPoints points
+  too_few_points,       ///< automatic: the model-led one, fewer points than that
+  mixture_end_members,  ///< automatic: the model-led one, whose estimates mixture end members rescale
+};
+
+struct EstimatorInUse {
+  FractionEstimator estimator = FractionEstimator::profile;
+  EstimatorChoice why = EstimatorChoice::asked_for;
+};
+
+/// The estimator that runs on a scan of `points` grid points, and why: the one asked for, or, for
 /// FractionEstimator::automatic, the learned one from kLearnedEstimatorMinPoints points up (the
 /// model supplies geometry, the data intensities) and the model-led one below (too few points to
 /// learn a response from) or where EndMemberMode::mixture asks to rescale the model-led estimates.
 /// Throws Error for the learned estimator with mixture end members: it sets its own from the scan.
-FractionEstimator estimator_in_use(const FractionSpec& spec, size_t points);
+EstimatorInUse estimator_in_use(const FractionSpec& spec, size_t points);
 
 struct FamilyDiagnostic {
   std::string label;
@@ -149,6 +162,7 @@ struct GrainFraction {
 struct FractionResults {
   std::string estimator = "profile";            ///< the estimator that ran: "learned", "profile" or "windows"
   std::string estimator_requested = "profile";  ///< as asked for ("auto" chooses by the scan's size)
+  EstimatorChoice estimator_choice = EstimatorChoice::asked_for;
   /// Learned, without reference regions: each grain's matrix is the zero, so ordering finer than
   /// the beam inside the matrix (tertiary) is counted as matrix, not measured.
   bool zero_is_matrix = false;

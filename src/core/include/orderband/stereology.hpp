@@ -70,6 +70,11 @@ struct SphereSizeFit {
   double aic() const { return 2.0 * spheres.params.size() - 2 * log_likelihood; }
 };
 
+/// The standard error of a value from a 95 % interval symmetric in its logarithm, as
+/// fit_sphere_sizes writes them (low = v e^(−z se), high = v e^(z se), se relative): v · ln(high /
+/// low) / (2 z), in the value's unit; NaN without an interval (low ≤ 0 or high ≤ low).
+double standard_error_from_log_interval(double value, double low, double high);
+
 /// Needs at least `min_sections` sections (fewer: not determined, nothing fitted). Not determined
 /// either when the maximum lies at the edge of the parameters' range: a log-normal σ at 0.02 or 1.5,
 /// an LSW mean pinned by the largest section (the LSW shape ends at 1.5 × the mean, so a population
