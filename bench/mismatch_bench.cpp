@@ -3,7 +3,8 @@
 // usage: mismatch_bench [SIDE=40] [COUNTS=5000] [FIRST=0] [LAST=all]
 // Prints one table per estimator: area fraction error, classification away from phase boundaries,
 // d′ between pure particle and pure matrix points, the variant's information limit (Fisher d′ of the
-// renderer's noise-free pure patterns at the grains' orientations), their ratio, and points/s.
+// renderer's noise-free pure patterns at the grains' orientations), their ratio, and points/s; then,
+// for the variants with tertiary γ′, the learned estimator with a γ′-free layer as its disordered region.
 // ORDERBAND_BENCH_DETAIL=1 lists every grain's truth, mean f and pure-matrix mean on stderr;
 // ORDERBAND_BENCH_SPHERE_REFERENCE=1 gives the many-beam variants their spheres as the reference.
 #include <algorithm>
@@ -14,6 +15,7 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <sstream>
 #include <vector>
 
 #include "orderband/npy_io.hpp"
@@ -114,6 +116,96 @@ InformationLimit information_limit(const SynthScenario& s, const std::vector<Rot
   return limit;
 }
 
+/// The suite's scan of variant v (seed 31 + v): 3 grains, one primary particle of 0.4 µm with its
+/// own orientation, secondary γ′ 25 %, the variant's tertiary, and a γ′-free layer of the given
+/// depth along the first rows (0: none).
+std::string scenario_text(int v, int side, double counts, double free_layer_um) {
+  const Variant& var = kSuite[v];
+  std::ostringstream os;
+  os << "[scenario]\nseed = " << 31 + v << "\n[scan]\nrows = " << side << "\ncols = " << side
+     << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\ndistance_px = 45.0\n"
+        "[phases]\npair = \"ni\"\n[patterns]\ncounts_per_px = "
+     << counts << "\n"
+     << var.patterns << "[renderer]\n"
+     << var.renderer
+     << "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = \"fixed\"\ndiameter_um = 0.4\n"
+        "own_orientation = true\n[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
+        "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = "
+     << var.tertiary << "\n";
+  if (free_layer_um > 0) os << "[free_layer]\ndepth_um = " << free_layer_um << "\n";
+  return os.str();
+}
+
+/// The decision of issue Wave 2 · A, item 4, on the variants with tertiary γ′: the learned
+/// estimator with a region known to be free of γ′ as its disordered end member (a layer of
+/// kLayerRows rows along the field's first rows, as beneath an oxidised edge; all but its last two
+/// rows given as the region), the ordered end member still the scan's particles. Prints the area error, the
+/// sub-resolution fraction's error against the tertiary truth, the classification, and the worst
+/// grain's pure matrix (outside the layer) against the tertiary truth.
+void print_with_free_layer(int first, int last, int side, double counts, const std::string& dir) {
+  const int count = static_cast<int>(sizeof kSuite / sizeof kSuite[0]);
+  constexpr int kLayerRows = 12, kRegionRows = kLayerRows - 2;
+  std::printf(
+      "\nlearned estimator, a γ′-free layer of %d rows (%.2f µm) along the first rows, its first %d rows "
+      "given as the disordered region, %d x %d points\n",
+      kLayerRows, 0.025 * kLayerRows, kRegionRows, side, side);
+  std::printf("%-28s %9s %8s %7s %7s %7s\n", "variant", "area err", "class %", "sub-res", "|grain|", "region");
+  for (int v = first; v <= last && v < count; ++v) {
+    if (kSuite[v].tertiary == 0) continue;
+    std::filesystem::remove_all(dir);
+    std::filesystem::create_directories(dir);
+    std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, 0.025 * kLayerRows);
+    write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "mismatch_bench");
+    const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
+    const OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
+    const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+    const ScanGrid& grid = config.grid;
+    FractionSpec spec;
+    spec.estimator = FractionEstimator::learned;
+    spec.end_members = EndMemberMode::regions;
+    spec.disordered_regions = {PointRect{0, 0, kRegionRows - 1, grid.cols - 1}};
+    const FractionResults fr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, spec);
+    double sum = 0, truth_sum = 0, measured = 0, inner = 0, correct = 0, region = 0, region_n = 0;
+    std::map<int, std::array<double, 2>> matrix;  // per grain: sum, count of pure matrix points outside the layer
+    for (size_t k = 0; k < grid.count(); ++k) {
+      if (fr.reason[k]) continue;
+      sum += fr.raw[k], truth_sum += truth[k], measured += 1;
+      const GridPoint p = grid.point(k);
+      if (p.row < kRegionRows) region += fr.raw[k], region_n += 1;
+      const bool t = truth[k] >= 0.5;
+      bool boundary = false;
+      for (const GridPoint& nb : grid.neighbours(p, 8)) boundary = boundary || ((truth[grid.index(nb)] >= 0.5) != t);
+      if (boundary) continue;
+      inner += 1, correct += (fr.fraction[k] >= 0.5) == t;
+      if (p.row >= kLayerRows + 2 && std::abs(truth[k] - kSuite[v].tertiary) < 0.005) {
+        auto& m = matrix[ori.grains.id[k]];
+        m[0] += fr.raw[k], m[1] += 1;
+      }
+    }
+    double worst = 0;
+    for (const auto& [g, m] : matrix)
+      if (m[1] >= 20) worst = std::max(worst, std::abs(m[0] / m[1] - kSuite[v].tertiary));
+    if (std::getenv("ORDERBAND_BENCH_DETAIL")) {
+      FractionSpec plain;
+      plain.estimator = FractionEstimator::learned;
+      const FractionResults pr = ordered_fraction_scan(read_scan_inputs(config, InputHashing::skip), ori, plain);
+      double ps = 0, pn = 0, pl = 0, pln = 0;
+      for (size_t k = 0; k < grid.count(); ++k) {
+        if (pr.reason[k]) continue;
+        ps += pr.raw[k], pn += 1;
+        if (grid.point(k).row < kRegionRows) pl += pr.raw[k], pln += 1;
+      }
+      std::fprintf(stderr, "  without the region: area %.4f (truth %.4f), region %.4f, two phases %d\n", ps / pn,
+                   truth_sum / measured, pl / pln, pr.two_phases);
+      std::fprintf(stderr, "  offset %.4f scale %.4f two phases %d\n", fr.calibration_offset, fr.calibration_scale,
+                   fr.two_phases);
+      for (const auto& [g, m] : matrix) std::fprintf(stderr, "  grain %d matrix %.0f at %+.4f\n", g, m[1], m[0] / m[1]);
+    }
+    std::printf("%-28s %+9.3f %8.1f %+7.3f %7.3f %+7.3f\n", kSuite[v].name, (sum - truth_sum) / measured,
+                100 * correct / inner, fr.subresolution_fraction - kSuite[v].tertiary, worst, region / region_n);
+  }
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -128,19 +220,7 @@ int main(int argc, char** argv) {
     const Variant& var = kSuite[v];
     std::filesystem::remove_all(dir);
     std::filesystem::create_directories(dir);
-    std::ofstream(dir + "/s.toml") << "[scenario]\nseed = " << 31 + v << "\n[scan]\nrows = " << side
-                                   << "\ncols = " << side
-                                   << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
-                                      "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[phases]\npair = \"ni\"\n"
-                                      "[patterns]\ncounts_per_px = "
-                                   << counts << "\n"
-                                   << var.patterns << "[renderer]\n"
-                                   << var.renderer
-                                   << "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = "
-                                      "\"fixed\"\ndiameter_um = 0.4\nown_orientation = true\n"
-                                      "[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
-                                      "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = "
-                                   << var.tertiary << "\n";
+    std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, 0.0);
     const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
     write_synthetic_scan(scenario, dir + "/scan", "mismatch_bench");
     const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
@@ -259,6 +339,7 @@ int main(int argc, char** argv) {
     std::printf("area error over %zu variants: RMS %.3f, largest %.3f, within ±0.03 on %d\n", rows.size(),
                 std::sqrt(sum_sq / std::max<size_t>(rows.size(), 1)), worst, within);
   }
+  print_with_free_layer(first, last, side, counts, dir);
   std::filesystem::remove_all(dir);
   return 0;
 }

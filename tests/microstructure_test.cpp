@@ -81,6 +81,52 @@ TEST(Microstructure, PrimariesSitOnGrainBoundariesAndSecondariesAreCoherent) {
   EXPECT_GE(primaries, 1);
 }
 
+TEST(Microstructure, AGammaPrimeFreeLayerHoldsNoParticleAndNoTertiary) {
+  // A layer 1 µm deep along y < 1 (as beneath an oxidised edge): no particle section reaches into
+  // it and its matrix holds no tertiary γ′; below it, the secondary area fraction stays at its
+  // target (Delesse; sampling SD about 0.004 here) and the matrix holds the tertiary fraction.
+  MicrostructureSpec spec;
+  spec.width_um = spec.height_um = 8;
+  spec.grain_count = 3;
+  spec.secondary.area_fraction = 0.25;
+  spec.secondary.size = SizeDistribution::lognormal(0.12, 0.2);
+  spec.tertiary_fraction = 0.05;
+  spec.free_layer_um = 1.0;
+  spec.seed = 9;
+  const Microstructure m(spec);
+  int in_layer = 0, inside = 0, total = 0;
+  for (int i = 0; i < 400; ++i)
+    for (int j = 0; j < 400; ++j) {
+      const Eigen::Vector2d x((j + 0.5) * 0.02, (i + 0.5) * 0.02);
+      const bool particle = m.at(x).particle >= 0;
+      if (x.y() < 1.0) {
+        in_layer += particle;
+        EXPECT_EQ(m.ordered_at(x), 0.0);
+      } else if (x.y() > 1.2) {
+        inside += particle, ++total;
+        if (!particle) {
+          EXPECT_EQ(m.ordered_at(x), 0.05);
+        }
+      }
+    }
+  EXPECT_EQ(in_layer, 0);
+  EXPECT_NEAR(double(inside) / total, 0.25, 0.015);
+  // Below the layer's reach the microstructure is the one without it, point for point (the layer
+  // dissolves what reaches into it after the particles were placed).
+  MicrostructureSpec bulk = spec;
+  bulk.free_layer_um = 0;
+  const Microstructure without(bulk);
+  int same = 0, compared = 0;
+  for (int i = 70; i < 400; ++i)
+    for (int j = 0; j < 400; ++j) {
+      const Eigen::Vector2d x((j + 0.5) * 0.02, (i + 0.5) * 0.02);
+      same += (m.at(x).particle >= 0) == (without.at(x).particle >= 0), ++compared;
+    }
+  EXPECT_EQ(same, compared);
+  spec.free_layer_um = 8.0;  // as deep as the field: nothing left to map
+  EXPECT_THROW(Microstructure{spec}, Error);
+}
+
 TEST(Microstructure, RejectsImpossibleSpecs) {
   MicrostructureSpec spec;
   spec.secondary.area_fraction = 1.2;

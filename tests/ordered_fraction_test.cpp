@@ -473,15 +473,56 @@ TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
 }
 
 /// The mismatch bench's scan (bench/mismatch_bench.cpp): 40 × 40 points, three grains, one primary
-/// particle of 0.4 µm with its own orientation, secondary γ′ 25 %, with the bench's seed per variant.
-std::string mismatch_suite_scenario(int seed, const std::string& patterns, const std::string& renderer) {
+/// particle of 0.4 µm with its own orientation, secondary γ′ 25 %, with the bench's seed per variant;
+/// optionally tertiary γ′ and a γ′-free layer along the first rows.
+std::string mismatch_suite_scenario(int seed, const std::string& patterns, const std::string& renderer,
+                                    double tertiary = 0, double free_layer_um = 0) {
   return "[scenario]\nseed = " + std::to_string(seed) +
          "\n[scan]\nrows = 40\ncols = 40\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
          "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[phases]\npair = \"ni\"\n[patterns]\ncounts_per_px = 5000\n" +
          patterns + "[renderer]\n" + renderer +
          "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = \"fixed\"\ndiameter_um = 0.4\n"
          "own_orientation = true\n[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
-         "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = 0.0\n";
+         "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = " +
+         std::to_string(tertiary) + "\n[free_layer]\ndepth_um = " + std::to_string(free_layer_um) + "\n";
+}
+
+TEST(LearnedFraction, ADisorderedReferenceRegionMeasuresTheTertiaryShare) {
+  // Issue Wave 2 · A, item 4, as decided: the learned estimator's zero is each grain's matrix, so
+  // tertiary γ′ finer than the beam counts as matrix; a region known to be free of γ′ sets the
+  // zero instead, the particles still the ordered end member. Two variants of the mismatch suite
+  // with tertiary 0.05 (the bench's seeds), each with a γ′-free layer of 12 rows (0.3 µm, as
+  // beneath an oxidised edge) whose first 10 rows are given as the disordered region (no ordered
+  // region). The sub-resolution fraction and the area must hold within the issue's ±0.03.
+  // Measured (the scans of mismatch_bench's last table), sub-resolution and area against the truth:
+  // flat bands −0.006 and −0.010, γ′ fundamentals × 1.1 with dark edges −0.011 and −0.001. Without
+  // the region the sub-resolution fraction reads 0 by construction and is flagged as not measured
+  // (the same scans' areas −0.055 and −0.019).
+  struct Case {
+    const char* name;
+    int seed;
+    std::string patterns, renderer;
+  };
+  const std::vector<Case> cases = {{"flat sharp bands", 33, "edge_contrast = 0.0\n", "band_shape = \"flat\"\n"},
+                                   {"γ′ fundamentals × 1.1, dark edges", 39, "",
+                                    "ordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n"}};
+  for (const Case& c : cases) {
+    FractionSpec spec = learned_spec();
+    spec.end_members = EndMemberMode::regions;
+    spec.disordered_regions = {PointRect{0, 0, 9, 39}};
+    const ScenarioRun r =
+        run_scenario(mismatch_suite_scenario(c.seed, c.patterns, c.renderer, 0.05, 0.3), 0, false, {}, spec);
+    EXPECT_TRUE(r.fraction.two_phases) << c.name;
+    EXPECT_FALSE(r.fraction.zero_is_matrix) << c.name;
+    EXPECT_NEAR(r.fraction.subresolution_fraction, 0.05, 0.03) << c.name;
+    // Against the truth over the measured points (a sliver of a grain at the field's edge is not
+    // placed, `grain_too_small`).
+    double truth = 0, measured = 0;
+    for (size_t k = 0; k < r.truth.size(); ++k)
+      if (!r.fraction.reason[k]) truth += r.truth[k], measured += 1;
+    EXPECT_NEAR(r.fraction.mean_raw(), truth / measured, 0.03) << c.name;
+    EXPECT_GE(classification(r), 0.95) << c.name;
+  }
 }
 
 TEST(LearnedFraction, HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBroke) {

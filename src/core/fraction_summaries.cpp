@@ -9,6 +9,14 @@
 
 namespace orderband {
 
+bool FractionSpec::in_reference(size_t k, GridPoint p, bool ordered) const {
+  const std::vector<uint8_t>& mask = ordered ? ordered_mask : disordered_mask;
+  if (k < mask.size() && mask[k]) return true;
+  for (const PointRect& rect : ordered ? ordered_regions : disordered_regions)
+    if (rect.contains(p)) return true;
+  return false;
+}
+
 void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, bool learned) {
   const size_t n = r.raw.size();
   // End members from the scan: a two-component mixture of the raw estimates.
@@ -31,14 +39,15 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
     int cnt[2] = {0, 0};
     for (size_t k = 0; k < n; ++k) {
       if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      for (int phase = 0; phase < 2; ++phase) {
-        const std::vector<uint8_t>& mask = phase ? spec.ordered_mask : spec.disordered_mask;
-        bool in = !mask.empty() && mask[k];
-        for (const PointRect& rect : phase ? spec.ordered_regions : spec.disordered_regions)
-          in = in || rect.contains(grid.point(k));
-        if (in) m[phase] += r.raw[k], cnt[phase] += 1;
-      }
+      for (int phase = 0; phase < 2; ++phase)
+        if (spec.in_reference(k, grid.point(k), phase == 1)) m[phase] += r.raw[k], cnt[phase] += 1;
     }
+    // The learned estimator's ordered end member is the scan's own particles (1 by its placement),
+    // so a disordered region alone suffices there: it moves the zero from the matrix to the region.
+    const bool ordered_given = !spec.ordered_mask.empty() || !spec.ordered_regions.empty();
+    if (learned && !ordered_given) m[1] = 1, cnt[1] = 1;
+    if (!ordered_given && !learned)
+      fail("fraction: the model-led estimator needs an ordered reference region as well as a disordered one");
     if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
     m[0] /= cnt[0], m[1] /= cnt[1];
     if (!(m[1] > m[0])) fail("fraction: the ordered reference region is not above the disordered one");
@@ -53,7 +62,8 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
   }
 }
 
-void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const GrainMap& grains) {
+void summarise_grains_and_matrix(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
+                                 const GrainMap& grains) {
   const size_t n = r.raw.size();
   const int count = grains.count();
   // Per grain: every measured point, and the matrix points away from particles (below).
@@ -80,7 +90,9 @@ void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const
         near_particle =
             near_particle || r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[j] >= 0.5;
       }
-      if (near_particle) continue;
+      // A disordered reference region is the zero, not the specimen's matrix.
+      if (near_particle || (spec.end_members == EndMemberMode::regions && spec.in_reference(k, grid.point(k), false)))
+        continue;
       sum += r.raw[k], ++matrix_count;
       if (const int g = grains.id[k]; g > 0)
         r.grains[g - 1].matrix_points += 1, matrix_sum[g] += r.raw[k], matrix_sq[g] += double(r.raw[k]) * r.raw[k];

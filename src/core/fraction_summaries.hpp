@@ -21,7 +21,8 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
 /// Per grain: points and mean fraction; the matrix away from particles (a point whose eight
 /// neighbours are all measured and below one half): per grain its points, mean and spread, and
 /// over the scan the sub-resolution fraction with a standard error from 4 × 4-point blocks.
-void summarise_grains_and_matrix(FractionResults& r, const ScanGrid& grid, const GrainMap& grains);
+void summarise_grains_and_matrix(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
+                                 const GrainMap& grains);
 
 /// Diagnostics per family: the model's weights and levels averaged over grains by their size, the
 /// separation the points showed, the largest grain's reference profiles, and the learned

@@ -29,8 +29,10 @@ constexpr double kOrderedAloneMaxZ = 3.0;
 constexpr double kMinPureMatrixPoints = 10;
 
 /// A measured point the learning uses: not next to another grain, where the pattern may mix two
-/// orientations (such points are scored, never learned from).
-bool learns(const LearnedInputs& in, size_t k) { return measured(in, k) && (in.boundary.empty() || !in.boundary[k]); }
+/// orientations, nor in a disordered reference region (such points are scored, never learned from).
+bool learns(const LearnedInputs& in, size_t k) {
+  return measured(in, k) && (in.boundary.empty() || !in.boundary[k]) && (in.reference.empty() || !in.reference[k]);
+}
 
 /// Per grain (index g) the mean of `v` over the grain's measured points where `use` holds.
 std::vector<double> grain_means(const LearnedInputs& in, const std::vector<double>& v,
@@ -865,6 +867,16 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
     }
   }
+  // A grain that holds part of a disordered reference region is not of the ordered phase alone,
+  // whatever the transfer between orientations said (on many-beam patterns it took a grain of pure
+  // γ, most of it in a γ′-free layer, for ordered): the user knows that it is disordered there.
+  std::vector<uint8_t> referenced(G + 1, 0);
+  for (size_t k = 0; k < in.reference.size(); ++k)
+    if (in.reference[k] && measured(in, k)) referenced[in.grain[k]] = 1;
+  for (int g = 1; g <= G; ++g)
+    if (split.ordered_grain[g] && referenced[g])
+      split.ordered_grain[g] = 0,
+      cut[g] = matrix_to_cut.empty() ? HUGE_VAL : median_of(per_grain[g]) + median_of(matrix_to_cut);
   // Every grain by its cut, now that each has one (the grains of two components as before).
   for (size_t k = 0; k < in.points; ++k)
     if (measured(in, k)) split.label[k] = guess[k] >= cut[in.grain[k]];

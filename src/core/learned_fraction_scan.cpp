@@ -389,6 +389,10 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   LearnedInputs in = empty_inputs(scan, lin.p);
   lin.collect(res, in, progress, store);
   assign_grains(scan, res, in);
+  if (scan.spec.end_members == EndMemberMode::regions) {
+    in.reference.assign(scan.n, 0);
+    for (size_t k = 0; k < scan.n; ++k) in.reference[k] = scan.spec.in_reference(k, scan.grid.point(k), false);
+  }
   const OtherLattices taken = take_out_other_lattices(scan, lin, model_features, in);
   in.model = model_features;
   in.bins = lin.bins;

@@ -22,7 +22,7 @@ std::vector<MixtureComponent> point_mixture(const Microstructure& m, const Eigen
       c.orientation = q.orientation, c.ordered = true, c.key = key, c.weight += w;
       return;
     }
-    const double ft = m.spec().tertiary_fraction;
+    const double ft = m.tertiary_at(x);
     const Rotation& g = m.grains()[s.grain].orientation;
     if (ft < 1) {
       auto& c = acc[{s.grain, false}];
@@ -228,21 +228,25 @@ SynthTruth compute_truth(const Microstructure& m, const ScanGrid& grid, double b
     t.ordered_at_centre[k] = s.particle >= 0;
   }
   // Area fractions on a fine raster: 4 × 4 samples in each point's cell.
-  double primary = 0, secondary = 0, total = 0;
+  double primary = 0, secondary = 0, tertiary = 0, total = 0;
   const double dx = grid.step_um, dy = grid.row_spacing_um();
   for (size_t k = 0; k < n; ++k) {
     const Eigen::Vector2d p = grid.position_um(grid.point(k));
     for (int a = 0; a < 4; ++a)
       for (int b = 0; b < 4; ++b) {
-        const MicrostructureSample s = m.at(p + Eigen::Vector2d((b - 1.5) / 4 * dx, (a - 1.5) / 4 * dy));
+        const Eigen::Vector2d q = p + Eigen::Vector2d((b - 1.5) / 4 * dx, (a - 1.5) / 4 * dy);
+        const MicrostructureSample s = m.at(q);
         total += 1;
-        if (s.particle < 0) continue;
+        if (s.particle < 0) {
+          tertiary += m.tertiary_at(q);
+          continue;
+        }
         (m.particles()[s.particle].cls == ParticleClass::primary ? primary : secondary) += 1;
       }
   }
   t.primary_area_fraction = primary / total;
   t.secondary_area_fraction = secondary / total;
-  t.tertiary_area_fraction = m.spec().tertiary_fraction * (1 - t.primary_area_fraction - t.secondary_area_fraction);
+  t.tertiary_area_fraction = tertiary / total;
   t.ordered_area_fraction = t.primary_area_fraction + t.secondary_area_fraction + t.tertiary_area_fraction;
   double ecd[2] = {0, 0};
   int count[2] = {0, 0};

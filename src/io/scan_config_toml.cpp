@@ -240,12 +240,13 @@ void read_fraction_table(TomlReader& r, const std::string& path, ScanConfig& c) 
     target = r.resolve(*file);
     if (!fs::exists(target)) fail(path, ": [fraction] ", key, " = \"", *file, "\": no such file");
   }
-  if (c.end_members.mode == "regions" &&
-      ((c.end_members.ordered_regions.empty() && c.end_members.ordered_mask.empty()) ||
-       (c.end_members.disordered_regions.empty() && c.end_members.disordered_mask.empty())))
+  // The ordered region may be left out: the learned estimator's ordered end member is the scan's
+  // particles (the model-led one refuses a disordered region alone when it runs).
+  if (c.end_members.mode == "regions" && c.end_members.disordered_regions.empty() &&
+      c.end_members.disordered_mask.empty())
     fail(path,
-         ": [fraction] end_members = \"regions\" needs ordered_regions or ordered_mask, and disordered_regions or "
-         "disordered_mask");
+         ": [fraction] end_members = \"regions\" needs disordered_regions or disordered_mask (and, for the "
+         "model-led estimator, ordered_regions or ordered_mask)");
 }
 }  // namespace
 

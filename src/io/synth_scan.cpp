@@ -270,19 +270,26 @@ void read_microstructure(TomlReader& r, const std::string& path, SynthScenario& 
   m.tertiary_fraction = r.get<double>(ter, "tertiary", "fraction").value_or(0.0);
   if (!(m.tertiary_fraction >= 0 && m.tertiary_fraction <= 1))
     fail(path, ": [tertiary] fraction must be within [0, 1], got ", m.tertiary_fraction);
+  const toml::table* layer = r.table("free_layer", false);
+  r.check_keys(layer, "free_layer", {"depth_um"});
+  m.free_layer_um = r.get<double>(layer, "free_layer", "depth_um").value_or(0.0);
+  if (!(m.free_layer_um >= 0 && m.free_layer_um < m.height_um))
+    fail(path, ": [free_layer] depth_um must be within [0, the field's height ", m.height_um, " µm), got ",
+         m.free_layer_um);
 }
 }  // namespace
 
 SynthScenario parse_synth_scenario(const std::string& text, const std::string& path) {
   const toml::table root = parse_toml_or_fail(text, path);
   TomlReader r(root, path);
-  static const std::set<std::string> tables{"scenario", "scan",    "detector",  "microscope", "phases",   "patterns",
-                                            "grains",   "primary", "secondary", "tertiary",   "renderer", "output"};
+  static const std::set<std::string> tables{"scenario",   "scan",     "detector", "microscope", "phases",
+                                            "patterns",   "grains",   "primary",  "secondary",  "tertiary",
+                                            "free_layer", "renderer", "output"};
   for (const auto& [k, v] : root)
     if (!tables.count(std::string(k.str())))
       fail(path, ": unknown table [", k.str(),
            "] (known: scenario, scan, detector, microscope, phases, patterns, grains, primary, secondary, tertiary, "
-           "renderer, output)");
+           "free_layer, renderer, output)");
   SynthScenario s;
   s.path = fs::absolute(path).lexically_normal().string();
   read_scenario_and_grid(r, path, s);
@@ -478,6 +485,7 @@ void write_truth_json(const SynthScenario& s, const SynthTruth& truth, const Ord
       {"primary_target_area_fraction", s.micro.primary.area_fraction},
       {"secondary_target_area_fraction", s.micro.secondary.area_fraction},
       {"tertiary_fraction", s.micro.tertiary_fraction},
+      {"free_layer_um", s.micro.free_layer_um},
       {"secondary_mean_diameter_3d_um", s.micro.secondary.area_fraction > 0 ? s.micro.secondary.size.mean_um() : 0.0}};
   j["ordered_area_fraction"] = truth.ordered_area_fraction;
   j["classes"] = {{"primary",

@@ -24,6 +24,10 @@ struct LearnedInputs {
   std::vector<float> x;             ///< points × features
   std::vector<double> first_guess;  ///< per point
   std::vector<uint8_t> boundary;    ///< per point, 1: next to another grain (scored, not learned from); may be empty
+  /// Per point, 1: in a region known to be free of ordering, the user's disordered reference
+  /// (scored, never learned from nor part of a grain's zero: it is not the specimen's matrix); may
+  /// be empty.
+  std::vector<uint8_t> reference;
   /// Per grain (index 1..grains), per feature: the model's expected ordered − disordered
   /// difference on the features that show the new superlattice bands alone (0 elsewhere). Only the
   /// sign of the learned direction is read from it (empty: the sign comes from the first guess).

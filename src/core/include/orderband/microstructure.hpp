@@ -34,6 +34,10 @@ struct MicrostructureSpec {
   PrecipitateClassSpec primary;    ///< on grain boundaries, sectioned near their equator
   PrecipitateClassSpec secondary;  ///< coherent with the host grain, uniformly in the volume
   double tertiary_fraction = 0;    ///< sub-resolution ordered fraction of the γ channels
+  /// Depth (µm) of a layer free of γ′ along the field's first rows (y_S below it): no particle
+  /// reaches into it and it holds no tertiary γ′, as the γ′-depleted layer beneath an oxidised
+  /// edge, whose aluminium the oxide took. A region known to be disordered, for reference regions.
+  double free_layer_um = 0;
   std::uint64_t seed = 1;
 };
 
@@ -73,8 +77,14 @@ class Microstructure {
   /// Grain (nearest seed) and particle at (x, y) µm on the section plane z = 0.
   MicrostructureSample at(const Eigen::Vector2d& p_um) const;
   int grain_at(const Eigen::Vector2d& p_um) const;
-  /// Ordered fraction at a point: 1 in a particle, tertiary_fraction in the matrix.
+  /// Ordered fraction at a point: 1 in a particle, the tertiary fraction (tertiary_at) in the matrix.
   double ordered_at(const Eigen::Vector2d& p_um) const;
+  /// Whether a point lies in the γ′-free layer (MicrostructureSpec::free_layer_um).
+  bool in_free_layer(const Eigen::Vector2d& p_um) const {
+    return spec_.free_layer_um > 0 && p_um.y() < spec_.free_layer_um;
+  }
+  /// The sub-resolution ordered fraction of the matrix at a point: 0 in the γ′-free layer.
+  double tertiary_at(const Eigen::Vector2d& p_um) const { return in_free_layer(p_um) ? 0.0 : spec_.tertiary_fraction; }
 
  private:
   // The construction's steps, in this order on one random sequence.
@@ -82,7 +92,9 @@ class Microstructure {
   void make_spatial_hash();
   void place_primary(std::mt19937_64& rng);
   void place_secondary(std::mt19937_64& rng);
+  void dissolve_in_free_layer();
   bool overlaps(const Particle& p) const;
+  bool reaches_free_layer(const Particle& p) const;
   void index_particle(int k);
   MicrostructureSpec spec_;
   std::vector<Grain> grains_;

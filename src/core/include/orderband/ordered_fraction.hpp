@@ -106,8 +106,13 @@ struct FractionSpec {
   bool refine_pattern_centre = true;
   int pattern_centre_grains = 6;
   int pattern_centre_min_points = 30;  ///< grains with fewer points keep the orientation stage's orientation
-  std::vector<PointRect> ordered_regions, disordered_regions;  ///< for EndMemberMode::regions
-  std::vector<uint8_t> ordered_mask, disordered_mask;          ///< per point, non-zero: in the region (empty: none)
+  /// For EndMemberMode::regions: where each phase is known to be pure. The learned estimator needs
+  /// only the disordered one (its ordered end member is the scan's particles); the model-led one both.
+  std::vector<PointRect> ordered_regions, disordered_regions;
+  std::vector<uint8_t> ordered_mask, disordered_mask;  ///< per point, non-zero: in the region (empty: none)
+  /// Whether point k (at `p` on the grid) lies in a reference region or mask of the ordered
+  /// (`ordered`) or the disordered phase, whatever the end-member mode.
+  bool in_reference(size_t k, GridPoint p, bool ordered) const;
   /// The reference model: the kinematic band model (default), or, with both set, the phases'
   /// many-beam spheres, shown on the detector as 1 + contrast · (I/⟨I⟩ − 1) (as `synth` renders
   /// `model = "many-beam"`). Either supplies the model-led estimator's references and the learned
