@@ -21,4 +21,8 @@ MismatchSystematic mismatch_systematic(const std::string& estimator) {
   return {std::nan(""), std::nan(""), 0, 0, "not measured for this estimator"};
 }
 
+MismatchSystematic mismatch_systematic_of_run(const std::string& estimator, bool rescaled) {
+  return mismatch_systematic(rescaled ? "" : estimator);
+}
+
 }  // namespace orderband

@@ -59,10 +59,7 @@ std::string base64(const std::string& bytes) {
 /// The model-mismatch systematic of the area fraction for the estimator that ran (none where
 /// reference regions or a mixture fit set the end members, or for the window estimator).
 MismatchSystematic systematic_of(const MapResults& r, const MapOptions& o) {
-  if (r.fraction.estimator == "learned") return mismatch_systematic("learned");
-  if (r.fraction.estimator == "profile" && o.fraction.end_members == EndMemberMode::model)
-    return mismatch_systematic("profile");
-  return mismatch_systematic("");
+  return mismatch_systematic_of_run(r.fraction.estimator, o.fraction.end_members != EndMemberMode::model);
 }
 
 std::string systematic_row(const MapResults& r, const MapOptions& o) {

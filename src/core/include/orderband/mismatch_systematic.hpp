@@ -25,4 +25,10 @@ struct MismatchSystematic {
 /// estimator); other estimators (reference regions) have none: rms NaN.
 MismatchSystematic mismatch_systematic(const std::string& estimator);
 
+/// The systematic that applies to one run: the suite's figures for the estimator that ran where
+/// its end members came from the model or from its own placement; none (rms NaN) where reference
+/// regions or a mixture fit rescaled them (`rescaled`), a set-up the suite's figures do not
+/// describe.
+MismatchSystematic mismatch_systematic_of_run(const std::string& estimator, bool rescaled);
+
 }  // namespace orderband
