@@ -17,7 +17,70 @@ bool FractionSpec::in_reference(size_t k, GridPoint p, bool ordered) const {
   return false;
 }
 
-void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, bool learned) {
+namespace {
+
+/// Region points a grain needs for its zero to be the region's own mean.
+constexpr double kMinRegionPoints = 20;
+
+/// Whether point k is matrix away from particles: measured, below one half, and so are its eight
+/// neighbours (its own value does not take part in the choice beyond the half).
+bool matrix_away_from_particles(const FractionResults& r, const ScanGrid& grid, size_t k) {
+  if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) return false;
+  for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+    const size_t j = grid.index(nb);
+    if (r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.raw[j] >= 0.5) return false;
+  }
+  return true;
+}
+
+/// The learned estimator's zero from a disordered reference region alone (its ordered end member
+/// stays the particles, at 1). Its zeros are per grain, each grain's matrix, so the region sets
+/// the zero of every grain it lies in by that grain's own region points; the other grains move by
+/// the tertiary share t the region showed below the matrix, t = −(region mean), pooled over the
+/// grains holding both region and matrix points, each weighted by the harmonic mean of the two
+/// counts (a grain lying almost wholly in the region has its zero from the region's points around
+/// it and would pull t toward 0; on a scan with one such grain, one global offset had put the
+/// sub-resolution fraction at −0.06 for a truth of 0.05). f' = (f − z_g)/(1 − z_g).
+void learned_zero_from_region(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
+                              const GrainMap& grains) {
+  const size_t n = r.raw.size();
+  const int count = grains.count();
+  std::vector<double> region_sum(count + 1, 0.0), region_n(count + 1, 0.0), matrix_n(count + 1, 0.0);
+  double all_sum = 0, all_n = 0;
+  for (size_t k = 0; k < n; ++k) {
+    const int g = grains.id[k];
+    if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    if (spec.in_reference(k, grid.point(k), false))
+      region_sum[g] += r.raw[k], region_n[g] += 1, all_sum += r.raw[k], all_n += 1;
+    else if (matrix_away_from_particles(r, grid, k))
+      matrix_n[g] += 1;
+  }
+  if (!(all_n > 0)) fail("fraction: the disordered reference region holds no measured point");
+  double t_sum = 0, t_weight = 0;
+  for (int g = 1; g <= count; ++g)
+    if (region_n[g] > 0 && matrix_n[g] > 0) {
+      const double w = 2 * region_n[g] * matrix_n[g] / (region_n[g] + matrix_n[g]);
+      t_sum += -w * region_sum[g] / region_n[g], t_weight += w;
+    }
+  const double t = t_weight > 0 ? t_sum / t_weight : -all_sum / all_n;
+  std::vector<double> zero(count + 1, -t);
+  for (int g = 1; g <= count; ++g)
+    if (region_n[g] >= kMinRegionPoints) zero[g] = region_sum[g] / region_n[g];
+  for (size_t k = 0; k < n; ++k) {
+    const int g = grains.id[k];
+    if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+    const double scale = 1.0 / (1.0 - zero[g]);
+    r.raw[k] = static_cast<float>((r.raw[k] - zero[g]) * scale);
+    r.uncertainty[k] = static_cast<float>(r.uncertainty[k] * scale);
+    r.fraction[k] = std::clamp(r.raw[k], 0.0f, 1.0f);
+  }
+  r.calibration_offset = -t, r.calibration_scale = 1.0 / (1.0 + t);
+}
+
+}  // namespace
+
+void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, const GrainMap& grains,
+                           bool learned) {
   const size_t n = r.raw.size();
   // End members from the scan: a two-component mixture of the raw estimates.
   std::vector<double> values;
@@ -35,6 +98,11 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
     for (const std::vector<uint8_t>* mask : {&spec.ordered_mask, &spec.disordered_mask})
       if (!mask->empty() && mask->size() != n)
         fail("fraction: a reference mask has ", mask->size(), " points, the scan ", n);
+    const bool ordered_given = !spec.ordered_mask.empty() || !spec.ordered_regions.empty();
+    if (learned && !ordered_given) {
+      learned_zero_from_region(r, spec, grid, grains);
+      return;
+    }
     double m[2] = {0, 0};
     int cnt[2] = {0, 0};
     for (size_t k = 0; k < n; ++k) {
@@ -42,11 +110,7 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
       for (int phase = 0; phase < 2; ++phase)
         if (spec.in_reference(k, grid.point(k), phase == 1)) m[phase] += r.raw[k], cnt[phase] += 1;
     }
-    // The learned estimator's ordered end member is the scan's own particles (1 by its placement),
-    // so a disordered region alone suffices there: it moves the zero from the matrix to the region.
-    const bool ordered_given = !spec.ordered_mask.empty() || !spec.ordered_regions.empty();
-    if (learned && !ordered_given) m[1] = 1, cnt[1] = 1;
-    if (!ordered_given && !learned)
+    if (!ordered_given)
       fail("fraction: the model-led estimator needs an ordered reference region as well as a disordered one");
     if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
     m[0] /= cnt[0], m[1] /= cnt[1];

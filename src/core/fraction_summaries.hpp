@@ -13,10 +13,12 @@ namespace orderband {
 
 /// The end members: with the model's (default) or the learned estimator's, the raw estimates stand;
 /// `EndMemberMode::mixture` rescales them so that a two-component mixture of the scan sits at 0 and
-/// 1, `EndMemberMode::regions` so that the reference regions do. Then every measured point's
-/// fraction is the rescaled raw value clipped to [0, 1]. Records the mixture of the raw estimates
-/// as r.disordered / r.ordered (model-led estimators only).
-void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, bool learned);
+/// 1, `EndMemberMode::regions` so that the reference regions do (with the learned estimator and a
+/// disordered region alone, grain by grain: the region sets the zero, the particles stay at 1). Then every measured
+/// point's fraction is the rescaled raw value clipped to [0, 1]. Records the mixture of the raw estimates as
+/// r.disordered / r.ordered (model-led estimators only).
+void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, const GrainMap& grains,
+                           bool learned);
 
 /// Per grain: points and mean fraction; the matrix away from particles (a point whose eight
 /// neighbours are all measured and below one half): per grain its points, mean and spread, and

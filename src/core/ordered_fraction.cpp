@@ -71,7 +71,7 @@ FractionResults ordered_fraction_scan(const ScanInputs& inputs, const Orientatio
   else
     separation = estimate_model_led(scan, refs, r, progress, store);
 
-  calibrate_end_members(r, spec, scan.grid, learned);
+  calibrate_end_members(r, spec, scan.grid, ori.grains, learned);
   summarise_grains_and_matrix(r, spec, scan.grid, ori.grains);
   r.families = family_diagnostics(scan, refs, separation, learned_families);
   return r;

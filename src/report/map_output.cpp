@@ -875,6 +875,24 @@ std::string learned_verdict_row(const MapResults& r) {
   return "<tr><td>learned estimator</td><td>" + xml_escape(verdict) + "</td></tr>";
 }
 
+/// Where the end members came from, where not from the estimator itself (empty then): reference
+/// regions with their point counts, or a mixture fit.
+std::string end_members_row(const ScanGrid& grid, const MapResults& r, const FractionSpec& spec) {
+  std::string text;
+  if (spec.end_members == EndMemberMode::mixture) {
+    text = "0 and 1 at the two modes of a mixture fitted to the estimates";
+  } else if (spec.end_members == EndMemberMode::regions) {
+    size_t count[2] = {0, 0};
+    for (size_t k = 0; k < grid.count(); ++k)
+      for (int phase = 0; phase < 2; ++phase) count[phase] += spec.in_reference(k, grid.point(k), phase == 1);
+    text = "0 at the disordered reference region (" + std::to_string(count[0]) + " points; not part of the matrix)";
+    text += count[1] > 0 ? "; 1 at the ordered reference region (" + std::to_string(count[1]) + " points)"
+            : r.fraction.estimator == "learned" ? "; 1 at the scan's own particles (the learned placement)"
+                                                : "";
+  }
+  return text.empty() ? "" : "<tr><td>end members</td><td>" + xml_escape(text) + "</td></tr>";
+}
+
 /// The report's numbers: the area fraction with its intervals, the classes, the truth beside them.
 void write_report_results(std::ostream& h, const ScanConfig& config, const MapResults& r, const MapOptions& options,
                           const nlohmann::json& truth) {
@@ -889,8 +907,8 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
     << format_number("%.4f", r.fraction.subresolution_fraction) << " ± "
     << format_number("%.4f", r.fraction.subresolution_se)
     << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
-    << "</td></tr>" << estimator_row(r) << learned_verdict_row(r) << "<tr><td>points measured / total</td><td>"
-    << r.fraction.measured() << " / " << n << "</td></tr>"
+    << "</td></tr>" << estimator_row(r) << learned_verdict_row(r) << end_members_row(config.grid, r, options.fraction)
+    << "<tr><td>points measured / total</td><td>" << r.fraction.measured() << " / " << n << "</td></tr>"
     << "<tr><td>grains</td><td>" << r.orientations.grains.count() << "</td></tr></table>\n";
   write_class_tables(h, r, config, options.classes);
   write_truth_table(h, truth, r);
