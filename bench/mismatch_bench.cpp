@@ -136,6 +136,27 @@ std::string scenario_text(int v, int side, double counts, double free_layer_um) 
   return os.str();
 }
 
+/// One scan of the suite rendered into `dir` and its orientations found, with its truth.
+struct SuiteScan {
+  SynthScenario scenario;
+  ScanConfig config;
+  OrientationResults ori;
+  std::vector<float> truth;  ///< per point, the beam-weighted ordered fraction
+};
+
+SuiteScan render_suite_scan(int v, int side, double counts, double free_layer_um, const std::string& dir) {
+  std::filesystem::remove_all(dir);
+  std::filesystem::create_directories(dir);
+  std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, free_layer_um);
+  SuiteScan s;
+  s.scenario = read_synth_scenario(dir + "/s.toml");
+  write_synthetic_scan(s.scenario, dir + "/scan", "mismatch_bench");
+  s.config = read_scan_config(dir + "/scan/scan.toml");
+  s.ori = orient_scan(read_scan_inputs(s.config, InputHashing::skip));
+  s.truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+  return s;
+}
+
 /// The decision of issue Wave 2 · A, item 4, on the variants with tertiary γ′: the learned
 /// estimator with a region known to be free of γ′ as its disordered end member (a layer of
 /// kLayerRows rows along the field's first rows, as beneath an oxidised edge; all but its last two
@@ -152,13 +173,10 @@ void print_with_free_layer(int first, int last, int side, double counts, const s
   std::printf("%-28s %9s %8s %7s %7s %7s\n", "variant", "area err", "class %", "sub-res", "|grain|", "region");
   for (int v = first; v <= last && v < count; ++v) {
     if (kSuite[v].tertiary == 0) continue;
-    std::filesystem::remove_all(dir);
-    std::filesystem::create_directories(dir);
-    std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, 0.025 * kLayerRows);
-    write_synthetic_scan(read_synth_scenario(dir + "/s.toml"), dir + "/scan", "mismatch_bench");
-    const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-    const OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
-    const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+    const SuiteScan run = render_suite_scan(v, side, counts, 0.025 * kLayerRows, dir);
+    const ScanConfig& config = run.config;
+    const OrientationResults& ori = run.ori;
+    const std::vector<float>& truth = run.truth;
     const ScanGrid& grid = config.grid;
     FractionSpec spec;
     spec.estimator = FractionEstimator::learned;
@@ -218,14 +236,11 @@ int main(int argc, char** argv) {
   std::map<int, std::array<Row, 2>> rows;
   for (int v = first; v <= last && v < count; ++v) {
     const Variant& var = kSuite[v];
-    std::filesystem::remove_all(dir);
-    std::filesystem::create_directories(dir);
-    std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, 0.0);
-    const SynthScenario scenario = read_synth_scenario(dir + "/s.toml");
-    write_synthetic_scan(scenario, dir + "/scan", "mismatch_bench");
-    const ScanConfig config = read_scan_config(dir + "/scan/scan.toml");
-    const OrientationResults ori = orient_scan(read_scan_inputs(config, InputHashing::skip));
-    const std::vector<float> truth = read_npy(dir + "/scan/truth_fraction.npy").values;
+    const SuiteScan run = render_suite_scan(v, side, counts, 0.0, dir);
+    const SynthScenario& scenario = run.scenario;
+    const ScanConfig& config = run.config;
+    const OrientationResults& ori = run.ori;
+    const std::vector<float>& truth = run.truth;
     const ScanGrid& grid = config.grid;
     double truth_mean = 0;
     for (float t : truth) truth_mean += t / truth.size();

@@ -472,15 +472,21 @@ TEST(LearnedFraction, HoldsOnRendererVariantsItIsNotTold) {
   }
 }
 
+/// A variant of the mismatch suite: its name, the bench's seed for it, its [patterns] and [renderer] keys.
+struct SuiteVariant {
+  const char* name;
+  int seed;
+  std::string patterns, renderer;
+};
+
 /// The mismatch bench's scan (bench/mismatch_bench.cpp): 40 × 40 points, three grains, one primary
 /// particle of 0.4 µm with its own orientation, secondary γ′ 25 %, with the bench's seed per variant;
 /// optionally tertiary γ′ and a γ′-free layer along the first rows.
-std::string mismatch_suite_scenario(int seed, const std::string& patterns, const std::string& renderer,
-                                    double tertiary = 0, double free_layer_um = 0) {
-  return "[scenario]\nseed = " + std::to_string(seed) +
+std::string mismatch_suite_scenario(const SuiteVariant& v, double tertiary = 0, double free_layer_um = 0) {
+  return "[scenario]\nseed = " + std::to_string(v.seed) +
          "\n[scan]\nrows = 40\ncols = 40\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\n"
          "pc_px = [30.0, 18.0]\ndistance_px = 45.0\n[phases]\npair = \"ni\"\n[patterns]\ncounts_per_px = 5000\n" +
-         patterns + "[renderer]\n" + renderer +
+         v.patterns + "[renderer]\n" + v.renderer +
          "[grains]\ncount = 3\n[primary]\narea_fraction = 0.06\ndistribution = \"fixed\"\ndiameter_um = 0.4\n"
          "own_orientation = true\n[secondary]\narea_fraction = 0.25\ndistribution = \"lognormal\"\n"
          "median_diameter_um = 0.15\nsigma_ln = 0.2\n[tertiary]\nfraction = " +
@@ -498,20 +504,15 @@ TEST(LearnedFraction, ADisorderedReferenceRegionMeasuresTheTertiaryShare) {
   // flat bands −0.006 and −0.009, γ′ fundamentals × 1.1 with dark edges −0.011 and −0.001. Without
   // the region the sub-resolution fraction reads 0 by construction and is flagged as not measured
   // (the same scans' areas −0.055 and −0.019).
-  struct Case {
-    const char* name;
-    int seed;
-    std::string patterns, renderer;
-  };
-  const std::vector<Case> cases = {{"flat sharp bands", 33, "edge_contrast = 0.0\n", "band_shape = \"flat\"\n"},
-                                   {"γ′ fundamentals × 1.1, dark edges", 39, "",
-                                    "ordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n"}};
-  for (const Case& c : cases) {
+  const std::vector<SuiteVariant> cases = {
+      {"flat sharp bands", 33, "edge_contrast = 0.0\n", "band_shape = \"flat\"\n"},
+      {"γ′ fundamentals × 1.1, dark edges", 39, "",
+       "ordered_fundamental_ratio = 1.1\nordered_fundamental_edge_contrast = -0.2\n"}};
+  for (const SuiteVariant& c : cases) {
     FractionSpec spec = learned_spec();
     spec.end_members = EndMemberMode::regions;
     spec.disordered_regions = {PointRect{0, 0, 9, 39}};
-    const ScenarioRun r =
-        run_scenario(mismatch_suite_scenario(c.seed, c.patterns, c.renderer, 0.05, 0.3), 0, false, {}, spec);
+    const ScenarioRun r = run_scenario(mismatch_suite_scenario(c, 0.05, 0.3), 0, false, {}, spec);
     EXPECT_TRUE(r.fraction.two_phases) << c.name;
     EXPECT_FALSE(r.fraction.zero_is_matrix) << c.name;
     EXPECT_NEAR(r.fraction.subresolution_fraction, 0.05, 0.03) << c.name;
@@ -532,16 +533,11 @@ TEST(LearnedFraction, HoldsOnTheSuitesVariantsThatChainedGrainsAndFaintGrainsBro
   // point by point (ΔBIC −0.7) was taken for ordered alone (+0.154 before its neighbourhood means
   // were tested). Measured now: +0.006 and −0.006; the primary's grain at 0.97 and 0.98 (issue
   // Wave 2 · A: > 0.9); each pure-γ grain's matrix within 0.05.
-  struct Case {
-    const char* name;
-    int seed;
-    std::string patterns, renderer;
-  };
-  const std::vector<Case> cases = {{"weights |F|^1", 32, "band_exponent = 1.0\n", ""},
-                                   {"Gaussian bands", 34, "edge_contrast = 0.0\n", "band_shape = \"gaussian\"\n"}};
-  for (const Case& c : cases) {
-    const ScenarioRun r =
-        run_scenario(mismatch_suite_scenario(c.seed, c.patterns, c.renderer), 0, false, {}, learned_spec());
+  const std::vector<SuiteVariant> cases = {
+      {"weights |F|^1", 32, "band_exponent = 1.0\n", ""},
+      {"Gaussian bands", 34, "edge_contrast = 0.0\n", "band_shape = \"gaussian\"\n"}};
+  for (const SuiteVariant& c : cases) {
+    const ScenarioRun r = run_scenario(mismatch_suite_scenario(c), 0, false, {}, learned_spec());
     EXPECT_TRUE(r.fraction.two_phases) << c.name;
     EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03) << c.name;
     // Per found grain: mostly ordered in truth (the primary) → mean f > 0.9; else its matrix

@@ -22,8 +22,10 @@ namespace {
 /// Region points a grain needs for its zero to be the region's own mean.
 constexpr double kMinRegionPoints = 20;
 
-/// Whether point k is matrix away from particles: measured, below one half, and so are its eight
-/// neighbours (its own value does not take part in the choice beyond the half).
+/// Whether point k is matrix away from particles: measured, with its eight neighbours all measured
+/// and below one half. Its own value does not take part in the choice, which would cut off its
+/// upper noise tail (with a per-point spread of 0.28, as at 5,000 counts on 60 × 60 px, that biases
+/// the mean by −0.035).
 bool matrix_away_from_particles(const FractionResults& r, const ScanGrid& grid, size_t k) {
   if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) return false;
   for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
@@ -40,9 +42,10 @@ bool matrix_away_from_particles(const FractionResults& r, const ScanGrid& grid, 
 /// grains holding both region and matrix points, each weighted by the harmonic mean of the two
 /// counts (a grain lying almost wholly in the region has its zero from the region's points around
 /// it and would pull t toward 0; on a scan with one such grain, one global offset had put the
-/// sub-resolution fraction at −0.06 for a truth of 0.05). f' = (f − z_g)/(1 − z_g).
-void learned_zero_from_region(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
-                              const GrainMap& grains) {
+/// sub-resolution fraction at −0.06 for a truth of 0.05). Returns per grain (index 0: points of no
+/// grain) the zero z_g; the scale is 1/(1 − z_g).
+std::vector<double> learned_zero_from_region(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
+                                             const GrainMap& grains) {
   const size_t n = r.raw.size();
   const int count = grains.count();
   std::vector<double> region_sum(count + 1, 0.0), region_n(count + 1, 0.0), matrix_n(count + 1, 0.0);
@@ -66,15 +69,8 @@ void learned_zero_from_region(FractionResults& r, const FractionSpec& spec, cons
   std::vector<double> zero(count + 1, -t);
   for (int g = 1; g <= count; ++g)
     if (region_n[g] >= kMinRegionPoints) zero[g] = region_sum[g] / region_n[g];
-  for (size_t k = 0; k < n; ++k) {
-    const int g = grains.id[k];
-    if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-    const double scale = 1.0 / (1.0 - zero[g]);
-    r.raw[k] = static_cast<float>((r.raw[k] - zero[g]) * scale);
-    r.uncertainty[k] = static_cast<float>(r.uncertainty[k] * scale);
-    r.fraction[k] = std::clamp(r.raw[k], 0.0f, 1.0f);
-  }
   r.calibration_offset = -t, r.calibration_scale = 1.0 / (1.0 + t);
+  return zero;
 }
 
 }  // namespace
@@ -88,6 +84,7 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
     if (r.reason[k] == static_cast<uint8_t>(FractionReason::ok)) values.push_back(r.raw[k]);
   const auto mix = two_component_mixture(values);
   if (!learned) r.disordered = mix[0], r.ordered = mix[1];
+  std::vector<double> zero;  // per grain, where the zeros are set grain by grain
   if (spec.end_members == EndMemberMode::mixture && !learned) {
     if (mix[1].mean - mix[0].mean < 0.3 || mix[0].weight < 0.02 || mix[1].weight < 0.02)
       fail("fraction: the scan does not show two separated phases (mixture means ", mix[0].mean, " and ", mix[1].mean,
@@ -100,28 +97,33 @@ void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const S
         fail("fraction: a reference mask has ", mask->size(), " points, the scan ", n);
     const bool ordered_given = !spec.ordered_mask.empty() || !spec.ordered_regions.empty();
     if (learned && !ordered_given) {
-      learned_zero_from_region(r, spec, grid, grains);
-      return;
+      zero = learned_zero_from_region(r, spec, grid, grains);
+    } else {
+      if (!ordered_given)
+        fail("fraction: the model-led estimator needs an ordered reference region as well as a disordered one");
+      double m[2] = {0, 0};
+      int cnt[2] = {0, 0};
+      for (size_t k = 0; k < n; ++k) {
+        if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
+        for (int phase = 0; phase < 2; ++phase)
+          if (spec.in_reference(k, grid.point(k), phase == 1)) m[phase] += r.raw[k], cnt[phase] += 1;
+      }
+      if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
+      m[0] /= cnt[0], m[1] /= cnt[1];
+      if (!(m[1] > m[0])) fail("fraction: the ordered reference region is not above the disordered one");
+      r.calibration_offset = m[0];
+      r.calibration_scale = 1.0 / (m[1] - m[0]);
     }
-    double m[2] = {0, 0};
-    int cnt[2] = {0, 0};
-    for (size_t k = 0; k < n; ++k) {
-      if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      for (int phase = 0; phase < 2; ++phase)
-        if (spec.in_reference(k, grid.point(k), phase == 1)) m[phase] += r.raw[k], cnt[phase] += 1;
-    }
-    if (!ordered_given)
-      fail("fraction: the model-led estimator needs an ordered reference region as well as a disordered one");
-    if (!cnt[0] || !cnt[1]) fail("fraction: reference regions hold no measured point of one phase");
-    m[0] /= cnt[0], m[1] /= cnt[1];
-    if (!(m[1] > m[0])) fail("fraction: the ordered reference region is not above the disordered one");
-    r.calibration_offset = m[0];
-    r.calibration_scale = 1.0 / (m[1] - m[0]);
   }
+  // Every measured point rescaled: by its grain's zero (scale 1/(1 − zero)) where the zeros are per
+  // grain, else by the one offset and scale.
   for (size_t k = 0; k < n; ++k) {
     if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-    r.raw[k] = static_cast<float>((r.raw[k] - r.calibration_offset) * r.calibration_scale);
-    r.uncertainty[k] = static_cast<float>(r.uncertainty[k] * r.calibration_scale);
+    const int g = std::max(grains.id[k], 0);
+    const double offset = zero.empty() ? r.calibration_offset : zero[g];
+    const double scale = zero.empty() ? r.calibration_scale : 1.0 / (1.0 - zero[g]);
+    r.raw[k] = static_cast<float>((r.raw[k] - offset) * scale);
+    r.uncertainty[k] = static_cast<float>(r.uncertainty[k] * scale);
     r.fraction[k] = std::clamp(r.raw[k], 0.0f, 1.0f);
   }
 }
@@ -138,24 +140,16 @@ void summarise_grains_and_matrix(FractionResults& r, const FractionSpec& spec, c
     if (g <= 0 || r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
     r.grains[g - 1].points += 1, grain_sum[g] += r.raw[k];
   }
-  // Sub-resolution ordering in the matrix away from resolved particles. A point counts as matrix
-  // when its eight neighbours are all below one half; its own value does not take part in the
-  // choice, which would cut off its upper noise tail (with a per-point spread of 0.28, as at
-  // 5,000 counts on 60 × 60 px, that biases the mean by −0.035).
+  // Sub-resolution ordering in the matrix away from resolved particles (matrix_away_from_particles).
   {
     std::map<std::pair<int, int>, std::pair<double, int>> blocks;
     double sum = 0;
     size_t matrix_count = 0;
     for (size_t k = 0; k < n; ++k) {
       if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) continue;
-      bool near_particle = false;
-      for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
-        const size_t j = grid.index(nb);
-        near_particle =
-            near_particle || r.reason[j] != static_cast<uint8_t>(FractionReason::ok) || r.fraction[j] >= 0.5;
-      }
       // A disordered reference region is the zero, not the specimen's matrix.
-      if (near_particle || (spec.end_members == EndMemberMode::regions && spec.in_reference(k, grid.point(k), false)))
+      if (!matrix_away_from_particles(r, grid, k) ||
+          (spec.end_members == EndMemberMode::regions && spec.in_reference(k, grid.point(k), false)))
         continue;
       sum += r.raw[k], ++matrix_count;
       if (const int g = grains.id[k]; g > 0)

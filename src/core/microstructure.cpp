@@ -48,6 +48,12 @@ double Particle::section_ecd_um() const {
 
 namespace {
 
+/// How far a particle's section can reach from its centre in the section plane: half its
+/// diameter, × 1.3 for a cuboid's corners.
+double section_reach_um(const Particle& p) {
+  return 0.5 * p.diameter_um * (p.shape == ParticleShape::cuboid ? 1.3 : 1.0);
+}
+
 void check_spec(const MicrostructureSpec& spec) {
   if (!(spec.width_um > 0 && spec.height_um > 0)) fail("microstructure field must have a positive size");
   if (spec.grain_count < 1) fail("grain count must be at least 1, got ", spec.grain_count);
@@ -199,7 +205,7 @@ void Microstructure::place_secondary(std::mt19937_64& rng) {
 
 void Microstructure::index_particle(int k) {
   const Particle& p = particles_[k];
-  const double r = 0.5 * p.diameter_um * (p.shape == ParticleShape::cuboid ? 1.3 : 1.0);
+  const double r = section_reach_um(p);
   const int x0 = static_cast<int>(std::floor((p.centre_um.x() - r + cell_um_) / cell_um_));
   const int x1 = static_cast<int>(std::floor((p.centre_um.x() + r + cell_um_) / cell_um_));
   const int y0 = static_cast<int>(std::floor((p.centre_um.y() - r + cell_um_) / cell_um_));
@@ -209,11 +215,10 @@ void Microstructure::index_particle(int k) {
       cells_[static_cast<size_t>(y) * cells_x_ + x].push_back(k);
 }
 
-/// Whether any part of a particle lies in the γ′-free layer (its circumscribed radius, as the
+/// Whether any part of a particle lies in the γ′-free layer (within its section reach, as the
 /// spatial hash takes it).
 bool Microstructure::reaches_free_layer(const Particle& p) const {
-  const double r = 0.5 * p.diameter_um * (p.shape == ParticleShape::cuboid ? 1.3 : 1.0);
-  return spec_.free_layer_um > 0 && p.centre_um.y() - r < spec_.free_layer_um;
+  return spec_.free_layer_um > 0 && p.centre_um.y() - section_reach_um(p) < spec_.free_layer_um;
 }
 
 bool Microstructure::overlaps(const Particle& p) const {
