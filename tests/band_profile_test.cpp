@@ -9,23 +9,16 @@
 #include "orderband/band_model.hpp"
 #include "orderband/phase_cif.hpp"
 #include "orderband/units.hpp"
+#include "test_support.hpp"
 
 namespace orderband {
 namespace {
-
-DetectorGeometry detector(int px = 80) {
-  DetectorGeometrySpec s;
-  s.width_px = s.height_px = px;
-  s.pc_px = {px / 2.0, 0.3 * px};
-  s.distance_px = 0.75 * px;
-  return DetectorGeometry(s);
-}
 
 TEST(BandProfile, SyntheticBandEdgesAndCentre) {
   // One plane, θ_B = 1.2°, flat band with soft edges (the band model's profile, no edge lines),
   // rendered with 4 × 4 sub-pixel sampling: the profile's half-height points must sit at
   // ±θ_B within one bin and its centroid within 0.05° of the plane trace.
-  const DetectorGeometry geo = detector();
+  const DetectorGeometry geo = test::square_screen();
   const DetectorRays rays(geo);
   const double theta = deg_to_rad(1.2);
   KinematicBandModel shape(load_phase_cif(ORDERBAND_TEST_DATA_DIR "/ni-fcc.cif"), 20,
@@ -78,7 +71,7 @@ TEST(BandProfile, SyntheticBandEdgesAndCentre) {
 }
 
 TEST(BandProfile, UniformSphereGivesFlatProfiles) {
-  const DetectorGeometry geo = detector();
+  const DetectorGeometry geo = test::square_screen();
   const DetectorRays rays(geo);
   const std::vector<float> uniform(80 * 80, 3.0f);
   const BandProfiler profiler({{"{111}",
@@ -150,7 +143,7 @@ TEST(BandProfile, FixedOrientationGivesTheSameSumsAsAnyOrientation) {
   // a circular mask. Both against a plain loop in double precision: a bin's pixels agree except
   // where the arcsine's single-precision series and the exact one round a pixel into the next bin
   // (measured 36 of 3,920 bins over 80 patterns at 80 × 80 px in bench/profile_bench: under 1 %).
-  const DetectorGeometry geo = detector();
+  const DetectorGeometry geo = test::square_screen();
   const DetectorRays rays(geo);
   const std::vector<ProfileFamily> families = cubic_families();
   const ProfileSpec spec;
@@ -197,7 +190,7 @@ TEST(BandProfile, FoldedBinsPoolBothSidesOfEachPlane) {
   // bin off where the offset's rounding moves it across a bin edge (the unfolded index is u/bin +
   // u_max/bin in single precision): counts must agree in at least 99 % of the bins, and the total
   // over all bins exactly.
-  const DetectorGeometry geo = detector();
+  const DetectorGeometry geo = test::square_screen();
   const DetectorRays rays(geo);
   const std::vector<ProfileFamily> families = {cubic_families()[0], cubic_families()[2]};  // {111}, {220}
   const BandProfiler two_sided(families, ProfileSpec{2.5, 0.25, false});

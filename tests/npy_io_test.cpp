@@ -15,7 +15,7 @@ using namespace orderband::test;
 
 namespace {
 
-std::string error_of(const std::string& path) {
+std::string npy_error_of(const std::string& path) {
   try {
     read_npy(path);
   } catch (const Error& e) {
@@ -59,19 +59,19 @@ TEST(NpyIo, DamagedFilesAreRefusedBeforeAnythingLarge) {
     const unsigned char bytes[12] = {0x93, 'N', 'U', 'M', 'P', 'Y', 0x76, 0, 0x01, 0x7b, 0x00, 0x27};
     out.write(reinterpret_cast<const char*>(bytes), 12);
   }
-  EXPECT_NE(error_of(dir + "/version.npy").find("format version 118 is not 1, 2 or 3"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/version.npy").find("format version 118 is not 1, 2 or 3"), std::string::npos);
   // A shape whose data the file does not hold is refused before it is allocated.
   write_raw_npy(dir + "/huge.npy", "{'descr': '<f4', 'fortran_order': False, 'shape': (4000000000, 4000000000), }\n",
                 16);
-  EXPECT_NE(error_of(dir + "/huge.npy").find("its shape needs more data than the file holds"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/huge.npy").find("its shape needs more data than the file holds"), std::string::npos);
   write_raw_npy(dir + "/long.npy", "{'descr': '<f4', 'fortran_order': False, 'shape': (2, 3), }\n", 28);
-  EXPECT_NE(error_of(dir + "/long.npy").find("needs 24 bytes of data, the file holds 28"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/long.npy").find("needs 24 bytes of data, the file holds 28"), std::string::npos);
   write_raw_npy(dir + "/short.npy", "{'descr': '<i4', 'fortran_order': False, 'shape': (2, 3), }\n", 20);
-  EXPECT_NE(error_of(dir + "/short.npy").find("needs 24 bytes of data, the file holds 20"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/short.npy").find("needs 24 bytes of data, the file holds 20"), std::string::npos);
   write_raw_npy(dir + "/digits.npy",
                 "{'descr': '<f4', 'fortran_order': False, 'shape': (99999999999999999999999, 1), }\n", 4);
-  EXPECT_NE(error_of(dir + "/digits.npy").find("is too large"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/digits.npy").find("is too large"), std::string::npos);
   write_raw_npy(dir + "/dtype.npy", "{'descr': '<u2', 'fortran_order': False, 'shape': (2,), }\n", 4);
-  EXPECT_NE(error_of(dir + "/dtype.npy").find("unsupported dtype <u2"), std::string::npos);
+  EXPECT_NE(npy_error_of(dir + "/dtype.npy").find("unsupported dtype <u2"), std::string::npos);
   std::filesystem::remove_all(dir);
 }

@@ -6,6 +6,8 @@
 #include <functional>
 #include <string>
 
+#include "orderband/detector_geometry.hpp"
+
 namespace orderband::test {
 
 /// A whole file's bytes (empty if it cannot be read).
@@ -49,5 +51,15 @@ std::string make_temp_dir(const std::string& stem);
 /// 30 % secondary particles of median 0.12 µm, 30 nm steps); returns its scan.toml. `variant`: more
 /// keys of the scenario's [patterns] table, optionally followed by other tables (such as [renderer]).
 std::string write_small_scan(const std::string& dir, int side, int seed, const std::string& variant = "");
+
+/// A square screen of `px` pixels, pattern centre at (px/2, 0.3 px), distance 0.75 px: the geometry
+/// of the profile tests.
+inline DetectorGeometry square_screen(int px = 80) {
+  DetectorGeometrySpec s;
+  s.width_px = s.height_px = px;
+  s.pc_px = {px / 2.0, 0.3 * px};
+  s.distance_px = 0.75 * px;
+  return DetectorGeometry(s);
+}
 
 }  // namespace orderband::test

@@ -161,6 +161,21 @@ void BandProfiler::profile(const float* pattern, const std::vector<uint8_t>& mas
   copy_out(acc, out);
 }
 
+void BandProfiler::profile_weighted(const float* pattern, const std::vector<double>& pixel_weight,
+                                    const DetectorRays& rays, const Rotation& g,
+                                    std::vector<FamilyProfile>& out) const {
+  thread_local std::vector<ProfileSums> acc;
+  acc.assign(families_.size() * bins_, ProfileSums{});
+  for_each_strip_pixel({}, rays, g, [&](size_t q, size_t slot) {
+    const double w = rays.solid_angle[q] * pixel_weight[q];
+    if (!(w > 0)) return;
+    const double v = pattern[q], wv = w * v;
+    ProfileSums& a = acc[slot];
+    a.sum += wv, a.sum_sq += wv * v, a.weight += w, a.weight_sq += w * w, a.count += 1;
+  });
+  copy_out(acc, out);
+}
+
 void BandProfiler::copy_out(const std::vector<ProfileSums>& acc, std::vector<FamilyProfile>& out) const {
   out.resize(families_.size());
   for (size_t f = 0; f < families_.size(); ++f) {

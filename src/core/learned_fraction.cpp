@@ -687,20 +687,22 @@ double median_of(std::vector<double> v) {
   return v.size() % 2 ? v[m] : 0.5 * (v[m - 1] + v[m]);
 }
 
-/// Whether grain h, of one component, holds the ordered phase: its mean features against every grain
-/// g of two components. The data of g give its matrix X₀ and its particles X₁; the model gives how a
-/// disordered grain's features change from g's orientation to h's (M₀,h − M₀,g), scaled per family
-/// to the data by the slope of data on model over the grains of two components. With h's base
-/// X₀ + b (M₀,h − M₀,g), h's position along g's ordering difference D = X₁ − X₀ is
-/// c = (X̄_h − base)·D / D·D over the features of the ordering signature; ordered if the median c
-/// over the grains g is at least one half. Only the model's change between orientations enters,
-/// not its change with ordering nor its absolute intensities.
-std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
-                                               const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
-                                               const std::vector<uint8_t>& one_phase) {
+/// Per grain h of one component and grain g of two (indices = grain ids; NaN elsewhere): h's
+/// position between g's classes by the model's change between orientations. The data of g give its
+/// matrix X₀ and its particles X₁; the model gives how a disordered grain's features change from g's
+/// orientation to h's (M₀,h − M₀,g), scaled per family to the data by the slope of data on model
+/// over the grains of two components. With h's base X₀ + b (M₀,h − M₀,g), h's position along g's
+/// ordering difference D = X₁ − X₀ is c = (X̄_h − base)·D / D·D over the features of the ordering
+/// signature. Only the model's change between orientations enters, not its change with ordering
+/// nor its absolute intensities; but the change is the kinematic model's, which profiles a
+/// dynamical band wrongly.
+std::vector<std::vector<double>> positions_by_model_transfer(const LearnedInputs& in, const GrainFeatures& gf,
+                                                             const std::vector<uint8_t>& label,
+                                                             const std::vector<uint8_t>& two_phase,
+                                                             const std::vector<uint8_t>& one_phase) {
   const size_t p = in.features, bins = in.bins;
   const int G = in.grains;
-  std::vector<uint8_t> ordered(G + 1, 0);
+  std::vector<std::vector<double>> position(G + 1, std::vector<double>(G + 1, std::nan("")));
   // Class means of the grains of two components (points away from grain boundaries).
   std::vector<std::array<std::vector<double>, 2>> cls(G + 1);
   for (int g = 1; g <= G; ++g)
@@ -735,7 +737,6 @@ std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const Gr
   for (int h = 1; h <= G; ++h) {
     if (!one_phase[h]) continue;
     const std::vector<double>& signature = in.ordering_signature[h];
-    std::vector<double> c;
     for (int g = 1; g <= G; ++g) {
       if (!two_phase[g]) continue;
       double num = 0, den = 0;
@@ -746,8 +747,38 @@ std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const Gr
         if (std::isnan(base) || std::isnan(d)) continue;
         num += (gf.mean[h][b] - base) * d, den += d * d;
       }
-      if (den > 0) c.push_back(num / den);
+      if (den > 0) position[h][g] = num / den;
     }
+  }
+  return position;
+}
+
+/// Whether grain h, of one component, holds the ordered phase: its position between the classes
+/// of every grain g of two components, ordered if the median over the grains g is at least one half.
+/// The positions are measured on the grains' mean patterns over the crystal directions both see
+/// (LearnedInputs::position_between) where the scan supplies them; the model's transfer between
+/// orientations (positions_by_model_transfer) stands in for a grain none of them places.
+std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
+                                               const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
+                                               const std::vector<uint8_t>& one_phase) {
+  const int G = in.grains;
+  std::vector<std::vector<double>> by_data;
+  if (in.position_between) {
+    std::vector<uint8_t> cls(in.points, 2);
+    for (size_t k = 0; k < in.points; ++k)
+      if (learns(in, k) && two_phase[in.grain[k]]) cls[k] = label[k];
+    by_data = in.position_between(one_phase, two_phase, cls);
+  }
+  const std::vector<std::vector<double>> by_model = positions_by_model_transfer(in, gf, label, two_phase, one_phase);
+  std::vector<uint8_t> ordered(G + 1, 0);
+  for (int h = 1; h <= G; ++h) {
+    if (!one_phase[h]) continue;
+    std::vector<double> data, model;
+    for (int g = 1; g <= G; ++g) {
+      if (!by_data.empty() && !std::isnan(by_data[h][g])) data.push_back(by_data[h][g]);
+      if (!std::isnan(by_model[h][g])) model.push_back(by_model[h][g]);
+    }
+    const std::vector<double>& c = data.empty() ? model : data;
     ordered[h] = !c.empty() && median_of(c) >= 0.5;
   }
   return ordered;

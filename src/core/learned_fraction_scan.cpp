@@ -8,6 +8,7 @@
 
 #include <Eigen/Dense>
 
+#include "grain_comparison.hpp"
 #include "grain_profilers.hpp"
 #include "orderband/detection_limit.hpp"
 #include "orderband/learned_fraction.hpp"
@@ -309,9 +310,8 @@ std::vector<std::vector<float>> interior_mean_patterns(const FractionScan& scan,
 /// though it took out a lattice two rows away that had put one point at f = 5.
 OtherLattices take_out_other_lattices(const FractionScan& scan, const LinearFeatures& lin,
                                       const std::vector<std::array<std::vector<double>, 2>>& model_features,
-                                      LearnedInputs& in) {
+                                      const std::vector<std::vector<float>>& measured, LearnedInputs& in) {
   OtherLattices taken(scan.n);
-  const std::vector<std::vector<float>> measured = interior_mean_patterns(scan, lin);
   const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model, measured);
   const GrainFeatures interior = grain_features(in);
   for (size_t k = 0; k < scan.n; ++k) {
@@ -393,13 +393,20 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
     in.reference.assign(scan.n, 0);
     for (size_t k = 0; k < scan.n; ++k) in.reference[k] = scan.spec.in_reference(k, scan.grid.point(k), false);
   }
-  const OtherLattices taken = take_out_other_lattices(scan, lin, model_features, in);
+  const std::vector<std::vector<float>> interior_means = interior_mean_patterns(scan, lin);
+  const OtherLattices taken = take_out_other_lattices(scan, lin, model_features, interior_means, in);
   in.model = model_features;
   in.bins = lin.bins;
   in.superlattice_families = scan.families.first_fundamental;
   in.ordering_signature.assign(scan.grains + 1, {});
   for (int g = 1; g <= scan.grains; ++g)
     in.ordering_signature[g] = ordering_signature(lin.features, scan.families, model_features[g]);
+  const CommonViewComparison common_view(scan, lin.data, lin.model, lin.features, interior_means,
+                                         in.ordering_signature);
+  in.position_between = [&common_view](const std::vector<uint8_t>& one_phase, const std::vector<uint8_t>& two_phase,
+                                       const std::vector<uint8_t>& cls) {
+    return common_view.positions(one_phase, two_phase, cls);
+  };
   for (size_t k = 0; k < scan.n; ++k)
     if (in.grain[k] > 0)
       in.first_guess[k] =

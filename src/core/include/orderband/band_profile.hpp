@@ -114,6 +114,12 @@ class BandProfiler {
   void profile(const float* pattern, const std::vector<uint8_t>& mask, const DetectorRays& rays, const Rotation& g,
                std::vector<FamilyProfile>& out) const;
 
+  /// The same with every pixel's solid angle multiplied by `pixel_weight` (one per detector pixel;
+  /// 0 leaves a pixel out): profiles of two patterns over an equal density of crystal directions
+  /// (CommonViewComparison).
+  void profile_weighted(const float* pattern, const std::vector<double>& pixel_weight, const DetectorRays& rays,
+                        const Rotation& g, std::vector<FamilyProfile>& out) const;
+
   /// The profiler of many patterns at orientation g (FixedOrientationProfiler); it refers to this
   /// profiler, which must outlive it.
   FixedOrientationProfiler at_orientation(const std::vector<uint8_t>& mask, const DetectorRays& rays,

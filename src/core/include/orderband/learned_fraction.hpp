@@ -4,6 +4,7 @@
 #include <array>
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <vector>
 
 #include "orderband/spatial_evidence.hpp"
@@ -38,6 +39,14 @@ struct LearnedInputs {
   /// not how they change with ordering. May be empty.
   std::vector<std::array<std::vector<double>, 2>> model;
   size_t bins = 0;
+  /// Where set: per grain h of `one_phase` and grain g of `two_phase` (indices = grain ids), h's
+  /// position between the two classes of g's points (`cls` per point: 0, 1, or 2 where not to be
+  /// used), 0 at g's class 0 and 1 at its class 1, measured on the data alone (NaN where it cannot
+  /// be). Names the grains of one component; where unset or NaN, the model's change between
+  /// orientations stands in (ordered_alone_by_transfer).
+  std::function<std::vector<std::vector<double>>(
+      const std::vector<uint8_t>& one_phase, const std::vector<uint8_t>& two_phase, const std::vector<uint8_t>& cls)>
+      position_between;
   size_t superlattice_families = 0;  ///< the first families are the superlattice ones, the rest fundamental
   int cols = 0;  ///< points lie row by row, `cols` to a row: neighbours for the spatial start (0: no neighbours known)
   /// How far the beam reaches, in points along the rows and along the columns (about two standard
