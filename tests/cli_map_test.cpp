@@ -191,6 +191,14 @@ TEST(MapLearned, ADisorderedReferenceRegionMeasuresTheTertiaryShare) {
   EXPECT_TRUE(s["systematic_uncertainty"].is_null());
   EXPECT_NE(slurp(dir + "/out/report.html").find("0 at the disordered reference region (400 points"),
             std::string::npos);
+  // Each grain's verdict: both phases, or one phase with what named it.
+  int both = 0;
+  for (const auto& g : s["grain_fractions"]) {
+    const std::string phases = g["phases"], named_by = g["named_by"];
+    both += phases == "two_components";
+    EXPECT_EQ(named_by == "none", phases == "two_components" || phases == "not_placed") << "grain " << g["id"];
+  }
+  EXPECT_GE(both, 1);
   fs::remove_all(dir);
 }
 

@@ -42,7 +42,8 @@ std::vector<float> cubic_pattern_at(const DetectorGeometry& geo, const Rotation&
 }
 
 std::vector<double> weighted_profile_means(const BandProfiler& profiler, const std::vector<float>& pattern,
-                                  const std::vector<double>& weight, const DetectorRays& rays, const Rotation& g) {
+                                           const std::vector<double>& weight, const DetectorRays& rays,
+                                           const Rotation& g) {
   std::vector<FamilyProfile> prof;
   profiler.profile_weighted(pattern.data(), weight, rays, g, prof);
   std::vector<double> m;
@@ -56,7 +57,8 @@ TEST(CommonView, TwoOrientationsProfileTheSameIntensityAlikeOverTheirCommonDirec
   // strength changes along it; weighted to the same density of directions they agree.
   const DetectorGeometry geo = test::square_screen();
   const DetectorRays rays(geo);
-  const BandProfiler profiler({{"{100}", {{1, 0, 0}, {0, 1, 0}, {0, 0, 1}}, deg_to_rad(1.5)}}, ProfileSpec{2.5, 0.25, true});
+  const BandProfiler profiler({{"{100}", {{1, 0, 0}, {0, 1, 0}, {0, 0, 1}}, deg_to_rad(1.5)}},
+                              ProfileSpec{2.5, 0.25, true});
   const std::vector<Rotation> g = random_rotations(12, 5);
   double plain_sum = 0, common_sum = 0;
   int pairs = 0;
@@ -66,7 +68,8 @@ TEST(CommonView, TwoOrientationsProfileTheSameIntensityAlikeOverTheirCommonDirec
     const CommonView view = common_view_weights(rays, {}, g[k], g[k + 1], CrystalSymmetry::cubic(), 16);
     EXPECT_GT(view.shared, 0.3);
     EXPECT_LE(view.shared, 1.0);
-    const auto a = weighted_profile_means(profiler, pa, ones, rays, g[k]), b = weighted_profile_means(profiler, pb, ones, rays, g[k + 1]);
+    const auto a = weighted_profile_means(profiler, pa, ones, rays, g[k]),
+               b = weighted_profile_means(profiler, pb, ones, rays, g[k + 1]);
     const auto ca = weighted_profile_means(profiler, pa, view.a, rays, g[k]);
     const auto cb = weighted_profile_means(profiler, pb, view.b, rays, g[k + 1]);
     // Differences in units of the band's height in the first profile (centre bin over the last).
@@ -90,7 +93,7 @@ TEST(CommonView, APositionBetweenTwoClassesIgnoresEachFamilysOffset) {
   std::vector<double> h(8), signature = {1, 1, 1, 0, 1, 1, 1, 1};
   const double offset[2] = {0.37, -1.2};
   for (size_t i = 0; i < 8; ++i) h[i] = class0[i] + 0.7 * (class1[i] - class0[i]) + offset[i / 4];
-  h[3] = 50.0;           // outside the signature
+  h[3] = 50.0;          // outside the signature
   h[6] = std::nan("");  // not covered
   EXPECT_NEAR(position_between_classes(h, class0, class1, signature, 4), 0.7, 1e-12);
   // The class difference alone, with no family of two usable bins: no position.

@@ -59,8 +59,7 @@ CommonView common_view_weights(const DetectorRays& rays, const std::vector<uint8
   for (int s = 0; s < 2; ++s) {
     weight[s]->assign(rays.direction.size(), 0.0);
     for (size_t q = 0; q < cell[s].size(); ++q)
-      if (const long c = cell[s][q]; c >= 0)
-        (*weight[s])[q] = std::min(density[0][c], density[1][c]) / density[s][c];
+      if (const long c = cell[s][q]; c >= 0) (*weight[s])[q] = std::min(density[0][c], density[1][c]) / density[s][c];
   }
   double shared = 0, all = 0;
   for (long c = 0; c < cells.npix(); ++c) shared += std::min(density[0][c], density[1][c]), all += density[0][c];
@@ -69,8 +68,7 @@ CommonView common_view_weights(const DetectorRays& rays, const std::vector<uint8
 }
 
 double position_between_classes(const std::vector<double>& h, const std::vector<double>& class0,
-                                const std::vector<double>& class1, const std::vector<double>& signature,
-                                size_t bins) {
+                                const std::vector<double>& class1, const std::vector<double>& signature, size_t bins) {
   double num = 0, den = 0;
   for (size_t f = 0; f * bins < signature.size(); ++f) {
     auto used = [&](size_t i) {

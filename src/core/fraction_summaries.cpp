@@ -175,6 +175,9 @@ void summarise_grains_and_matrix(FractionResults& r, const FractionSpec& spec, c
 
   for (int g = 1; g <= count; ++g) {
     GrainFraction& s = r.grains[g - 1];
+    if (static_cast<size_t>(g) < r.learned_grain_kind.size())
+      s.kind = r.learned_grain_kind[g], s.named_by = r.learned_named_by[g],
+      s.named_position = r.learned_named_position[g];
     if (s.points) s.mean = grain_sum[g] / s.points;
     if (s.matrix_points) {
       s.matrix_mean = matrix_sum[g] / s.matrix_points;

@@ -55,8 +55,7 @@ std::vector<std::vector<double>> CommonViewComparison::positions(const std::vect
   const std::vector<int32_t>& id = scan_.ori.grains.id;
   std::array<GrainPatternSums, 2> sums;
   for (uint8_t k = 0; k < 2; ++k)
-    sums[k] =
-        scan_.sum_grain_patterns(data_, [&](size_t q) { return id[q] > 0 && two_phase[id[q]] && cls[q] == k; });
+    sums[k] = scan_.sum_grain_patterns(data_, [&](size_t q) { return id[q] > 0 && two_phase[id[q]] && cls[q] == k; });
   for (int g = 1; g <= G; ++g) {
     if (!two_phase[g] || sums[0].count[g] < kMinClassPatterns || sums[1].count[g] < kMinClassPatterns) continue;
     const std::array<std::vector<float>, 2> classes = {sums[0].mean(g), sums[1].mean(g)};

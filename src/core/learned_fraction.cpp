@@ -660,6 +660,15 @@ struct FirstSplit {
   std::vector<uint8_t> label;          ///< per point: 1 ordered
   std::vector<uint8_t> ordered_grain;  ///< per grain: the ordered phase alone
   std::vector<uint8_t> two_phase;      ///< per grain: two components found
+  std::vector<GrainNamedBy> named_by;  ///< per grain of one component: what named it
+  std::vector<double> position;        ///< per grain of one component: its position (OnePhaseNames)
+};
+
+/// Grains of one component named against the grains of two (ordered_alone_by_transfer), per grain.
+struct OnePhaseNames {
+  std::vector<uint8_t> ordered;
+  std::vector<double> position;        ///< the median position; NaN where none could be taken
+  std::vector<GrainNamedBy> named_by;  ///< common_view or model_transfer
 };
 
 /// Two components of `v` (fitted in units where its 5th and 95th percentiles are 0 and 1), in the
@@ -758,9 +767,9 @@ std::vector<std::vector<double>> positions_by_model_transfer(const LearnedInputs
 /// The positions are measured on the grains' mean patterns over the crystal directions both see
 /// (LearnedInputs::position_between) where the scan supplies them; the model's transfer between
 /// orientations (positions_by_model_transfer) stands in for a grain none of them places.
-std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
-                                               const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
-                                               const std::vector<uint8_t>& one_phase) {
+OnePhaseNames ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
+                                        const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
+                                        const std::vector<uint8_t>& one_phase) {
   const int G = in.grains;
   std::vector<std::vector<double>> by_data;
   if (in.position_between) {
@@ -770,7 +779,8 @@ std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const Gr
     by_data = in.position_between(one_phase, two_phase, cls);
   }
   const std::vector<std::vector<double>> by_model = positions_by_model_transfer(in, gf, label, two_phase, one_phase);
-  std::vector<uint8_t> ordered(G + 1, 0);
+  OnePhaseNames names{std::vector<uint8_t>(G + 1, 0), std::vector<double>(G + 1, std::nan("")),
+                      std::vector<GrainNamedBy>(G + 1, GrainNamedBy::none)};
   for (int h = 1; h <= G; ++h) {
     if (!one_phase[h]) continue;
     std::vector<double> data, model;
@@ -778,10 +788,12 @@ std::vector<uint8_t> ordered_alone_by_transfer(const LearnedInputs& in, const Gr
       if (!by_data.empty() && !std::isnan(by_data[h][g])) data.push_back(by_data[h][g]);
       if (!std::isnan(by_model[h][g])) model.push_back(by_model[h][g]);
     }
+    names.named_by[h] = data.empty() ? GrainNamedBy::model_transfer : GrainNamedBy::common_view;
     const std::vector<double>& c = data.empty() ? model : data;
-    ordered[h] = !c.empty() && median_of(c) >= 0.5;
+    names.position[h] = median_of(c);
+    names.ordered[h] = !c.empty() && names.position[h] >= 0.5;
   }
-  return ordered;
+  return names;
 }
 
 bool transfer_possible(const LearnedInputs& in) {
@@ -830,7 +842,11 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
   const std::vector<double> smooth = neighbourhood_means(in, guess);
   for (size_t k = 0; k < in.points; ++k)
     if (!std::isnan(smooth[k])) smooth_per_grain[in.grain[k]].push_back(smooth[k]);
-  FirstSplit split{std::vector<uint8_t>(in.points, 0), std::vector<uint8_t>(G + 1, 0), {}};
+  FirstSplit split{std::vector<uint8_t>(in.points, 0),
+                   std::vector<uint8_t>(G + 1, 0),
+                   {},
+                   std::vector<GrainNamedBy>(G + 1, GrainNamedBy::none),
+                   std::vector<double>(G + 1, std::nan(""))};
   // Grains of two components are cut midway between them.
   std::vector<double> cut(G + 1, std::nan("")), two_cuts, matrix_to_cut;
   std::vector<uint8_t> two_phase(G + 1, 0), one_phase(G + 1, 0), faint(G + 1, 0);
@@ -866,14 +882,15 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
     split.label[k] = measured(in, k) && two_phase[in.grain[k]] && guess[k] >= cut[in.grain[k]];
   // Grains of one component: which phase, from the grains of two components if there are any.
   if (!two_cuts.empty() && transfer_possible(in)) {
-    split.ordered_grain = ordered_alone_by_transfer(in, gf, split.label, two_phase, one_phase);
+    const OnePhaseNames names = ordered_alone_by_transfer(in, gf, split.label, two_phase, one_phase);
+    split.ordered_grain = names.ordered, split.named_by = names.named_by, split.position = names.position;
     const double offset = median_of(matrix_to_cut);
     for (int g = 1; g <= G; ++g) {
       if (!one_phase[g]) continue;
       if (split.ordered_grain[g] && structure.z[g] >= kOrderedAloneMaxZ) {
         // Structure where the ordered phase alone would have none: the grain holds both phases,
         // too faintly to show two components; cut as the faint grains are.
-        split.ordered_grain[g] = 0, two_phase[g] = 1;
+        split.ordered_grain[g] = 0, two_phase[g] = 1, split.named_by[g] = GrainNamedBy::none;
         if (std::isnan(faint_matrix[g])) {
           double evidence = 0;
           faint_matrix[g] = components(smooth_per_grain[g], evidence)[0].mean;
@@ -894,7 +911,7 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
       if (!one_phase[g]) continue;
       double mean = 0;
       for (double x : per_grain[g]) mean += x / per_grain[g].size();
-      split.ordered_grain[g] = mean >= one_cut;
+      split.ordered_grain[g] = mean >= one_cut, split.named_by[g] = GrainNamedBy::model_level;
       cut[g] = split.ordered_grain[g] ? -HUGE_VAL : one_cut;
     }
   }
@@ -906,13 +923,32 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
     if (in.reference[k] && measured(in, k)) referenced[in.grain[k]] = 1;
   for (int g = 1; g <= G; ++g)
     if (split.ordered_grain[g] && referenced[g])
-      split.ordered_grain[g] = 0,
+      split.ordered_grain[g] = 0, split.named_by[g] = GrainNamedBy::reference_region,
       cut[g] = matrix_to_cut.empty() ? HUGE_VAL : median_of(per_grain[g]) + median_of(matrix_to_cut);
   // Every grain by its cut, now that each has one (the grains of two components as before).
   for (size_t k = 0; k < in.points; ++k)
     if (measured(in, k)) split.label[k] = guess[k] >= cut[in.grain[k]];
   split.two_phase = two_phase;
   return split;
+}
+
+/// How the first split took each grain, into the result (LearnedFraction::grain_kind, named_by,
+/// named_position).
+void record_grain_kinds(const LearnedInputs& in, const FirstSplit& split, LearnedFraction& out) {
+  const int G = in.grains;
+  std::vector<uint8_t> placed(G + 1, 0);
+  for (size_t k = 0; k < in.points; ++k)
+    if (learns(in, k)) placed[in.grain[k]] = 1;
+  out.grain_kind.assign(G + 1, GrainKind::not_placed);
+  out.named_by = split.named_by;
+  out.named_position = split.position;
+  for (int g = 1; g <= G; ++g) {
+    if (!placed[g]) continue;
+    out.grain_kind[g] = split.two_phase[g]       ? GrainKind::two_components
+                        : split.ordered_grain[g] ? GrainKind::ordered_alone
+                                                 : GrainKind::disordered_alone;
+    if (out.grain_kind[g] == GrainKind::two_components) out.named_by[g] = GrainNamedBy::none;
+  }
 }
 
 /// A grain's level between the model's two phases with the data's own scale: the slope b of the
@@ -985,6 +1021,7 @@ LearnedFraction learn_fraction(const LearnedInputs& in, const LearnedSpec& spec)
   const SpatialEvidence structure = scan_structure(in, gf);
   out.spatial_z = structure.pooled;
   const FirstSplit split = first_split(in, gf, guess, structure, spec);
+  record_grain_kinds(in, split, out);
   std::vector<uint8_t> label = split.label;
   std::vector<double> score(n, std::nan("")), f(n, std::nan("")), best_f, best_score;
   std::vector<uint8_t> best_label;

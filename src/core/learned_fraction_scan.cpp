@@ -377,6 +377,9 @@ void take_learned(const LearnedFraction& lf, FractionResults& res) {
   res.learned_spatial_z = lf.spatial_z;
   res.learned_placed_by_patches = lf.placed_by_patches;
   res.learned_iterations = lf.iterations_run;
+  res.learned_grain_kind = lf.grain_kind;
+  res.learned_named_by = lf.named_by;
+  res.learned_named_position = lf.named_position;
   end_members_either_side_of_half(res);
 }
 

@@ -614,7 +614,10 @@ void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const Map
                           {"mean_fraction", s.mean},
                           {"matrix_points", s.matrix_points},
                           {"matrix_mean_fraction", s.matrix_mean},
-                          {"matrix_sd", s.matrix_sd}});
+                          {"matrix_sd", s.matrix_sd},
+                          {"phases", name_of(s.kind)},
+                          {"named_by", name_of(s.named_by)},
+                          {"named_position", s.named_position}});
   }
   j["grain_fractions"] = grain_rows;
   nlohmann::json classes = nlohmann::json::object();
@@ -914,29 +917,66 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
   write_truth_table(h, truth, r);
 }
 
+/// The learned estimator's verdict on a grain, for the report's grain table: both phases, or one
+/// phase with what named it and its position between the two-phase grains' matrix and particles.
+std::string grain_phases_cell(const GrainFraction& s) {
+  switch (s.kind) {
+    case GrainKind::two_components:
+      return "both";
+    case GrainKind::not_placed:
+      return "not placed";
+    default:
+      break;
+  }
+  std::string cell = s.kind == GrainKind::ordered_alone ? "ordered alone" : "disordered alone";
+  switch (s.named_by) {
+    case GrainNamedBy::common_view:
+      return cell + " (at " + format_number("%.2f", s.named_position) + ", common directions)";
+    case GrainNamedBy::model_transfer:
+      return cell + " (at " + format_number("%.2f", s.named_position) + ", by the model between orientations)";
+    case GrainNamedBy::model_level:
+      return cell + " (by the model's level)";
+    case GrainNamedBy::reference_region:
+      return cell + " (reference region)";
+    default:
+      return cell;
+  }
+}
+
 /// The report's table of the largest grains (the orientation-bias check).
 void write_report_grains(std::ostream& h, const MapResults& r) {
   {
     // The largest grains: their matrix away from particles should agree (orientation bias check).
     std::vector<size_t> order;
     for (size_t g = 0; g < r.fraction.grains.size(); ++g)
-      if (r.fraction.grains[g].matrix_points >= 10) order.push_back(g);
+      if (r.fraction.grains[g].matrix_points >= 10 || r.fraction.grains[g].named_by != GrainNamedBy::none)
+        order.push_back(g);
     std::stable_sort(order.begin(), order.end(),
                      [&](size_t a, size_t b) { return r.fraction.grains[a].points > r.fraction.grains[b].points; });
     if (order.size() > 12) order.resize(12);
     if (!order.empty()) {
+      const bool learned = r.fraction.estimator == "learned";
       h << "<h2>Grains</h2><table><tr><th>grain</th><th>points</th><th>mean f</th><th>matrix points</th>"
-           "<th>matrix mean f</th><th>matrix sd</th></tr>";
+           "<th>matrix mean f</th><th>matrix sd</th>"
+        << (learned ? "<th>phases</th>" : "") << "</tr>";
       for (size_t g : order) {
         const GrainFraction& s = r.fraction.grains[g];
         h << "<tr><td>" << g + 1 << "</td><td>" << s.points << "</td><td>" << format_number("%.4f", s.mean)
-          << "</td><td>" << s.matrix_points << "</td><td>" << format_number("%.4f", s.matrix_mean) << "</td><td>"
-          << format_number("%.4f", s.matrix_sd) << "</td></tr>";
+          << "</td><td>" << s.matrix_points << "</td><td>"
+          << (s.matrix_points ? format_number("%.4f", s.matrix_mean) : "–") << "</td><td>"
+          << (s.matrix_points ? format_number("%.4f", s.matrix_sd) : "–") << "</td>";
+        if (learned) h << "<td>" << grain_phases_cell(s) << "</td>";
+        h << "</tr>";
       }
       h << "</table><p>The matrix of every grain, away from particles, holds the same phases, so its mean f should "
            "agree between grains whatever their orientation; a grain far from the others points to a mismatch of the "
            "model at that orientation (every grain is in <code>summary.json</code> under "
-           "<code>grain_fractions</code>).</p>\n";
+           "<code>grain_fractions</code>)."
+        << (learned ? " A grain of one phase (a primary particle with its own orientation, a grain without "
+                      "particles) is named by its position between the matrix (0) and the particles (1) of the "
+                      "grains that hold both, compared over the crystal directions both grains show."
+                    : "")
+        << "</p>\n";
     }
   }
 }

@@ -29,8 +29,7 @@ CommonView common_view_weights(const DetectorRays& rays, const std::vector<uint8
 /// family's mean over them taken out of every profile (so that an offset does not enter),
 /// c = Σ (h − S₀)(S₁ − S₀) / Σ (S₁ − S₀)². NaN where no bin is used.
 double position_between_classes(const std::vector<double>& h, const std::vector<double>& class0,
-                                const std::vector<double>& class1, const std::vector<double>& signature,
-                                size_t bins);
+                                const std::vector<double>& class1, const std::vector<double>& signature, size_t bins);
 
 /// The least-squares slope of `data` on `model` over the entries from `from` on where both are
 /// known (1 where fewer than 4 or no spread).

@@ -7,6 +7,7 @@
 #include <functional>
 #include <vector>
 
+#include "orderband/enum_names.hpp"
 #include "orderband/spatial_evidence.hpp"
 
 namespace orderband {
@@ -96,6 +97,39 @@ std::vector<double> spatial_direction_scores(const LearnedInputs& in, const Grai
 /// a few points give z ∝ √pairs, also where one point alone separates the phases at d′ ≈ 2.
 SpatialEvidence scan_structure(const LearnedInputs& in, const GrainFeatures& gf);
 
+/// How the first split took a grain (LearnedFraction::grain_kind).
+enum class GrainKind : uint8_t {
+  not_placed,        ///< no point of it is learned from or scored
+  two_components,    ///< split between its two components
+  ordered_alone,     ///< one component, the ordered phase
+  disordered_alone,  ///< one component, the disordered phase
+};
+template <>
+struct EnumNames<GrainKind> {
+  static constexpr std::array<std::pair<GrainKind, std::string_view>, 4> names{
+      {{GrainKind::not_placed, "not_placed"},
+       {GrainKind::two_components, "two_components"},
+       {GrainKind::ordered_alone, "ordered_alone"},
+       {GrainKind::disordered_alone, "disordered_alone"}}};
+};
+/// What named a grain of one component (LearnedFraction::named_by).
+enum class GrainNamedBy : uint8_t {
+  none,             ///< not a grain of one component
+  common_view,      ///< its position between the two-phase grains' classes over the directions both show
+  model_transfer,   ///< the same with the model's change between orientations (no comparison possible)
+  model_level,      ///< no grain of two components: its level between the model's two phases
+  reference_region  ///< it holds part of a disordered reference region
+};
+template <>
+struct EnumNames<GrainNamedBy> {
+  static constexpr std::array<std::pair<GrainNamedBy, std::string_view>, 5> names{
+      {{GrainNamedBy::none, "none"},
+       {GrainNamedBy::common_view, "common_directions"},
+       {GrainNamedBy::model_transfer, "model_change_between_orientations"},
+       {GrainNamedBy::model_level, "model_level"},
+       {GrainNamedBy::reference_region, "reference_region"}}};
+};
+
 struct LearnedFraction {
   std::vector<float> f;            ///< per point, unclipped (NaN where not measured)
   std::vector<float> uncertainty;  ///< per point, standard error
@@ -111,6 +145,12 @@ struct LearnedFraction {
   double scale = 0;                ///< score units per unit fraction
   std::vector<double> difference;  ///< per feature: learned ordered − disordered profile difference (fold 0)
   int iterations_run = 0;          ///< the round whose result is kept (1-based)
+  /// Per grain (index = grain id, 0 unused): how the first split took it, what named a grain of one
+  /// component, and its position between the two-phase grains' classes (0 matrix, 1 particles; the
+  /// median over those grains, NaN where not named so).
+  std::vector<GrainKind> grain_kind;
+  std::vector<GrainNamedBy> named_by;
+  std::vector<double> named_position;
 };
 
 /// Learns the direction in profile space that separates the phases (a shrunk linear discriminant
@@ -122,9 +162,10 @@ struct LearnedFraction {
 ///     neighbourhood means, hold two components (ΔBIC ≥ min_evidence), or whose map shows
 ///     structure (scan_structure, z ≥ min_spatial_z), is split between them; a
 ///     grain of one component holds one phase alone,
-///     which one decided against the grains of two components (the model moves their matrix to
-///     the grain's orientation, the data give the ordering difference); without such grains, by
-///     the model's level;
+///     which one decided against the grains of two components (its position between their
+///     matrix and particles over the crystal directions both grains show, position_between, or
+///     failing that the model's change between orientations); without such grains, by the model's
+///     level;
 ///  2. per fold: pooled class difference and within-class covariance of the features (grain and
 ///     class means removed), direction w = Σ⁻¹ Δ, scores of the other fold's points;
 ///  3. end members: per grain, the mean score of its matrix points is 0 (a grain of the ordered

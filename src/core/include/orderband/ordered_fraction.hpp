@@ -162,6 +162,11 @@ struct GrainFraction {
   double mean = 0;           ///< mean unclipped f over them
   size_t matrix_points = 0;  ///< matrix points away from particles (as for the sub-resolution fraction)
   double matrix_mean = 0, matrix_sd = 0;
+  /// Learned estimator: how its first split took the grain, what named it if it holds one phase,
+  /// and its position between the two-phase grains' matrix (0) and particles (1).
+  GrainKind kind = GrainKind::not_placed;
+  GrainNamedBy named_by = GrainNamedBy::none;
+  double named_position = std::nan("");
 };
 
 struct FractionResults {
@@ -178,6 +183,11 @@ struct FractionResults {
   double learned_spatial_z = 0;            ///< learned: lag-one z of the map's structure (scan_structure)
   bool learned_placed_by_patches = false;  ///< learned: end members from the map's patches (fit_patch_mixture)
   int learned_iterations = 0;
+  /// Learned: per grain id (0 unused), LearnedFraction::grain_kind, named_by and named_position
+  /// (copied into `grains` by the summaries).
+  std::vector<GrainKind> learned_grain_kind;
+  std::vector<GrainNamedBy> learned_named_by;
+  std::vector<double> learned_named_position;
   std::vector<float> fraction;       ///< per point, clipped to [0, 1]; NaN where not measured
   std::vector<float> raw;            ///< per point, unclipped estimate (for unbiased means)
   std::vector<float> uncertainty;    ///< per point, standard error of the estimate
