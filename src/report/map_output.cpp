@@ -652,15 +652,15 @@ void add_particle_summary(nlohmann::json& j, const ScanConfig& config, const Map
   nlohmann::json grain_rows = nlohmann::json::array();
   for (size_t g = 0; g < r.fraction.grains.size(); ++g) {
     const GrainFraction& s = r.fraction.grains[g];
-    grain_rows.push_back({{"id", g + 1},
+    nlohmann::json row = {{"id", g + 1},
                           {"points", s.points},
                           {"mean_fraction", s.mean},
                           {"matrix_points", s.matrix_points},
                           {"matrix_mean_fraction", s.matrix_mean},
-                          {"matrix_sd", s.matrix_sd},
-                          {"phases", name_of(s.kind)},
-                          {"named_by", name_of(s.named_by)},
-                          {"named_position", s.named_position}});
+                          {"matrix_sd", s.matrix_sd}};
+    if (r.fraction.estimator == "learned")
+      row["phases"] = name_of(s.kind), row["named_by"] = name_of(s.named_by), row["named_position"] = s.named_position;
+    grain_rows.push_back(std::move(row));
   }
   j["grain_fractions"] = grain_rows;
   nlohmann::json classes = nlohmann::json::object();
