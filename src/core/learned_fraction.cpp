@@ -651,7 +651,7 @@ double component_separation(const std::array<EndMember, 2>& mix) {
 /// midway between them; a grain whose guesses show two components only in their neighbourhood
 /// means (neighbourhood_means) is cut at its matrix level plus the median distance from matrix to
 /// cut of the others. A grain of one component holds either phase alone: which one is decided by
-/// comparing it with the grains of two components (ordered_alone_by_transfer); without such grains,
+/// comparing it with the grains of two components (name_one_phase_grains); without such grains,
 /// by the model's level (its mean guess above the cut between the pooled components). The points of
 /// a grain of the disordered phase alone are split one by one at its median guess plus the median
 /// distance from matrix to cut in the grains of two components (so that the few particles of a
@@ -664,7 +664,7 @@ struct FirstSplit {
   std::vector<double> position;        ///< per grain of one component: its position (OnePhaseNames)
 };
 
-/// Grains of one component named against the grains of two (ordered_alone_by_transfer), per grain.
+/// Grains of one component named against the grains of two (name_one_phase_grains), per grain.
 struct OnePhaseNames {
   std::vector<uint8_t> ordered;
   std::vector<double> position;        ///< the median position; NaN where none could be taken
@@ -767,9 +767,8 @@ std::vector<std::vector<double>> positions_by_model_transfer(const LearnedInputs
 /// The positions are measured on the grains' mean patterns over the crystal directions both see
 /// (LearnedInputs::position_between) where the scan supplies them; the model's transfer between
 /// orientations (positions_by_model_transfer) stands in for a grain none of them places.
-OnePhaseNames ordered_alone_by_transfer(const LearnedInputs& in, const GrainFeatures& gf,
-                                        const std::vector<uint8_t>& label, const std::vector<uint8_t>& two_phase,
-                                        const std::vector<uint8_t>& one_phase) {
+OnePhaseNames name_one_phase_grains(const LearnedInputs& in, const GrainFeatures& gf, const std::vector<uint8_t>& label,
+                                    const std::vector<uint8_t>& two_phase, const std::vector<uint8_t>& one_phase) {
   const int G = in.grains;
   std::vector<std::vector<double>> by_data;
   if (in.position_between) {
@@ -882,7 +881,7 @@ FirstSplit first_split(const LearnedInputs& in, const GrainFeatures& gf, const s
     split.label[k] = measured(in, k) && two_phase[in.grain[k]] && guess[k] >= cut[in.grain[k]];
   // Grains of one component: which phase, from the grains of two components if there are any.
   if (!two_cuts.empty() && transfer_possible(in)) {
-    const OnePhaseNames names = ordered_alone_by_transfer(in, gf, split.label, two_phase, one_phase);
+    const OnePhaseNames names = name_one_phase_grains(in, gf, split.label, two_phase, one_phase);
     split.ordered_grain = names.ordered, split.named_by = names.named_by, split.position = names.position;
     const double offset = median_of(matrix_to_cut);
     for (int g = 1; g <= G; ++g) {

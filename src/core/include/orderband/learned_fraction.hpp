@@ -44,7 +44,7 @@ struct LearnedInputs {
   /// position between the two classes of g's points (`cls` per point: 0, 1, or 2 where not to be
   /// used), 0 at g's class 0 and 1 at its class 1, measured on the data alone (NaN where it cannot
   /// be). Names the grains of one component; where unset or NaN, the model's change between
-  /// orientations stands in (ordered_alone_by_transfer).
+  /// orientations stands in (name_one_phase_grains).
   std::function<std::vector<std::vector<double>>(
       const std::vector<uint8_t>& one_phase, const std::vector<uint8_t>& two_phase, const std::vector<uint8_t>& cls)>
       position_between;
