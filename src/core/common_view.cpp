@@ -89,12 +89,11 @@ double position_between_classes(const std::vector<double>& h, const std::vector<
 }
 
 double data_to_model_slope(const std::vector<double>& data, const std::vector<double>& model, size_t from) {
-  double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+  SlopeSums sums;
   for (size_t i = from; i < data.size(); ++i)
-    if (const double x = model[i], y = data[i]; !std::isnan(x) && !std::isnan(y))
-      sx += x, sy += y, sxx += x * x, sxy += x * y, n += 1;
-  const double var = sxx - sx * sx / std::max(n, 1.0);
-  return n >= 4 && var > 0 ? (sxy - sx * sy / n) / var : 1.0;
+    if (const double x = model[i], y = data[i]; !std::isnan(x) && !std::isnan(y)) sums.add(x, y);
+  const double slope = sums.slope();
+  return std::isnan(slope) ? 1.0 : slope;
 }
 
 }  // namespace orderband

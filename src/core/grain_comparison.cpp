@@ -19,9 +19,7 @@ std::vector<double> CommonViewComparison::profiled(const std::vector<float>& pat
   features_.profile_weighted(pattern.data(), weight, scan_.rays, scan_.grain_orientation[g], prof);
   const size_t bins = static_cast<size_t>(features_.bins());
   std::vector<double> out(prof.size() * bins, std::nan(""));
-  for (size_t f = 0; f < prof.size(); ++f)
-    for (size_t b = 0; b < bins; ++b)
-      if (prof[f].weight[b] > 0) out[f * bins + b] = prof[f].mean(b);
+  profile_bin_means(prof, bins, out.data());
   return out;
 }
 

@@ -7,6 +7,7 @@
 
 #include <Eigen/Dense>
 
+#include "orderband/common_view.hpp"
 #include "orderband/end_member_mixture.hpp"
 #include "orderband/error.hpp"
 #include "orderband/ordered_fraction.hpp"
@@ -712,6 +713,7 @@ std::vector<std::vector<double>> positions_by_model_transfer(const LearnedInputs
   const size_t p = in.features, bins = in.bins;
   const int G = in.grains;
   std::vector<std::vector<double>> position(G + 1, std::vector<double>(G + 1, std::nan("")));
+  if (std::find(one_phase.begin(), one_phase.end(), 1) == one_phase.end()) return position;
   // Class means of the grains of two components (points away from grain boundaries).
   std::vector<std::array<std::vector<double>, 2>> cls(G + 1);
   for (int g = 1; g <= G; ++g)
@@ -732,16 +734,12 @@ std::vector<std::vector<double>> positions_by_model_transfer(const LearnedInputs
   const size_t families = p / bins;
   std::vector<double> slope(families, 1.0);
   for (size_t f = 0; f < families; ++f) {
-    double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+    SlopeSums sums;
     for (int g = 1; g <= G; ++g)
       for (int c = 0; c < 2 && two_phase[g]; ++c)
-        for (size_t b = f * bins; b < (f + 1) * bins; ++b) {
-          const double x = in.model[g][c][b], y = cls[g][c][b];
-          if (std::isnan(x) || std::isnan(y)) continue;
-          sx += x, sy += y, sxx += x * x, sxy += x * y, n += 1;
-        }
-    const double var = sxx - sx * sx / std::max(n, 1.0);
-    if (n >= 4 && var > 0) slope[f] = (sxy - sx * sy / n) / var;
+        for (size_t b = f * bins; b < (f + 1) * bins; ++b)
+          if (const double x = in.model[g][c][b], y = cls[g][c][b]; !std::isnan(x) && !std::isnan(y)) sums.add(x, y);
+    if (const double fitted = sums.slope(); !std::isnan(fitted)) slope[f] = fitted;
   }
   for (int h = 1; h <= G; ++h) {
     if (!one_phase[h]) continue;
@@ -777,7 +775,12 @@ OnePhaseNames name_one_phase_grains(const LearnedInputs& in, const GrainFeatures
       if (learns(in, k) && two_phase[in.grain[k]]) cls[k] = label[k];
     by_data = in.position_between(one_phase, two_phase, cls);
   }
-  const std::vector<std::vector<double>> by_model = positions_by_model_transfer(in, gf, label, two_phase, one_phase);
+  // The model's transfer only for the grains the data placed against no two-phase grain.
+  std::vector<uint8_t> unplaced = one_phase;
+  for (int h = 1; h <= G && !by_data.empty(); ++h)
+    for (int g = 1; g <= G; ++g)
+      if (!std::isnan(by_data[h][g])) unplaced[h] = 0;
+  const std::vector<std::vector<double>> by_model = positions_by_model_transfer(in, gf, label, two_phase, unplaced);
   OnePhaseNames names{std::vector<uint8_t>(G + 1, 0), std::vector<double>(G + 1, std::nan("")),
                       std::vector<GrainNamedBy>(G + 1, GrainNamedBy::none)};
   for (int h = 1; h <= G; ++h) {
@@ -961,13 +964,10 @@ double scaled_model_level(const LearnedInputs& in, const GrainFeatures& gf, int 
   const std::vector<double>& x = gf.mean[g];
   const std::vector<double>& m0 = in.model[g][0];
   const std::vector<double>& sig = in.ordering_signature[g];
-  double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+  SlopeSums sums;
   for (size_t b = in.superlattice_families * bins; b < p; ++b)
-    if (gf.count[g][b] > 0 && !std::isnan(m0[b]))
-      sx += m0[b], sy += x[b], sxx += m0[b] * m0[b], sxy += m0[b] * x[b], n += 1;
-  const double var = sxx - sx * sx / std::max(n, 1.0);
-  if (n < 4 || !(var > 0)) return std::nan("");
-  const double slope = (sxy - sx * sy / n) / var;
+    if (gf.count[g][b] > 0 && !std::isnan(m0[b])) sums.add(m0[b], x[b]);
+  const double slope = sums.slope();
   if (!(slope > 0)) return std::nan("");
   double num = 0, den = 0;
   for (size_t f = 0; f < in.superlattice_families; ++f) {

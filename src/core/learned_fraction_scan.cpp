@@ -41,15 +41,6 @@ double model_first_guess(const std::array<std::vector<double>, 2>& model, const 
   return den > 0 ? num / den : std::nan("");
 }
 
-/// Writes the bin means of every family (families × bins values) where a bin holds pixels; other
-/// entries are left as they are (NaN: not covered).
-template <class T>
-void profile_features(const std::vector<FamilyProfile>& prof, size_t bins, T* out) {
-  for (size_t f = 0; f < prof.size(); ++f)
-    for (size_t b = 0; b < bins; ++b)
-      if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
-}
-
 /// Whether a chosen fundamental family lies on the planes of family `f` (hkl a multiple of f's):
 /// in L1₂ every superlattice family does ({100} inside {200}), but only the strong low-index ones
 /// are chosen, and a change of their intensity with ordering would swamp a faint interior excess.
@@ -181,7 +172,7 @@ struct LinearFeatures {
         scan.model->phase(model, scan.geometry, scan.grain_orientation[g], phase == 1, img.data());
         features.profile(img.data(), scan.pre.mask(), scan.rays, scan.grain_orientation[g], prof);
         out[g][phase].assign(p, std::nan(""));
-        profile_features(prof, bins, out[g][phase].data());
+        profile_bin_means(prof, bins, out[g][phase].data());
       }
     }
     return out;
@@ -222,7 +213,7 @@ struct LinearFeatures {
               }
               const float* pattern = patterns.data() + static_cast<size_t>(col) * scan.pixels();
               at_grain.at_grain(g)->profile(pattern, prof);
-              profile_features(prof, bins, in.x.data() + k * p);
+              profile_bin_means(prof, bins, in.x.data() + k * p);
               const FamilyWindows fw = features.windows(prof[first_fundamental], scan.spec.windows);
               res.band_contrast[k] = static_cast<float>(fw.interior.mean - fw.flanks.mean);
             }

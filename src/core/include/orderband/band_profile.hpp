@@ -147,6 +147,16 @@ class BandProfiler {
   std::vector<uint16_t> candidates_;
 };
 
+/// Writes the bin means of every family (families × bins values, family by family) where a bin
+/// holds pixels; other entries are left as they are (NaN: not covered). The feature vector of the
+/// learned estimator and of the grain comparisons.
+template <class T>
+void profile_bin_means(const std::vector<FamilyProfile>& prof, size_t bins, T* out) {
+  for (size_t f = 0; f < prof.size(); ++f)
+    for (size_t b = 0; b < bins; ++b)
+      if (prof[f].weight[b] > 0) out[f * bins + b] = static_cast<T>(prof[f].mean(b));
+}
+
 /// Families of a phase as ProfileFamily, Bragg angles at a voltage.
 std::vector<ProfileFamily> profile_families(const std::vector<PlaneFamily>& families, double wavelength_A);
 

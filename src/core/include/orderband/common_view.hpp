@@ -2,6 +2,7 @@
 // same density of directions, and one grain's position between another's two classes.
 #pragma once
 
+#include <cmath>
 #include <cstdint>
 #include <vector>
 
@@ -30,6 +31,18 @@ CommonView common_view_weights(const DetectorRays& rays, const std::vector<uint8
 /// c = Σ (h − S₀)(S₁ − S₀) / Σ (S₁ − S₀)². NaN where no bin is used.
 double position_between_classes(const std::vector<double>& h, const std::vector<double>& class0,
                                 const std::vector<double>& class1, const std::vector<double>& signature, size_t bins);
+
+/// Sums for the least-squares slope of y on x (a straight line with its own intercept): the scale
+/// of the data's band contrast against the model's wherever the two are compared.
+struct SlopeSums {
+  double sx = 0, sy = 0, sxx = 0, sxy = 0, n = 0;
+  void add(double x, double y) { sx += x, sy += y, sxx += x * x, sxy += x * y, n += 1; }
+  /// The slope; NaN below 4 pairs or where x does not spread.
+  double slope() const {
+    const double var = sxx - sx * sx / (n > 0 ? n : 1.0);
+    return n >= 4 && var > 0 ? (sxy - sx * sy / n) / var : std::nan("");
+  }
+};
 
 /// The least-squares slope of `data` on `model` over the entries from `from` on where both are
 /// known (1 where fewer than 4 or no spread).
