@@ -239,7 +239,9 @@ TEST(ParticleSplit, DistanceToOutsideAgreesWithScipyAndWithEveryPair) {
     for (size_t k = 0; k < in.size(); ++k) {
       double v = -1;
       out >> v;
-      if (in[k]) ASSERT_NEAR(d[k], v, 1e-5 * v) << k;
+      if (in[k]) {
+        ASSERT_NEAR(d[k], v, 1e-5 * v) << k;
+      }
     }
   }
   // No point off the part: infinitely far.

@@ -1,5 +1,5 @@
 // The fraction stage's last parts: end members fixed from the scan (mixture or reference
-// regions) and the summaries per grain and of the matrix away from particles.
+// regions) and the summaries per grain and of the matrix away from particles and grain boundaries.
 #pragma once
 
 #include "fraction_reference.hpp"
@@ -20,8 +20,9 @@ namespace orderband {
 void calibrate_end_members(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid, const GrainMap& grains,
                            bool learned);
 
-/// Per grain: points and mean fraction; the matrix away from particles (a point whose eight
-/// neighbours are all measured and below one half): per grain its points, mean and spread, and
+/// Per grain: points and mean fraction; the matrix away from particles and grain boundaries (a
+/// point whose eight neighbours are all measured, below one half and of its grain): per grain its
+/// points, mean and spread, and
 /// over the scan the sub-resolution fraction with a standard error from 4 × 4-point blocks.
 void summarise_grains_and_matrix(FractionResults& r, const FractionSpec& spec, const ScanGrid& grid,
                                  const GrainMap& grains);

@@ -949,7 +949,7 @@ void write_report_results(std::ostream& h, const ScanConfig& config, const MapRe
     << format_number("%.4f", r.e562.high) << "</td></tr>"
     << "<tr><td>95 % CI (" << xml_escape(r.bootstrap.method) << ")</td><td>" << format_number("%.4f", r.bootstrap.low)
     << " – " << format_number("%.4f", r.bootstrap.high) << "</td></tr>" << systematic_row(r, options)
-    << "<tr><td>sub-resolution ordered fraction (matrix away from particles)</td><td>"
+    << "<tr><td>sub-resolution ordered fraction (matrix away from particles and grain boundaries)</td><td>"
     << format_number("%.4f", r.fraction.subresolution_fraction) << " ± "
     << format_number("%.4f", r.fraction.subresolution_se)
     << (subresolution_measured(r) ? "" : " (not measured: the learned estimator takes the matrix as its zero)")
@@ -989,7 +989,8 @@ std::string grain_phases_cell(const GrainFraction& s) {
 /// The report's table of the largest grains (the orientation-bias check).
 void write_report_grains(std::ostream& h, const MapResults& r) {
   {
-    // The largest grains: their matrix away from particles should agree (orientation bias check).
+    // The largest grains: their matrix away from particles and grain boundaries should agree
+    // (orientation bias check).
     std::vector<size_t> order;
     for (size_t g = 0; g < r.fraction.grains.size(); ++g)
       if (r.fraction.grains[g].matrix_points >= 10 || r.fraction.grains[g].named_by != GrainNamedBy::none)
@@ -1011,7 +1012,8 @@ void write_report_grains(std::ostream& h, const MapResults& r) {
         if (learned) h << "<td>" << grain_phases_cell(s) << "</td>";
         h << "</tr>";
       }
-      h << "</table><p>The matrix of every grain, away from particles, holds the same phases, so its mean f should "
+      h << "</table><p>The matrix of every grain, away from particles and grain boundaries, holds the same phases, "
+           "so its mean f should "
            "agree between grains whatever their orientation; a grain far from the others points to a mismatch of the "
            "model at that orientation (every grain is in <code>summary.json</code> under "
            "<code>grain_fractions</code>)."

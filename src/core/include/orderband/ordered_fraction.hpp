@@ -158,9 +158,10 @@ struct FamilyDiagnostic {
 /// One grain's estimates: a check on orientation bias (in a grain without resolved particles, or
 /// in its matrix away from them, f should match the other grains').
 struct GrainFraction {
-  size_t points = 0;         ///< measured points
-  double mean = 0;           ///< mean unclipped f over them
-  size_t matrix_points = 0;  ///< matrix points away from particles (as for the sub-resolution fraction)
+  size_t points = 0;  ///< measured points
+  double mean = 0;    ///< mean unclipped f over them
+  size_t matrix_points =
+      0;  ///< matrix points away from particles and grain boundaries (as for the sub-resolution fraction)
   double matrix_mean = 0, matrix_sd = 0;
   /// Learned estimator: how its first split took the grain, what named it if it holds one phase,
   /// and its position between the two-phase grains' matrix (0) and particles (1).
