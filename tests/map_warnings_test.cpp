@@ -46,6 +46,22 @@ TEST(MapWarnings, SayWhenTheResultsRestOnFewPoints) {
   EXPECT_TRUE(map_warnings(learned).empty());
 }
 
+TEST(MapWarnings, SayWhenTheFootprintReachesPastTheNeighboursOfAGrainBoundary) {
+  // The learned estimator takes other lattices out next to a grain boundary only; a footprint
+  // reaching 3 rows (as a 2.9 × elongation along the tilt at the suite's step did) leaves points two
+  // and three rows from a boundary with part of the other lattice, so the warning names the reach.
+  MapResults r = learned_results_with(1600, 1600, 1600);
+  r.fraction.zero_is_matrix = false;
+  EXPECT_TRUE(map_warnings(r).empty());  // a reach of one step: next to the boundary only
+  r.fraction.beam_reach = {3, 1};
+  const std::vector<std::string> w = map_warnings(r);
+  ASSERT_EQ(w.size(), 1u);
+  EXPECT_NE(w[0].find("reaches 3 rows and 1 column from each point"), std::string::npos) << w[0];
+  // A single-phase result has no particles to doubt: that warning speaks for it instead.
+  r.fraction.two_phases = false;
+  for (const std::string& s : map_warnings(r)) EXPECT_EQ(s.find("footprint"), std::string::npos) << s;
+}
+
 TEST(MapWarnings, SayWhenTheAutomaticChoiceFellToTheModelLedEstimator) {
   // "auto" on 576 points runs the model-led estimator and says so, with the count and the
   // threshold; asked for by name, the model-led estimator runs without that warning.

@@ -12,6 +12,9 @@
 namespace orderband {
 namespace {
 
+/// "1 row", "3 rows".
+std::string counted(int n, const std::string& noun) { return std::to_string(n) + " " + noun + (n == 1 ? "" : "s"); }
+
 /// The segmentation as given, with the elongation split kept to sections below the largest class.
 SegmentSpec map_segment_spec(const MapOptions& options) {
   SegmentSpec segment = options.segment;
@@ -106,6 +109,15 @@ std::vector<std::string> map_warnings(const MapResults& r) {
         "the learned estimator takes each grain's matrix as its zero: sub-resolution (tertiary) ordering is "
         "counted as matrix, not measured (reference regions in [fraction] set the zero from an area known to be "
         "free of ordering)");
+  if (r.fraction.estimator == "learned" && r.fraction.two_phases &&
+      std::max(r.fraction.beam_reach.rows, r.fraction.beam_reach.cols) > 1)
+    w.push_back("the beam's footprint reaches " + counted(r.fraction.beam_reach.rows, "row") + " and " +
+                counted(r.fraction.beam_reach.cols, "column") +
+                " from each point: a point that far from a grain boundary sees the other grain's lattice as well, "
+                "which is taken out only next to the boundary, so where a boundary crosses the footprint's long "
+                "axis whole rows of matrix can read as particles (on a synthetic scan with a footprint 2.9 × longer "
+                "along the tilt, points two and three steps from such a boundary did); check the fraction map along "
+                "grain boundaries before trusting particles there");
   if (r.fraction.estimator == "learned" && !r.fraction.two_phases) {
     char z[32];
     std::snprintf(z, sizeof z, "%.1f", r.fraction.learned_spatial_z);

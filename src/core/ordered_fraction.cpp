@@ -51,6 +51,7 @@ FractionResults ordered_fraction_scan(const ScanInputs& inputs, const Orientatio
   r.estimator_requested = std::string(name_of(requested.estimator));
   r.estimator_choice = in_use.why;
   r.zero_is_matrix = spec.estimator == FractionEstimator::learned && spec.end_members != EndMemberMode::regions;
+  r.beam_reach = scan.reach;
   refine_grain_frames(scan, r);
   std::vector<FractionReference> refs(scan.grains + 1);
 #pragma omp parallel for schedule(dynamic)

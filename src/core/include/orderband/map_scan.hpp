@@ -73,7 +73,8 @@ std::string no_usable_point_sentence(const MapResults& r);
 
 /// Plain-language warnings about results that rest on too little: most points without an ordered
 /// fraction or without an orientation (the area fraction then comes from the few that are left),
-/// the learned estimator's sub-resolution fraction (not measured), and a single phase reported by
+/// the learned estimator's sub-resolution fraction (not measured), a footprint reaching more than one
+/// step (the learned estimator takes other lattices out next to grain boundaries only), and a single phase reported by
 /// the learned estimator where the map shows structure it could not place or from fewer than
 /// kLearnedEstimatorMinPoints points (ordered_fraction.hpp). Empty when none applies.
 std::vector<std::string> map_warnings(const MapResults& r);

@@ -14,6 +14,7 @@
 #include "orderband/ordering_pair.hpp"
 #include "orderband/orient.hpp"
 #include "orderband/row_store.hpp"
+#include "orderband/scan_config.hpp"
 #include "orderband/sphere.hpp"
 
 namespace orderband {
@@ -177,6 +178,9 @@ struct FractionResults {
   /// Learned, without reference regions: each grain's matrix is the zero, so ordering finer than
   /// the beam inside the matrix (tertiary) is counted as matrix, not measured.
   bool zero_is_matrix = false;
+  /// How far the beam reached on the grid (beam_reach of the scan description's footprint): a point
+  /// within this reach of another grain sees that grain's lattice too.
+  GridReach beam_reach;
   bool two_phases = true;                  ///< learned: a second component was found (false: one phase)
   bool single_phase_ordered = false;       ///< learned, one phase: it is the ordered one
   double learned_separation = 0;           ///< learned: component distance over the majority one's spread
