@@ -320,15 +320,45 @@ TEST(LearnedFraction, ClassifiesWhereTheModelsWeightsAreWrong) {
   EXPECT_EQ(checked, 1);
 }
 
+/// Mean f of the pure matrix points (truth ≤ 0.005, no neighbour holding γ′) next to another grain
+/// and inside the grains.
+struct MatrixMeans {
+  double next_to_other_grain = 0, inside_grains = 0;
+  size_t count_next_to_other_grain = 0;
+};
+MatrixMeans pure_matrix_means(const ScenarioRun& r) {
+  const ScanGrid& grid = r.config.grid;
+  const auto& id = r.orientations.grains.id;
+  double sum[2] = {0, 0}, n[2] = {0, 0};
+  for (size_t k = 0; k < grid.count(); ++k) {
+    if (r.fraction.reason[k] || r.truth[k] > 0.005) continue;
+    bool other_grain = false, near_particle = false;
+    for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {
+      other_grain = other_grain || id[grid.index(nb)] != id[k];
+      near_particle = near_particle || r.truth[grid.index(nb)] > 0.005;
+    }
+    if (near_particle) continue;
+    sum[other_grain] += r.fraction.raw[k], n[other_grain] += 1;
+  }
+  return {sum[1] / n[1], sum[0] / n[0], static_cast<size_t>(n[1])};
+}
+
 TEST(LearnedFraction, AreaFractionWhereTheOrderedFundamentalsAreWeaker) {
   // A renderer variant (issue Wave 2 · A, "Must show"): γ′'s fundamental bands 0.8 × γ's. In the
-  // mismatch bench the model-led estimator is off by +0.09 on it, the learned one by +0.007; here it
+  // mismatch bench the model-led estimator is off by +0.09 on it, the learned one by −0.002; here it
   // must hold the issue's ±0.03 and classify ≥ 95 % away from phase boundaries.
   const ScenarioRun r = run_scenario(scenario("[renderer]\nordered_fundamental_ratio = 0.8\n" + kSecondary, 40), 0,
                                      false, {}, learned_spec());
   EXPECT_TRUE(r.fraction.two_phases);
   EXPECT_NEAR(r.fraction.mean_raw(), truth_mean(r), 0.03);
   EXPECT_GE(classification(r), 0.95);
+  // Pure matrix next to a grain boundary (the beam sees a second lattice there, taken out of the
+  // features) reads as the matrix inside the grains. Measured +0.048 (inside −0.001); +0.134 with
+  // the other lattice's share fitted without the grain's learned ordering direction beside it,
+  // which here weakens the fundamental bands as a second lattice does.
+  const MatrixMeans m = pure_matrix_means(r);
+  EXPECT_NEAR(m.next_to_other_grain, 0.0, 0.08) << m.count_next_to_other_grain << " points";
+  EXPECT_NEAR(m.inside_grains, 0.0, 0.03);
 }
 
 /// The many-beam scan of the tests below: 40 × 40 points, 3 grains, secondary γ′ and primary

@@ -5,6 +5,8 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <cstddef>
+#include <utility>
 
 #include <Eigen/Dense>
 
@@ -88,13 +90,17 @@ std::vector<double> ordering_signature(const BandProfiler& features, const Fract
 /// unknown) is the change of this grain's features per unit share of one other lattice; their
 /// components in the point's features `x` (joint least squares about the grain's mean features,
 /// bins no point of the grain covers left out) are taken out. The model gives the band positions;
-/// the shares come from the data.
+/// the shares come from the data. A `beside` direction (the grain's own ordering) is fitted with
+/// them but stays in the features, so that the shares do not take the point's own ordering.
 /// Returns each direction's share (empty if none could be fitted).
 std::vector<double> take_out_other_lattices(float* x, const std::vector<double>& grain_mean,
                                             const std::vector<double>& grain_count,
-                                            const std::vector<std::vector<double>>& directions) {
+                                            std::vector<std::vector<double>> directions,
+                                            const std::vector<double>& beside = {}) {
+  const size_t taken_out = directions.size();
+  if (taken_out == 0) return {};
+  if (!beside.empty()) directions.push_back(beside);
   const size_t m = directions.size();
-  if (m == 0) return {};
   const size_t p = grain_mean.size();
   auto usable = [&](size_t i) {
     if (std::isnan(x[i]) || !(grain_count[i] > 0)) return false;
@@ -118,8 +124,8 @@ std::vector<double> take_out_other_lattices(float* x, const std::vector<double>&
   if (!share.allFinite()) return {};
   for (size_t i = 0; i < p; ++i)
     if (usable(i))
-      for (size_t a = 0; a < m; ++a) x[i] -= static_cast<float>(share[a] * directions[a][i]);
-  return {share.data(), share.data() + m};
+      for (size_t a = 0; a < taken_out; ++a) x[i] -= static_cast<float>(share[a] * directions[a][i]);
+  return {share.data(), share.data() + taken_out};
 }
 
 /// End members as the learned estimator found them: mean, spread and share of the measured points
@@ -267,6 +273,23 @@ void assign_grains(const FractionScan& scan, FractionResults& res, LearnedInputs
       in.grain[k] = 0, res.reason[k] = static_cast<uint8_t>(FractionReason::small_grain);
 }
 
+/// The features of the grain-boundary points as collected, before any lattice is taken out.
+class BoundaryFeatures {
+ public:
+  explicit BoundaryFeatures(const LearnedInputs& in) {
+    const size_t p = in.features;
+    for (size_t k = 0; k < in.points; ++k)
+      if (in.grain[k] > 0 && in.boundary[k]) saved_.emplace_back(k, std::vector<float>(&in.x[k * p], &in.x[k * p] + p));
+  }
+  void restore(LearnedInputs& in) const {
+    for (const auto& [k, x] : saved_)
+      std::copy(x.begin(), x.end(), in.x.begin() + static_cast<std::ptrdiff_t>(k * in.features));
+  }
+
+ private:
+  std::vector<std::pair<size_t, std::vector<float>>> saved_;
+};
+
 /// Per point: the other lattices taken out of its features, (grain id, share).
 using OtherLattices = std::vector<std::vector<std::pair<int, double>>>;
 
@@ -298,10 +321,12 @@ std::vector<std::vector<float>> interior_mean_patterns(const FractionScan& scan,
 /// one.) A grain too small for a mean is seen through the model's pattern, less this grain's model
 /// profile. Only at boundary points: taking them out also at the points a long footprint reaches
 /// further in moved the learned scale by 12 % on a 2.9 × footprint (area +0.036 against −0.010),
-/// though it took out a lattice two rows away that had put one point at f = 5.
+/// though it took out a lattice two rows away that had put one point at f = 5. Where `ordering` (the
+/// learned ordered − disordered difference) is given, the shares are fitted beside it.
 OtherLattices take_out_other_lattices(const FractionScan& scan, const LinearFeatures& lin,
                                       const std::vector<std::array<std::vector<double>, 2>>& model_features,
-                                      const std::vector<std::vector<float>>& measured, LearnedInputs& in) {
+                                      const std::vector<std::vector<float>>& measured, LearnedInputs& in,
+                                      const std::vector<double>& ordering = {}) {
   OtherLattices taken(scan.n);
   const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model, measured);
   const GrainFeatures interior = grain_features(in);
@@ -322,7 +347,7 @@ OtherLattices take_out_other_lattices(const FractionScan& scan, const LinearFeat
       directions.push_back(std::move(d));
     }
     const std::vector<double> share =
-        take_out_other_lattices(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], directions);
+        take_out_other_lattices(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], directions, ordering);
     for (size_t j = 0; j < share.size(); ++j) taken[k].push_back({others[j], share[j]});
   }
   return taken;
@@ -388,7 +413,8 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
     for (size_t k = 0; k < scan.n; ++k) in.reference[k] = scan.spec.in_reference(k, scan.grid.point(k), false);
   }
   const std::vector<std::vector<float>> interior_means = interior_mean_patterns(scan, lin);
-  const OtherLattices taken = take_out_other_lattices(scan, lin, model_features, interior_means, in);
+  const BoundaryFeatures as_collected(in);
+  OtherLattices taken = take_out_other_lattices(scan, lin, model_features, interior_means, in);
   in.model = model_features;
   in.bins = lin.bins;
   in.superlattice_families = scan.families.first_fundamental;
@@ -405,7 +431,17 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
     if (in.grain[k] > 0)
       in.first_guess[k] =
           model_first_guess(model_features[in.grain[k]], in.x.data() + k * lin.p, lin.bins, in.superlattice_families);
-  const LearnedFraction lf = learn_fraction(in, scan.spec.learned);
+  LearnedFraction lf = learn_fraction(in, scan.spec.learned);
+  // Fitted alone, a boundary point's shares of other lattices take part of its own ordering where
+  // both change the features alike (a second lattice weakens the grain's fundamental bands, and so
+  // does ordering where γ′'s fundamentals are weaker). Fitted again beside the learned ordering
+  // direction, they do not; the learning then runs on the boundary points so cleaned (DEVELOPERS,
+  // change 17).
+  if (lf.two_phases && lf.difference.size() == lin.p) {
+    as_collected.restore(in);
+    taken = take_out_other_lattices(scan, lin, model_features, interior_means, in, lf.difference);
+    lf = learn_fraction(in, scan.spec.learned);
+  }
   take_learned(lf, res);
   if (lf.two_phases) count_other_lattices(taken, in, res);
   LearnedFamilies out;
