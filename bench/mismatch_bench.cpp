@@ -92,6 +92,14 @@ struct Row {
   bool two_phases = true;
 };
 
+/// d′ of two classes from their sums, sums of squares and counts: the difference of the means over
+/// the root mean of the two variances.
+double d_prime_of(const double sum[2], const double squares[2], const double count[2]) {
+  const double m0 = sum[0] / count[0], m1 = sum[1] / count[1];
+  const double v0 = squares[0] / count[0] - m0 * m0, v1 = squares[1] / count[1] - m1 * m1;
+  return (m1 - m0) / std::sqrt(0.5 * (v0 + v1));
+}
+
 InformationLimit information_limit(const SynthScenario& s, const std::vector<Rotation>& grain_orientations) {
   InformationLimit limit;
   const OrderingPair pair = load_phases(s.phases);
@@ -356,13 +364,9 @@ int main(int argc, char** argv) {
       row.area_error = sum / measured - truth_mean;
       row.subresolution_error = fr.subresolution_fraction - var.tertiary;
       row.classification = 100.0 * correct / inner;
-      const double m0 = s[0] / c[0], m1 = s[1] / c[1];
-      const double v0 = ss[0] / c[0] - m0 * m0, v1 = ss[1] / c[1] - m1 * m1;
-      row.d_prime = (m1 - m0) / std::sqrt(0.5 * (v0 + v1));
-      const double a0 = si[0] / ci[0], a1 = si[1] / ci[1];
-      const double w0 = ssi[0] / ci[0] - a0 * a0, w1 = ssi[1] / ci[1] - a1 * a1;
-      row.d_prime_one_lattice = (a1 - a0) / std::sqrt(0.5 * (w0 + w1));
-      row.matrix = m0, row.particle = m1;
+      row.d_prime = d_prime_of(s, ss, c);
+      row.d_prime_one_lattice = d_prime_of(si, ssi, ci);
+      row.matrix = s[0] / c[0], row.particle = s[1] / c[1];
     }
     std::fprintf(stderr, "variant %d (%s) done\n", v, var.name);
   }

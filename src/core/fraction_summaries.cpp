@@ -29,7 +29,7 @@ constexpr double kMinRegionPoints = 20;
 /// a second lattice, whose share is fitted out of the point's profiles along a direction that can
 /// lie close to the ordering direction (where ordering weakens the fundamental bands, so does a
 /// second lattice): γ′ fundamentals × 0.8 on the mismatch suite read its matrix's sub-resolution
-/// fraction +0.036 with boundary points, +0.00x without (DEVELOPERS, change 16).
+/// fraction +0.036 with boundary points, +0.000 without (DEVELOPERS, change 16).
 bool matrix_away_from_particles(const FractionResults& r, const ScanGrid& grid, const GrainMap& grains, size_t k) {
   if (r.reason[k] != static_cast<uint8_t>(FractionReason::ok)) return false;
   for (const GridPoint& nb : grid.neighbours(grid.point(k), 8)) {

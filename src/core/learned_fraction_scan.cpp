@@ -6,6 +6,7 @@
 #include <array>
 #include <cmath>
 #include <cstddef>
+#include <map>
 #include <utility>
 
 #include <Eigen/Dense>
@@ -311,43 +312,52 @@ std::vector<std::vector<float>> interior_mean_patterns(const FractionScan& scan,
   return mean;
 }
 
-/// Grain boundaries: the shares of the lattices the beam reaches there (FractionScan::
-/// grains_within_reach) taken out of the features together, about each grain's mean over its points
-/// away from boundaries. Each other lattice's direction is its grain's measured mean pattern
-/// (interior_mean_patterns) profiled in this grain's frame less this grain's mean features: the
+/// Per (grain g, other grain h): the change of g's features per unit share of h's lattice. Each
+/// other lattice's direction is its grain's measured mean pattern (interior_mean_patterns) profiled
+/// in g's frame less g's mean features (`interior`, over its points away from boundaries): the
 /// model gives where the other lattice's bands fall in this frame, the data how they look. (The
 /// model's disordered pattern in its place left the many-beam variant's matrix points next to
 /// boundaries at +0.175 and the area at +0.063: a dynamical band's profile is not the kinematic
-/// one.) A grain too small for a mean is seen through the model's pattern, less this grain's model
-/// profile. Only at boundary points: taking them out also at the points a long footprint reaches
-/// further in moved the learned scale by 12 % on a 2.9 × footprint (area +0.036 against −0.010),
-/// though it took out a lattice two rows away that had put one point at f = 5. Where `ordering` (the
-/// learned ordered − disordered difference) is given, the shares are fitted beside it.
-OtherLattices take_out_other_lattices(const FractionScan& scan, const LinearFeatures& lin,
-                                      const std::vector<std::array<std::vector<double>, 2>>& model_features,
-                                      const std::vector<std::vector<float>>& measured, LearnedInputs& in,
+/// one.) A grain too small for a mean is seen through the model's pattern, less g's model profile.
+using LatticeDirections = std::map<std::pair<int, int>, std::vector<double>>;
+LatticeDirections other_lattice_directions(const FractionScan& scan, const LinearFeatures& lin,
+                                           const std::vector<std::array<std::vector<double>, 2>>& model_features,
+                                           const std::vector<std::vector<float>>& measured,
+                                           const GrainFeatures& interior) {
+  LatticeDirections out;
+  for (const auto& [pair, profiles] : scan.cross_profiles(lin.features, lin.model, measured)) {
+    const auto [g, other] = pair;
+    const bool data = !measured[other].empty();
+    const std::vector<double>& own = data ? interior.mean[g] : model_features[g][0];
+    std::vector<double> d(lin.p, std::nan(""));
+    for (size_t i = 0; i < lin.p; ++i)
+      if (!data || interior.count[g][i] > 0) d[i] = profiles[i / lin.bins][i % lin.bins] - own[i];
+    out.emplace(pair, std::move(d));
+  }
+  return out;
+}
+
+/// Grain boundaries: the shares of the lattices the beam reaches there (FractionScan::
+/// grains_within_reach) taken out of the features together along their `directions`, about each
+/// grain's mean over its points away from boundaries (`interior`). Only at boundary points: taking
+/// them out also at the points a long footprint reaches further in moved the learned scale by 12 %
+/// on a 2.9 × footprint (area +0.036 against −0.010), though it took out a lattice two rows away
+/// that had put one point at f = 5. Where `ordering` (the learned ordered − disordered difference)
+/// is given, the shares are fitted beside it.
+OtherLattices take_out_other_lattices(const FractionScan& scan, const LatticeDirections& directions,
+                                      const GrainFeatures& interior, LearnedInputs& in,
                                       const std::vector<double>& ordering = {}) {
   OtherLattices taken(scan.n);
-  const CrossProfiles cross = scan.cross_profiles(lin.features, lin.model, measured);
-  const GrainFeatures interior = grain_features(in);
   for (size_t k = 0; k < scan.n; ++k) {
     const int g = in.grain[k];
     if (g <= 0 || !in.boundary[k]) continue;
-    std::vector<std::vector<double>> directions;
+    std::vector<std::vector<double>> reaching;
     std::vector<int> others;
-    for (int other : scan.grains_within_reach(k)) {
-      const auto it = cross.find({g, other});
-      if (it == cross.end()) continue;
-      others.push_back(other);
-      const bool data = !measured[other].empty();
-      const std::vector<double>& own = data ? interior.mean[g] : model_features[g][0];
-      std::vector<double> d(lin.p, std::nan(""));
-      for (size_t i = 0; i < lin.p; ++i)
-        if (!data || interior.count[g][i] > 0) d[i] = it->second[i / lin.bins][i % lin.bins] - own[i];
-      directions.push_back(std::move(d));
-    }
-    const std::vector<double> share =
-        take_out_other_lattices(in.x.data() + k * lin.p, interior.mean[g], interior.count[g], directions, ordering);
+    for (int other : scan.grains_within_reach(k))
+      if (const auto it = directions.find({g, other}); it != directions.end())
+        others.push_back(other), reaching.push_back(it->second);
+    const std::vector<double> share = take_out_other_lattices(in.x.data() + k * in.features, interior.mean[g],
+                                                              interior.count[g], std::move(reaching), ordering);
     for (size_t j = 0; j < share.size(); ++j) taken[k].push_back({others[j], share[j]});
   }
   return taken;
@@ -414,7 +424,9 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   }
   const std::vector<std::vector<float>> interior_means = interior_mean_patterns(scan, lin);
   const BoundaryFeatures as_collected(in);
-  OtherLattices taken = take_out_other_lattices(scan, lin, model_features, interior_means, in);
+  const GrainFeatures interior = grain_features(in);  // boundary points are not among its points
+  const LatticeDirections directions = other_lattice_directions(scan, lin, model_features, interior_means, interior);
+  OtherLattices taken = take_out_other_lattices(scan, directions, interior, in);
   in.model = model_features;
   in.bins = lin.bins;
   in.superlattice_families = scan.families.first_fundamental;
@@ -439,7 +451,7 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   // change 17).
   if (lf.two_phases && lf.difference.size() == lin.p) {
     as_collected.restore(in);
-    taken = take_out_other_lattices(scan, lin, model_features, interior_means, in, lf.difference);
+    taken = take_out_other_lattices(scan, directions, interior, in, lf.difference);
     lf = learn_fraction(in, scan.spec.learned);
   }
   take_learned(lf, res);

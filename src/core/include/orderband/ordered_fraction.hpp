@@ -161,8 +161,9 @@ struct FamilyDiagnostic {
 struct GrainFraction {
   size_t points = 0;  ///< measured points
   double mean = 0;    ///< mean unclipped f over them
-  size_t matrix_points =
-      0;  ///< matrix points away from particles and grain boundaries (as for the sub-resolution fraction)
+  /// Matrix points away from particles and grain boundaries (as for the sub-resolution fraction),
+  /// their mean and spread.
+  size_t matrix_points = 0;
   double matrix_mean = 0, matrix_sd = 0;
   /// Learned estimator: how its first split took the grain, what named it if it holds one phase,
   /// and its position between the two-phase grains' matrix (0) and particles (1).
