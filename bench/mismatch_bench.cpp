@@ -1,6 +1,8 @@
 // The model-mismatch suite: synthetic scans rendered with variants the fraction stage is never told
 // (synth.hpp RendererVariant), each analysed with the model-led and the learned estimator side by side.
-// usage: mismatch_bench [SIDE=40] [COUNTS=5000] [FIRST=0] [LAST=all]
+// usage: mismatch_bench [SIDE=40] [COUNTS=5000] [FIRST=0] [LAST=all] [SEED_OFFSET=0]
+// (each variant's scan has the seed 31 + its index + SEED_OFFSET: other offsets give other
+// microstructures of the same scenario, to see how much one scan's figures owe to its layout)
 // Prints one table per estimator: area fraction error, classification away from phase boundaries,
 // d′ between pure particle and pure matrix points, the variant's information limit (Fisher d′ of the
 // renderer's noise-free pure patterns at the grains' orientations), their ratio, the same d′ over the
@@ -132,13 +134,13 @@ InformationLimit information_limit(const SynthScenario& s, const std::vector<Rot
   return limit;
 }
 
-/// The suite's scan of variant v (seed 31 + v): 3 grains, one primary particle of 0.4 µm with its
+/// The suite's scan of variant v (seed 31 + v + seed_offset): 3 grains, one primary particle of 0.4 µm with its
 /// own orientation, secondary γ′ 25 %, the variant's tertiary, and a γ′-free layer of the given
 /// depth along the first rows (0: none).
-std::string scenario_text(int v, int side, double counts, double free_layer_um) {
+std::string scenario_text(int v, int side, double counts, double free_layer_um, int seed_offset) {
   const Variant& var = kSuite[v];
   std::ostringstream os;
-  os << "[scenario]\nseed = " << 31 + v << "\n[scan]\nrows = " << side << "\ncols = " << side
+  os << "[scenario]\nseed = " << 31 + v + seed_offset << "\n[scan]\nrows = " << side << "\ncols = " << side
      << "\nstep_um = 0.025\n[detector]\nwidth_px = 60\nheight_px = 60\npc_px = [30.0, 18.0]\ndistance_px = 45.0\n"
         "[phases]\npair = \"ni\"\n[patterns]\ncounts_per_px = "
      << counts << "\n"
@@ -160,10 +162,11 @@ struct SuiteScan {
   std::vector<float> truth;  ///< per point, the beam-weighted ordered fraction
 };
 
-SuiteScan render_suite_scan(int v, int side, double counts, double free_layer_um, const std::string& dir) {
+SuiteScan render_suite_scan(int v, int side, double counts, double free_layer_um, int seed_offset,
+                            const std::string& dir) {
   std::filesystem::remove_all(dir);
   std::filesystem::create_directories(dir);
-  std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, free_layer_um);
+  std::ofstream(dir + "/s.toml") << scenario_text(v, side, counts, free_layer_um, seed_offset);
   SuiteScan s;
   s.scenario = read_synth_scenario(dir + "/s.toml");
   write_synthetic_scan(s.scenario, dir + "/scan", "mismatch_bench");
@@ -179,7 +182,7 @@ SuiteScan render_suite_scan(int v, int side, double counts, double free_layer_um
 /// rows given as the region), the ordered end member still the scan's particles. Prints the area error, the
 /// sub-resolution fraction's error against the tertiary truth, the classification, and the worst
 /// grain's pure matrix (outside the layer) against the tertiary truth.
-void print_with_free_layer(int first, int last, int side, double counts, const std::string& dir) {
+void print_with_free_layer(int first, int last, int side, double counts, int seed_offset, const std::string& dir) {
   const int count = static_cast<int>(sizeof kSuite / sizeof kSuite[0]);
   constexpr int kLayerRows = 12, kRegionRows = kLayerRows - 2;
   std::printf(
@@ -190,7 +193,7 @@ void print_with_free_layer(int first, int last, int side, double counts, const s
   double sum_sq = 0, largest = 0;
   int rows = 0, within = 0;
   for (int v = first; v <= last && v < count; ++v) {
-    const SuiteScan run = render_suite_scan(v, side, counts, 0.025 * kLayerRows, dir);
+    const SuiteScan run = render_suite_scan(v, side, counts, 0.025 * kLayerRows, seed_offset, dir);
     const ScanConfig& config = run.config;
     const OrientationResults& ori = run.ori;
     const std::vector<float>& truth = run.truth;
@@ -270,11 +273,13 @@ int main(int argc, char** argv) {
   const int first = argc > 3 ? std::atoi(argv[3]) : 0;
   const int count = static_cast<int>(sizeof kSuite / sizeof kSuite[0]);
   const int last = argc > 4 ? std::atoi(argv[4]) : count - 1;
+  const int seed_offset = argc > 5 ? std::atoi(argv[5]) : 0;
+  if (seed_offset != 0) std::printf("scans of seed 31 + variant + %d (not the suite's own)\n", seed_offset);
   const std::string dir = (std::filesystem::temp_directory_path() / "orderband-mismatch-bench").string();
   std::map<int, std::array<Row, 2>> rows;
   for (int v = first; v <= last && v < count; ++v) {
     const Variant& var = kSuite[v];
-    const SuiteScan run = render_suite_scan(v, side, counts, 0.0, dir);
+    const SuiteScan run = render_suite_scan(v, side, counts, 0.0, seed_offset, dir);
     const SynthScenario& scenario = run.scenario;
     const ScanConfig& config = run.config;
     const OrientationResults& ori = run.ori;
@@ -398,7 +403,7 @@ int main(int argc, char** argv) {
     std::printf("area error over %zu variants: RMS %.3f, largest %.3f, within ±0.03 on %d\n", rows.size(),
                 std::sqrt(sum_sq / std::max<size_t>(rows.size(), 1)), worst, within);
   }
-  print_with_free_layer(first, last, side, counts, dir);
+  print_with_free_layer(first, last, side, counts, seed_offset, dir);
   std::filesystem::remove_all(dir);
   return 0;
 }

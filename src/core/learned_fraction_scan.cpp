@@ -254,16 +254,32 @@ LearnedInputs empty_inputs(const FractionScan& scan, size_t p) {
   return in;
 }
 
-/// Boundary points (a point of another grain within the beam's reach) and each measured point's grain. A grain with
-/// too few points away from its boundaries (a sliver at the field's edge) cannot be placed: its
-/// mean is too noisy and too mixed with its neighbours' lattices.
+/// Whether the footprint of point `p` reaches more than one step past the field's edge: its pattern
+/// then holds material the map does not show (another grain, the edge of a particle), which no
+/// lattice can be taken out for. One step past the edge is the edge point's own neighbour, as
+/// likely its grain as the neighbour inside; further out the map says nothing. Only a footprint
+/// longer than a step reaches so far: on a 2.9 × footprint along the tilt (reach 3 rows), the first
+/// and last two rows (DEVELOPERS, change 18).
+bool reaches_past_field_edge(const FractionScan& scan, GridPoint p) {
+  const GridReach& reach = scan.reach;
+  return p.row < reach.rows - 1 || p.row > scan.grid.rows - reach.rows || p.col < reach.cols - 1 ||
+         p.col > scan.grid.cols - reach.cols;
+}
+
+/// Boundary points, which are scored but not learned from (a point of another grain among the eight
+/// neighbours, or a footprint reaching past the field's edge: reaches_past_field_edge), and each
+/// measured point's grain. A grain with too few other points (a sliver at the field's edge) cannot
+/// be placed: its mean is too noisy and too mixed with its neighbours' lattices.
 void assign_grains(const FractionScan& scan, FractionResults& res, LearnedInputs& in) {
   const size_t n = scan.n;
   const std::vector<int32_t>& id = scan.ori.grains.id;
   in.boundary.assign(n, 0);
-  for (size_t k = 0; k < n; ++k)
-    for (const GridPoint& nb : scan.grid.neighbours(scan.grid.point(k), 8))
+  for (size_t k = 0; k < n; ++k) {
+    const GridPoint p = scan.grid.point(k);
+    in.boundary[k] = reaches_past_field_edge(scan, p);
+    for (const GridPoint& nb : scan.grid.neighbours(p, 8))
       in.boundary[k] = in.boundary[k] || id[scan.grid.index(nb)] != id[k];
+  }
   for (size_t k = 0; k < n; ++k)
     if (res.reason[k] == static_cast<uint8_t>(FractionReason::ok)) in.grain[k] = id[k];
   std::vector<int> inner_points(scan.grains + 1, 0);
@@ -337,20 +353,21 @@ LatticeDirections other_lattice_directions(const FractionScan& scan, const Linea
   return out;
 }
 
+/// Where the other lattices are taken out: at the points next to another grain, or at every point
+/// the beam's footprint reaches another grain from (the same points where it reaches one step).
+enum class TakeOutAt { next_to_boundary, within_reach };
+
 /// Grain boundaries: the shares of the lattices the beam reaches there (FractionScan::
 /// grains_within_reach) taken out of the features together along their `directions`, about each
-/// grain's mean over its points away from boundaries (`interior`). Only at boundary points: taking
-/// them out also at the points a long footprint reaches further in moved the learned scale by 12 %
-/// on a 2.9 × footprint (area +0.036 against −0.010), though it took out a lattice two rows away
-/// that had put one point at f = 5. Where `ordering` (the learned ordered − disordered difference)
-/// is given, the shares are fitted beside it.
+/// grain's mean over its points away from boundaries (`interior`). Where `ordering` (the learned
+/// ordered − disordered difference) is given, the shares are fitted beside it.
 OtherLattices take_out_other_lattices(const FractionScan& scan, const LatticeDirections& directions,
-                                      const GrainFeatures& interior, LearnedInputs& in,
+                                      const GrainFeatures& interior, LearnedInputs& in, TakeOutAt where,
                                       const std::vector<double>& ordering = {}) {
   OtherLattices taken(scan.n);
   for (size_t k = 0; k < scan.n; ++k) {
     const int g = in.grain[k];
-    if (g <= 0 || !in.boundary[k]) continue;
+    if (g <= 0 || (where == TakeOutAt::next_to_boundary && !in.boundary[k])) continue;
     std::vector<std::vector<double>> reaching;
     std::vector<int> others;
     for (int other : scan.grains_within_reach(k))
@@ -426,7 +443,7 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   const BoundaryFeatures as_collected(in);
   const GrainFeatures interior = grain_features(in);  // boundary points are not among its points
   const LatticeDirections directions = other_lattice_directions(scan, lin, model_features, interior_means, interior);
-  OtherLattices taken = take_out_other_lattices(scan, directions, interior, in);
+  OtherLattices taken = take_out_other_lattices(scan, directions, interior, in, TakeOutAt::next_to_boundary);
   in.model = model_features;
   in.bins = lin.bins;
   in.superlattice_families = scan.families.first_fundamental;
@@ -448,10 +465,14 @@ LearnedFamilies estimate_learned(const FractionScan& scan, FractionResults& res,
   // both change the features alike (a second lattice weakens the grain's fundamental bands, and so
   // does ordering where γ′'s fundamentals are weaker). Fitted again beside the learned ordering
   // direction, they do not; the learning then runs on the boundary points so cleaned (DEVELOPERS,
-  // change 17).
+  // change 17). Fitted beside it, they are also taken out wherever the footprint reaches another
+  // grain, not only next to it: on a footprint 2.9 × longer along the tilt, points two and three
+  // rows from a boundary across it see a tenth of the other lattice, which had put single points
+  // at f = 5 to 9 and, on most scans of that footprint, the scale on those strays (DEVELOPERS,
+  // change 18).
   if (lf.two_phases && lf.difference.size() == lin.p) {
     as_collected.restore(in);
-    taken = take_out_other_lattices(scan, directions, interior, in, lf.difference);
+    taken = take_out_other_lattices(scan, directions, interior, in, TakeOutAt::within_reach, lf.difference);
     lf = learn_fraction(in, scan.spec.learned);
   }
   take_learned(lf, res);

@@ -66,13 +66,15 @@ std::string systematic_row(const MapResults& r, const MapOptions& o) {
   const MismatchSystematic sys = systematic_of(r, o);
   if (!std::isfinite(sys.rms)) return "";
   return "<tr><td>systematic uncertainty (model mismatch)</td><td>± " + format_number("%.3f", sys.rms) +
-         " (RMS area error over " + std::to_string(sys.variants) + " renderer variants the estimator is not told; " +
-         "largest " + format_number("%.3f", sys.largest) + "; within ±0.03 on " + std::to_string(sys.within_003) +
+         " (RMS area error over " + std::to_string(sys.variants * sys.layouts) +
+         " synthetic scans: " + std::to_string(sys.variants) + " renderer variants the estimator is not told, " +
+         std::to_string(sys.layouts) + " layouts each; largest " + format_number("%.3f", sys.largest) +
+         "; within ±0.03 on " + std::to_string(sys.within_003) +
          "). Common to every scan analysed alike; real, dynamical patterns may differ more." +
          (r.fraction.estimator == "learned"
               ? std::string()
               : " The learned estimator (--estimator learned) holds ± " +
-                    format_number("%.3f", mismatch_systematic("learned").rms) + " over the same variants.") +
+                    format_number("%.3f", mismatch_systematic("learned").rms) + " over the same scans.") +
          "</td></tr>";
 }
 
@@ -610,11 +612,9 @@ void add_fraction_summary(nlohmann::json& j, const ScanConfig& config, const Map
   j["ci95"] = {{"low", r.e562.low}, {"high", r.e562.high}, {"method", r.e562.method}};
   j["ci95_bootstrap"] = {{"low", r.bootstrap.low}, {"high", r.bootstrap.high}, {"method", r.bootstrap.method}};
   if (const MismatchSystematic sys = systematic_of(r, options); std::isfinite(sys.rms))
-    j["systematic_uncertainty"] = {{"model_mismatch_rms", sys.rms},
-                                   {"largest_error", sys.largest},
-                                   {"variants", sys.variants},
-                                   {"variants_within_0_03", sys.within_003},
-                                   {"measured_by", sys.measured_by}};
+    j["systematic_uncertainty"] = {
+        {"model_mismatch_rms", sys.rms},      {"largest_error", sys.largest},        {"variants", sys.variants},
+        {"layouts_per_variant", sys.layouts}, {"scans_within_0_03", sys.within_003}, {"measured_by", sys.measured_by}};
   else
     j["systematic_uncertainty"] = nullptr;
   j["subresolution_ordered_fraction"] = r.fraction.subresolution_fraction;

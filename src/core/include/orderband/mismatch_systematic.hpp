@@ -7,17 +7,18 @@
 namespace orderband {
 
 /// What the mismatch suite measured for one estimator: the area error (measured − true) over
-/// renderer variants the estimator is never told (band shapes, weight exponents, family
+/// scans of renderer variants the estimator is never told (band shapes, weight exponents, family
 /// contrasts, γ′/γ fundamental ratios, detector response, misfit, beam footprint, pattern-centre
 /// error). The RMS is a systematic uncertainty beside the statistical interval: it does not shrink
 /// with more points, and it is common to every trial analysed alike (it cancels, to first order,
 /// in comparisons of trials). Real, dynamical patterns differ from the kinematic renderer more
 /// than any variant does, so it is a lower bound.
 struct MismatchSystematic {
-  double rms = 0;           ///< RMS area error over the variants
+  double rms = 0;           ///< RMS area error over the suite's scans
   double largest = 0;       ///< largest |area error|
   int variants = 0;         ///< renderer variants in the suite
-  int within_003 = 0;       ///< variants with |area error| ≤ 0.03
+  int layouts = 1;          ///< scans per variant, each another layout of its scenario (the bench's seed offsets)
+  int within_003 = 0;       ///< scans with |area error| ≤ 0.03, of variants × layouts
   std::string measured_by;  ///< how and when the figures were measured
 };
 
