@@ -1,7 +1,8 @@
 // Figures of the mismatch suite (bench/mismatch_bench, 40 × 40 points, 60 × 60 px, 5,000 counts
 // per pixel, 16 variants: 14 kinematic renderer variants and 2 many-beam), each variant on three
 // layouts of its scenario (SEED_OFFSET 0, 100 and 200: one layout per variant had hidden scans that
-// fail, DEVELOPERS change 18). Update them with the bench output whenever an estimator changes.
+// fail, DEVELOPERS change 18). Update them with bench/mismatch_layouts.sh, which pools the
+// three, whenever an estimator changes.
 #include "orderband/mismatch_systematic.hpp"
 
 #include <cmath>
