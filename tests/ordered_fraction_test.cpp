@@ -108,6 +108,15 @@ double truth_mean(const ScenarioRun& r) {
   return s / r.truth.size();
 }
 
+/// The truth's mean over the points the fraction stage measured (a sliver of a grain at the field's
+/// edge is not placed, `grain_too_small`), which is what mean_raw() averages over.
+double measured_truth_mean(const ScenarioRun& r) {
+  double truth = 0, measured = 0;
+  for (size_t k = 0; k < r.truth.size(); ++k)
+    if (!r.fraction.reason[k]) truth += r.truth[k], measured += 1;
+  return truth / measured;
+}
+
 TEST(OrderedFraction, ClassifiesPointsAndAreaFractionAt5000Counts) {
   const ScenarioRun r = run_scenario(scenario(kSecondary));
   EXPECT_EQ(r.fraction.measured(), r.config.grid.count());
@@ -547,12 +556,7 @@ TEST(LearnedFraction, ADisorderedReferenceRegionMeasuresTheTertiaryShare) {
     EXPECT_TRUE(r.fraction.two_phases) << c.name;
     EXPECT_FALSE(r.fraction.zero_is_matrix) << c.name;
     EXPECT_NEAR(r.fraction.subresolution_fraction, 0.05, 0.03) << c.name;
-    // Against the truth over the measured points (a sliver of a grain at the field's edge is not
-    // placed, `grain_too_small`).
-    double truth = 0, measured = 0;
-    for (size_t k = 0; k < r.truth.size(); ++k)
-      if (!r.fraction.reason[k]) truth += r.truth[k], measured += 1;
-    EXPECT_NEAR(r.fraction.mean_raw(), truth / measured, 0.03) << c.name;
+    EXPECT_NEAR(r.fraction.mean_raw(), measured_truth_mean(r), 0.03) << c.name;
     EXPECT_GE(classification(r), 0.95) << c.name;
   }
 }
@@ -578,10 +582,7 @@ TEST(LearnedFraction, AGrainOfOnePhaseIsNamedFromTheDataOnManyBeamPatterns) {
     spec.disordered_regions = {PointRect{0, 0, 9, 39}};
     const ScenarioRun r = run_scenario(mismatch_suite_scenario(c, 0.05, 0.3), 0, false, {}, spec);
     EXPECT_TRUE(r.fraction.two_phases) << "seed " << seed;
-    double truth = 0, measured = 0;
-    for (size_t k = 0; k < r.truth.size(); ++k)
-      if (!r.fraction.reason[k]) truth += r.truth[k], measured += 1;
-    EXPECT_NEAR(r.fraction.mean_raw(), truth / measured, 0.03) << "seed " << seed;
+    EXPECT_NEAR(r.fraction.mean_raw(), measured_truth_mean(r), 0.03) << "seed " << seed;
     EXPECT_NEAR(r.fraction.subresolution_fraction, 0.05, 0.03) << "seed " << seed;
     // The grain that is mostly ordered in truth (the primary) reads above 0.9.
     const GrainMap& grains = r.orientations.grains;
@@ -689,13 +690,10 @@ TEST(LearnedFraction, HoldsUnderALongFootprintOnScansWhereItBrokeBefore) {
     const SuiteVariant c{"beam 2.9x along tilt", seed, "", "beam_elongation = 2.9\n"};
     const ScenarioRun r = run_scenario(mismatch_suite_scenario(c), 0, false, {}, learned_spec());
     EXPECT_TRUE(r.fraction.two_phases) << "seed " << seed;
-    double truth = 0, measured = 0, particles = 0, count = 0;
-    for (size_t k = 0; k < r.truth.size(); ++k) {
-      if (r.fraction.reason[k]) continue;
-      truth += r.truth[k], measured += 1;
-      if (r.truth[k] > 0.9) particles += r.fraction.raw[k], count += 1;
-    }
-    EXPECT_NEAR(r.fraction.mean_raw(), truth / measured, 0.06) << "seed " << seed;
+    EXPECT_NEAR(r.fraction.mean_raw(), measured_truth_mean(r), 0.06) << "seed " << seed;
+    double particles = 0, count = 0;
+    for (size_t k = 0; k < r.truth.size(); ++k)
+      if (!r.fraction.reason[k] && r.truth[k] > 0.9) particles += r.fraction.raw[k], count += 1;
     ASSERT_GT(count, 100) << "seed " << seed;
     EXPECT_NEAR(particles / count, 1.0, 0.08) << "seed " << seed;
   }
